@@ -1,0 +1,91 @@
+/* design.h -- the model's row set and its design matrix X, built from a table and terms.
+
+   The design does not store X as an n x p matrix: it keeps, for each column of X, a short
+   recipe over the table's columns (a numeric vector it owns when a term needs computing, such
+   as log(hours), indicator tests for categorical levels, and products for cross terms), and
+   fills any block of rows on demand.  So memory stays at the table plus O(n) per derived
+   term, and the engines stream X block by block. */
+#ifndef BALLAST_DESIGN_H
+#define BALLAST_DESIGN_H
+#include <stddef.h>
+#include "error.h"
+#include "table.h"
+#include "terms.h"
+#ifdef __cplusplus
+extern "C" {
+#endif
+
+typedef struct bl_design bl_design;   /* opaque; defined in design.c; it keeps a pointer to
+                                         its table, which must outlive it */
+
+typedef struct bl_design_opts {
+  int intercept;                   /* nonzero (default): column 0 is "intercept" */
+  const char *const *reference;    /* "COL=LEVEL" reference levels; may be NULL */
+  size_t n_reference;
+  const char *weights;             /* prior-weight column name, or NULL */
+  const bl_terms *offset;          /* exactly one term (e.g. log(hours)), or NULL */
+} bl_design_opts;
+
+void bl_design_opts_init (bl_design_opts *opt);
+
+/* Build the row set and the recipe for X.
+
+   Rows: a row is used when the response, every column any term uses, the weight column and
+   the offset's columns are all non-missing.  Dropped rows are counted by reason, the reason
+   being the first missing column in the order response, terms (left to right), weights,
+   offset: "missing 'age'".
+
+   Errors (NULL returned, ERR filled):
+   - BL_ESPEC: RESPONSE, a term's column, the weight column or a reference column is not in
+     the table (where "--response", "--terms", "--weights", "--offset", "--reference"); a
+     reference level that the column does not have; a categorical column inside log, sqrt, exp
+     or pow, or as response, weight or offset; a reference entry not of the form COL=LEVEL.
+   - BL_EDATA: no rows left after dropping missing cells; a weight <= 0 or non-finite; a
+     domain error in a used row (log of a value <= 0, sqrt of a value < 0, exp or pow that
+     overflows or is not a real number): where = "FILE:LINE" (the row's line) and the message
+     names the term and the value ("log(hours): value -3 is not > 0").
+   - BL_ENOMEM.
+
+   Column labels: "intercept"; a numeric term's canonical label; a categorical column C gives
+   one indicator per non-reference level, labelled "C=LEVEL" in level order; cross(a,b) gives
+   every product of a's columns with b's columns, labelled "cross(A,B)" with A and B the
+   component labels (cross(site=B,age)). */
+bl_design *bl_design_new (const bl_table *t, const char *response, const bl_terms *terms,
+                          const bl_design_opts *opt, bl_err *err);
+void bl_design_free (bl_design *d);
+
+size_t bl_design_n (const bl_design *d);          /* rows used */
+size_t bl_design_p (const bl_design *d);          /* columns of X */
+const char *bl_design_label (const bl_design *d, size_t j);
+int bl_design_has_intercept (const bl_design *d);
+const char *bl_design_response (const bl_design *d);
+
+/* Vectors over the rows used (length n), valid until bl_design_free. */
+const double *bl_design_y (const bl_design *d);
+const double *bl_design_offset (const bl_design *d);   /* NULL when there is no offset */
+const double *bl_design_prior_w (const bl_design *d);  /* NULL when all weights are 1 */
+
+/* Fill rows [ROW0, ROW0 + NR) of X into OUT column-major with leading dimension LD >= NR:
+   X[row0 + i, j] goes to OUT[j * LD + i].  Allocates nothing; thread-safe on a const design. */
+void bl_design_fill (const bl_design *d, size_t row0, size_t nr, double *out, size_t ld);
+
+/* The same in long double: derived terms (log, pow, ...) of designs with at most
+   BL_DESIGN_LD_ROWS rows are kept in long double too, so the extended-precision solver gets
+   them without a double rounding; larger designs widen the doubles. */
+#define BL_DESIGN_LD_ROWS 250000
+void bl_design_fill_ld (const bl_design *d, size_t row0, size_t nr, long double *out,
+                        size_t ld);
+
+/* Row bookkeeping. */
+size_t bl_design_rows_read (const bl_design *d);       /* table rows */
+size_t bl_design_table_row (const bl_design *d, size_t i);  /* table row of used row i */
+size_t bl_design_line (const bl_design *d, size_t i);  /* source line of used row i */
+const char *bl_design_source (const bl_design *d);     /* the table's name */
+size_t bl_design_ndrop (const bl_design *d);           /* number of distinct drop reasons */
+/* Drop reason I: its text ("missing 'age'"), and *COUNT rows. */
+const char *bl_design_drop_reason (const bl_design *d, size_t i, size_t *count);
+
+#ifdef __cplusplus
+}
+#endif
+#endif

@@ -1,0 +1,444 @@
+/* fit.c -- the GLM and OLS fitter: IRLS, the null model, and every summary figure.
+
+   Formulas (prior weights a_i throughout; McCullagh & Nelder 1989, Generalized Linear Models,
+   2nd ed., chapters 2 and 8, unless stated):
+     Pearson chi2  X2 = sum a_i (y_i - mu_i)^2 / V(mu_i);  phi_pearson = X2 / (n - rank)
+     cov(beta)     = phi (X'WX)^-1, from the QR factor (lsq.h); phi = phi_pearson when the
+                     dispersion is free, 1 for poisson unless the Pearson scale is asked for
+     loglik        = sum_i log f(y_i; mu_i, phi_ml / a_i), at the MLE of phi (family.h)
+     AIC = -2 l + 2 k (Akaike 1974, IEEE Trans. Autom. Control 19, 716-723), k = rank + 1 when
+     phi is free; AICc = AIC + 2 k (k + 1) / (n - k - 1) (Hurvich & Tsai 1989, Biometrika 76,
+     297-307); BIC = -2 l + k log n (Schwarz 1978, Ann. Statist. 6, 461-464). */
+#include <float.h>
+#include <math.h>
+#include <stdio.h>
+#include <string.h>
+#include <gsl/gsl_cdf.h>
+#include "alloc.h"
+#include "fit.h"
+
+struct bl_fit {
+  const bl_design *d;
+  const bl_family *fam;
+  const bl_link *link;
+  bl_method method;
+  bl_fit_stats st;
+  bl_err status;
+  bl_warnings warn;
+  size_t n, p;
+  double *beta, *se, *wald, *pval, *lo, *hi, *cov, *mu, *eta;
+  int *aliased;
+};
+
+void
+bl_fit_opts_init (bl_fit_opts *opt)
+{
+  opt->method = BL_METHOD_GLM;
+  opt->fam = NULL;
+  opt->link = NULL;
+  opt->level = BL_FIT_LEVEL;
+  opt->dispersion_pearson = 0;
+  bl_irls_opts_init (&opt->irls);
+}
+
+const char *
+bl_method_name (bl_method m)
+{
+  return m == BL_METHOD_OLS ? "ols" : "glm";
+}
+
+void
+bl_fit_free (bl_fit *f)
+{
+  if (!f)
+    return;
+  bl_free (f->beta);
+  bl_free (f->se);
+  bl_free (f->wald);
+  bl_free (f->pval);
+  bl_free (f->lo);
+  bl_free (f->hi);
+  bl_free (f->cov);
+  bl_free (f->mu);
+  bl_free (f->eta);
+  bl_free (f->aliased);
+  bl_warnings_clear (&f->warn);
+  bl_free (f);
+}
+
+static void
+design_fill (const void *ctx, size_t row0, size_t nr, double *out, size_t ld)
+{
+  bl_design_fill (ctx, row0, nr, out, ld);
+}
+
+static void
+design_fill_ld (const void *ctx, size_t row0, size_t nr, long double *out, size_t ld)
+{
+  bl_design_fill_ld (ctx, row0, nr, out, ld);
+}
+
+static void
+ones_fill (const void *ctx, size_t row0, size_t nr, double *out, size_t ld)
+{
+  (void) ctx; (void) row0; (void) ld;
+  for (size_t i = 0; i < nr; i++)
+    out[i] = 1.0;
+}
+
+/* y inside the family's support on every row; count the offenders and name the first. */
+static int
+check_support (const bl_design *d, const bl_family *fam, bl_err *err)
+{
+  const double *y = bl_design_y (d);
+  const size_t n = bl_design_n (d);
+  size_t bad = 0, first = 0;
+  for (size_t i = 0; i < n; i++)
+    if (!fam->y_ok (y[i]) && bad++ == 0)
+      first = i;
+  if (bad) {
+    char where[1100];
+    snprintf (where, sizeof where, "%s:%zu", bl_design_source (d), bl_design_line (d, first));
+    return bl_fail (err, BL_EDATA, where,
+                    "'%s' has %zu value%s outside the support (first: %.17g); the %s family "
+                    "needs %s", bl_design_response (d), bad, bad == 1 ? "" : "s", y[first],
+                    fam->name, fam->support);
+  }
+  return BL_OK;
+}
+
+/* Null deviance: the intercept-only model with the same offset and weights, or the offset
+   alone without an intercept (then dof_null = n). */
+static void
+null_deviance (bl_fit *f, const bl_fit_opts *opt)
+{
+  const bl_design *d = f->d;
+  const size_t n = f->n;
+  const double *y = bl_design_y (d), *a = bl_design_prior_w (d), *off = bl_design_offset (d);
+  long double dev = 0.0L;
+  f->st.deviance_null_why = "";
+  if (bl_design_has_intercept (d) && !off) {
+    long double sy = 0.0L, sa = 0.0L;
+    double ybar;
+    for (size_t i = 0; i < n; i++) {
+      sy += (a ? a[i] : 1.0) * y[i];
+      sa += a ? a[i] : 1.0;
+    }
+    ybar = (double) (sy / sa);   /* the MLE of a common mean in every family and link */
+    for (size_t i = 0; i < n; i++)
+      dev += (a ? a[i] : 1.0) * f->fam->unit_dev (y[i], ybar);
+    f->st.deviance_null = (double) dev;
+  } else if (bl_design_has_intercept (d)) {
+    bl_irls_model m = { f->fam, f->link, n, 1, y, off, a, ones_fill, NULL, NULL, 1 };
+    bl_irls_opts io = opt->irls;
+    bl_err e;
+    bl_irls_work *ws;
+    io.solver = BL_SOLVER_AUTO;
+    ws = bl_irls_work_new (&m, &io, &e);
+    if (ws && bl_irls_run (ws, &e) == BL_OK) {
+      f->st.deviance_null = bl_irls_deviance (ws);
+    } else {
+      f->st.deviance_null = NAN;
+      f->st.deviance_null_why = ws ? "the intercept-only model did not converge"
+                                   : "out of memory for the intercept-only model";
+    }
+    bl_irls_work_free (ws);
+  } else {
+    for (size_t i = 0; i < n; i++) {
+      const double eta = off ? off[i] : 0.0;
+      double mu;
+      if (!f->link->valid_eta (eta) || !f->fam->valid_mu (mu = f->link->ginv (eta))) {
+        f->st.deviance_null = NAN;
+        f->st.deviance_null_why = "the offset alone gives no valid mean under this link";
+        return;
+      }
+      dev += (a ? a[i] : 1.0) * f->fam->unit_dev (y[i], mu);
+    }
+    f->st.deviance_null = (double) dev;
+  }
+}
+
+static int
+alloc_tables (bl_fit *f)
+{
+  const size_t p = f->p, n = f->n;
+  f->beta = bl_mallocn (p, sizeof (double));
+  f->se = bl_mallocn (p, sizeof (double));
+  f->wald = bl_mallocn (p, sizeof (double));
+  f->pval = bl_mallocn (p, sizeof (double));
+  f->lo = bl_mallocn (p, sizeof (double));
+  f->hi = bl_mallocn (p, sizeof (double));
+  f->cov = bl_mallocn (p * p, sizeof (double));
+  f->aliased = bl_calloc (p, sizeof (int));
+  f->mu = bl_mallocn (n, sizeof (double));
+  f->eta = bl_mallocn (n, sizeof (double));
+  return f->beta && f->se && f->wald && f->pval && f->lo && f->hi && f->cov && f->aliased
+         && f->mu && f->eta;
+}
+
+/* Fill the coefficient table and every summary figure from a converged workspace. */
+static int
+summarize (bl_fit *f, const bl_irls_work *ws, const bl_fit_opts *opt, bl_err *err)
+{
+  const bl_design *d = f->d;
+  const size_t n = f->n, p = f->p;
+  const double *y = bl_design_y (d), *a = bl_design_prior_w (d);
+  const bl_lsq_sol *sol = bl_irls_sol (ws);
+  bl_fit_stats *st = &f->st;
+  long double x2 = 0.0L, ssy = 0.0L;
+  double q = NAN, scale_tot;
+  int wst;
+
+  memcpy (f->mu, bl_irls_mu (ws), n * sizeof (double));
+  memcpy (f->eta, bl_irls_eta (ws), n * sizeof (double));
+  st->rank = sol->rank;
+  st->dof_resid = n > sol->rank ? n - sol->rank : 0;
+  st->dof_null = bl_design_has_intercept (d) ? n - 1 : n;
+  st->deviance = bl_irls_deviance (ws);
+  for (size_t i = 0; i < n; i++) {
+    const double ai = a ? a[i] : 1.0, r = y[i] - f->mu[i];
+    x2 += ai * r * r / f->fam->var (f->mu[i]);
+    ssy += ai * y[i] * y[i];
+  }
+  st->pearson = (double) x2;
+  st->phi_pearson = st->dof_resid > 0 ? st->pearson / (double) st->dof_resid : NAN;
+
+  /* A perfect fit: residuals at rounding level, relative to the data (gaussian) or in
+     absolute deviance units (the other families' deviances are scale-free). */
+  scale_tot = (f->fam == &bl_family_gaussian) ? (double) ssy : (double) n;
+  st->perfect = f->fam->phi_free && st->deviance <= 1e-24 * (scale_tot > 1.0 ? scale_tot : 1.0);
+  if (st->perfect
+      && bl_warnings_add (&f->warn, "perfect fit: the residual variance is zero, so the "
+                          "log-likelihood, AIC and BIC do not exist") != BL_OK)
+    return bl_fail (err, BL_ENOMEM, "fit", "out of memory");
+
+  if (!f->fam->phi_free) {
+    st->phi_ml = 1.0;
+    st->phi_ml_why = "";
+    st->phi_used = opt->dispersion_pearson ? st->phi_pearson : 1.0;
+    st->se_kind = opt->dispersion_pearson ? "pearson" : "model";
+  } else {
+    st->phi_used = st->phi_pearson;
+    st->se_kind = "model";
+    if (st->perfect) {
+      st->phi_ml = 0.0;
+      st->phi_ml_why = "";
+    } else {
+      bl_err e;
+      if (bl_family_phi_ml (f->fam, y, f->mu, a, n, st->deviance, &st->phi_ml, &e) != BL_OK) {
+        st->phi_ml = NAN;
+        st->phi_ml_why = "the dispersion MLE could not be computed";
+      } else {
+        st->phi_ml_why = "";
+      }
+    }
+  }
+  if (st->dof_resid == 0 && f->fam->phi_free)
+    st->phi_used = NAN;
+  st->wald_is_t = f->fam->phi_free || opt->dispersion_pearson;
+
+  st->k = sol->rank + (f->fam->phi_free ? 1u : 0u);
+  st->loglik_why = "";
+  st->aicc_why = "";
+  if (st->perfect) {
+    st->loglik = st->aic = st->aicc = st->bic = NAN;
+    st->loglik_why = "perfect fit: zero residual variance makes the likelihood unbounded";
+    st->aicc_why = st->loglik_why;
+  } else if (!isfinite (st->phi_ml)) {
+    st->loglik = st->aic = st->aicc = st->bic = NAN;
+    st->loglik_why = "the dispersion MLE could not be computed";
+    st->aicc_why = st->loglik_why;
+  } else {
+    st->loglik = bl_family_loglik (f->fam, y, f->mu, a, n, st->phi_ml);
+    st->aic = -2.0 * st->loglik + 2.0 * (double) st->k;
+    st->bic = -2.0 * st->loglik + (double) st->k * log ((double) n);
+    if (n > st->k + 1) {
+      st->aicc = st->aic + 2.0 * (double) st->k * (double) (st->k + 1) / (double) (n - st->k - 1);
+    } else {
+      st->aicc = NAN;
+      st->aicc_why = "n - k - 1 <= 0: the small-sample correction does not exist";
+    }
+    if (!isfinite (st->loglik)) {
+      st->loglik = st->aic = st->aicc = st->bic = NAN;
+      st->loglik_why = "the log-likelihood is not finite at the fitted means";
+      st->aicc_why = st->loglik_why;
+    }
+  }
+
+  /* Wald table: z = beta / se; p two-sided; interval beta -/+ q se with q the normal or t
+     quantile at (1 + level) / 2. */
+  if (st->wald_is_t) {
+    if (st->dof_resid > 0)
+      q = gsl_cdf_tdist_Qinv ((1.0 - opt->level) / 2.0, (double) st->dof_resid);
+  } else {
+    q = gsl_cdf_ugaussian_Qinv ((1.0 - opt->level) / 2.0);
+  }
+  for (size_t j = 0; j < p; j++) {
+    f->aliased[j] = sol->aliased[j];
+    for (size_t k = 0; k < p; k++)
+      f->cov[j + k * p] = (sol->aliased[j] || sol->aliased[k]) ? NAN
+                          : sol->cov[j + k * p] * st->phi_used;
+    if (sol->aliased[j]) {
+      f->beta[j] = f->se[j] = f->wald[j] = f->pval[j] = f->lo[j] = f->hi[j] = NAN;
+      wst = bl_warnings_add (&f->warn, "'%s' is aliased (a linear combination of the terms "
+                             "before it) and was left out", bl_design_label (d, j));
+      if (wst != BL_OK)
+        return bl_fail (err, BL_ENOMEM, "fit", "out of memory");
+      continue;
+    }
+    f->beta[j] = bl_irls_beta (ws)[j];
+    f->se[j] = sqrt (f->cov[j + j * p]);
+    f->wald[j] = (f->se[j] > 0.0) ? f->beta[j] / f->se[j] : NAN;
+    if (isfinite (f->wald[j]))
+      f->pval[j] = st->wald_is_t
+                   ? 2.0 * gsl_cdf_tdist_Q (fabs (f->wald[j]), (double) st->dof_resid)
+                   : 2.0 * gsl_cdf_ugaussian_Q (fabs (f->wald[j]));
+    else
+      f->pval[j] = NAN;
+    f->lo[j] = f->beta[j] - q * f->se[j];
+    f->hi[j] = f->beta[j] + q * f->se[j];
+  }
+
+  if (f->fam == &bl_family_poisson && st->dof_resid > 0
+      && st->phi_pearson > BL_FIT_OVERDISPERSION && !opt->dispersion_pearson) {
+    wst = bl_warnings_add (&f->warn, "overdispersion: Pearson chi2 / residual dof = %.3g "
+                           "exceeds %.3g; the standard errors are too small (consider "
+                           "--dispersion pearson)", st->phi_pearson, BL_FIT_OVERDISPERSION);
+    if (wst != BL_OK)
+      return bl_fail (err, BL_ENOMEM, "fit", "out of memory");
+  }
+  return BL_OK;
+}
+
+bl_fit *
+bl_fit_glm (const bl_design *d, const bl_fit_opts *opt, bl_err *err)
+{
+  bl_fit *f;
+  bl_irls_work *ws = NULL;
+  bl_irls_model m;
+  int st;
+  const bl_family *fam = opt->fam ? opt->fam : &bl_family_gaussian;
+  const bl_link *lnk = opt->link ? opt->link : fam->default_link;
+
+  if (opt->method == BL_METHOD_OLS && (fam != &bl_family_gaussian || lnk != &bl_link_identity)) {
+    bl_fail (err, BL_ESPEC, "--method", "ols is the gaussian family with the identity link; "
+             "use --method glm for family '%s' with link '%s'", fam->name, lnk->name);
+    return NULL;
+  }
+  if (!(opt->level > 0.0 && opt->level < 1.0)) {
+    bl_fail (err, BL_ESPEC, "--level", "the level must lie strictly between 0 and 1, not %g",
+             opt->level);
+    return NULL;
+  }
+  if (check_support (d, fam, err) != BL_OK)
+    return NULL;
+  f = bl_calloc (1, sizeof *f);
+  if (!f) {
+    bl_fail (err, BL_ENOMEM, "fit", "out of memory");
+    return NULL;
+  }
+  f->d = d;
+  f->fam = fam;
+  f->link = lnk;
+  f->method = opt->method;
+  f->n = bl_design_n (d);
+  f->p = bl_design_p (d);
+  f->st.n = f->n;
+  f->st.p = f->p;
+  f->st.level = opt->level;
+  f->st.deviance_null_why = f->st.loglik_why = f->st.aicc_why = f->st.phi_ml_why = "";
+  f->st.se_kind = "model";
+  if (!alloc_tables (f))
+    goto nomem;
+
+  if (fam == &bl_family_poisson) {
+    const double *y = bl_design_y (d);
+    size_t nonint = 0;
+    for (size_t i = 0; i < f->n; i++)
+      if (y[i] != floor (y[i]))
+        nonint++;
+    if (nonint && bl_warnings_add (&f->warn, "'%s' has %zu non-integer values; the poisson "
+                                   "likelihood treats them as counts", bl_design_response (d),
+                                   nonint) != BL_OK)
+      goto nomem;
+  }
+
+  m.fam = fam;
+  m.link = lnk;
+  m.n = f->n;
+  m.p = f->p;
+  m.y = bl_design_y (d);
+  m.offset = bl_design_offset (d);
+  m.prior_w = bl_design_prior_w (d);
+  m.fill = design_fill;
+  m.fill_ld = design_fill_ld;
+  m.ctx = d;
+  m.intercept = bl_design_has_intercept (d);
+  ws = bl_irls_work_new (&m, &opt->irls, err);
+  if (!ws) {
+    bl_fit_free (f);
+    return NULL;
+  }
+  f->st.solver = bl_solver_name (bl_irls_solver (ws));
+  st = bl_irls_run (ws, &f->status);
+  f->st.iterations = bl_irls_iterations (ws);
+  f->st.halvings = bl_irls_halvings (ws);
+  if (st == BL_ENOMEM) {
+    bl_irls_work_free (ws);
+    bl_fit_free (f);
+    bl_fail (err, BL_ENOMEM, "irls", "out of memory");
+    return NULL;
+  }
+  if (st == BL_EDATA) {       /* no valid start: a data problem, not a convergence failure */
+    if (err)
+      *err = f->status;
+    bl_irls_work_free (ws);
+    bl_fit_free (f);
+    return NULL;
+  }
+  if (st != BL_OK) {
+    /* not converged: keep the status; no figures to stand behind */
+    f->st.converged = 0;
+    for (size_t j = 0; j < f->p; j++)
+      f->beta[j] = f->se[j] = f->wald[j] = f->pval[j] = f->lo[j] = f->hi[j] = NAN;
+    f->st.deviance = f->st.deviance_null = f->st.pearson = NAN;
+    f->st.phi_pearson = f->st.phi_ml = f->st.phi_used = NAN;
+    f->st.loglik = f->st.aic = f->st.aicc = f->st.bic = NAN;
+    f->st.loglik_why = f->st.aicc_why = f->st.deviance_null_why = f->st.phi_ml_why =
+      "the fit did not converge";
+    bl_irls_work_free (ws);
+    return f;
+  }
+  f->st.converged = 1;
+  bl_err_clear (&f->status);
+  if (summarize (f, ws, opt, err) != BL_OK) {
+    bl_irls_work_free (ws);
+    bl_fit_free (f);
+    return NULL;
+  }
+  bl_irls_work_free (ws);
+  null_deviance (f, opt);
+  return f;
+nomem:
+  bl_fit_free (f);
+  bl_fail (err, BL_ENOMEM, "fit", "out of memory");
+  return NULL;
+}
+
+const bl_err *bl_fit_status (const bl_fit *f) { return &f->status; }
+const bl_fit_stats *bl_fit_stats_get (const bl_fit *f) { return &f->st; }
+const bl_warnings *bl_fit_warnings (const bl_fit *f) { return &f->warn; }
+const bl_design *bl_fit_design (const bl_fit *f) { return f->d; }
+const bl_family *bl_fit_family (const bl_fit *f) { return f->fam; }
+const bl_link *bl_fit_link (const bl_fit *f) { return f->link; }
+bl_method bl_fit_method (const bl_fit *f) { return f->method; }
+const double *bl_fit_beta (const bl_fit *f) { return f->beta; }
+const double *bl_fit_se (const bl_fit *f) { return f->se; }
+const double *bl_fit_wald (const bl_fit *f) { return f->wald; }
+const double *bl_fit_pvalue (const bl_fit *f) { return f->pval; }
+const double *bl_fit_lo (const bl_fit *f) { return f->lo; }
+const double *bl_fit_hi (const bl_fit *f) { return f->hi; }
+const int *bl_fit_aliased (const bl_fit *f) { return f->aliased; }
+const double *bl_fit_cov (const bl_fit *f) { return f->cov; }
+const double *bl_fit_mu (const bl_fit *f) { return f->mu; }
+const double *bl_fit_eta (const bl_fit *f) { return f->eta; }

@@ -1,0 +1,42 @@
+/* link.c -- identity, log and inverse links (McCullagh & Nelder 1989, Generalized Linear
+   Models, 2nd ed., section 2.2.2 and table 2.1). */
+#include <float.h>
+#include <math.h>
+#include <string.h>
+#include "link.h"
+
+/* identity: eta = mu */
+static double id_g (double mu) { return mu; }
+static double id_ginv (double eta) { return eta; }
+static double id_dmu (double eta) { (void) eta; return 1.0; }
+static int id_valid (double eta) { return isfinite (eta); }
+
+/* log: eta = log mu, mu = exp(eta), dmu/deta = exp(eta).  eta is kept where exp(eta) is a
+   normal, finite double (common practice, no source: avoids mu = 0 and overflow). */
+static double log_g (double mu) { return log (mu); }
+static double log_ginv (double eta) { return exp (eta); }
+static double log_dmu (double eta) { return exp (eta); }
+static int log_valid (double eta) { return isfinite (eta) && eta < 709.0 && eta > -708.0; }
+
+/* inverse: eta = 1/mu, mu = 1/eta, dmu/deta = -1/eta^2.  eta = 0 has no mean. */
+static double inv_g (double mu) { return 1.0 / mu; }
+static double inv_ginv (double eta) { return 1.0 / eta; }
+static double inv_dmu (double eta) { return -1.0 / (eta * eta); }
+static int inv_valid (double eta)
+{
+  return isfinite (eta) && fabs (eta) > 1e-150;   /* 1/eta^2 stays finite */
+}
+
+const bl_link bl_link_identity = { "identity", id_g, id_ginv, id_dmu, id_valid };
+const bl_link bl_link_log = { "log", log_g, log_ginv, log_dmu, log_valid };
+const bl_link bl_link_inverse = { "inverse", inv_g, inv_ginv, inv_dmu, inv_valid };
+
+const bl_link *
+bl_link_find (const char *name)
+{
+  static const bl_link *const all[] = { &bl_link_identity, &bl_link_log, &bl_link_inverse };
+  for (size_t i = 0; i < sizeof all / sizeof all[0]; i++)
+    if (strcmp (all[i]->name, name) == 0)
+      return all[i];
+  return NULL;
+}

@@ -1,0 +1,26 @@
+/* link.h -- link functions: identity, log, inverse.  Each is one static const descriptor. */
+#ifndef BALLAST_LINK_H
+#define BALLAST_LINK_H
+#ifdef __cplusplus
+extern "C" {
+#endif
+
+typedef struct bl_link {
+  const char *name;                    /* "identity", "log", "inverse" */
+  double (*g) (double mu);             /* eta = g(mu) */
+  double (*ginv) (double eta);         /* mu = g^-1(eta) */
+  double (*dmu_deta) (double eta);     /* d mu / d eta at eta */
+  int (*valid_eta) (double eta);       /* nonzero when g^-1(eta) is defined and finite */
+} bl_link;
+
+extern const bl_link bl_link_identity;
+extern const bl_link bl_link_log;
+extern const bl_link bl_link_inverse;
+
+/* The link named NAME, or NULL. */
+const bl_link *bl_link_find (const char *name);
+
+#ifdef __cplusplus
+}
+#endif
+#endif

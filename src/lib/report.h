@@ -1,0 +1,31 @@
+/* report.h -- writers: a const result in, formatted text or JSON out; nothing computed. */
+#ifndef BALLAST_REPORT_H
+#define BALLAST_REPORT_H
+#include <stdio.h>
+#include "error.h"
+#include "fit.h"
+#include "terms.h"
+#ifdef __cplusplus
+extern "C" {
+#endif
+
+/* What the writers need to know beyond the fit: how the model was asked for. */
+typedef struct bl_report_info {
+  const char *source;          /* data source as given ("data/pumps.csv.gz", "-") */
+  const bl_terms *terms;       /* the model's terms (for "terms") */
+  const bl_terms *offset;      /* NULL when none */
+  const char *weights;         /* prior-weight column, or NULL */
+  const char *tool_version;    /* "0.1.0" */
+} bl_report_info;
+
+/* Write FIT as one JSON document to OUT (keys documented in doc/json.md).  Returns BL_OK or
+   BL_EIO when a write failed. */
+int bl_report_fit_json (FILE *out, const bl_fit *fit, const bl_report_info *info, bl_err *err);
+
+/* Write FIT as the human-readable report.  Returns BL_OK or BL_EIO. */
+int bl_report_fit_text (FILE *out, const bl_fit *fit, const bl_report_info *info, bl_err *err);
+
+#ifdef __cplusplus
+}
+#endif
+#endif

@@ -1,0 +1,135 @@
+/* report_json.c -- the fit as one JSON document (doc/json.md lists every key). */
+#include <math.h>
+#include <string.h>
+#include "jsonw.h"
+#include "report.h"
+
+static void
+why (bl_jsonw *w, const char *key, double val, const char *reason)
+{
+  if (!isfinite (val) && reason && reason[0])
+    jw_str (w, key, reason);
+}
+
+int
+bl_report_fit_json (FILE *out, const bl_fit *fit, const bl_report_info *info, bl_err *err)
+{
+  const bl_design *d = bl_fit_design (fit);
+  const bl_fit_stats *st = bl_fit_stats_get (fit);
+  const bl_warnings *wn = bl_fit_warnings (fit);
+  const bl_err *status = bl_fit_status (fit);
+  const size_t p = bl_design_p (d);
+  size_t dropped = 0;
+  bl_jsonw w;
+
+  jw_init (&w, out);
+  jw_obj (&w, NULL);
+  jw_obj (&w, "tool");
+  jw_str (&w, "name", "ballast");
+  jw_str (&w, "version", info->tool_version);
+  jw_obj_end (&w);
+
+  jw_obj (&w, "data");
+  jw_str (&w, "source", info->source);
+  jw_size (&w, "rows_read", bl_design_rows_read (d));
+  jw_size (&w, "rows_used", bl_design_n (d));
+  for (size_t i = 0; i < bl_design_ndrop (d); i++) {
+    size_t c;
+    bl_design_drop_reason (d, i, &c);
+    dropped += c;
+  }
+  jw_size (&w, "rows_dropped", dropped);
+  jw_obj (&w, "drop_reasons");
+  for (size_t i = 0; i < bl_design_ndrop (d); i++) {
+    size_t c;
+    const char *r = bl_design_drop_reason (d, i, &c);
+    jw_size (&w, r, c);
+  }
+  jw_obj_end (&w);
+  jw_obj_end (&w);
+
+  jw_obj (&w, "model");
+  jw_str (&w, "method", bl_method_name (bl_fit_method (fit)));
+  jw_str (&w, "family", bl_fit_family (fit)->name);
+  jw_str (&w, "link", bl_fit_link (fit)->name);
+  jw_str (&w, "response", bl_design_response (d));
+  jw_arr (&w, "terms");
+  if (info->terms)
+    for (size_t i = 0; i < bl_terms_count (info->terms); i++)
+      jw_str (&w, NULL, bl_terms_get (info->terms, i)->label);
+  jw_arr_end (&w);
+  jw_bool (&w, "intercept", bl_design_has_intercept (d));
+  jw_arr (&w, "columns");
+  for (size_t j = 0; j < p; j++)
+    jw_str (&w, NULL, bl_design_label (d, j));
+  jw_arr_end (&w);
+  jw_str (&w, "offset", info->offset ? bl_terms_get (info->offset, 0)->label : NULL);
+  jw_str (&w, "weights", info->weights);
+  jw_obj_end (&w);
+
+  jw_obj (&w, "status");
+  jw_bool (&w, "converged", st->converged);
+  jw_size (&w, "iterations", st->iterations);
+  jw_size (&w, "halvings", st->halvings);
+  jw_arr (&w, "warnings");
+  for (size_t i = 0; i < wn->n; i++)
+    jw_str (&w, NULL, wn->msg[i]);
+  jw_arr_end (&w);
+  if (status->code != BL_OK)
+    jw_str (&w, "error", status->msg);
+  else
+    jw_null (&w, "error");
+  jw_str (&w, "solver", st->solver);
+  jw_obj_end (&w);
+
+  jw_num (&w, "level", st->level);
+  jw_str (&w, "se_kind", st->se_kind);
+  jw_str (&w, "wald_kind", st->wald_is_t ? "t" : "z");
+
+  jw_arr (&w, "coef");
+  for (size_t j = 0; j < p; j++) {
+    jw_obj (&w, NULL);
+    jw_str (&w, "label", bl_design_label (d, j));
+    jw_num (&w, "beta", bl_fit_beta (fit)[j]);
+    jw_num (&w, "se", bl_fit_se (fit)[j]);
+    jw_num (&w, "wald", bl_fit_wald (fit)[j]);
+    jw_num (&w, "p", bl_fit_pvalue (fit)[j]);
+    jw_num (&w, "lo", bl_fit_lo (fit)[j]);
+    jw_num (&w, "hi", bl_fit_hi (fit)[j]);
+    jw_bool (&w, "aliased", bl_fit_aliased (fit)[j]);
+    jw_obj_end (&w);
+  }
+  jw_arr_end (&w);
+
+  jw_obj (&w, "fit");
+  jw_size (&w, "n", st->n);
+  jw_size (&w, "rank", st->rank);
+  jw_size (&w, "dof_resid", st->dof_resid);
+  jw_size (&w, "dof_null", st->dof_null);
+  jw_num (&w, "deviance", st->deviance);
+  jw_num (&w, "deviance_null", st->deviance_null);
+  jw_num (&w, "pearson", st->pearson);
+  jw_num (&w, "phi_pearson", st->phi_pearson);
+  jw_num (&w, "phi_ml", st->phi_ml);
+  jw_num (&w, "loglik", st->loglik);
+  jw_num (&w, "aic", st->aic);
+  jw_num (&w, "aicc", st->aicc);
+  jw_num (&w, "bic", st->bic);
+  jw_size (&w, "k", st->k);
+  jw_obj (&w, "null_reasons");
+  why (&w, "deviance", st->deviance, st->loglik_why);
+  why (&w, "deviance_null", st->deviance_null, st->deviance_null_why);
+  why (&w, "phi_pearson", st->phi_pearson,
+       st->converged ? "no residual degrees of freedom" : st->loglik_why);
+  why (&w, "phi_ml", st->phi_ml, st->phi_ml_why);
+  why (&w, "loglik", st->loglik, st->loglik_why);
+  why (&w, "aic", st->aic, st->loglik_why);
+  why (&w, "aicc", st->aicc, st->aicc_why);
+  why (&w, "bic", st->bic, st->loglik_why);
+  jw_obj_end (&w);
+  jw_obj_end (&w);
+  jw_obj_end (&w);
+  if (jw_finish (&w) || fflush (out) != 0)
+    return bl_fail (err, BL_EIO, "output", "write failed");
+  return BL_OK;
+}

@@ -1,0 +1,39 @@
+/* source.h -- bytes from a file, standard input or memory; gzip found by its magic bytes. */
+#ifndef BALLAST_SOURCE_H
+#define BALLAST_SOURCE_H
+#include <stddef.h>
+#include "error.h"
+#ifdef __cplusplus
+extern "C" {
+#endif
+
+typedef struct bl_source bl_source;   /* opaque; defined in source.c */
+
+/* Open PATH for reading ("-" is standard input).  A stream that starts with the gzip magic
+   bytes 1f 8b is inflated with zlib (concatenated members too); anything else is passed
+   through unchanged.  Returns NULL and fills ERR (BL_EIO naming PATH, BL_ENOMEM) on failure. */
+bl_source *bl_source_open (const char *path, bl_err *err);
+
+/* A source over LEN bytes at BUF (not copied: BUF must outlive the source).  NAME is used in
+   messages.  Gzip data in BUF is inflated as for files. */
+bl_source *bl_source_open_mem (const void *buf, size_t len, const char *name, bl_err *err);
+
+/* Read up to CAP bytes into BUF.  Returns the number of bytes read (0 at the end) and sets
+   *STATUS to BL_OK, or returns 0 with *STATUS = BL_EIO / BL_EDATA (corrupt or truncated gzip
+   stream) / BL_ENOMEM and ERR filled.  A truncated gzip stream is an error, never a short
+   success.  For a regular file, the size and modification time are checked at open and again
+   at the end: a change is BL_EIO ("file changed while being read"). */
+size_t bl_source_read (bl_source *src, void *buf, size_t cap, int *status, bl_err *err);
+
+/* The name given at open ("-" shows as "<stdin>"); valid until bl_source_free. */
+const char *bl_source_name (const bl_source *src);
+/* Nonzero when the stream is gzip-compressed. */
+int bl_source_is_gzip (const bl_source *src);
+
+/* Close and free.  Accepts NULL. */
+void bl_source_free (bl_source *src);
+
+#ifdef __cplusplus
+}
+#endif
+#endif

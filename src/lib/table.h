@@ -1,0 +1,76 @@
+/* table.h -- columnar table read from CSV or TSV (RFC 4180), with typed columns. */
+#ifndef BALLAST_TABLE_H
+#define BALLAST_TABLE_H
+#include <stddef.h>
+#include <stdint.h>
+#include "error.h"
+#ifdef __cplusplus
+extern "C" {
+#endif
+
+typedef struct bl_table bl_table;     /* opaque; defined in table.c */
+
+/* Default limit on distinct levels of one categorical column (BL_TABLE_MAX_LEVELS). */
+#define BL_TABLE_MAX_LEVELS 100000
+
+typedef struct bl_table_opts {
+  char delimiter;             /* 0: ',' or, for a name ending ".tsv" (or ".tsv.gz"), '\t' */
+  int decimal_comma;          /* nonzero: numbers are written "3,14" (delimiter must not be ',') */
+  const char *const *categorical;  /* column names forced categorical; may be NULL */
+  size_t n_categorical;
+  size_t max_levels;          /* more distinct levels in one column is BL_EDATA */
+} bl_table_opts;
+
+/* Fill OPT with the defaults (delimiter 0, decimal_comma 0, no categorical, max_levels
+   BL_TABLE_MAX_LEVELS). */
+void bl_table_opts_init (bl_table_opts *opt);
+
+/* Read a whole table from PATH ("-" for standard input; gzip detected by magic bytes).
+   OPT may be NULL for the defaults.  The first record is the header: column names must be
+   non-empty, valid UTF-8 and unique, else BL_EDATA.  Missing cells are empty, "NA", "NaN"
+   or "." (after removing surrounding quotes).
+
+   Column types: a column is numeric when its first non-missing cell is a number (strtod-exact
+   decimal, optional sign and exponent; with decimal_comma, ',' is the decimal mark); a later
+   cell that is not a number is BL_EDATA with ERR->where = "FILE:LINE:COL" (1-based physical
+   line of the cell and 1-based field number) and a hint to declare the column categorical.
+   A column whose first non-missing cell is not a number, or that OPT forces, is categorical.
+   A column with no non-missing cell is numeric and all missing.  "inf", "nan"-like words
+   other than the missing markers, hex floats, and values that overflow are BL_EDATA naming
+   the cell (an underflow to a subnormal or zero is accepted, as strtod gives).  A record with
+   more or fewer fields than the header is BL_EDATA naming its line.  A quote never closed is
+   BL_EDATA naming the line where the field began.  A file with no header is BL_EDATA.
+
+   Returns NULL and fills ERR on failure (nothing is kept). */
+bl_table *bl_table_read (const char *path, const bl_table_opts *opt, bl_err *err);
+
+/* The same from LEN bytes at BUF; NAME is used in messages (as the file name). */
+bl_table *bl_table_read_mem (const void *buf, size_t len, const char *name,
+                             const bl_table_opts *opt, bl_err *err);
+
+/* Free the table and everything it owns.  Accepts NULL. */
+void bl_table_free (bl_table *t);
+
+/* Accessors.  Pointers returned stay valid until bl_table_free; the caller must not modify
+   or free them. */
+const char *bl_table_source (const bl_table *t);   /* the name used in messages */
+size_t bl_table_nrows (const bl_table *t);         /* data records (header excluded) */
+size_t bl_table_ncols (const bl_table *t);
+const char *bl_table_colname (const bl_table *t, size_t j);
+/* Index of the column named NAME (exact byte match), or -1. */
+long bl_table_find (const bl_table *t, const char *name);
+int bl_table_is_numeric (const bl_table *t, size_t j);
+/* Numeric column J (length nrows): NAN marks a missing cell.  NULL for a categorical column. */
+const double *bl_table_num (const bl_table *t, size_t j);
+/* Categorical column J: level codes 0..nlevels-1 (levels sorted in byte order, as strcmp),
+   -1 for a missing cell.  NULL for a numeric column. */
+const int32_t *bl_table_codes (const bl_table *t, size_t j);
+size_t bl_table_nlevels (const bl_table *t, size_t j);
+const char *bl_table_level (const bl_table *t, size_t j, size_t k);
+/* The 1-based physical line on which data record ROW (0-based) starts, for messages. */
+size_t bl_table_line (const bl_table *t, size_t row);
+
+#ifdef __cplusplus
+}
+#endif
+#endif
