@@ -291,36 +291,30 @@ static const double pow10_exact[23] = {
 static int
 parse_number (char *s, size_t n, char mark, double *out)
 {
-  const char *p = s;
+  const char *p = s, *q;
   const char *const end = s + n;
-  uint64_t w = 0;
-  size_t nsig = 0, ndig = 0;
+  uint64_t w = 0;               /* wraps for more than 19 digits: then unused */
+  size_t nint, nfrac = 0, nzero = 0;
   int neg = 0, eneg = 0;
   long e10 = 0, ex = 0;
   if (p < end && (*p == '+' || *p == '-'))
     neg = *p++ == '-';
-  for (; p < end && (unsigned) (*p - '0') < 10; p++, ndig++) {
-    if (w || *p != '0') {
-      if (nsig < 19)
-        w = 10 * w + (uint64_t) (*p - '0');
-      else
-        e10++;
-      nsig++;
-    }
-  }
+  for (; p < end && *p == '0'; p++)
+    nzero++;                    /* leading zeros carry no significance */
+  for (q = p; p < end && (unsigned) (*p - '0') < 10; p++)
+    w = 10 * w + (uint64_t) (*p - '0');
+  nint = (size_t) (p - q);
   if (p < end && *p == mark) {
-    for (p++; p < end && (unsigned) (*p - '0') < 10; p++, ndig++) {
-      if (w || *p != '0') {
-        if (nsig < 19) {
-          w = 10 * w + (uint64_t) (*p - '0');
-          e10--;
-        }
-        nsig++;
-      } else
-        e10--;
-    }
+    p++;
+    if (nint == 0)
+      for (; p < end && *p == '0'; p++, e10--)
+        nzero++;
+    for (q = p; p < end && (unsigned) (*p - '0') < 10; p++)
+      w = 10 * w + (uint64_t) (*p - '0');
+    nfrac = (size_t) (p - q);
+    e10 -= (long) nfrac;
   }
-  if (ndig == 0)
+  if (nzero + nint + nfrac == 0)
     return NUM_NOT;
   if (p < end && (*p == 'e' || *p == 'E')) {
     p++;
@@ -336,11 +330,11 @@ parse_number (char *s, size_t n, char mark, double *out)
   if (p != end)
     return NUM_NOT;
 #if defined(FLT_EVAL_METHOD) && FLT_EVAL_METHOD == 0
-  if (w == 0) {
+  if (nint + nfrac == 0) {      /* every digit is a zero */
     *out = neg ? -0.0 : 0.0;
     return NUM_OK;
   }
-  if (nsig <= 15 && e10 >= -22 && e10 <= 22) {
+  if (nint + nfrac <= 15 && e10 >= -22 && e10 <= 22) {
     double v = (double) w;
     v = e10 < 0 ? v / pow10_exact[-e10] : v * pow10_exact[e10];
     *out = neg ? -v : v;
@@ -351,9 +345,9 @@ parse_number (char *s, size_t n, char mark, double *out)
     char *stop;
     double v;
     if (mark != '.')
-      for (char *q = s; q < end; q++)
-        if (*q == mark)
-          *q = '.';
+      for (char *r = s; r < end; r++)
+        if (*r == mark)
+          *r = '.';
     s[n] = '\0';
     errno = 0;
     v = strtod (s, &stop);
