@@ -34,7 +34,7 @@ struct bl_irls_work {
   double *beta, *beta_prev, *beta_next;   /* length p */
   double *scale;             /* power-of-two column scales: X_j * scale_j has max |.| < 1 */
   double *eta, *mu;          /* length n */
-  double *buf[2];            /* per-thread block buffer, BLOCK x q */
+  double *buf[2];            /* per-thread block buffer, BLOCK x (q + 1): X, z, sqrt(w) */
   long double *lbuf[2];      /* per-thread long double block, BLOCK x p (extended kernel) */
   double *R;                 /* q x q combined factor */
   long double *A;            /* n x q, extended kernel only */
@@ -124,8 +124,8 @@ bl_irls_work_new (const bl_irls_model *model, const bl_irls_opts *opt, bl_err *e
   ws->scale = bl_calloc (p, sizeof (double));
   ws->eta = bl_mallocn (n, sizeof (double));
   ws->mu = bl_mallocn (n, sizeof (double));
-  ws->buf[0] = bl_mallocn ((size_t) BL_IRLS_BLOCK * q, sizeof (double));
-  ws->buf[1] = bl_mallocn ((size_t) BL_IRLS_BLOCK * q, sizeof (double));
+  ws->buf[0] = bl_mallocn ((size_t) BL_IRLS_BLOCK * (q + 1), sizeof (double));
+  ws->buf[1] = bl_mallocn ((size_t) BL_IRLS_BLOCK * (q + 1), sizeof (double));
   ws->R = bl_mallocn (q * q, sizeof (double));
   ws->parts = bl_calloc (ws->nparts, sizeof *ws->parts);
   ws->lw = bl_lsq_work_new (p);
@@ -158,8 +158,14 @@ nomem:
   return NULL;
 }
 
+#if defined(__GNUC__) && !defined(__clang__)
+#define HOT __attribute__ ((optimize ("O3")))
+#else
+#define HOT
+#endif
+
 /* Work on one partition: eta (unless given), mu, deviance, and the weighted rows. */
-static void
+HOT static void
 pass_part (bl_irls_work *ws, part *pt, const double *beta, int accumulate, double *buf,
            long double *lbuf)
 {
@@ -174,6 +180,7 @@ pass_part (bl_irls_work *ws, part *pt, const double *beta, int accumulate, doubl
   for (size_t r0 = pt->row0; r0 < pt->row1; r0 += BL_IRLS_BLOCK) {
     const size_t nb = (pt->row1 - r0 < BL_IRLS_BLOCK) ? pt->row1 - r0 : BL_IRLS_BLOCK;
     double *const eta = ws->eta + r0, *const mu = ws->mu + r0, *const zc = buf + p * ld;
+    double *const sw = buf + q * ld;     /* sqrt(w_i) of the block */
     long double dsum = 0.0L;
     if (ws->opt.cancel && *ws->opt.cancel) {
       pt->bad = 3;
@@ -223,7 +230,8 @@ pass_part (bl_irls_work *ws, part *pt, const double *beta, int accumulate, doubl
       }
       dsum += a * fam->unit_dev (y, mu[i]);
       if (accumulate) {
-        const double dmu = lnk->dmu_deta (eta[i]);
+        /* log link: dmu/deta = mu, which saves an exp per row */
+        const double dmu = (lnk == &bl_link_log) ? mu[i] : lnk->dmu_deta (eta[i]);
         const double w = a * dmu * dmu / fam->var (mu[i]);
         const double s = sqrt (w);
         const double off = m->offset ? m->offset[r0 + i] : 0.0;
@@ -235,14 +243,20 @@ pass_part (bl_irls_work *ws, part *pt, const double *beta, int accumulate, doubl
             Ai[j * ws->n] = sl * lbuf[i + j * ld] * ws->scale[j];
         } else {
           zc[i] = s * (eta[i] - off + (y - mu[i]) / dmu);
-          for (size_t j = 0; j < p; j++)
-            buf[i + j * ld] *= s * ws->scale[j];
+          sw[i] = s;
         }
       }
     }
     pt->dev += dsum;
     if (!accumulate)
       continue;
+    if (!lbuf)
+      for (size_t j = 0; j < p; j++) {   /* row weights times the exact column scales */
+        double *const xj = buf + j * ld;
+        const double sc = ws->scale[j];
+        for (size_t i = 0; i < nb; i++)
+          xj[i] *= sw[i] * sc;
+      }
     if (!lbuf)
       bl_lsq_fold (pt->R, q, buf, nb, ld);
   }

@@ -1,0 +1,450 @@
+/* check_family.c -- the family and link descriptors (family.h, link.h).
+
+   Every value is checked by a route that does not share code with family.c or link.c:
+   - unit deviances against hand-evaluated closed forms, against the quasi-likelihood
+     integral d(y, mu) = 2 int_mu^y (y - t) / V(t) dt evaluated by GSL quadrature, and against
+     twice the log-likelihood ratio of GSL's own densities, d = 2 phi [l(y; y) - l(y; mu)]
+     (McCullagh & Nelder 1989, Generalized Linear Models, 2nd ed., section 2.3);
+   - V(mu) against table 2.1 of the same book, and against the curvature of the unit deviance
+     at mu = y, d''(mu = y) = 2 / V(y) (from memory; follows from the integral form);
+   - log densities against gsl_ran_*_pdf and the inverse gaussian density of Chhikara & Folks
+     (1989), The Inverse Gaussian Distribution, Marcel Dekker;
+   - links by g(g^-1(eta)) = eta and a central finite difference of g^-1;
+   - the gamma dispersion MLE by plugging it back into its score equation with gsl_sf_psi
+     (McCullagh & Nelder 1989, section 8.3). */
+#include <check.h>
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <gsl/gsl_errno.h>
+#include <gsl/gsl_integration.h>
+#include <gsl/gsl_randist.h>
+#include <gsl/gsl_sf_gamma.h>
+#include <gsl/gsl_sf_psi.h>
+#include "family.h"
+#include "link.h"
+#include "testutil.h"
+
+static const bl_family *const families[4] = {
+  &bl_family_gaussian, &bl_family_poisson, &bl_family_gamma, &bl_family_invgauss
+};
+static const bl_link *const links[3] = { &bl_link_identity, &bl_link_log, &bl_link_inverse };
+
+/* (y, mu) points with no simple relations between them; all positive so every family
+   accepts them. */
+enum { NPT = 5 };
+static const double pt_y[NPT] = { 2.385, 0.43, 7.0, 1.05, 13.6 };
+static const double pt_mu[NPT] = { 1.7, 3.1, 6.2, 0.21, 14.35 };
+
+/* ---------------------------------------------------------------- reference */
+
+/* Closed forms evaluated by hand (McCullagh & Nelder 1989, table 2.1 and section 2.3):
+   gaussian d(3.5, 1.25) = 2.25^2 = 5.0625; poisson d(0, 2.385) = 2 mu = 4.77,
+   d(2, 1) = 2 (2 log 2 - 1); gamma d(2, 1) = 2 (1 - log 2); inverse gaussian
+   d(2, 1) = 1 / 2, d(0.5, 2) = 2.25 / 2 = 1.125. */
+START_TEST (family_unit_dev_closed_forms)
+{
+  struct { const bl_family *f; double y, mu, d; const char *what; } c[] = {
+    { &bl_family_gaussian, 3.5, 1.25, 5.0625, "gaussian d(3.5,1.25)" },
+    { &bl_family_gaussian, -0.75, -0.75, 0.0, "gaussian d(y,y)" },
+    { &bl_family_poisson, 0.0, 2.385, 4.77, "poisson d(0,2.385)" },
+    { &bl_family_poisson, 2.0, 1.0, 2.0 * (2.0 * M_LN2 - 1.0), "poisson d(2,1)" },
+    { &bl_family_gamma, 2.0, 1.0, 2.0 * (1.0 - M_LN2), "gamma d(2,1)" },
+    { &bl_family_gamma, 4.2, 4.2, 0.0, "gamma d(y,y)" },
+    { &bl_family_invgauss, 2.0, 1.0, 0.5, "inverse-gaussian d(2,1)" },
+    { &bl_family_invgauss, 0.5, 2.0, 1.125, "inverse-gaussian d(0.5,2)" },
+  };
+  for (size_t k = 0; k < sizeof c / sizeof c[0]; k++) {
+    const double d = c[k].f->unit_dev (c[k].y, c[k].mu);
+    ck_assert_msg (fabs (d - c[k].d) <= 1e-15 * (1.0 + fabs (c[k].d)), "%s: got %.17g, want "
+                   "%.17g", c[k].what, d, c[k].d);
+  }
+}
+END_TEST
+
+typedef struct qparam { const bl_family *f; double y; } qparam;
+
+static double
+quasi_integrand (double t, void *vp)
+{
+  const qparam *q = vp;
+  return (q->y - t) / q->f->var (t);
+}
+
+/* d(y, mu) = 2 int_mu^y (y - t) / V(t) dt (McCullagh & Nelder 1989, section 2.3 and
+   section 9.2.2, the quasi-likelihood form of the deviance), integrated by GSL's adaptive
+   Gauss-Kronrod rule. */
+START_TEST (family_unit_dev_integral)
+{
+  gsl_integration_workspace *w = gsl_integration_workspace_alloc (200);
+  for (size_t k = 0; k < 4; k++) {
+    for (size_t i = 0; i < NPT; i++) {
+      qparam q = { families[k], pt_y[i] };
+      gsl_function fn = { quasi_integrand, &q };
+      double v, abserr, d;
+      int st = gsl_integration_qag (&fn, pt_mu[i], pt_y[i], 0.0, 1e-13, 200, GSL_INTEG_GAUSS61,
+                                    w, &v, &abserr);
+      ck_assert_msg (st == GSL_SUCCESS, "%s point %zu: quadrature status %d", families[k]->name,
+                     i, st);
+      d = families[k]->unit_dev (pt_y[i], pt_mu[i]);
+      ck_assert_msg (fabs (d - 2.0 * v) <= 1e-11 * (fabs (d) + 1e-3), "%s d(%g,%g): %.17g vs "
+                     "integral %.17g", families[k]->name, pt_y[i], pt_mu[i], d, 2.0 * v);
+      ck_assert_msg (d > 0.0, "%s d(%g,%g) = %g not > 0", families[k]->name, pt_y[i], pt_mu[i],
+                     d);
+    }
+  }
+  /* poisson at y = 0: the integrand is -1, so d = 2 mu */
+  for (size_t i = 0; i < NPT; i++) {
+    const double d = bl_family_poisson.unit_dev (0.0, pt_mu[i]);
+    ck_assert_msg (fabs (d - 2.0 * pt_mu[i]) <= 1e-15 * d, "poisson d(0,%g) = %.17g",
+                   pt_mu[i], d);
+  }
+  gsl_integration_workspace_free (w);
+}
+END_TEST
+
+/* Log density of family K by GSL (or Chhikara & Folks 1989, eq. 2.1, for the inverse
+   gaussian), at mean MU, prior weight A, dispersion PHI.  Row dispersion phi / a. */
+static double
+gsl_logpdf (size_t k, double y, double mu, double a, double phi)
+{
+  switch (k) {
+  case 0:
+    return log (gsl_ran_gaussian_pdf (y - mu, sqrt (phi / a)));
+  case 1:   /* prior weights multiply the log-likelihood (family.h) */
+    return a * log (gsl_ran_poisson_pdf ((unsigned) y, mu));
+  case 2: {
+    const double nu = a / phi;   /* shape; scale mu / nu gives mean mu */
+    return log (gsl_ran_gamma_pdf (y, nu, mu / nu));
+  }
+  default: {
+    const double lam = a / phi;
+    return 0.5 * log (lam / (2.0 * M_PI * y * y * y))
+           - lam * (y - mu) * (y - mu) / (2.0 * mu * mu * y);
+  }
+  }
+}
+
+/* logpdf against GSL's densities, with unequal prior weights (integer y for poisson). */
+START_TEST (family_logpdf_gsl)
+{
+  const double a[NPT] = { 1.0, 0.63, 1.87, 2.5, 0.915 };
+  const double phi[4] = { 1.913, 1.0, 0.437, 0.0721 };
+  const double ycount[NPT] = { 0, 3, 7, 1, 12 };
+  for (size_t k = 0; k < 4; k++)
+    for (size_t i = 0; i < NPT; i++) {
+      const double y = k == 1 ? ycount[i] : pt_y[i];
+      const double l = families[k]->logpdf (y, pt_mu[i], a[i], phi[k]);
+      const double r = gsl_logpdf (k, y, pt_mu[i], a[i], phi[k]);
+      ck_assert_msg (fabs (l - r) <= 1e-12 * (1.0 + fabs (r)), "%s logpdf(%g,%g,a=%g): %.17g "
+                     "vs gsl %.17g", families[k]->name, y, pt_mu[i], a[i], l, r);
+    }
+}
+END_TEST
+
+/* d = 2 phi [l(y; y) - l(y; mu)] with GSL's densities (McCullagh & Nelder 1989, sec. 2.3). */
+START_TEST (family_unit_dev_likelihood_ratio)
+{
+  const double phi[4] = { 2.63, 1.0, 0.318, 0.0457 };
+  const double ycount[NPT] = { 2, 0, 7, 1, 14 };
+  for (size_t k = 0; k < 4; k++)
+    for (size_t i = 0; i < NPT; i++) {
+      const double y = k == 1 ? ycount[i] : pt_y[i];
+      const double l1 = gsl_logpdf (k, y, y == 0.0 ? 1e-300 : y, 1.0, phi[k]);
+      const double l0 = gsl_logpdf (k, y, pt_mu[i], 1.0, phi[k]);
+      const double want = 2.0 * phi[k] * (l1 - l0);
+      const double d = families[k]->unit_dev (y, pt_mu[i]);
+      ck_assert_msg (fabs (d - want) <= 1e-11 * (1.0 + fabs (l1) + fabs (l0)), "%s d(%g,%g): "
+                     "%.17g vs likelihood ratio %.17g", families[k]->name, y, pt_mu[i], d, want);
+    }
+}
+END_TEST
+
+/* ---------------------------------------------------------------- identities */
+
+/* V(mu) from McCullagh & Nelder 1989, table 2.1: 1, mu, mu^2, mu^3; and the curvature of the
+   deviance at its minimum, d''(mu)|_{mu=y} = 2 / V(y) (from memory; differentiate the
+   integral form twice), by a central second difference. */
+START_TEST (family_variance)
+{
+  for (size_t i = 0; i < NPT; i++) {
+    const double m = pt_mu[i];
+    const double want[4] = { 1.0, m, m * m, m * m * m };
+    for (size_t k = 0; k < 4; k++) {
+      const double v = families[k]->var (m);
+      const double y = pt_y[i], h = 1e-4 * y;
+      const bl_family *f = families[k];
+      const double d2 = (f->unit_dev (y, y + h) - 2.0 * f->unit_dev (y, y)
+                         + f->unit_dev (y, y - h)) / (h * h);
+      ck_assert_msg (fabs (v - want[k]) <= 1e-15 * want[k], "%s V(%g) = %.17g", f->name, m, v);
+      ck_assert_msg (fabs (d2 - 2.0 / f->var (y)) <= 1e-5 * 2.0 / f->var (y), "%s d''(y=%g) "
+                     "= %.10g, 2/V = %.10g", f->name, y, d2, 2.0 / f->var (y));
+    }
+  }
+}
+END_TEST
+
+/* g(g^-1(eta)) = eta and g^-1(g(mu)) = mu; dmu/deta against a central difference of g^-1
+   with step h = 1e-5 |eta| (relative error O(h^2 / eta^2); common practice, no source). */
+START_TEST (link_inverse_and_derivative)
+{
+  const double eta[3][4] = {
+    { -3.7, 0.25, 12.5, -0.0131 },
+    { -5.3, 0.41, 3.9, -0.072 },
+    { 0.083, 1.7, -2.2, 0.61 }
+  };
+  for (size_t l = 0; l < 3; l++)
+    for (size_t i = 0; i < 4; i++) {
+      const bl_link *k = links[l];
+      const double e = eta[l][i], h = 1e-5 * fabs (e);
+      const double mu = k->ginv (e), back = k->g (mu);
+      const double fd = (k->ginv (e + h) - k->ginv (e - h)) / (2.0 * h);
+      const double dm = k->dmu_deta (e);
+      ck_assert_msg (k->valid_eta (e), "%s: eta %g not valid", k->name, e);
+      ck_assert_msg (fabs (back - e) <= 2e-15 * fabs (e) + 2e-16, "%s g(ginv(%g)) = "
+                     "%.17g", k->name, e, back);
+      ck_assert_msg (fabs (k->ginv (k->g (mu)) - mu) <= 2e-15 * fabs (mu), "%s ginv(g(%g))",
+                     k->name, mu);
+      ck_assert_msg (fabs (dm - fd) <= 1e-8 * fabs (dm), "%s dmu/deta(%g) = %.15g, central "
+                     "difference %.15g", k->name, e, dm, fd);
+    }
+}
+END_TEST
+
+/* Gamma dispersion MLE: nu = 1/phi solves sum a [log(nu a) - psi(nu a)] = D/2 (McCullagh &
+   Nelder 1989, section 8.3), checked by evaluating the left side with gsl_sf_psi; for a
+   deviance giving a large shape, a small one, unit weights (a = NULL) and unequal weights. */
+static void
+check_gamma_phi (const double *a, size_t n, double dev, const char *what)
+{
+  double phi = NAN, nu, s = 0.0;
+  bl_err err = { 0 };
+  int st = bl_family_phi_ml (&bl_family_gamma, NULL, NULL, a, n, dev, &phi, &err);
+  ck_assert_msg (st == BL_OK, "%s: status %d (%s)", what, st, err.msg);
+  ck_assert_msg (phi > 0.0 && isfinite (phi), "%s: phi = %g", what, phi);
+  nu = 1.0 / phi;
+  for (size_t i = 0; i < n; i++) {
+    const double ai = a ? a[i] : 1.0;
+    s += ai * (log (nu * ai) - gsl_sf_psi (nu * ai));
+  }
+  ck_assert_msg (fabs (s - dev / 2.0) <= 1e-10 * dev / 2.0, "%s: score sum %.17g, D/2 = "
+                 "%.17g (phi %.17g)", what, s, dev / 2.0, phi);
+}
+
+START_TEST (family_gamma_phi_ml)
+{
+  const double a[7] = { 1.25, 0.62, 2.31, 0.97, 1.83, 0.5, 1.4 };
+  check_gamma_phi (a, 7, 3.817, "weighted, moderate D");
+  check_gamma_phi (a, 7, 0.00231, "weighted, shape large");
+  check_gamma_phi (a, 7, 41.9, "weighted, shape small");
+  check_gamma_phi (NULL, 7, 3.817, "unit weights");
+  check_gamma_phi (NULL, 1, 0.4813, "one row");
+}
+END_TEST
+
+/* gaussian and inverse gaussian: phi = D / n, n the number of rows (family.h); poisson: 1. */
+START_TEST (family_phi_ml_closed_forms)
+{
+  const double a[3] = { 1.5, 0.25, 2.0 };
+  double phi;
+  bl_err err = { 0 };
+  ck_assert_int_eq (bl_family_phi_ml (&bl_family_gaussian, NULL, NULL, a, 3, 7.35, &phi, &err),
+                    BL_OK);
+  ck_assert_msg (phi == 7.35 / 3.0, "gaussian phi = %.17g", phi);
+  ck_assert_int_eq (bl_family_phi_ml (&bl_family_invgauss, NULL, NULL, NULL, 3, 0.291, &phi,
+                                      &err), BL_OK);
+  ck_assert_msg (phi == 0.291 / 3.0, "inverse-gaussian phi = %.17g", phi);
+  phi = 0.0;
+  ck_assert_int_eq (bl_family_phi_ml (&bl_family_poisson, NULL, NULL, a, 3, 5.2, &phi, &err),
+                    BL_OK);
+  ck_assert_msg (phi == 1.0, "poisson phi = %.17g", phi);
+}
+END_TEST
+
+/* bl_family_loglik = sum of logpdf over rows, a = NULL meaning unit weights. */
+START_TEST (family_loglik_sum)
+{
+  const double y[NPT] = { 2.385, 0.43, 7.0, 1.05, 13.6 };
+  const double a[NPT] = { 1.0, 0.63, 1.87, 2.5, 0.915 };
+  for (size_t k = 0; k < 4; k++) {
+    const double *yy = y;
+    const double yc[NPT] = { 2, 0, 7, 1, 14 };
+    double s = 0.0, s1 = 0.0, l, l1;
+    if (k == 1)
+      yy = yc;
+    for (size_t i = 0; i < NPT; i++) {
+      s += gsl_logpdf (k, yy[i], pt_mu[i], a[i], 0.613);
+      s1 += gsl_logpdf (k, yy[i], pt_mu[i], 1.0, 0.613);
+    }
+    l = bl_family_loglik (families[k], yy, pt_mu, a, NPT, 0.613);
+    l1 = bl_family_loglik (families[k], yy, pt_mu, NULL, NPT, 0.613);
+    ck_assert_msg (fabs (l - s) <= 1e-12 * fabs (s), "%s weighted loglik %.17g vs %.17g",
+                   families[k]->name, l, s);
+    ck_assert_msg (fabs (l1 - s1) <= 1e-12 * fabs (s1), "%s unit loglik %.17g vs %.17g",
+                   families[k]->name, l1, s1);
+  }
+}
+END_TEST
+
+/* ---------------------------------------------------------------- errors */
+
+/* D = 0: the dispersion MLE is 0 (a perfect fit); BL_EDATA naming the family, phi unchanged. */
+START_TEST (family_phi_ml_zero_deviance)
+{
+  for (size_t k = 0; k < 4; k++) {
+    double phi = 123.0;
+    bl_err err = { 0 };
+    const int st = bl_family_phi_ml (families[k], NULL, NULL, NULL, 5, 0.0, &phi, &err);
+    if (k == 1) {   /* poisson: the dispersion is fixed at 1 */
+      ck_assert_msg (st == BL_OK && phi == 1.0, "poisson D=0: status %d phi %g", st, phi);
+      continue;
+    }
+    ck_assert_msg (st == BL_EDATA, "%s D=0: status %d", families[k]->name, st);
+    ck_assert_msg (err.code == BL_EDATA, "%s D=0: err.code %d", families[k]->name, err.code);
+    ck_assert_msg (strcmp (err.where, families[k]->name) == 0, "%s D=0: where '%s'",
+                   families[k]->name, err.where);
+    ck_assert_msg (strstr (err.msg, "perfect fit") != NULL, "%s D=0: msg '%s'",
+                   families[k]->name, err.msg);
+    ck_assert_msg (phi == 123.0, "%s D=0: phi changed to %g", families[k]->name, phi);
+  }
+}
+END_TEST
+
+/* Unknown names give NULL. */
+START_TEST (family_find_unknown)
+{
+  ck_assert_ptr_null (bl_family_find ("poison"));
+  ck_assert_ptr_null (bl_family_find (""));
+  ck_assert_ptr_null (bl_family_find ("Gamma"));
+  ck_assert_ptr_null (bl_family_find ("inverse_gaussian"));
+  ck_assert_ptr_null (bl_link_find ("logit"));
+  ck_assert_ptr_null (bl_link_find (""));
+  ck_assert_ptr_null (bl_link_find ("Log"));
+}
+END_TEST
+
+/* ---------------------------------------------------------------- basics */
+
+START_TEST (family_find_names)
+{
+  const char *fn[4] = { "gaussian", "poisson", "gamma", "inverse-gaussian" };
+  const char *ln[3] = { "identity", "log", "inverse" };
+  for (size_t k = 0; k < 4; k++) {
+    ck_assert_msg (bl_family_find (fn[k]) == families[k], "bl_family_find '%s'", fn[k]);
+    ck_assert_str_eq (families[k]->name, fn[k]);
+  }
+  for (size_t l = 0; l < 3; l++) {
+    ck_assert_msg (bl_link_find (ln[l]) == links[l], "bl_link_find '%s'", ln[l]);
+    ck_assert_str_eq (links[l]->name, ln[l]);
+  }
+}
+END_TEST
+
+/* Descriptor flags, supports and default links (family.h). */
+START_TEST (family_descriptors)
+{
+  ck_assert_ptr_eq (bl_family_gaussian.default_link, &bl_link_identity);
+  ck_assert_ptr_eq (bl_family_poisson.default_link, &bl_link_log);
+  ck_assert_ptr_eq (bl_family_gamma.default_link, &bl_link_inverse);
+  ck_assert_ptr_eq (bl_family_invgauss.default_link, &bl_link_log);
+  ck_assert_int_eq (bl_family_gaussian.phi_free, 1);
+  ck_assert_int_eq (bl_family_poisson.phi_free, 0);
+  ck_assert_int_eq (bl_family_gamma.phi_free, 1);
+  ck_assert_int_eq (bl_family_invgauss.phi_free, 1);
+  ck_assert_int_eq (bl_family_poisson.discrete, 1);
+  ck_assert_int_eq (bl_family_gamma.discrete, 0);
+  ck_assert_str_eq (bl_family_gaussian.support, "any real y");
+  ck_assert_str_eq (bl_family_poisson.support, "y >= 0");
+  ck_assert_str_eq (bl_family_gamma.support, "y > 0");
+  ck_assert_str_eq (bl_family_invgauss.support, "y > 0");
+}
+END_TEST
+
+/* Supports and mean spaces, including the edges; starting means lie in the mean space. */
+START_TEST (family_valid_ranges)
+{
+  const double ys[] = { -2.5, 0.0, 1e-300, 0.37, 4.0, 1e300 };
+  /* expected y_ok per family for ys[] */
+  const int ok[4][6] = {
+    { 1, 1, 1, 1, 1, 1 }, { 0, 1, 1, 1, 1, 1 }, { 0, 0, 1, 1, 1, 1 }, { 0, 0, 1, 1, 1, 1 }
+  };
+  for (size_t k = 0; k < 4; k++) {
+    const bl_family *f = families[k];
+    ck_assert_msg (!f->y_ok (NAN) && !f->y_ok (INFINITY) && !f->y_ok (-INFINITY), "%s y_ok "
+                   "non-finite", f->name);
+    ck_assert_msg (!f->valid_mu (NAN) && !f->valid_mu (INFINITY), "%s valid_mu non-finite",
+                   f->name);
+    for (size_t i = 0; i < sizeof ys / sizeof ys[0]; i++) {
+      ck_assert_msg (!f->y_ok (ys[i]) == !ok[k][i], "%s y_ok(%g) = %d", f->name, ys[i],
+                     f->y_ok (ys[i]));
+      if (f->y_ok (ys[i]) && fabs (ys[i]) < 1e10) {
+        const double m = f->mustart (ys[i], 2.17);
+        ck_assert_msg (f->valid_mu (m), "%s mustart(%g) = %g outside the mean space", f->name,
+                       ys[i], m);
+      }
+    }
+    ck_assert_msg (f->valid_mu (0.5), "%s valid_mu(0.5)", f->name);
+    ck_assert_msg (!f->valid_mu (0.0) == (k != 0), "%s valid_mu(0)", f->name);
+    ck_assert_msg (!f->valid_mu (-1.0) == (k != 0), "%s valid_mu(-1)", f->name);
+  }
+  /* links: log keeps exp(eta) finite and nonzero; inverse excludes eta = 0 */
+  ck_assert (bl_link_identity.valid_eta (-1e300));
+  ck_assert (!bl_link_identity.valid_eta (NAN));
+  ck_assert (!bl_link_identity.valid_eta (INFINITY));
+  ck_assert (bl_link_log.valid_eta (0.0));
+  ck_assert (bl_link_log.valid_eta (700.0));
+  ck_assert (!bl_link_log.valid_eta (710.0));
+  ck_assert (!bl_link_log.valid_eta (-750.0));
+  ck_assert (!bl_link_log.valid_eta (NAN));
+  ck_assert (isfinite (bl_link_log.ginv (708.9)) && bl_link_log.ginv (-707.9) > 0.0);
+  ck_assert (bl_link_inverse.valid_eta (-0.5));
+  ck_assert (bl_link_inverse.valid_eta (1e-100));
+  ck_assert (!bl_link_inverse.valid_eta (0.0));
+  ck_assert (!bl_link_inverse.valid_eta (1e-200));
+  ck_assert (!bl_link_inverse.valid_eta (-INFINITY));
+  ck_assert (isfinite (bl_link_inverse.dmu_deta (1e-140)));
+}
+END_TEST
+
+static Suite *
+family_suite (void)
+{
+  Suite *s = suite_create ("family");
+  TCase *ref = tcase_create ("reference");
+  TCase *idt = tcase_create ("identities");
+  TCase *err = tcase_create ("errors");
+  TCase *bas = tcase_create ("basics");
+  tcase_add_test (ref, family_unit_dev_closed_forms);
+  tcase_add_test (ref, family_unit_dev_integral);
+  tcase_add_test (ref, family_logpdf_gsl);
+  tcase_add_test (ref, family_unit_dev_likelihood_ratio);
+  tcase_add_test (idt, family_variance);
+  tcase_add_test (idt, link_inverse_and_derivative);
+  tcase_add_test (idt, family_gamma_phi_ml);
+  tcase_add_test (idt, family_phi_ml_closed_forms);
+  tcase_add_test (idt, family_loglik_sum);
+  tcase_add_test (err, family_phi_ml_zero_deviance);
+  tcase_add_test (err, family_find_unknown);
+  tcase_add_test (bas, family_find_names);
+  tcase_add_test (bas, family_descriptors);
+  tcase_add_test (bas, family_valid_ranges);
+  suite_add_tcase (s, ref);
+  suite_add_tcase (s, idt);
+  suite_add_tcase (s, err);
+  suite_add_tcase (s, bas);
+  return s;
+}
+
+int
+main (void)
+{
+  SRunner *sr;
+  int failed;
+  gsl_set_error_handler_off ();
+  sr = srunner_create (family_suite ());
+  srunner_run_all (sr, CK_NORMAL);
+  failed = srunner_ntests_failed (sr);
+  srunner_free (sr);
+  return failed ? EXIT_FAILURE : EXIT_SUCCESS;
+}
