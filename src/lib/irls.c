@@ -26,6 +26,13 @@ typedef struct part {
   size_t bad_row;
 } part;
 
+typedef struct pass_arg {
+  struct bl_irls_work *ws;
+  const double *beta;        /* NULL: eta already in ws->eta */
+  int accumulate;
+  unsigned tid, nthreads;
+} pass_arg;
+
 struct bl_irls_work {
   bl_irls_model m;
   bl_irls_opts opt;
@@ -46,14 +53,16 @@ struct bl_irls_work {
   size_t iter, halvings;
   int have_prev;             /* beta_prev is a valid point to halve towards */
   int exact;                 /* gaussian identity: one solve is the answer */
+  /* The second worker: started once per workspace, so that passes create no threads. */
+  int worker;                /* 1 when the worker thread runs */
+  pthread_t th;
+  pthread_mutex_t lock;
+  pthread_cond_t go, done;
+  int job;                   /* 0 idle, 1 a pass to run, 2 quit */
+  int job_done;
+  struct pass_arg *job_arg;
 };
 
-typedef struct pass_arg {
-  bl_irls_work *ws;
-  const double *beta;        /* NULL: eta already in ws->eta */
-  int accumulate;
-  unsigned tid, nthreads;
-} pass_arg;
 
 void
 bl_irls_opts_init (bl_irls_opts *opt)
@@ -67,11 +76,48 @@ bl_irls_opts_init (bl_irls_opts *opt)
   opt->cancel = NULL;
 }
 
+static void pass_thread_run (pass_arg *pa);
+
+/* The worker: wait for a pass, run its share of the partitions, report, repeat. */
+static void *
+worker_main (void *arg)
+{
+  bl_irls_work *ws = arg;
+  for (;;) {
+    pass_arg *pa;
+    pthread_mutex_lock (&ws->lock);
+    while (ws->job == 0)
+      pthread_cond_wait (&ws->go, &ws->lock);
+    if (ws->job == 2) {
+      pthread_mutex_unlock (&ws->lock);
+      return NULL;
+    }
+    pa = ws->job_arg;
+    pthread_mutex_unlock (&ws->lock);
+    pass_thread_run (pa);
+    pthread_mutex_lock (&ws->lock);
+    ws->job = 0;
+    ws->job_done = 1;
+    pthread_cond_signal (&ws->done);
+    pthread_mutex_unlock (&ws->lock);
+  }
+}
+
 void
 bl_irls_work_free (bl_irls_work *ws)
 {
   if (!ws)
     return;
+  if (ws->worker) {
+    pthread_mutex_lock (&ws->lock);
+    ws->job = 2;
+    pthread_cond_signal (&ws->go);
+    pthread_mutex_unlock (&ws->lock);
+    pthread_join (ws->th, NULL);
+    pthread_mutex_destroy (&ws->lock);
+    pthread_cond_destroy (&ws->go);
+    pthread_cond_destroy (&ws->done);
+  }
   bl_free (ws->beta);
   bl_free (ws->beta_prev);
   bl_free (ws->beta_next);
@@ -142,6 +188,23 @@ bl_irls_work_new (const bl_irls_model *model, const bl_irls_opts *opt, bl_err *e
       ws->parts[k].R = bl_mallocn (q * q, sizeof (double));
       if (!ws->parts[k].R)
         goto nomem;
+    }
+  }
+  if (ws->opt.threads > 1 && ws->nparts > 1) {
+    /* Without a second thread the same partitions run on one: same results, slower. */
+    if (pthread_mutex_init (&ws->lock, NULL) == 0) {
+      if (pthread_cond_init (&ws->go, NULL) == 0) {
+        if (pthread_cond_init (&ws->done, NULL) == 0) {
+          if (pthread_create (&ws->th, NULL, worker_main, ws) == 0)
+            ws->worker = 1;
+          else
+            pthread_cond_destroy (&ws->done);
+        }
+        if (!ws->worker)
+          pthread_cond_destroy (&ws->go);
+      }
+      if (!ws->worker)
+        pthread_mutex_destroy (&ws->lock);
     }
   }
   if (ws->solver == BL_SOLVER_EXTENDED) {
@@ -262,15 +325,13 @@ pass_part (bl_irls_work *ws, part *pt, const double *beta, int accumulate, doubl
   }
 }
 
-static void *
-pass_thread (void *arg)
+static void
+pass_thread_run (pass_arg *pa)
 {
-  pass_arg *pa = arg;
   bl_irls_work *ws = pa->ws;
   for (size_t k = pa->tid; k < ws->nparts; k += pa->nthreads)
     pass_part (ws, &ws->parts[k], pa->beta, pa->accumulate, ws->buf[pa->tid],
                ws->solver == BL_SOLVER_EXTENDED ? ws->lbuf[pa->tid] : NULL);
-  return NULL;
 }
 
 /* One pass over all partitions, on one or two threads.  Returns 0, or the first partition's
@@ -278,13 +339,9 @@ pass_thread (void *arg)
 static int
 pass (bl_irls_work *ws, const double *beta, int accumulate, size_t *bad_row)
 {
-  unsigned nt = ws->opt.threads;
+  const unsigned nt = ws->opt.threads > 1 && ws->nparts > 1 ? 2 : 1;
   pass_arg args[2];
-  pthread_t th;
-  int spawned = 0;
   long double dev = 0.0L;
-  if (nt > ws->nparts)
-    nt = (unsigned) ws->nparts;
   for (unsigned t = 0; t < nt; t++) {
     args[t].ws = ws;
     args[t].beta = beta;
@@ -292,14 +349,23 @@ pass (bl_irls_work *ws, const double *beta, int accumulate, size_t *bad_row)
     args[t].tid = t;
     args[t].nthreads = nt;
   }
-  if (nt > 1 && pthread_create (&th, NULL, pass_thread, &args[1]) == 0)
-    spawned = 1;
-  if (nt > 1 && !spawned) {       /* no thread: do its share here, same partitions */
-    pass_thread (&args[1]);
+  if (nt > 1 && ws->worker) {
+    pthread_mutex_lock (&ws->lock);
+    ws->job_arg = &args[1];
+    ws->job_done = 0;
+    ws->job = 1;
+    pthread_cond_signal (&ws->go);
+    pthread_mutex_unlock (&ws->lock);
+  } else if (nt > 1) {
+    pass_thread_run (&args[1]);   /* no worker: its share here, the same partitions */
   }
-  pass_thread (&args[0]);
-  if (spawned)
-    pthread_join (th, NULL);
+  pass_thread_run (&args[0]);
+  if (nt > 1 && ws->worker) {
+    pthread_mutex_lock (&ws->lock);
+    while (!ws->job_done)
+      pthread_cond_wait (&ws->done, &ws->lock);
+    pthread_mutex_unlock (&ws->lock);
+  }
   for (size_t k = 0; k < ws->nparts; k++) {
     if (ws->parts[k].bad) {
       *bad_row = ws->parts[k].bad_row;
