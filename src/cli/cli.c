@@ -59,10 +59,14 @@ cli_usage_error (const char *cmd, const char *where, const char *fmt, ...)
 }
 
 int
-cli_lib_error (const bl_err *err)
+cli_lib_error (const char *cmd, const bl_err *err)
 {
   cli_error (err->where, "%s", err->msg[0] ? err->msg : bl_strerror (err->code));
-  return err->code == BL_ESPEC ? EXIT_USAGE : EXIT_DATA;
+  if (err->code == BL_ESPEC) {
+    fprintf (stderr, "see 'ballast %s --help'\n", cmd);
+    return EXIT_USAGE;
+  }
+  return EXIT_DATA;
 }
 
 int

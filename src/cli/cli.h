@@ -19,8 +19,9 @@ void cli_warn (const char *where, const char *fmt, ...)
 /* A usage error: the message, then "see 'ballast CMD --help'"; returns EXIT_USAGE. */
 int cli_usage_error (const char *cmd, const char *where, const char *fmt, ...)
   __attribute__ ((format (printf, 3, 4)));
-/* Print a library error and return the exit code for it (2 for BL_ESPEC, else 1). */
-int cli_lib_error (const bl_err *err);
+/* Print a library error and return the exit code for it: 2 for BL_ESPEC (a usage error: the
+   hint "see 'ballast CMD --help'" follows), else 1. */
+int cli_lib_error (const char *cmd, const bl_err *err);
 
 /* An output that is written to a temporary file beside PATH and renamed over PATH when
    complete ("-" or NULL is standard output, written directly). */

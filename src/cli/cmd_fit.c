@@ -91,7 +91,10 @@ static const struct option long_opts[] = {
 static int
 split_list (char *s, const char **list, size_t *n)
 {
-  for (char *tok = strtok (s, ","); tok; tok = strtok (NULL, ",")) {
+  for (char *tok = s;;) {
+    char *const comma = strchr (tok, ',');
+    if (comma)
+      *comma = '\0';
     while (*tok == ' ')
       tok++;
     for (char *e = tok + strlen (tok); e > tok && e[-1] == ' ';)
@@ -99,8 +102,10 @@ split_list (char *s, const char **list, size_t *n)
     if (!*tok || *n >= MAX_LIST)
       return -1;
     list[(*n)++] = tok;
+    if (!comma)
+      return 0;
+    tok = comma + 1;
   }
-  return 0;
 }
 
 int
@@ -332,7 +337,7 @@ cmd_fit (int argc, char **argv)
   }
   goto done;
 fail:
-  rc = cli_lib_error (&err);
+  rc = cli_lib_error ("fit", &err);
 done:
   bl_fit_free (fit);
   bl_design_free (design);

@@ -40,7 +40,14 @@ static double gau_start (double y, double ybar) { (void) ybar; return y; }
 /* ---- poisson: V = mu, d = 2 [y log(y/mu) - (y - mu)],
    log P = a [y log mu - mu - lgamma(y + 1)] (prior weights multiply the log-likelihood) */
 static double poi_var (double mu) { return mu; }
-static double poi_dev (double y, double mu) { return 2.0 * (ylogy (y, mu) - (y - mu)); }
+/* The unit deviances are >= 0 in exact arithmetic; rounding near y = mu can leave a tiny
+   negative value, which is clamped (common practice, no source). */
+static double nonneg_dev (double d) { return d > 0.0 ? d : 0.0; }
+static double
+poi_dev (double y, double mu)
+{
+  return nonneg_dev (2.0 * (ylogy (y, mu) - (y - mu)));
+}
 static double
 poi_logpdf (double y, double mu, double a, double phi)
 {
@@ -54,7 +61,10 @@ static double poi_start (double y, double ybar) { (void) ybar; return y + 0.1; }
    with shape nu a and mean mu: log f = nu a log(nu a y / mu) - nu a y / mu - log y
    - lgamma(nu a), nu = 1/phi */
 static double gam_var (double mu) { return mu * mu; }
-static double gam_dev (double y, double mu) { return 2.0 * (-log (y / mu) + (y - mu) / mu); }
+static double gam_dev (double y, double mu)
+{
+  return nonneg_dev (2.0 * (-log (y / mu) + (y - mu) / mu));
+}
 static double
 gam_logpdf (double y, double mu, double a, double phi)
 {

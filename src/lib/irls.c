@@ -570,8 +570,8 @@ bl_irls_run (bl_irls_work *ws, bl_err *err)
   if (st != BL_OK)
     return st;
   return bl_fail (err, BL_ENOCONV, "irls",
-                  "no convergence in %zu iterations (deviance still changing: %.6g to %.6g)",
-                  ws->opt.max_iter, ws->dev_prev, ws->dev);
+                  "no convergence in %zu iteration%s (deviance still changing: %.6g to %.6g)",
+                  ws->opt.max_iter, ws->opt.max_iter == 1 ? "" : "s", ws->dev_prev, ws->dev);
 }
 
 const double *bl_irls_beta (const bl_irls_work *ws) { return ws->beta; }

@@ -287,9 +287,12 @@ static const double pow10_exact[23] = {
    w / 10^-e is one correctly rounded IEEE operation on exact operands, hence equal to the
    correctly rounded value that strtod returns.  Everything else goes to strtod (glibc's is
    correctly rounded in the C locale).  The fast path needs double arithmetic without excess
-   precision (FLT_EVAL_METHOD 0, as on x86-64 SSE and aarch64). */
+   precision (FLT_EVAL_METHOD 0, as on x86-64 SSE and aarch64).
+
+   With TMP non-NULL, S is left untouched: the strtod path works on a copy in TMP (TMP_CAP
+   bytes), and a cell too long for it is NUM_NOT (the parallel parser then falls back). */
 static int
-parse_number (char *s, size_t n, char mark, double *out)
+parse_number (char *s, size_t n, char mark, double *out, char *tmp, size_t tmp_cap)
 {
   const char *p = s, *q;
   const char *const end = s + n;
@@ -341,17 +344,24 @@ parse_number (char *s, size_t n, char mark, double *out)
     return NUM_OK;
   }
 #endif
+  if (tmp) {
+    if (n >= tmp_cap)
+      return NUM_NOT;
+    memcpy (tmp, s, n);
+    s = tmp;
+  }
   {
+    char *const end2 = s + n;
     char *stop;
     double v;
     if (mark != '.')
-      for (char *r = s; r < end; r++)
+      for (char *r = s; r < end2; r++)
         if (*r == mark)
           *r = '.';
     s[n] = '\0';
     errno = 0;
     v = strtod (s, &stop);
-    if (stop != end)            /* the grammar is a subset of strtod's in the C locale */
+    if (stop != end2)           /* the grammar is a subset of strtod's in the C locale */
       return NUM_LOCALE;
     if (errno == ERANGE && fabs (v) == HUGE_VAL)
       return NUM_OVERFLOW;
@@ -679,6 +689,66 @@ num_error (const reader *rd, const bl_table *t, size_t j, const field *f, char *
                     "column categorical if it holds labels)", s, n, t->names.str[j]);
 }
 
+/* Convert field F (its "" pairs still doubled) into column J at row t->nrows.  The
+   parallel merge calls this too, for the cells a worker could not convert on its own. */
+static int
+put_cell (reader *rd, bl_table *t, size_t j, const field *f, bl_err *err)
+{
+  const size_t r = t->nrows;
+  column *c = &t->cols[j];
+  char *s = f->s, *v;
+  const size_t n = f->dquote ? unescape (s, f->n) : f->n;
+  size_t m;
+  double x;
+  int st;
+  /* Blanks around a cell are ignored for numbers and missing markers; a categorical
+     level keeps its exact text. */
+  v = s;
+  m = n;
+  while (m && is_blank (*v))
+    v++, m--;
+  while (m && is_blank (v[m - 1]))
+    m--;
+  if (c->type == COL_NUM) {
+    if (is_missing (v, m)) {
+      c->num[r] = NAN;
+      return BL_OK;
+    }
+    st = parse_number (v, m, rd->mark, &x, NULL, 0);
+    if (st != NUM_OK)
+      return num_error (rd, t, j, f, v, m, st, err);
+    c->num[r] = x;
+    return BL_OK;
+  }
+  if (is_missing (v, m)) {
+    if (c->type == COL_CAT)
+      c->codes[r] = -1;
+    return BL_OK;
+  }
+  if (c->type == COL_UNDECIDED) {
+    /* The first non-missing cell decides the column's type. */
+    st = parse_number (v, m, rd->mark, &x, NULL, 0);
+    if (st == NUM_OK) {
+      if (decide (t, c, COL_NUM) != BL_OK)
+        return fail_nomem (rd, err);
+      c->num[r] = x;
+      return BL_OK;
+    }
+    if (st == NUM_OVERFLOW || st == NUM_LOCALE)
+      return num_error (rd, t, j, f, v, m, st, err);
+    {
+      const char save = v[m];
+      const int special = strtod_would_take (v, m);
+      v[m] = save;
+      if (special)
+        return num_error (rd, t, j, f, v, m, st, err);
+    }
+    if (decide (t, c, COL_CAT) != BL_OK)
+      return fail_nomem (rd, err);
+  }
+  return cat_cell (rd, t, c, j, f, s, n, err);
+}
+
 /* Convert the fields of one data record (NF of them, starting on line LINE) into row
    t->nrows. */
 static int
@@ -694,58 +764,7 @@ add_record (reader *rd, bl_table *t, size_t nf, size_t line, bl_err *err)
   if (r == t->cap && grow_rows (t) != BL_OK)
     return fail_nomem (rd, err);
   for (size_t j = 0; j < nf; j++) {
-    const field *f = &rd->f[j];
-    column *c = &t->cols[j];
-    char *s = f->s, *v;
-    size_t n = f->dquote ? unescape (s, f->n) : f->n, m;
-    double x;
-    int st;
-    /* Blanks around a cell are ignored for numbers and missing markers; a categorical
-       level keeps its exact text. */
-    v = s;
-    m = n;
-    while (m && is_blank (*v))
-      v++, m--;
-    while (m && is_blank (v[m - 1]))
-      m--;
-    if (c->type == COL_NUM) {
-      if (is_missing (v, m)) {
-        c->num[r] = NAN;
-        continue;
-      }
-      st = parse_number (v, m, rd->mark, &x);
-      if (st != NUM_OK)
-        return num_error (rd, t, j, f, v, m, st, err);
-      c->num[r] = x;
-      continue;
-    }
-    if (is_missing (v, m)) {
-      if (c->type == COL_CAT)
-        c->codes[r] = -1;
-      continue;
-    }
-    if (c->type == COL_UNDECIDED) {
-      /* The first non-missing cell decides the column's type. */
-      st = parse_number (v, m, rd->mark, &x);
-      if (st == NUM_OK) {
-        if (decide (t, c, COL_NUM) != BL_OK)
-          return fail_nomem (rd, err);
-        c->num[r] = x;
-        continue;
-      }
-      if (st == NUM_OVERFLOW || st == NUM_LOCALE)
-        return num_error (rd, t, j, f, v, m, st, err);
-      {
-        const char save = v[m];
-        const int special = strtod_would_take (v, m);
-        v[m] = save;
-        if (special)
-          return num_error (rd, t, j, f, v, m, st, err);
-      }
-      if (decide (t, c, COL_CAT) != BL_OK)
-        return fail_nomem (rd, err);
-    }
-    st = cat_cell (rd, t, c, j, f, s, n, err);
+    const int st = put_cell (rd, t, j, &rd->f[j], err);
     if (st != BL_OK)
       return st;
   }

@@ -1,6 +1,7 @@
 /* table.h -- columnar table read from CSV or TSV (RFC 4180), with typed columns. */
 #ifndef BALLAST_TABLE_H
 #define BALLAST_TABLE_H
+#include <signal.h>
 #include <stddef.h>
 #include <stdint.h>
 #include "error.h"
@@ -12,6 +13,10 @@ typedef struct bl_table bl_table;     /* opaque; defined in table.c */
 
 /* Default limit on distinct levels of one categorical column (BL_TABLE_MAX_LEVELS). */
 #define BL_TABLE_MAX_LEVELS 100000
+/* Default number of threads that parse (BL_TABLE_THREADS) and default bytes parsed per
+   parallel step (BL_TABLE_CHUNK, 8 MiB). */
+#define BL_TABLE_THREADS 2
+#define BL_TABLE_CHUNK ((size_t) 8 << 20)
 
 typedef struct bl_table_opts {
   char delimiter;             /* 0: ',' or, for a name ending ".tsv" (or ".tsv.gz"), '\t' */
@@ -19,10 +24,19 @@ typedef struct bl_table_opts {
   const char *const *categorical;  /* column names forced categorical; may be NULL */
   size_t n_categorical;
   size_t max_levels;          /* more distinct levels in one column is BL_EDATA */
+  /* 1: parse on the calling thread only.  2 or more: each chunk is split at a line end near
+     its middle and the second part is parsed on a second thread (more than 2 is taken as
+     2), and gzip data are inflated on a thread of their own.  The table, and any error with
+     its where and message, are the same as with 1 for every input.  0 is taken as 1. */
+  unsigned threads;
+  /* When non-NULL, polled once per chunk: once *CANCEL is nonzero the read fails with
+     BL_ECANCEL ("reading was cancelled") and nothing is kept. */
+  volatile sig_atomic_t *cancel;
+  size_t chunk;               /* bytes per parallel step (threads >= 2); 0 for the default */
 } bl_table_opts;
 
 /* Fill OPT with the defaults (delimiter 0, decimal_comma 0, no categorical, max_levels
-   BL_TABLE_MAX_LEVELS). */
+   BL_TABLE_MAX_LEVELS, threads BL_TABLE_THREADS, cancel NULL, chunk BL_TABLE_CHUNK). */
 void bl_table_opts_init (bl_table_opts *opt);
 
 /* Read a whole table from PATH ("-" for standard input; gzip detected by magic bytes).
