@@ -56,7 +56,7 @@ struct bl_design {
   int intercept;
   size_t nread, n;
   size_t *rows;             /* table row of each used row */
-  double *y, *offset, *prior_w;
+  double *y, *offset, *prior_w, *varcol;
   collist cols;
   derived *der;
   size_t nder, dercap;
@@ -81,6 +81,7 @@ bl_design_opts_init (bl_design_opts *opt)
   opt->reference = NULL;
   opt->n_reference = 0;
   opt->weights = NULL;
+  opt->variance = NULL;
   opt->offset = NULL;
 }
 
@@ -646,7 +647,7 @@ build_design (build *b, const char *response, const bl_terms *terms, const bl_de
   bl_design *d = b->d;
   const bl_table *t = b->t;
   const size_t nterms = bl_terms_count (terms);
-  long resp, wcol = -1, *check;
+  long resp, wcol = -1, vcol = -1, *check;
   size_t ncheck = 0, nleaves = 2, nterm0, nterm1;
   int status;
 
@@ -676,6 +677,15 @@ build_design (build *b, const char *response, const bl_terms *terms, const bl_de
       return bl_fail (b->err, BL_ESPEC, "--weights", "'%s' is categorical; weights must be "
                       "numeric", opt->weights);
   }
+  if (opt->variance) {
+    vcol = bl_table_find (t, opt->variance);
+    if (vcol < 0)
+      return bl_fail (b->err, BL_ESPEC, "--variance", "no column '%s' in %s", opt->variance,
+                      bl_table_source (t));
+    if (!bl_table_is_numeric (t, (size_t) vcol))
+      return bl_fail (b->err, BL_ESPEC, "--variance", "'%s' is categorical; a variance "
+                      "column must be numeric", opt->variance);
+  }
   if (opt->offset) {
     if (bl_terms_count (opt->offset) != 1)
       return bl_fail (b->err, BL_ESPEC, "--offset", "the offset must be exactly one term, "
@@ -690,7 +700,7 @@ build_design (build *b, const char *response, const bl_terms *terms, const bl_de
     return status;
 
   /* The columns whose missing cells drop a row, in the order that names the reason. */
-  check = bl_mallocn (nleaves, sizeof *check);
+  check = bl_mallocn (nleaves + 1, sizeof *check);
   if (!check)
     return oom (b);
   check[ncheck++] = resp;
@@ -707,6 +717,13 @@ build_design (build *b, const char *response, const bl_terms *terms, const bl_de
   }
   if (opt->offset)
     collect_leaves (t, bl_terms_get (opt->offset, 0), check, &ncheck);
+  if (vcol >= 0) {
+    size_t k = 0;
+    while (k < ncheck && check[k] != vcol)
+      k++;
+    if (k == ncheck)
+      check[ncheck++] = vcol;
+  }
   status = select_rows (b, check, ncheck);
   if (status == BL_OK)
     status = choose_levels (b, check, nterm0, nterm1);
@@ -739,6 +756,23 @@ build_design (build *b, const char *response, const bl_terms *terms, const bl_de
         return oom (b);
       for (size_t i = 0; i < d->n; i++)
         d->prior_w[i] = wv[d->rows[i]];
+    }
+  }
+  if (vcol >= 0) {
+    const double *vv = bl_table_num (t, (size_t) vcol);
+    d->varcol = bl_mallocn (d->n, sizeof *d->varcol);
+    if (!d->varcol)
+      return oom (b);
+    for (size_t i = 0; i < d->n; i++) {
+      const double v = vv[d->rows[i]];
+      if (!(v > 0.0)) {
+        char w[1100], s[32];
+        row_where (t, d->rows[i], w, sizeof w);
+        bl_format_shortest (v, s);
+        return bl_fail (b->err, BL_EDATA, w, "variance column '%s': value %s is not > 0",
+                        opt->variance, s);
+      }
+      d->varcol[i] = v;
     }
   }
   if (opt->offset) {
@@ -815,6 +849,7 @@ bl_design_free (bl_design *d)
   bl_free (d->y);
   bl_free (d->offset);
   bl_free (d->prior_w);
+  bl_free (d->varcol);
   collist_clear (&d->cols);
   for (size_t k = 0; k < d->nder; k++) {
     bl_free (d->der[k].label);
@@ -835,6 +870,7 @@ const char *bl_design_response (const bl_design *d) { return d->response; }
 const double *bl_design_y (const bl_design *d) { return d->y; }
 const double *bl_design_offset (const bl_design *d) { return d->offset; }
 const double *bl_design_prior_w (const bl_design *d) { return d->prior_w; }
+const double *bl_design_varcol (const bl_design *d) { return d->varcol; }
 size_t bl_design_rows_read (const bl_design *d) { return d->nread; }
 const char *bl_design_source (const bl_design *d) { return bl_table_source (d->t); }
 size_t bl_design_ndrop (const bl_design *d) { return d->ndrops; }

@@ -24,6 +24,10 @@ typedef struct bl_design_opts {
   size_t n_reference;
   const char *weights;             /* prior-weight column name, or NULL */
   const bl_terms *offset;          /* exactly one term (e.g. log(hours)), or NULL */
+  const char *variance;            /* a column the variance is proportional to a power of
+                                      (weighted least squares), or NULL; every used value
+                                      must be > 0 (BL_EDATA naming the row); its missing
+                                      cells drop rows as "missing 'COL'" after the offset's */
 } bl_design_opts;
 
 void bl_design_opts_init (bl_design_opts *opt);
@@ -64,6 +68,7 @@ const char *bl_design_response (const bl_design *d);
 const double *bl_design_y (const bl_design *d);
 const double *bl_design_offset (const bl_design *d);   /* NULL when there is no offset */
 const double *bl_design_prior_w (const bl_design *d);  /* NULL when all weights are 1 */
+const double *bl_design_varcol (const bl_design *d);   /* NULL unless opts.variance */
 
 /* Fill rows [ROW0, ROW0 + NR) of X into OUT column-major with leading dimension LD >= NR:
    X[row0 + i, j] goes to OUT[j * LD + i].  Allocates nothing; thread-safe on a const design. */
