@@ -2,6 +2,7 @@
 #include <check.h>
 #include <errno.h>
 #include <math.h>
+#include <signal.h>
 #include <stdint.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -85,6 +86,149 @@ next_rand (uint64_t *s)
   *s ^= *s >> 7;
   *s ^= *s << 17;
   return *s;
+}
+
+
+/* ------------------------------------------------------------------ parallel helpers */
+
+/* Assert that A and B are the same table: shape, names, types, every numeric cell bit for
+   bit, codes, levels and line numbers. */
+static void
+same_table (const char *label, const bl_table *a, const bl_table *b)
+{
+  const size_t n = bl_table_nrows (a), m = bl_table_ncols (a);
+  ck_assert_msg (n == bl_table_nrows (b), "%s: nrows %zu vs %zu", label, n, bl_table_nrows (b));
+  ck_assert_msg (m == bl_table_ncols (b), "%s: ncols", label);
+  for (size_t i = 0; i < n; i++)
+    ck_assert_msg (bl_table_line (a, i) == bl_table_line (b, i), "%s: line of row %zu: %zu vs "
+                   "%zu", label, i, bl_table_line (a, i), bl_table_line (b, i));
+  for (size_t j = 0; j < m; j++) {
+    ck_assert_msg (strcmp (bl_table_colname (a, j), bl_table_colname (b, j)) == 0,
+                   "%s: name %zu", label, j);
+    ck_assert_msg (bl_table_is_numeric (a, j) == bl_table_is_numeric (b, j), "%s: type of %zu",
+                   label, j);
+    if (bl_table_is_numeric (a, j)) {
+      const double *x = bl_table_num (a, j), *y = bl_table_num (b, j);
+      for (size_t i = 0; i < n; i++)
+        ck_assert_msg (bits (x[i]) == bits (y[i]), "%s: col %zu row %zu: %a vs %a", label, j,
+                       i, x[i], y[i]);
+    } else {
+      const int32_t *x = bl_table_codes (a, j), *y = bl_table_codes (b, j);
+      ck_assert_msg (bl_table_nlevels (a, j) == bl_table_nlevels (b, j), "%s: nlevels of %zu",
+                     label, j);
+      for (size_t k = 0; k < bl_table_nlevels (a, j); k++)
+        ck_assert_msg (strcmp (bl_table_level (a, j, k), bl_table_level (b, j, k)) == 0,
+                       "%s: col %zu level %zu", label, j, k);
+      for (size_t i = 0; i < n; i++)
+        ck_assert_msg (x[i] == y[i], "%s: col %zu row %zu: code %d vs %d", label, j, i, x[i],
+                       y[i]);
+    }
+  }
+}
+
+/* A random pump-fleet CSV of about ROWS records: a numeric column (some cells missing,
+   quoted, blank-padded, or with 17 digits for the strtod path), a categorical one (some
+   levels quoted with "" pairs or a line feed), a free-text column whose quoted cells often
+   span lines (so that many split points fall inside quotes), a column missing for its first
+   LATE rows and numeric after, and one missing for its first LATE2 rows and labels after.
+   Line ends are LF or, now and then, CRLF.  Returns malloc'ed text and its length. */
+static char *
+random_csv (uint64_t seed, size_t rows, size_t late, size_t late2, size_t *len)
+{
+  static const char *const site[] = { "north", "south", "east", "west", "dock \"B\"", "yard",
+                                      "pier\n7", "hangar", "\xc3\xa9tang", "depot" };
+  uint64_t s = seed;
+  char *text = malloc (rows * 160 + 64), *p = text;
+  ck_assert_ptr_nonnull (text);
+  p += sprintf (p, "hours,site,note,late,kind\n");
+  for (size_t i = 0; i < rows; i++) {
+    const uint64_t r = next_rand (&s), q = next_rand (&s);
+    const double x = (double) (r % 10000000) / 997.0;
+    switch (r >> 60) {
+    case 0: break;                                            /* empty: missing */
+    case 1: p += sprintf (p, "NA"); break;
+    case 2: p += sprintf (p, "\"%.3f\"", x); break;
+    case 3: p += sprintf (p, " %.2f ", x); break;
+    case 4: p += sprintf (p, "%.17g", x); break;
+    default: p += sprintf (p, "%.4f", x); break;
+    }
+    *p++ = ',';
+    {
+      const char *lev = site[(q >> 8) % 10];
+      if ((q >> 20) % 13 == 0)
+        ;                                                     /* missing */
+      else if (strchr (lev, '"') || strchr (lev, '\n') || (q >> 24) % 5 == 0) {
+        *p++ = '"';
+        for (const char *c = lev; *c; c++) {
+          if (*c == '"')
+            *p++ = '"';
+          *p++ = *c;
+        }
+        *p++ = '"';
+      } else
+        p += sprintf (p, "%s", lev);
+    }
+    *p++ = ',';
+    switch ((q >> 32) % 4) {
+    case 0: break;
+    case 1: p += sprintf (p, "ok %u", (unsigned) (q >> 40) % 100); break;
+    default: {
+      const unsigned nlines = 1 + (unsigned) ((q >> 36) % 4);
+      *p++ = '"';
+      for (unsigned k = 0; k < nlines; k++)
+        p += sprintf (p, "%sleak, seal %u", k ? "\n" : "", (unsigned) ((q >> (40 + k)) % 50));
+      *p++ = '"';
+    }
+    }
+    *p++ = ',';
+    if (i >= late && (r >> 8) % 7 != 0)
+      p += sprintf (p, "%.1f", (double) ((r >> 12) % 1000) / 8.0);
+    *p++ = ',';
+    if (i >= late2 && (r >> 16) % 5 != 0)
+      p += sprintf (p, "k%u", (unsigned) ((r >> 20) % 9));
+    if ((q >> 50) % 11 == 0)
+      *p++ = '\r';
+    *p++ = '\n';
+  }
+  *p = '\0';
+  *len = (size_t) (p - text);
+  return text;
+}
+
+/* Read LEN bytes at TEXT sequentially and with two threads in steps of CHUNK bytes; both
+   must succeed with the same table, or fail with the same code, where and message. */
+static void
+same_both_ways (const char *label, const void *text, size_t len, size_t chunk,
+                const bl_table_opts *base)
+{
+  bl_table_opts o1, o2;
+  bl_err e1 = { 0 }, e2 = { 0 };
+  bl_table *a, *b;
+  char lab[256];
+  if (base)
+    o1 = *base;
+  else
+    bl_table_opts_init (&o1);
+  o2 = o1;
+  o1.threads = 1;
+  o2.threads = 2;
+  o2.chunk = chunk;
+  snprintf (lab, sizeof lab, "%s (chunk %zu)", label, chunk);
+  a = bl_table_read_mem (text, len, "r.csv", &o1, &e1);
+  b = bl_table_read_mem (text, len, "r.csv", &o2, &e2);
+  ck_assert_msg ((a == NULL) == (b == NULL), "%s: sequential %s, parallel %s (%s: %s / %s: %s)",
+                 lab, a ? "ok" : "failed", b ? "ok" : "failed", e1.where, e1.msg, e2.where,
+                 e2.msg);
+  if (a)
+    same_table (lab, a, b);
+  else {
+    ck_assert_msg (e1.code == e2.code, "%s: code %d vs %d", lab, e1.code, e2.code);
+    ck_assert_msg (strcmp (e1.where, e2.where) == 0, "%s: where '%s' vs '%s'", lab, e1.where,
+                   e2.where);
+    ck_assert_msg (strcmp (e1.msg, e2.msg) == 0, "%s: msg '%s' vs '%s'", lab, e1.msg, e2.msg);
+  }
+  bl_table_free (a);
+  bl_table_free (b);
 }
 
 /* ------------------------------------------------------------------ reference */
@@ -975,6 +1119,216 @@ START_TEST (table_alloc_fail)
 }
 END_TEST
 
+
+/* ------------------------------------------------------------------ parallel */
+
+START_TEST (table_threads_identical)
+{
+  /* Determinism: threads = 2 gives the table of threads = 1, bit for bit, for random inputs
+     and step sizes that put the split points everywhere, inside quoted line feeds too, and
+     with column types decided on either side of a split (common practice, no source). */
+  static const size_t chunk[] = { 64, 1000, 4093, 16384, 65536, (size_t) 1 << 20 };
+  for (uint64_t seed = 1; seed <= 4; seed++) {
+    size_t len;
+    const size_t rows = 3000 + 1500 * (size_t) seed;
+    char *text = random_csv (seed * 0x9e3779b97f4a7c15ULL, rows, rows / (seed + 1),
+                             rows - rows / (2 * seed), &len);
+    for (size_t k = 0; k < sizeof chunk / sizeof chunk[0]; k++)
+      same_both_ways ("threads identical", text, len, chunk[k], NULL);
+    free (text);
+  }
+}
+END_TEST
+
+START_TEST (table_threads_errors_identical)
+{
+  /* A bad cell, a short record, a lone CR, a categorical limit and an unclosed quote, put at
+     many places: the parallel read reports exactly the sequential error. */
+  size_t len;
+  char *text = random_csv (77, 4000, 100, 200, &len);
+  char *copy = malloc (len + 64);
+  bl_table_opts opt;
+  uint64_t s = 5;
+  for (int k = 0; k < 24; k++) {
+    /* the start of a random line in the second half of some step */
+    size_t at = (size_t) (next_rand (&s) % len), e;
+    while (at > 0 && text[at - 1] != '\n')
+      at--;
+    memcpy (copy, text, len);
+    e = len;
+    switch (k % 4) {
+    case 0: memcpy (copy + at, "12.5kg", 6); break;         /* "not a number", or a label */
+    case 1: copy[at] = '\r'; break;                          /* a lone CR or a field short */
+    case 2: copy[at] = '"'; break;                           /* a quote opened: later error */
+    default: {
+      const char *nl = memchr (copy + at, '\n', len - at);
+      if (nl)
+        memmove (copy + at, nl + 1, (size_t) (copy + len - nl - 1)), e = len - (size_t)
+          (nl + 1 - (copy + at));
+      memcpy (copy + e, "1,2\n", 4);                         /* a record with 2 fields */
+      e += 4;
+    }
+    }
+    same_both_ways ("threads errors", copy, e, 2048 + (size_t) k * 997, NULL);
+    same_both_ways ("threads errors", copy, e, 64, NULL);
+  }
+  bl_table_opts_init (&opt);
+  opt.max_levels = 9;                                        /* 10 sites: fails somewhere */
+  same_both_ways ("threads max_levels", text, len, 4096, &opt);
+  opt.max_levels = 10;
+  same_both_ways ("threads max_levels at limit", text, len, 4096, &opt);
+  free (copy);
+  free (text);
+}
+END_TEST
+
+START_TEST (table_threads_options)
+{
+  /* Defaults, forced categorical, TSV and decimal comma through the parallel path. */
+  static const char *const cat[] = { "late" };
+  size_t len;
+  char *text = random_csv (99, 5000, 0, 0, &len);
+  bl_table_opts opt;
+  bl_table_opts_init (&opt);
+  ck_assert_uint_eq (opt.threads, 2);
+  ck_assert_ptr_null ((const void *) opt.cancel);
+  ck_assert_uint_eq (opt.chunk, BL_TABLE_CHUNK);
+  opt.categorical = cat;
+  opt.n_categorical = 1;
+  same_both_ways ("threads forced categorical", text, len, 3000, &opt);
+  for (size_t i = 0; i < len; i++) {     /* the same bytes as ';'-separated decimal commas */
+    if (text[i] == ',')
+      text[i] = ';';
+    else if (text[i] == '.')
+      text[i] = ',';
+  }
+  bl_table_opts_init (&opt);
+  opt.delimiter = ';';
+  opt.decimal_comma = 1;
+  same_both_ways ("threads decimal comma", text, len, 5000, &opt);
+  free (text);
+  /* An input smaller than one step, and one with only a header. */
+  same_both_ways ("threads small", "a,b\n1,2\n3,x\n", 12, 0, NULL);
+  same_both_ways ("threads header only", "a,b\n", 4, 64, NULL);
+  same_both_ways ("threads trailing empty lines", "a\n1\n2\n3\n\n\n\n", 12, 64, NULL);
+}
+END_TEST
+
+START_TEST (table_threads_gzip)
+{
+  /* gzip inflated on the producer thread (steps small enough that it starts) gives the
+     sequential table; a truncated stream fails the same way. */
+  size_t len, zlen;
+  char *text = random_csv (2024, 20000, 5, 7, &len);
+  unsigned char *z = gzip_bytes (text, len, &zlen);
+  char dir[512], path[600];
+  bl_table_opts o1, o2;
+  bl_err e1 = { 0 }, e2 = { 0 };
+  bl_table *a, *b;
+  same_both_ways ("threads gzip mem", z, zlen, 65536, NULL);
+  same_both_ways ("threads gzip mem, cut", z, zlen - 9, 65536, NULL);
+  same_both_ways ("threads gzip mem, cut early", z, zlen / 2, 65536, NULL);
+  test_tmpdir (dir, sizeof dir);
+  snprintf (path, sizeof path, "%s/fleet.csv.gz", dir);
+  write_file (path, z, zlen);
+  bl_table_opts_init (&o1);
+  o2 = o1;
+  o1.threads = 1;
+  o2.chunk = 1 << 16;
+  a = bl_table_read (path, &o1, &e1);
+  b = bl_table_read (path, &o2, &e2);
+  ck_assert_msg (a && b, "threads gzip file: %s / %s", e1.msg, e2.msg);
+  same_table ("threads gzip file", a, b);
+  bl_table_free (a);
+  bl_table_free (b);
+  z[zlen / 3] ^= 0x55;                  /* damage: the same message both ways */
+  write_file (path, z, zlen);
+  a = bl_table_read (path, &o1, &e1);
+  b = bl_table_read (path, &o2, &e2);
+  ck_assert_msg (!a && !b, "threads gzip corrupt: read succeeded");
+  ck_assert_int_eq (e1.code, e2.code);
+  ck_assert_str_eq (e1.where, e2.where);
+  ck_assert_str_eq (e1.msg, e2.msg);
+  unlink (path);
+  rmdir (dir);
+  free (z);
+  free (text);
+}
+END_TEST
+
+START_TEST (table_cancel)
+{
+  /* A set cancel flag: BL_ECANCEL, nothing kept, with one or two threads; an unset flag
+     changes nothing. */
+  size_t len;
+  char *text = random_csv (3, 2000, 0, 0, &len);
+  volatile sig_atomic_t flag = 1;
+  bl_table_opts opt;
+  bl_table *t;
+  bl_table_opts_init (&opt);
+  opt.cancel = &flag;
+  for (unsigned th = 1; th <= 2; th++) {
+    bl_err err = { 0 };
+    opt.threads = th;
+    flag = 1;
+    t = bl_table_read_mem (text, len, "c.csv", &opt, &err);
+    ck_assert_msg (t == NULL, "cancel threads %u: read succeeded", th);
+    ck_assert_int_eq (err.code, BL_ECANCEL);
+    ck_assert_str_eq (err.where, "c.csv");
+    ck_assert_str_eq (err.msg, "reading was cancelled");
+    flag = 0;
+    t = bl_table_read_mem (text, len, "c.csv", &opt, &err);
+    ck_assert_msg (t != NULL, "cancel threads %u, flag clear: %s", th, err.msg);
+    ck_assert_uint_eq (bl_table_nrows (t), 2000);
+    bl_table_free (t);
+  }
+  free (text);
+}
+END_TEST
+
+START_TEST (table_threads_alloc_fail)
+{
+  /* The alloc-fail loop through the parallel path (small steps, a categorical column, a
+     column typed late): every failure is BL_ENOMEM until the read succeeds, and then the
+     table is the sequential one. */
+  size_t len;
+  char *text = random_csv (11, 600, 300, 400, &len);
+  bl_table_opts opt;
+  unsigned long n;
+  bl_table *ref;
+  bl_err err = { 0 };
+  bl_table_opts_init (&opt);
+  opt.threads = 1;
+  ref = bl_table_read_mem (text, len, "a.csv", &opt, &err);
+  ck_assert_msg (ref != NULL, "threads alloc fail: %s", err.msg);
+  opt.threads = 2;
+  opt.chunk = 8192;
+  bl_alloc_fail_at (0);
+  bl_table_free (bl_table_read_mem (text, len, "a.csv", &opt, &err));
+  if (bl_alloc_count () == 0) {
+    bl_table_free (ref);
+    free (text);
+    return;                     /* built without --enable-alloc-fail */
+  }
+  for (n = 1; n < 100000; n++) {
+    bl_table *t;
+    bl_alloc_fail_at (n);
+    t = bl_table_read_mem (text, len, "a.csv", &opt, &err);
+    bl_alloc_fail_at (0);
+    if (t) {
+      same_table ("threads alloc fail", ref, t);
+      bl_table_free (t);
+      break;
+    }
+    ck_assert_msg (err.code == BL_ENOMEM, "threads alloc fail N=%lu: code %d (%s)", n,
+                   err.code, err.msg);
+  }
+  ck_assert_msg (n > 10 && n < 100000, "threads alloc fail: ended at N=%lu", n);
+  bl_table_free (ref);
+  free (text);
+}
+END_TEST
+
 static Suite *
 table_suite (void)
 {
@@ -1005,6 +1359,9 @@ table_suite (void)
   tcase_add_test (basics, table_long_field);
   tcase_add_test (basics, table_many_columns);
   tcase_add_test (basics, table_stdin);
+  tcase_add_test (basics, table_threads_identical);
+  tcase_add_test (basics, table_threads_options);
+  tcase_add_test (basics, table_threads_gzip);
   tcase_add_test (errors, table_not_a_number);
   tcase_add_test (errors, table_refused_numbers);
   tcase_add_test (errors, table_refused_numbers_as_labels);
@@ -1017,6 +1374,9 @@ table_suite (void)
   tcase_add_test (errors, table_option_errors);
   tcase_add_test (errors, table_io_errors);
   tcase_add_test (errors, table_alloc_fail);
+  tcase_add_test (errors, table_threads_errors_identical);
+  tcase_add_test (errors, table_cancel);
+  tcase_add_test (errors, table_threads_alloc_fail);
   suite_add_tcase (s, reference);
   suite_add_tcase (s, basics);
   suite_add_tcase (s, errors);

@@ -19,8 +19,15 @@ static const char usage_text[] =
   "  --terms TERMS           comma-separated terms: a column, log(t), sqrt(t), exp(t),\n"
   "                          pow(t, k), cross(t1, t2); names with spaces in [brackets]\n"
   "  --no-intercept          leave out the intercept column\n"
-  "  --method glm|ols        glm (default): maximum likelihood by IRLS; ols: the gaussian\n"
-  "                          family with the identity link\n"
+  "  --method glm|ols|wls    glm (default): maximum likelihood by IRLS; ols: the gaussian\n"
+  "                          family with the identity link; wls: weighted least squares\n"
+  "                          with --weights and/or --variance\n"
+  "  --variance EXPR         wls variance function: COL^K (proportional to a positive\n"
+  "                          column to the power K) or fitted^K (to the fitted mean);\n"
+  "                          K a number or 'est' (maximum likelihood)\n"
+  "  --transform NAME        ordinary least squares of log(y), sqrt(y), or a Box-Cox\n"
+  "                          power: boxcox (estimated) or boxcox=L; reported on y's scale\n"
+  "  --shift C               transform y + C (for y <= 0; results depend on C)\n"
   "  --family NAME           gaussian (default), poisson, gamma, inverse-gaussian\n"
   "  --link NAME             identity, log, inverse; default: the canonical link (identity,\n"
   "                          log, inverse), but log for inverse-gaussian, whose canonical\n"
@@ -33,6 +40,8 @@ static const char usage_text[] =
   "  --dispersion KIND       model (default) or pearson (poisson: scale the standard\n"
   "                          errors by the Pearson estimate)\n"
   "  --level X               confidence level of the intervals (default 0.95)\n"
+  "  --se KIND               standard errors: model (default), hc0, hc1, hc2, hc3\n"
+  "                          (heteroscedasticity-consistent sandwich)\n"
   "\n"
   "input:\n"
   "  --delimiter C           field delimiter (default ',', or tab for .tsv names)\n"
@@ -57,7 +66,7 @@ enum {
   OPT_RESPONSE = 256, OPT_TERMS, OPT_NO_INTERCEPT, OPT_METHOD, OPT_FAMILY, OPT_LINK,
   OPT_WEIGHTS, OPT_OFFSET, OPT_CATEGORICAL, OPT_REFERENCE, OPT_DISPERSION, OPT_LEVEL,
   OPT_DELIMITER, OPT_DECIMAL_COMMA, OPT_MAX_ITER, OPT_EPSILON, OPT_SOLVER, OPT_THREADS,
-  OPT_JSON
+  OPT_JSON, OPT_VARIANCE, OPT_TRANSFORM, OPT_SHIFT, OPT_SE
 };
 
 static const struct option long_opts[] = {
@@ -80,6 +89,10 @@ static const struct option long_opts[] = {
   { "solver", required_argument, NULL, OPT_SOLVER },
   { "threads", required_argument, NULL, OPT_THREADS },
   { "json", no_argument, NULL, OPT_JSON },
+  { "variance", required_argument, NULL, OPT_VARIANCE },
+  { "transform", required_argument, NULL, OPT_TRANSFORM },
+  { "shift", required_argument, NULL, OPT_SHIFT },
+  { "se", required_argument, NULL, OPT_SE },
   { "output", required_argument, NULL, 'o' },
   { "quiet", no_argument, NULL, 'q' },
   { "help", no_argument, NULL, 'h' },
@@ -108,6 +121,40 @@ split_list (char *s, const char **list, size_t *n)
   }
 }
 
+/* --variance COL^K | fitted^K, K a number or 'est'.  COL may be written in brackets.  Fills
+   FO and *COL (pointing into BUF, a copy of TEXT); 0, or -1 for a malformed expression. */
+static int
+parse_variance (const char *text, char *buf, size_t cap, bl_fit_opts *fo, const char **col)
+{
+  char *hat;
+  if (strlen (text) >= cap)
+    return -1;
+  strcpy (buf, text);
+  hat = strrchr (buf, '^');
+  if (!hat || hat == buf || hat[1] == '\0')
+    return -1;
+  *hat = '\0';
+  if (strcmp (hat + 1, "est") == 0)
+    fo->power_est = 1;
+  else if (cli_parse_double (hat + 1, &fo->power) != 0)
+    return -1;
+  if (strcmp (buf, "fitted") == 0) {
+    fo->variance = BL_VARIANCE_FITTED;
+    *col = NULL;
+    return 0;
+  }
+  if (buf[0] == '[') {
+    const size_t len = strlen (buf);
+    if (len < 3 || buf[len - 1] != ']')
+      return -1;
+    buf[len - 1] = '\0';
+    memmove (buf, buf + 1, len - 1);
+  }
+  fo->variance = BL_VARIANCE_COLUMN;
+  *col = buf;
+  return 0;
+}
+
 int
 cmd_fit (int argc, char **argv)
 {
@@ -115,7 +162,9 @@ cmd_fit (int argc, char **argv)
   const char *output = NULL, *data = NULL;
   const char *categorical[MAX_LIST], *reference[MAX_LIST];
   size_t ncat = 0, nref = 0;
-  int json = 0, quiet = 0, intercept = 1, c, rc = EXIT_DATA;
+  int json = 0, quiet = 0, intercept = 1, c, rc = EXIT_DATA, method_given = 0;
+  const char *varcol = NULL;
+  char varbuf[1024];
   bl_fit_opts fo;
   bl_table_opts to;
   bl_design_opts dopt;
@@ -140,13 +189,67 @@ cmd_fit (int argc, char **argv)
     case OPT_TERMS: terms_text = optarg; break;
     case OPT_NO_INTERCEPT: intercept = 0; break;
     case OPT_METHOD:
+      method_given = 1;
       if (strcmp (optarg, "glm") == 0)
         fo.method = BL_METHOD_GLM;
       else if (strcmp (optarg, "ols") == 0)
         fo.method = BL_METHOD_OLS;
-      else
-        return cli_usage_error ("fit", "--method", "unknown method '%s' (expected glm or ols)",
-                                optarg);
+      else if (strcmp (optarg, "wls") == 0)
+        fo.method = BL_METHOD_WLS;
+      else {
+        free (catbuf);
+        return cli_usage_error ("fit", "--method", "unknown method '%s' (expected glm, ols or "
+                                "wls)", optarg);
+      }
+      break;
+    case OPT_VARIANCE:
+      if (parse_variance (optarg, varbuf, sizeof varbuf, &fo, &varcol) != 0) {
+        free (catbuf);
+        return cli_usage_error ("fit", "--variance", "expected COL^K or fitted^K with K a "
+                                "number or 'est', got '%s'", optarg);
+      }
+      break;
+    case OPT_TRANSFORM:
+      fo.lambda_est = 0;
+      if (strcmp (optarg, "log") == 0)
+        fo.transform = BL_TRANSFORM_LOG;
+      else if (strcmp (optarg, "sqrt") == 0)
+        fo.transform = BL_TRANSFORM_SQRT;
+      else if (strcmp (optarg, "boxcox") == 0) {
+        fo.transform = BL_TRANSFORM_BOXCOX;
+        fo.lambda_est = 1;
+      } else if (strncmp (optarg, "boxcox=", 7) == 0
+                 && cli_parse_double (optarg + 7, &fo.lambda) == 0) {
+        fo.transform = BL_TRANSFORM_BOXCOX;
+      } else {
+        free (catbuf);
+        return cli_usage_error ("fit", "--transform", "expected log, sqrt, boxcox or "
+                                "boxcox=L, got '%s'", optarg);
+      }
+      break;
+    case OPT_SHIFT:
+      if (cli_parse_double (optarg, &fo.shift) != 0) {
+        free (catbuf);
+        return cli_usage_error ("fit", "--shift", "expected a number, got '%s'", optarg);
+      }
+      fo.shift_given = 1;
+      break;
+    case OPT_SE:
+      if (strcmp (optarg, "model") == 0)
+        fo.se = BL_SE_MODEL;
+      else if (strcmp (optarg, "hc0") == 0)
+        fo.se = BL_SE_HC0;
+      else if (strcmp (optarg, "hc1") == 0)
+        fo.se = BL_SE_HC1;
+      else if (strcmp (optarg, "hc2") == 0)
+        fo.se = BL_SE_HC2;
+      else if (strcmp (optarg, "hc3") == 0)
+        fo.se = BL_SE_HC3;
+      else {
+        free (catbuf);
+        return cli_usage_error ("fit", "--se", "expected model, hc0, hc1, hc2 or hc3, got "
+                                "'%s'", optarg);
+      }
       break;
     case OPT_FAMILY:
       if (!(fo.fam = bl_family_find (optarg)))
@@ -285,6 +388,30 @@ cmd_fit (int argc, char **argv)
       goto fail;
     }
   }
+  if (fo.variance != BL_VARIANCE_NONE) {
+    if (method_given && fo.method != BL_METHOD_WLS) {
+      free (catbuf);
+      bl_terms_free (terms);
+      bl_terms_free (offset);
+      return cli_usage_error ("fit", "--variance", "a variance function needs --method wls");
+    }
+    fo.method = BL_METHOD_WLS;
+    fo.variance_col = varcol;
+  }
+  if (fo.method == BL_METHOD_WLS && fo.variance == BL_VARIANCE_NONE && !weights) {
+    free (catbuf);
+    bl_terms_free (terms);
+    bl_terms_free (offset);
+    return cli_usage_error ("fit", "--method", "wls needs --weights COL or --variance EXPR");
+  }
+  if (fo.shift_given && fo.transform == BL_TRANSFORM_NONE) {
+    free (catbuf);
+    bl_terms_free (terms);
+    bl_terms_free (offset);
+    return cli_usage_error ("fit", "--shift", "a shift applies only with --transform");
+  }
+  if (fo.transform != BL_TRANSFORM_NONE && !method_given)
+    fo.method = BL_METHOD_OLS;
   if (fo.method == BL_METHOD_OLS && fo.fam == NULL)
     fo.fam = &bl_family_gaussian;
 
@@ -297,6 +424,7 @@ cmd_fit (int argc, char **argv)
   dopt.n_reference = nref;
   dopt.weights = weights;
   dopt.offset = offset;
+  dopt.variance = varcol;
   if (!(design = bl_design_new (table, response, terms, &dopt, &err)))
     goto fail;
   if (!(fit = bl_fit_glm (design, &fo, &err)))

@@ -15,20 +15,7 @@
 #include <string.h>
 #include <gsl/gsl_cdf.h>
 #include "alloc.h"
-#include "fit.h"
-
-struct bl_fit {
-  const bl_design *d;
-  const bl_family *fam;
-  const bl_link *link;
-  bl_method method;
-  bl_fit_stats st;
-  bl_err status;
-  bl_warnings warn;
-  size_t n, p;
-  double *beta, *se, *wald, *pval, *lo, *hi, *cov, *mu, *eta;
-  int *aliased;
-};
+#include "fit_impl.h"
 
 void
 bl_fit_opts_init (bl_fit_opts *opt)
@@ -38,13 +25,35 @@ bl_fit_opts_init (bl_fit_opts *opt)
   opt->link = NULL;
   opt->level = BL_FIT_LEVEL;
   opt->dispersion_pearson = 0;
+  opt->se = BL_SE_MODEL;
+  opt->transform = BL_TRANSFORM_NONE;
+  opt->lambda_est = 0;
+  opt->lambda = 1.0;
+  opt->shift_given = 0;
+  opt->shift = 0.0;
+  opt->variance = BL_VARIANCE_NONE;
+  opt->variance_col = NULL;
+  opt->power_est = 0;
+  opt->power = 0.0;
+  opt->wls_max_iter = BL_WLS_MAX_ITER;
   bl_irls_opts_init (&opt->irls);
 }
 
 const char *
 bl_method_name (bl_method m)
 {
-  return m == BL_METHOD_OLS ? "ols" : "glm";
+  switch (m) {
+  case BL_METHOD_OLS: return "ols";
+  case BL_METHOD_WLS: return "wls";
+  default: return "glm";
+  }
+}
+
+const char *
+bl_se_kind_name (bl_se_kind k)
+{
+  static const char *const names[] = { "model", "hc0", "hc1", "hc2", "hc3" };
+  return (unsigned) k < 5 ? names[k] : "model";
 }
 
 void
@@ -62,6 +71,12 @@ bl_fit_free (bl_fit *f)
   bl_free (f->mu);
   bl_free (f->eta);
   bl_free (f->aliased);
+  bl_free (f->y_own);
+  bl_free (f->a_own);
+  bl_free (f->prof_lambda);
+  bl_free (f->prof_loglik);
+  bl_free (f->cov_unscaled);
+  bl_free (f->w);
   bl_warnings_clear (&f->warn);
   bl_free (f);
 }
@@ -88,9 +103,8 @@ ones_fill (const void *ctx, size_t row0, size_t nr, double *out, size_t ld)
 
 /* y inside the family's support on every row; count the offenders and name the first. */
 static int
-check_support (const bl_design *d, const bl_family *fam, bl_err *err)
+check_support (const bl_design *d, const double *y, const bl_family *fam, bl_err *err)
 {
-  const double *y = bl_design_y (d);
   const size_t n = bl_design_n (d);
   size_t bad = 0, first = 0;
   for (size_t i = 0; i < n; i++)
@@ -114,7 +128,7 @@ null_deviance (bl_fit *f, const bl_fit_opts *opt)
 {
   const bl_design *d = f->d;
   const size_t n = f->n;
-  const double *y = bl_design_y (d), *a = bl_design_prior_w (d), *off = bl_design_offset (d);
+  const double *y = f->y, *a = f->a, *off = bl_design_offset (d);
   long double dev = 0.0L;
   f->st.deviance_null_why = "";
   if (bl_design_has_intercept (d) && !off) {
@@ -172,7 +186,9 @@ alloc_tables (bl_fit *f)
   f->aliased = bl_calloc (p, sizeof (int));
   f->mu = bl_mallocn (n, sizeof (double));
   f->eta = bl_mallocn (n, sizeof (double));
-  return f->beta && f->se && f->wald && f->pval && f->lo && f->hi && f->cov && f->aliased
+  f->cov_unscaled = bl_mallocn (p * p, sizeof (double));
+  f->w = bl_mallocn (n, sizeof (double));
+  return f->cov_unscaled && f->w && f->beta && f->se && f->wald && f->pval && f->lo && f->hi && f->cov && f->aliased
          && f->mu && f->eta;
 }
 
@@ -182,15 +198,21 @@ summarize (bl_fit *f, const bl_irls_work *ws, const bl_fit_opts *opt, bl_err *er
 {
   const bl_design *d = f->d;
   const size_t n = f->n, p = f->p;
-  const double *y = bl_design_y (d), *a = bl_design_prior_w (d);
+  const double *y = f->y, *a = f->a;
   const bl_lsq_sol *sol = bl_irls_sol (ws);
   bl_fit_stats *st = &f->st;
   long double x2 = 0.0L, ssy = 0.0L;
-  double q = NAN, scale_tot;
+  double scale_tot;
   int wst;
 
   memcpy (f->mu, bl_irls_mu (ws), n * sizeof (double));
   memcpy (f->eta, bl_irls_eta (ws), n * sizeof (double));
+  memcpy (f->cov_unscaled, sol->cov, p * p * sizeof (double));
+  for (size_t i = 0; i < n; i++) {
+    /* working weights at the fit, for leverages and sandwich covariances */
+    const double dmu = f->link->dmu_deta (f->eta[i]);
+    f->w[i] = (a ? a[i] : 1.0) * dmu * dmu / f->fam->var (f->mu[i]);
+  }
   st->rank = sol->rank;
   st->dof_resid = n > sol->rank ? n - sol->rank : 0;
   st->dof_null = bl_design_has_intercept (d) ? n - 1 : n;
@@ -265,39 +287,20 @@ summarize (bl_fit *f, const bl_irls_work *ws, const bl_fit_opts *opt, bl_err *er
     }
   }
 
-  /* Wald table: z = beta / se; p two-sided; interval beta -/+ q se with q the normal or t
-     quantile at (1 + level) / 2. */
-  if (st->wald_is_t) {
-    if (st->dof_resid > 0)
-      q = gsl_cdf_tdist_Qinv ((1.0 - opt->level) / 2.0, (double) st->dof_resid);
-  } else {
-    q = gsl_cdf_ugaussian_Qinv ((1.0 - opt->level) / 2.0);
-  }
   for (size_t j = 0; j < p; j++) {
     f->aliased[j] = sol->aliased[j];
+    f->beta[j] = sol->aliased[j] ? NAN : bl_irls_beta (ws)[j];
     for (size_t k = 0; k < p; k++)
       f->cov[j + k * p] = (sol->aliased[j] || sol->aliased[k]) ? NAN
                           : sol->cov[j + k * p] * st->phi_used;
     if (sol->aliased[j]) {
-      f->beta[j] = f->se[j] = f->wald[j] = f->pval[j] = f->lo[j] = f->hi[j] = NAN;
       wst = bl_warnings_add (&f->warn, "'%s' is aliased (a linear combination of the terms "
                              "before it) and was left out", bl_design_label (d, j));
       if (wst != BL_OK)
         return bl_fail (err, BL_ENOMEM, "fit", "out of memory");
-      continue;
     }
-    f->beta[j] = bl_irls_beta (ws)[j];
-    f->se[j] = sqrt (f->cov[j + j * p]);
-    f->wald[j] = (f->se[j] > 0.0) ? f->beta[j] / f->se[j] : NAN;
-    if (isfinite (f->wald[j]))
-      f->pval[j] = st->wald_is_t
-                   ? 2.0 * gsl_cdf_tdist_Q (fabs (f->wald[j]), (double) st->dof_resid)
-                   : 2.0 * gsl_cdf_ugaussian_Q (fabs (f->wald[j]));
-    else
-      f->pval[j] = NAN;
-    f->lo[j] = f->beta[j] - q * f->se[j];
-    f->hi[j] = f->beta[j] + q * f->se[j];
   }
+  bl_fit_wald_table (f);
 
   if (f->fam == &bl_family_poisson && st->dof_resid > 0
       && st->phi_pearson > BL_FIT_OVERDISPERSION && !opt->dispersion_pearson) {
@@ -311,7 +314,8 @@ summarize (bl_fit *f, const bl_irls_work *ws, const bl_fit_opts *opt, bl_err *er
 }
 
 bl_fit *
-bl_fit_glm (const bl_design *d, const bl_fit_opts *opt, bl_err *err)
+bl_fit_core (const bl_design *d, const double *y, const double *a, const bl_fit_opts *opt,
+             int light, bl_err *err)
 {
   bl_fit *f;
   bl_irls_work *ws = NULL;
@@ -330,7 +334,7 @@ bl_fit_glm (const bl_design *d, const bl_fit_opts *opt, bl_err *err)
              opt->level);
     return NULL;
   }
-  if (check_support (d, fam, err) != BL_OK)
+  if (check_support (d, y ? y : bl_design_y (d), fam, err) != BL_OK)
     return NULL;
   f = bl_calloc (1, sizeof *f);
   if (!f) {
@@ -338,6 +342,26 @@ bl_fit_glm (const bl_design *d, const bl_fit_opts *opt, bl_err *err)
     return NULL;
   }
   f->d = d;
+  f->y = bl_design_y (d);
+  f->a = bl_design_prior_w (d);
+  if (y) {
+    if (!(f->y_own = bl_mallocn (bl_design_n (d), sizeof (double))))
+      goto nomem;
+    memcpy (f->y_own, y, bl_design_n (d) * sizeof (double));
+    f->y = f->y_own;
+  }
+  if (a) {
+    if (!(f->a_own = bl_mallocn (bl_design_n (d), sizeof (double))))
+      goto nomem;
+    memcpy (f->a_own, a, bl_design_n (d) * sizeof (double));
+    f->a = f->a_own;
+  }
+  f->tr.kind = BL_TRANSFORM_NONE;
+  f->tr.name = NULL;
+  f->tr.lambda = f->tr.lambda_lo = f->tr.lambda_hi = f->tr.lambda_practical = NAN;
+  f->var.kind = BL_VARIANCE_NONE;
+  f->var.power = f->var.power_se = NAN;
+  f->st.loglik_transformed = NAN;
   f->fam = fam;
   f->link = lnk;
   f->method = opt->method;
@@ -352,10 +376,9 @@ bl_fit_glm (const bl_design *d, const bl_fit_opts *opt, bl_err *err)
     goto nomem;
 
   if (fam == &bl_family_poisson) {
-    const double *y = bl_design_y (d);
     size_t nonint = 0;
     for (size_t i = 0; i < f->n; i++)
-      if (y[i] != floor (y[i]))
+      if (f->y[i] != floor (f->y[i]))
         nonint++;
     if (nonint && bl_warnings_add (&f->warn, "'%s' has %zu non-integer values; the poisson "
                                    "likelihood treats them as counts", bl_design_response (d),
@@ -367,9 +390,9 @@ bl_fit_glm (const bl_design *d, const bl_fit_opts *opt, bl_err *err)
   m.link = lnk;
   m.n = f->n;
   m.p = f->p;
-  m.y = bl_design_y (d);
+  m.y = f->y;
   m.offset = bl_design_offset (d);
-  m.prior_w = bl_design_prior_w (d);
+  m.prior_w = f->a;
   m.fill = design_fill;
   m.fill_ld = design_fill_ld;
   m.ctx = d;
@@ -417,12 +440,89 @@ bl_fit_glm (const bl_design *d, const bl_fit_opts *opt, bl_err *err)
     return NULL;
   }
   bl_irls_work_free (ws);
-  null_deviance (f, opt);
+  if (!light)
+    null_deviance (f, opt);
+  else {
+    f->st.deviance_null = NAN;
+    f->st.deviance_null_why = "not computed for an intermediate fit";
+  }
   return f;
 nomem:
   bl_fit_free (f);
   bl_fail (err, BL_ENOMEM, "fit", "out of memory");
   return NULL;
+}
+
+/* Wald table from f->cov: z = beta / se; p two-sided; interval beta -/+ q se with q the
+   normal or t (on dof_resid) quantile at (1 + level) / 2. */
+void
+bl_fit_wald_table (bl_fit *f)
+{
+  const bl_fit_stats *st = &f->st;
+  const size_t p = f->p;
+  double q = NAN;
+  if (st->wald_is_t) {
+    if (st->dof_resid > 0)
+      q = gsl_cdf_tdist_Qinv ((1.0 - st->level) / 2.0, (double) st->dof_resid);
+  } else {
+    q = gsl_cdf_ugaussian_Qinv ((1.0 - st->level) / 2.0);
+  }
+  for (size_t j = 0; j < p; j++) {
+    if (f->aliased[j]) {
+      f->beta[j] = f->se[j] = f->wald[j] = f->pval[j] = f->lo[j] = f->hi[j] = NAN;
+      continue;
+    }
+    f->se[j] = sqrt (f->cov[j + j * p]);
+    f->wald[j] = (f->se[j] > 0.0) ? f->beta[j] / f->se[j] : NAN;
+    if (isfinite (f->wald[j]))
+      f->pval[j] = st->wald_is_t
+                   ? 2.0 * gsl_cdf_tdist_Q (fabs (f->wald[j]), (double) st->dof_resid)
+                   : 2.0 * gsl_cdf_ugaussian_Q (fabs (f->wald[j]));
+    else
+      f->pval[j] = NAN;
+    f->lo[j] = f->beta[j] - q * f->se[j];
+    f->hi[j] = f->beta[j] + q * f->se[j];
+  }
+}
+
+void
+bl_fit_set_loglik (bl_fit *f, double loglik, size_t k)
+{
+  bl_fit_stats *st = &f->st;
+  const size_t n = f->n;
+  st->k = k;
+  st->loglik = loglik;
+  if (!isfinite (loglik)) {
+    st->aic = st->aicc = st->bic = NAN;
+    return;
+  }
+  st->aic = -2.0 * loglik + 2.0 * (double) k;
+  st->bic = -2.0 * loglik + (double) k * log ((double) n);
+  if (n > k + 1) {
+    st->aicc = st->aic + 2.0 * (double) k * (double) (k + 1) / (double) (n - k - 1);
+    st->aicc_why = "";
+  } else {
+    st->aicc = NAN;
+    st->aicc_why = "n - k - 1 <= 0: the small-sample correction does not exist";
+  }
+}
+
+bl_fit *
+bl_fit_glm (const bl_design *d, const bl_fit_opts *opt, bl_err *err)
+{
+  bl_fit *f;
+  if (opt->transform != BL_TRANSFORM_NONE)
+    f = bl_fit_transform_run (d, opt, err);
+  else if (opt->method == BL_METHOD_WLS)
+    f = bl_fit_wls_run (d, opt, err);
+  else
+    f = bl_fit_core (d, NULL, NULL, opt, 0, err);
+  if (f && f->st.converged && opt->se != BL_SE_MODEL
+      && bl_fit_sandwich (f, opt->se, err) != BL_OK) {
+    bl_fit_free (f);
+    return NULL;
+  }
+  return f;
 }
 
 const bl_err *bl_fit_status (const bl_fit *f) { return &f->status; }
@@ -442,3 +542,8 @@ const int *bl_fit_aliased (const bl_fit *f) { return f->aliased; }
 const double *bl_fit_cov (const bl_fit *f) { return f->cov; }
 const double *bl_fit_mu (const bl_fit *f) { return f->mu; }
 const double *bl_fit_eta (const bl_fit *f) { return f->eta; }
+const double *bl_fit_y (const bl_fit *f) { return f->y; }
+const double *bl_fit_prior_w (const bl_fit *f) { return f->a; }
+const double *bl_fit_working_w (const bl_fit *f) { return f->w; }
+const bl_fit_transform_info *bl_fit_transform (const bl_fit *f) { return &f->tr; }
+const bl_fit_variance_info *bl_fit_variance (const bl_fit *f) { return &f->var; }

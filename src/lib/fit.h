@@ -11,7 +11,48 @@
 extern "C" {
 #endif
 
-typedef enum bl_method { BL_METHOD_GLM = 0, BL_METHOD_OLS } bl_method;
+typedef enum bl_method { BL_METHOD_GLM = 0, BL_METHOD_OLS, BL_METHOD_WLS } bl_method;
+
+/* Standard errors: model-based, or the heteroscedasticity-consistent sandwich (White 1980,
+   Econometrica 48, 817-838; MacKinnon & White 1985, J. Econometrics 29, 305-325). */
+typedef enum bl_se_kind { BL_SE_MODEL = 0, BL_SE_HC0, BL_SE_HC1, BL_SE_HC2, BL_SE_HC3 } bl_se_kind;
+
+/* A transform of the response for ordinary least squares. */
+typedef enum bl_transform {
+  BL_TRANSFORM_NONE = 0, BL_TRANSFORM_LOG, BL_TRANSFORM_SQRT, BL_TRANSFORM_BOXCOX
+} bl_transform;
+
+/* The variance function of weighted least squares: Var y_i = sigma^2 v_i / a_i with
+   v_i = x_i^K (a column) or mu_i^K (the fitted mean). */
+typedef enum bl_variance { BL_VARIANCE_NONE = 0, BL_VARIANCE_COLUMN, BL_VARIANCE_FITTED } bl_variance;
+
+#define BL_BOXCOX_MIN (-3.0)
+#define BL_BOXCOX_MAX 3.0
+#define BL_BOXCOX_GRID 0.1        /* grid step of the profile search */
+#define BL_WLS_POWER_MIN (-6.0)   /* search range of an estimated variance power */
+#define BL_WLS_POWER_MAX 6.0
+#define BL_WLS_MAX_ITER 50        /* feasible WLS reweighting steps */
+
+typedef struct bl_fit_transform_info {
+  bl_transform kind;
+  const char *name;               /* "log", "sqrt", "boxcox"; NULL for none */
+  double lambda;                  /* Box-Cox power (NAN for log and sqrt) */
+  double lambda_lo, lambda_hi;    /* 95% profile interval; NAN when open */
+  double lambda_practical;        /* nearest multiple of 0.5 inside; NAN when none */
+  int lambda_estimated;
+  int shift_given;
+  double shift;                   /* y + shift was transformed */
+  size_t nprofile;                /* profile points (lambda, loglik), for plotting */
+  const double *profile_lambda, *profile_loglik;
+} bl_fit_transform_info;
+
+typedef struct bl_fit_variance_info {
+  bl_variance kind;
+  char expr[192];                 /* resolved: "fitted^1.63", "load_pct^2" */
+  double power, power_se;         /* power_se NAN when the power was fixed */
+  int power_estimated;
+  size_t wls_iterations;          /* feasible WLS steps before the likelihood maximization */
+} bl_fit_variance_info;
 
 #define BL_FIT_LEVEL 0.95
 #define BL_FIT_OVERDISPERSION 1.5   /* Pearson chi2 / dof above this: warn (common practice) */
@@ -22,6 +63,18 @@ typedef struct bl_fit_opts {
   const bl_link *link;            /* NULL: the family's default link */
   double level;                   /* confidence level of the intervals, BL_FIT_LEVEL */
   int dispersion_pearson;         /* poisson: scale the covariance by the Pearson estimate */
+  bl_se_kind se;                  /* BL_SE_MODEL */
+  bl_transform transform;         /* ordinary least squares of a transformed response */
+  int lambda_est;                 /* boxcox: estimate lambda (else use lambda) */
+  double lambda;
+  int shift_given;
+  double shift;                   /* transform y + shift */
+  bl_variance variance;           /* BL_METHOD_WLS: the variance function (the column is the
+                                     design's variance column) */
+  const char *variance_col;       /* its name, for the resolved expression ("load_pct^2") */
+  int power_est;                  /* estimate K (else use power) */
+  double power;
+  size_t wls_max_iter;            /* BL_WLS_MAX_ITER */
   bl_irls_opts irls;
 } bl_fit_opts;
 
@@ -39,12 +92,16 @@ typedef struct bl_fit_stats {
   double level;
   double deviance, deviance_null, pearson, phi_pearson, phi_ml, phi_used;
   double loglik, aic, aicc, bic;
+  double loglik_transformed;      /* transformed OLS: the normal loglik of h(y); else NAN */
   const char *deviance_null_why, *loglik_why, *aicc_why, *phi_ml_why;
   const char *solver;             /* "qr-extended" or "qr-streamed" */
-  const char *se_kind;            /* "model" or "pearson" */
+  const char *se_kind;            /* "model", "pearson", "hc0" ... "hc3" */
 } bl_fit_stats;
 
-/* Fit a GLM (or OLS) to the rows and columns of D.
+/* Fit the model OPT describes to the rows and columns of D: a GLM by IRLS, OLS, weighted least
+   squares (BL_METHOD_WLS: known weights, or a variance function with its power fixed or
+   estimated by maximum likelihood), or OLS of a transformed response (log, sqrt, Box-Cox with
+   lambda fixed or estimated), with model or sandwich standard errors.
 
    Returns NULL with ERR filled for problems found before fitting: BL_EDATA when y is outside
    the family's support (where = "FILE:LINE" of the first such row, and the message counts
@@ -75,9 +132,18 @@ const double *bl_fit_hi (const bl_fit *fit);
 const int *bl_fit_aliased (const bl_fit *fit);
 /* Covariance matrix (p x p column-major; aliased rows/columns NAN), the factor times phi_used. */
 const double *bl_fit_cov (const bl_fit *fit);
-/* Fitted means and linear predictors over the design's rows (length n). */
+/* Fitted means and linear predictors over the design's rows (length n).  For a transformed
+   response both are on the transformed scale. */
 const double *bl_fit_mu (const bl_fit *fit);
 const double *bl_fit_eta (const bl_fit *fit);
+/* The response actually fitted (transformed when there is a transform), the prior weights
+   (NULL for all ones; WLS: the final weights a_i / v_i), and the IRLS working weights. */
+const double *bl_fit_y (const bl_fit *fit);
+const double *bl_fit_prior_w (const bl_fit *fit);
+const double *bl_fit_working_w (const bl_fit *fit);
+const bl_fit_transform_info *bl_fit_transform (const bl_fit *fit);
+const bl_fit_variance_info *bl_fit_variance (const bl_fit *fit);
+const char *bl_se_kind_name (bl_se_kind k);
 
 #ifdef __cplusplus
 }

@@ -558,14 +558,44 @@ bl_irls_finish (bl_irls_work *ws, bl_err *err)
   return solve (ws, err);
 }
 
+/* The largest coefficient step of the last solve, in units of |beta_j| + se_j. */
+static double
+beta_change (const bl_irls_work *ws)
+{
+  const size_t p = ws->p;
+  const double phi = ws->m.fam->phi_free && ws->n > ws->sol->rank
+                     ? ws->dev / (double) (ws->n - ws->sol->rank) : 1.0;
+  double worst = 0.0;
+  for (size_t j = 0; j < p; j++) {
+    double se, dj;
+    if (ws->sol->aliased[j])
+      continue;
+    se = sqrt (phi * ws->sol->cov[j + j * p]);
+    dj = fabs (ws->beta_next[j] - ws->beta[j]) / (fabs (ws->beta[j]) + se + DBL_MIN);
+    if (!(dj <= worst))
+      worst = dj;
+  }
+  return worst;
+}
+
 int
 bl_irls_run (bl_irls_work *ws, bl_err *err)
 {
   int st = bl_irls_init (ws, err);
   for (size_t it = 0; st == BL_OK && it < ws->opt.max_iter; it++) {
     st = bl_irls_iterate (ws, err);
-    if (st == BL_OK && bl_irls_test (ws) == BL_OK)
+    if (st == BL_OK && bl_irls_test (ws) == BL_OK) {
+      double prev = HUGE_VAL;
+      for (size_t k = 0; !ws->exact && k < BL_IRLS_MAX_POLISH; k++) {
+        const double ch = beta_change (ws);
+        if (!(ch > BL_IRLS_EPSBETA) || ch >= 0.9 * prev)
+          break;
+        prev = ch;
+        if ((st = bl_irls_iterate (ws, err)) != BL_OK)
+          return st;
+      }
       return bl_irls_finish (ws, err);
+    }
   }
   if (st != BL_OK)
     return st;

@@ -12,6 +12,7 @@
 #include <errno.h>
 #include <fcntl.h>
 #include <limits.h>
+#include <pthread.h>
 #include <string.h>
 #include <sys/stat.h>
 #include <unistd.h>
@@ -23,6 +24,21 @@
 #define IN_CAP (256u * 1024u)
 /* The most one read(2) call is asked for (well under SSIZE_MAX everywhere). */
 #define READ_MAX ((size_t) 1 << 30)
+
+/* Buffers filled by the producer thread of bl_source_prefetch.  Slots head .. head+count-1
+   (mod nbuf) hold data; the consumer owns the head slot's bytes while count > 0, the
+   producer owns the slot it fills, and the mutex orders the hand-overs. */
+typedef struct ring {
+  pthread_t tid;
+  pthread_mutex_t mu;
+  pthread_cond_t filled, freed;
+  unsigned char **buf;
+  size_t *len;
+  size_t nbuf, size;
+  size_t head, count, off;    /* off: bytes of the head slot already handed out */
+  int finished;               /* the producer stopped: at the end, or src->status failed */
+  int stop;                   /* bl_source_free asks the producer to stop */
+} ring;
 
 struct bl_source {
   char *name;                 /* for messages; "<stdin>" for "-" */
@@ -44,6 +60,7 @@ struct bl_source {
   int done;                   /* clean end reached */
   int status;                 /* BL_OK, or the sticky failure */
   bl_err saved;               /* the failure, replayed on later calls */
+  ring *ring;                 /* producer thread, after bl_source_prefetch */
 };
 
 /* zlib's allocations go through bl_malloc too, so fault injection reaches them. */
@@ -333,10 +350,147 @@ gz_read (bl_source *src, unsigned char *out, size_t cap, int *status, bl_err *er
   return want - zs->avail_out;
 }
 
+/* The producer: inflate into free slots until the end, a failure, or a stop request.  Every
+   field of SRC but ring belongs to this thread until it ends. */
+static void *
+producer (void *arg)
+{
+  bl_source *src = arg;
+  ring *r = src->ring;
+  for (;;) {
+    size_t slot, got;
+    int st;
+    pthread_mutex_lock (&r->mu);
+    while (r->count == r->nbuf && !r->stop)
+      pthread_cond_wait (&r->freed, &r->mu);
+    if (r->stop) {
+      r->finished = 1;
+      pthread_mutex_unlock (&r->mu);
+      return NULL;
+    }
+    slot = (r->head + r->count) % r->nbuf;
+    pthread_mutex_unlock (&r->mu);
+    got = gz_read (src, r->buf[slot], r->size, &st, NULL);   /* failure: sticky in src */
+    if (st == BL_OK && got == 0)
+      src->done = 1;
+    pthread_mutex_lock (&r->mu);
+    if (st != BL_OK || got == 0)
+      r->finished = 1;
+    else {
+      r->len[slot] = got;
+      r->count++;
+    }
+    pthread_cond_signal (&r->filled);
+    pthread_mutex_unlock (&r->mu);
+    if (st != BL_OK || got == 0)
+      return NULL;
+  }
+}
+
+/* bl_source_read once the producer runs: bytes from the head slot, or the producer's end. */
+static size_t
+ring_read (bl_source *src, void *buf, size_t cap, int *status, bl_err *err)
+{
+  ring *r = src->ring;
+  size_t slot, n;
+  *status = BL_OK;
+  if (cap == 0)
+    return 0;
+  pthread_mutex_lock (&r->mu);
+  while (r->count == 0 && !r->finished)
+    pthread_cond_wait (&r->filled, &r->mu);
+  if (r->count == 0) {          /* the producer has ended: its status is final */
+    *status = src->status;
+    if (*status != BL_OK && err)
+      *err = src->saved;
+    pthread_mutex_unlock (&r->mu);
+    return 0;
+  }
+  slot = r->head;
+  pthread_mutex_unlock (&r->mu);
+  n = r->len[slot] - r->off;
+  if (n > cap)
+    n = cap;
+  memcpy (buf, r->buf[slot] + r->off, n);
+  r->off += n;
+  if (r->off == r->len[slot]) {
+    pthread_mutex_lock (&r->mu);
+    r->off = 0;
+    r->head = (r->head + 1) % r->nbuf;
+    r->count--;
+    pthread_cond_signal (&r->freed);
+    pthread_mutex_unlock (&r->mu);
+  }
+  return n;
+}
+
+static void
+ring_free (ring *r)
+{
+  if (!r)
+    return;
+  if (r->buf)
+    for (size_t k = 0; k < r->nbuf; k++)
+      bl_free (r->buf[k]);
+  bl_free (r->buf);
+  bl_free (r->len);
+  bl_free (r);
+}
+
+int
+bl_source_prefetch (bl_source *src, size_t nbuf, size_t size, bl_err *err)
+{
+  ring *r;
+  if (!src->gzip || src->ring || src->done || src->status != BL_OK || nbuf == 0 || size == 0)
+    return BL_OK;
+  r = bl_calloc (1, sizeof *r);
+  if (!r)
+    return bl_fail (err, BL_ENOMEM, src->name, "out of memory reading the input");
+  r->nbuf = nbuf;
+  r->size = size;
+  r->buf = bl_calloc (nbuf, sizeof *r->buf);
+  r->len = bl_calloc (nbuf, sizeof *r->len);
+  if (!r->buf || !r->len) {
+    ring_free (r);
+    return bl_fail (err, BL_ENOMEM, src->name, "out of memory reading the input");
+  }
+  for (size_t k = 0; k < nbuf; k++)
+    if (!(r->buf[k] = bl_malloc (size))) {
+      ring_free (r);
+      return bl_fail (err, BL_ENOMEM, src->name, "out of memory reading the input");
+    }
+  if (pthread_mutex_init (&r->mu, NULL) != 0) {
+    ring_free (r);
+    return BL_OK;               /* stays synchronous */
+  }
+  if (pthread_cond_init (&r->filled, NULL) != 0) {
+    pthread_mutex_destroy (&r->mu);
+    ring_free (r);
+    return BL_OK;
+  }
+  if (pthread_cond_init (&r->freed, NULL) != 0) {
+    pthread_cond_destroy (&r->filled);
+    pthread_mutex_destroy (&r->mu);
+    ring_free (r);
+    return BL_OK;
+  }
+  src->ring = r;
+  if (pthread_create (&r->tid, NULL, producer, src) != 0) {
+    src->ring = NULL;
+    pthread_cond_destroy (&r->freed);
+    pthread_cond_destroy (&r->filled);
+    pthread_mutex_destroy (&r->mu);
+    ring_free (r);
+  }
+  return BL_OK;
+}
+
 size_t
 bl_source_read (bl_source *src, void *buf, size_t cap, int *status, bl_err *err)
 {
   size_t got;
+  if (src->ring)
+    return ring_read (src, buf, cap, status, err);
   if (src->status != BL_OK) {
     *status = src->status;
     if (err)
@@ -374,6 +528,18 @@ bl_source_free (bl_source *src)
 {
   if (!src)
     return;
+  if (src->ring) {
+    ring *r = src->ring;
+    pthread_mutex_lock (&r->mu);
+    r->stop = 1;
+    pthread_cond_signal (&r->freed);
+    pthread_mutex_unlock (&r->mu);
+    pthread_join (r->tid, NULL);
+    pthread_cond_destroy (&r->freed);
+    pthread_cond_destroy (&r->filled);
+    pthread_mutex_destroy (&r->mu);
+    ring_free (r);
+  }
   if (src->z_ready)
     inflateEnd (&src->zs);
   if (src->own_fd && src->fd >= 0)

@@ -25,6 +25,17 @@ bl_source *bl_source_open_mem (const void *buf, size_t len, const char *name, bl
    at the end: a change is BL_EIO ("file changed while being read"). */
 size_t bl_source_read (bl_source *src, void *buf, size_t cap, int *status, bl_err *err);
 
+/* Inflate ahead on a thread of its own: from now on a producer thread fills up to NBUF
+   buffers of SIZE bytes while the caller consumes them through bl_source_read, which hands
+   out the same bytes, and the same failure (with the same message) at the same point of the
+   stream, as without it.  Does nothing for a stream that is not gzip, or when called twice.
+   Returns BL_OK, or BL_ENOMEM with ERR filled (the source then stays as it was).  When no
+   thread can be started the source simply stays synchronous (BL_OK).  After this call the
+   source must be used from one thread at a time, as before; bl_source_free stops the
+   producer.  The first read should come before this call: zlib allocates its window on the
+   first inflate, and that allocation then happens on the caller's thread. */
+int bl_source_prefetch (bl_source *src, size_t nbuf, size_t size, bl_err *err);
+
 /* The name given at open ("-" shows as "<stdin>"); valid until bl_source_free. */
 const char *bl_source_name (const bl_source *src);
 /* Nonzero when the stream is gzip-compressed. */

@@ -15,6 +15,7 @@
 #include <errno.h>
 #include <float.h>
 #include <math.h>
+#include <pthread.h>
 #include <stdint.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -27,6 +28,8 @@
 #define READ_CHUNK ((size_t) 1 << 20)
 /* Rows allocated at the first data record; capacity doubles after that. */
 #define ROWS_INIT ((size_t) 1024)
+/* Buffers of READ_CHUNK bytes that a gzip producer thread may inflate ahead. */
+#define SOURCE_RING 4
 /* Longest excerpt of a bad cell quoted in a message. */
 #define CELL_QUOTE_MAX 60
 
@@ -57,6 +60,7 @@ struct bl_table {
   dict names;                 /* column names, in column order */
   column *cols;
   size_t *line;               /* cap entries: physical start line of each record */
+  int frozen;                 /* a worker writes into the arrays: they must not move */
 };
 
 /* One located field of the current record.  S points into the reader's buffer, after an
@@ -761,8 +765,12 @@ add_record (reader *rd, bl_table *t, size_t nf, size_t line, bl_err *err)
               nf == 1 ? "" : "s", t->ncols);
     return fail_at (rd, err, line, 0, msg);
   }
-  if (r == t->cap && grow_rows (t) != BL_OK)
-    return fail_nomem (rd, err);
+  if (r == t->cap) {
+    if (t->frozen)              /* cannot happen: par_step reserved enough rows */
+      return bl_fail (err, BL_EINTERNAL, rd->name, "row capacity reached in a parallel step");
+    if (grow_rows (t) != BL_OK)
+      return fail_nomem (rd, err);
+  }
   for (size_t j = 0; j < nf; j++) {
     const int st = put_cell (rd, t, j, &rd->f[j], err);
     if (st != BL_OK)
@@ -954,6 +962,330 @@ ends_with_tsv (const char *name)
   return 0;
 }
 
+/* Where the record loop stands: the next byte to parse, its line, and the empty lines seen
+   since the last record (they become one-field records only if another record follows). */
+typedef struct pstate {
+  size_t pos, line, pending, pending_line;
+  int have_header;
+} pstate;
+
+/* Parse every complete record in [ps->pos, rd->len).  Returns BL_CONTINUE when the buffer
+   ends (at its end, or at the start of a record that needs more bytes; ps->pos is there),
+   BL_OK right after the header was taken when HEADER_ONLY is set, or another code with ERR
+   filled. */
+static int
+parse_avail (reader *rd, bl_table *t, const bl_table_opts *opt, pstate *ps, int header_only,
+             bl_err *err)
+{
+  for (;;) {
+    char *p = rd->buf + ps->pos;
+    char *const end = rd->buf + rd->len;
+    size_t nf, next_line = ps->line;
+    int st;
+    if (p == end)
+      return BL_CONTINUE;
+    if (*p == '\n' || *p == '\r') {
+      /* An empty line: a record of one empty field, unless only empty lines follow. */
+      st = line_end (rd, &p, end, ps->line, 1, err);
+      if (st == REC_ERR)
+        return BL_EDATA;
+      if (st == REC_MORE)
+        return BL_CONTINUE;
+      if (ps->pending++ == 0)
+        ps->pending_line = ps->line;
+      ps->line++;
+      ps->pos = (size_t) (p - rd->buf);
+      continue;
+    }
+    if (ps->pending) {
+      if (!ps->have_header)
+        return fail_at (rd, err, ps->pending_line, 0, "no header row: the first line is empty");
+      for (; ps->pending; ps->pending--, ps->pending_line++) {
+        rd->f[0].s = p;
+        rd->f[0].n = 0;
+        rd->f[0].line = ps->pending_line;
+        rd->f[0].dquote = 0;
+        if ((st = add_record (rd, t, 1, ps->pending_line, err)) != BL_OK)
+          return st;
+      }
+    }
+    st = parse_record (rd, &p, &next_line, &nf, err);
+    if (st == REC_ERR)
+      return BL_EDATA;
+    if (st == REC_MORE)
+      return BL_CONTINUE;
+    if (!ps->have_header) {
+      if ((st = take_header (rd, t, nf, opt, err)) != BL_OK)
+        return st;
+      ps->have_header = 1;
+    } else if ((st = add_record (rd, t, nf, ps->line, err)) != BL_OK)
+      return st;
+    ps->line = next_line;
+    ps->pos = (size_t) (p - rd->buf);
+    if (header_only && ps->have_header)
+      return BL_OK;
+  }
+}
+
+/* ------------------------------------------------------------------ parallel parse
+
+   A chunk [pos, end) that ends at a line end is split at the first line end after its
+   middle.  A worker thread parses the second part on the guess that the split lies outside
+   quotes, while the calling thread parses the first part as usual, stopping at the split.
+   When the first part ends exactly at the split, with no empty lines pending, the guess was
+   right and the worker's rows are appended in order; otherwise (and whenever the worker met
+   anything it could not take: a bad cell, a wrong field count, an empty line, a quote left
+   open) its work is dropped and the second part is parsed again sequentially, so that the
+   table and the first error are those of the sequential parse, byte for byte.
+
+   The worker writes nothing that the calling thread reads, and allocates nothing (all its
+   arrays are made beforehand on the calling thread, so fault injection stays
+   deterministic).  It converts the numeric columns itself, straight into the table's arrays:
+   it counts the line feeds of the first part, and as every record of the first part ends at
+   one, its rows start at most that many rows on (when quoted line feeds make the first part
+   hold fewer rows, the merge moves them down).  The calling thread reserves the rows
+   beforehand, and the arrays are frozen (never reallocated) until the worker ends.  For a
+   categorical column, or one whose type is not known yet when it starts, the worker only
+   records where each cell is, and the merge feeds those cells through put_cell in row
+   order, so that level codes and type decisions are those of the sequential parse.  It
+   never writes the shared buffer: the strtod path works on a copy, and "" pairs are left
+   for the merge. */
+
+/* Longest numeric cell the worker converts through strtod (longer: sequential). */
+#define SPEC_NUM_MAX 128
+/* Parts shorter than this are parsed sequentially: a thread costs more than it saves. */
+#define SPEC_MIN ((size_t) 64 << 10)
+
+typedef struct spec {
+  reader rd;                  /* the worker's reader over the second part */
+  const char *first;          /* the first part, whose line feeds the worker counts */
+  size_t first_len;
+  size_t ncols;
+  int *type;                  /* column types when the worker started */
+  double **num;               /* per column: the table's array (NUM), or NULL */
+  size_t *line;               /* the table's line array */
+  size_t base, cap;           /* table rows before the step; rows reserved */
+  field **raw;                /* per column: located cells (line relative to the split) */
+  size_t rows_cap;            /* rows every raw array holds */
+  size_t off;                 /* the worker's first row: base + line feeds of the first part */
+  size_t nrows, lines;        /* records parsed, lines consumed */
+  int ok;                     /* the whole part was taken */
+} spec;
+
+static void
+spec_free (spec *w)
+{
+  for (size_t j = 0; j < w->ncols; j++)
+    if (w->raw)
+      bl_free (w->raw[j]);
+  bl_free (w->num);
+  bl_free (w->raw);
+  bl_free (w->type);
+  bl_free (w->rd.f);
+  memset (w, 0, sizeof *w);
+}
+
+/* Make W ready for a first part of LEN1 bytes and a second of LEN2 bytes of table T, and
+   reserve table rows for both: a record has at least ncols bytes (its delimiters and its
+   line end; the first part's last record ends at the split), so LEN / ncols + 2 rows are
+   enough for each part.  Returns BL_OK or BL_ENOMEM. */
+static int
+spec_prepare (spec *w, const reader *rd, bl_table *t, size_t len1, size_t len2)
+{
+  const size_t nc = t->ncols, rows = len2 / nc + 2, rows1 = len1 / nc + 2;
+  if (!w->type) {
+    w->ncols = nc;
+    w->type = bl_calloc (nc, sizeof *w->type);
+    w->num = bl_calloc (nc, sizeof *w->num);
+    w->raw = bl_calloc (nc, sizeof *w->raw);
+    w->rd.f = bl_mallocn (nc, sizeof *w->rd.f);
+    if (!w->type || !w->num || !w->raw || !w->rd.f)
+      return BL_ENOMEM;
+    w->rd.fcap = nc;
+  }
+  if (rows > SIZE_MAX / sizeof (field) || rows1 > SIZE_MAX / 4 - rows
+      || t->nrows > SIZE_MAX / 4 - rows - rows1)
+    return BL_ENOMEM;
+  while (t->cap < t->nrows + rows1 + rows)
+    if (grow_rows (t) != BL_OK)
+      return BL_ENOMEM;
+  if (rows > w->rows_cap) {
+    for (size_t j = 0; j < nc; j++)
+      if (w->raw[j]) {
+        field *v = bl_realloc (w->raw[j], rows * sizeof *v);
+        if (!v)
+          return BL_ENOMEM;
+        w->raw[j] = v;
+      }
+    w->rows_cap = rows;
+  }
+  for (size_t j = 0; j < nc; j++) {
+    w->type[j] = t->cols[j].type;
+    w->num[j] = w->type[j] == COL_NUM ? t->cols[j].num : NULL;
+    if (w->type[j] != COL_NUM && !w->raw[j]
+        && !(w->raw[j] = bl_mallocn (w->rows_cap, sizeof *w->raw[j])))
+      return BL_ENOMEM;
+  }
+  w->line = t->line;
+  w->base = t->nrows;
+  w->cap = t->cap;
+  /* The reader's settings, with its own fields; it never grows them (fmax = fcap). */
+  w->rd.name = rd->name;
+  w->rd.delim = rd->delim;
+  w->rd.mark = rd->mark;
+  memcpy (w->rd.stop, rd->stop, sizeof rd->stop);
+  w->rd.fmax = nc;
+  w->rd.max_levels = rd->max_levels;
+  w->rd.eof = 1;              /* the part ends at a line end or at the end of the input */
+  w->rd.src = NULL;
+  return BL_OK;
+}
+
+/* The worker: parse all of w->rd.buf, or give up (w->ok = 0) at the first thing it cannot
+   take.  Lines count from 0 at the split. */
+static void *
+spec_run (void *arg)
+{
+  spec *w = arg;
+  reader *rd = &w->rd;
+  char *p = rd->buf;
+  char *const end = rd->buf + rd->len;
+  size_t line = 0, r, nl = 0, lim;
+  char tmp[SPEC_NUM_MAX];
+  bl_err scratch;             /* parse_record's messages, never shown */
+  w->ok = 0;
+  for (size_t i = 0; i < w->first_len; i++)
+    nl += w->first[i] == '\n';
+  w->off = r = w->base + nl;
+  if (r > w->cap || w->cap - r < w->rows_cap)
+    return NULL;
+  lim = r + w->rows_cap;
+  while (p < end) {
+    size_t nf, next = line;
+    if (*p == '\n' || *p == '\r' || r == lim)
+      return NULL;
+    if (parse_record (rd, &p, &next, &nf, &scratch) != REC_DONE || nf != w->ncols)
+      return NULL;
+    for (size_t j = 0; j < nf; j++) {
+      const field *f = &rd->f[j];
+      const char *v = f->s;
+      size_t m = f->n;
+      double x;
+      if (w->type[j] != COL_NUM) {
+        w->raw[j][r - w->off] = *f;
+        continue;
+      }
+      if (f->dquote)
+        return NULL;            /* holds a quote: never a number nor a missing marker */
+      while (m && is_blank (*v))
+        v++, m--;
+      while (m && is_blank (v[m - 1]))
+        m--;
+      if (is_missing (v, m))
+        x = NAN;
+      else if (parse_number ((char *) v, m, rd->mark, &x, tmp, sizeof tmp) != NUM_OK)
+        return NULL;
+      w->num[j][r] = x;
+    }
+    w->line[r++] = line;
+    line = next;
+  }
+  w->nrows = r - w->off;
+  w->lines = line;
+  w->ok = 1;
+  return NULL;
+}
+
+/* Append the worker's rows to T; BASE_LINE is the line of the split. */
+static int
+spec_merge (reader *rd, bl_table *t, const spec *w, size_t base_line, bl_err *err)
+{
+  const size_t base = t->nrows, m = w->nrows;
+  int any_raw = 0;
+  if (w->off != base) {         /* quoted line feeds in the first part: move the rows down */
+    for (size_t j = 0; j < w->ncols; j++)
+      if (w->type[j] == COL_NUM)
+        memmove (t->cols[j].num + base, t->cols[j].num + w->off, m * sizeof (double));
+    memmove (t->line + base, t->line + w->off, m * sizeof *t->line);
+  }
+  for (size_t j = 0; j < w->ncols; j++)
+    if (w->type[j] != COL_NUM)
+      any_raw = 1;
+  for (size_t i = 0; i < m; i++) {
+    if (any_raw) {
+      t->nrows = base + i;
+      for (size_t j = 0; j < w->ncols; j++) {
+        field f;
+        int st;
+        if (w->type[j] == COL_NUM)
+          continue;
+        f = w->raw[j][i];
+        f.line += base_line;
+        if ((st = put_cell (rd, t, j, &f, err)) != BL_OK)
+          return st;
+      }
+    }
+    t->line[base + i] += base_line;
+  }
+  t->nrows = base + m;
+  return BL_OK;
+}
+
+/* One parallel step over the complete records from ps->pos, when there are enough of
+   them.  On return ps->pos has moved past them (or nothing happened).  Returns BL_OK or an
+   error code with ERR filled. */
+static int
+par_step (reader *rd, bl_table *t, const bl_table_opts *opt, pstate *ps, spec *w,
+          size_t min_part, bl_err *err)
+{
+  char *const buf = rd->buf;
+  size_t end = rd->len, split, save_len;
+  const char *nl;
+  pthread_t tid;
+  int started, st, save_eof;
+  if (!rd->eof) {             /* the chunk ends after its last line feed */
+    while (end > ps->pos && buf[end - 1] != '\n')
+      end--;
+  }
+  if (end - ps->pos < 2 * min_part)
+    return BL_OK;
+  nl = memchr (buf + ps->pos + (end - ps->pos) / 2, '\n', (end - ps->pos) / 2);
+  if (!nl || (size_t) (nl + 1 - buf) >= end)
+    return BL_OK;
+  split = (size_t) (nl + 1 - buf);
+  if (spec_prepare (w, rd, t, split - ps->pos, end - split) != BL_OK)
+    return fail_nomem (rd, err);
+  w->rd.buf = buf + split;
+  w->rd.len = end - split;
+  w->first = buf + ps->pos;
+  w->first_len = split - ps->pos;
+  started = pthread_create (&tid, NULL, spec_run, w) == 0;
+  t->frozen = started;
+  /* The first part, stopping at the split as if the input paused there. */
+  save_len = rd->len;
+  save_eof = rd->eof;
+  rd->len = split;
+  rd->eof = 0;
+  st = parse_avail (rd, t, opt, ps, 0, err);
+  rd->len = save_len;
+  rd->eof = save_eof;
+  if (started)
+    pthread_join (tid, NULL);
+  t->frozen = 0;
+  if (st != BL_CONTINUE)
+    return st;
+  if (started && w->ok && ps->pos == split && ps->pending == 0) {
+    if ((st = spec_merge (rd, t, w, ps->line, err)) != BL_OK)
+      return st;
+    ps->pos = end;
+    ps->line += w->lines;
+    return BL_OK;
+  }
+  /* The guess was wrong, or the worker stopped: the rest sequentially. */
+  st = parse_avail (rd, t, opt, ps, 0, err);
+  return st == BL_CONTINUE ? BL_OK : st;
+}
+
 static bl_table *
 read_source (bl_source *src, const bl_table_opts *opt_in, bl_err *err)
 {
@@ -961,14 +1293,18 @@ read_source (bl_source *src, const bl_table_opts *opt_in, bl_err *err)
   const bl_table_opts *opt = opt_in;
   reader rd;
   bl_table *t;
-  size_t pos = 0, line = 1, pending = 0, pending_line = 0;
-  int have_header = 0, st;
+  pstate ps;
+  spec w;
+  size_t chunk, min_part;
+  int par, st;
 
   if (!opt) {
     bl_table_opts_init (&defaults);
     opt = &defaults;
   }
   memset (&rd, 0, sizeof rd);
+  memset (&ps, 0, sizeof ps);
+  memset (&w, 0, sizeof w);
   rd.src = src;
   rd.name = bl_source_name (src);
   rd.delim = opt->delimiter ? opt->delimiter : ends_with_tsv (rd.name) ? '\t' : ',';
@@ -986,6 +1322,11 @@ read_source (bl_source *src, const bl_table_opts *opt_in, bl_err *err)
   }
   rd.stop[(unsigned char) rd.delim] = 1;
   rd.stop['\n'] = rd.stop['\r'] = rd.stop[0] = 1;
+  par = opt->threads >= 2;
+  chunk = opt->chunk ? opt->chunk : BL_TABLE_CHUNK;
+  if (chunk < 64)
+    chunk = 64;
+  min_part = chunk / 4 < SPEC_MIN ? chunk / 4 : SPEC_MIN;
 
   t = bl_calloc (1, sizeof *t);
   if (!t || !(t->source = bl_strdup (rd.name))) {
@@ -993,7 +1334,7 @@ read_source (bl_source *src, const bl_table_opts *opt_in, bl_err *err)
     fail_nomem (&rd, err);
     return NULL;
   }
-  rd.cap = READ_CHUNK;
+  rd.cap = par ? chunk : READ_CHUNK;
   rd.buf = bl_malloc (rd.cap + 1);
   if (!rd.buf) {
     fail_nomem (&rd, err);
@@ -1001,69 +1342,33 @@ read_source (bl_source *src, const bl_table_opts *opt_in, bl_err *err)
   }
   if (refill (&rd, 0, err) != BL_OK)
     goto fail;
+  if (par && !rd.eof && bl_source_is_gzip (src)
+      && bl_source_prefetch (src, SOURCE_RING, READ_CHUNK, err) != BL_OK)
+    goto fail;
+  ps.line = 1;
   if (rd.len >= 3 && memcmp (rd.buf, "\xef\xbb\xbf", 3) == 0)
-    pos = 3;                    /* a UTF-8 byte order mark */
+    ps.pos = 3;                 /* a UTF-8 byte order mark */
 
   for (;;) {
-    char *p = rd.buf + pos;
-    const char *const end = rd.buf + rd.len;
-    size_t nf, next_line = line;
-    if (p == end) {
-      if (rd.eof)
-        break;
-      if (refill (&rd, pos, err) != BL_OK)
-        goto fail;
-      pos = 0;
-      continue;
-    }
-    if (*p == '\n' || *p == '\r') {
-      /* An empty line: a record of one empty field, unless only empty lines follow. */
-      st = line_end (&rd, &p, rd.buf + rd.len, line, 1, err);
-      if (st == REC_ERR)
-        goto fail;
-      if (st == REC_DONE) {
-        if (pending++ == 0)
-          pending_line = line;
-        line++;
-        pos = (size_t) (p - rd.buf);
-        continue;
-      }
-    } else {
-      if (pending) {
-        if (!have_header) {
-          fail_at (&rd, err, pending_line, 0, "no header row: the first line is empty");
-          goto fail;
-        }
-        for (; pending; pending--, pending_line++) {
-          rd.f[0].s = p;
-          rd.f[0].n = 0;
-          rd.f[0].line = pending_line;
-          rd.f[0].dquote = 0;
-          if (add_record (&rd, t, 1, pending_line, err) != BL_OK)
-            goto fail;
-        }
-      }
-      st = parse_record (&rd, &p, &next_line, &nf, err);
-      if (st == REC_ERR)
-        goto fail;
-      if (st == REC_DONE) {
-        if (!have_header) {
-          if (take_header (&rd, t, nf, opt, err) != BL_OK)
-            goto fail;
-          have_header = 1;
-        } else if (add_record (&rd, t, nf, line, err) != BL_OK)
-          goto fail;
-        line = next_line;
-        pos = (size_t) (p - rd.buf);
-        continue;
-      }
-    }
-    /* REC_MORE */
-    if (refill (&rd, pos, err) != BL_OK)
+    if (opt->cancel && *opt->cancel) {
+      bl_fail (err, BL_ECANCEL, rd.name, "reading was cancelled");
       goto fail;
-    pos = 0;
+    }
+    if (par && ps.have_header && !ps.pending
+        && par_step (&rd, t, opt, &ps, &w, min_part, err) != BL_OK)
+      goto fail;
+    st = parse_avail (&rd, t, opt, &ps, par && !ps.have_header, err);
+    if (st == BL_OK)
+      continue;                 /* the header: the rest of the chunk may go in parallel */
+    if (st != BL_CONTINUE)
+      goto fail;
+    if (rd.eof)
+      break;
+    if (refill (&rd, ps.pos, err) != BL_OK)
+      goto fail;
+    ps.pos = 0;
   }
-  if (!have_header) {
+  if (!ps.have_header) {
     bl_fail (err, BL_EDATA, rd.name, "no header row");
     goto fail;
   }
@@ -1071,11 +1376,13 @@ read_source (bl_source *src, const bl_table_opts *opt_in, bl_err *err)
     goto fail;
   bl_free (rd.buf);
   bl_free (rd.f);
+  spec_free (&w);
   return t;
 
 fail:
   bl_free (rd.buf);
   bl_free (rd.f);
+  spec_free (&w);
   table_free_parts (t);
   return NULL;
 }
@@ -1090,6 +1397,9 @@ bl_table_opts_init (bl_table_opts *opt)
   opt->categorical = NULL;
   opt->n_categorical = 0;
   opt->max_levels = BL_TABLE_MAX_LEVELS;
+  opt->threads = BL_TABLE_THREADS;
+  opt->cancel = NULL;
+  opt->chunk = BL_TABLE_CHUNK;
 }
 
 bl_table *

@@ -1,0 +1,330 @@
+/* transform.c -- ordinary least squares of a transformed response, reported on the original
+   scale of y.
+
+   With z = h(y) ~ Normal(x'b, sigma^2 / a), the density of y is the normal density of h(y)
+   times the Jacobian |h'(y)|, so the original-scale log-likelihood is
+     l = l_z + sum_i log h'(y_i)
+   (Box & Cox 1964, J. R. Statist. Soc. B 26, 211-252, section 3): for log, -sum log y; for
+   sqrt, sum (-log 2 - 0.5 log y); for Box-Cox (y^L - 1) / L, (L - 1) sum log y.  That sum is
+   over rows, unweighted: prior weights change the variance of each row, not the change of
+   variable.  Transformed and untransformed fits then share one AIC scale.
+
+   lambda is estimated by maximizing this profile log-likelihood over [-3, 3]: a grid, then
+   Brent's method (GSL) around the best grid point; its 95% interval is where the profile
+   lies within chi2_1(0.95) / 2 = 1.92 of its top (Box & Cox 1964, section 4), found by root
+   bracketing between grid points. */
+#include <math.h>
+#include <stdio.h>
+#include <string.h>
+#include <gsl/gsl_cdf.h>
+#include <gsl/gsl_errno.h>
+#include <gsl/gsl_min.h>
+#include <gsl/gsl_roots.h>
+#include "alloc.h"
+#include "fit_impl.h"
+
+typedef struct prof_ctx {
+  const bl_design *d;
+  const bl_fit_opts *opt;     /* gaussian identity, no transform */
+  const double *ys;           /* y + shift, length n */
+  double sumlog;              /* sum log(y + shift) */
+  double *z;                  /* work: the transformed response */
+  int status;                 /* first hard error (ENOMEM), else BL_OK */
+  bl_err *err;
+  double thr;                 /* interval threshold, for the root finder */
+} prof_ctx;
+
+/* Box-Cox (y^L - 1) / L = expm1(L log y) / L, and log y at L = 0. */
+static void
+boxcox (const double *ys, size_t n, double lambda, double *z)
+{
+  for (size_t i = 0; i < n; i++)
+    z[i] = (lambda == 0.0) ? log (ys[i]) : expm1 (lambda * log (ys[i])) / lambda;
+}
+
+/* The original-scale profile log-likelihood at LAMBDA (-HUGE_VAL when it does not exist). */
+static double
+profile (double lambda, void *arg)
+{
+  prof_ctx *c = arg;
+  const size_t n = bl_design_n (c->d);
+  bl_fit *f;
+  bl_err e;
+  double l;
+  boxcox (c->ys, n, lambda, c->z);
+  f = bl_fit_core (c->d, c->z, NULL, c->opt, 1, &e);
+  if (!f) {
+    if (e.code == BL_ENOMEM && c->status == BL_OK) {
+      c->status = BL_ENOMEM;
+      if (c->err)
+        *c->err = e;
+    }
+    return -HUGE_VAL;
+  }
+  l = f->st.loglik + (lambda - 1.0) * c->sumlog;
+  bl_fit_free (f);
+  return isfinite (l) ? l : -HUGE_VAL;
+}
+
+static double neg_profile (double lambda, void *arg) { return -profile (lambda, arg); }
+static double
+profile_gap (double lambda, void *arg)
+{
+  prof_ctx *c = arg;
+  return profile (lambda, arg) - c->thr;
+}
+
+/* Root of profile - thr between A and B (profile - thr changes sign there). */
+static double
+interval_end (prof_ctx *c, double a, double b)
+{
+  gsl_function F = { profile_gap, c };
+  gsl_root_fsolver *s = gsl_root_fsolver_alloc (gsl_root_fsolver_brent);
+  double r = NAN;
+  if (!s)
+    return NAN;
+  if (gsl_root_fsolver_set (s, &F, a < b ? a : b, a < b ? b : a) == GSL_SUCCESS) {
+    for (int it = 0; it < 200; it++) {
+      if (gsl_root_fsolver_iterate (s) != GSL_SUCCESS)
+        break;
+      r = gsl_root_fsolver_root (s);
+      if (gsl_root_test_interval (gsl_root_fsolver_x_lower (s), gsl_root_fsolver_x_upper (s),
+                                  1e-12, 0.0) == GSL_SUCCESS)
+        break;
+    }
+  }
+  gsl_root_fsolver_free (s);
+  return r;
+}
+
+/* lambda-hat: the best grid point, refined by Brent's method inside its neighbours. */
+static double
+refine_max (prof_ctx *c, const double *grid, const double *val, size_t ng, size_t m)
+{
+  gsl_function F = { neg_profile, c };
+  gsl_min_fminimizer *s;
+  double x = grid[m];
+  if (m == 0 || m + 1 == ng)
+    return x;                            /* the maximum is at an end of [-3, 3] */
+  if (!(val[m] > val[m - 1] && val[m] > val[m + 1]))
+    return x;
+  s = gsl_min_fminimizer_alloc (gsl_min_fminimizer_brent);
+  if (!s)
+    return x;
+  if (gsl_min_fminimizer_set_with_values (s, &F, grid[m], -val[m], grid[m - 1], -val[m - 1],
+                                          grid[m + 1], -val[m + 1]) == GSL_SUCCESS) {
+    for (int it = 0; it < 200; it++) {
+      if (gsl_min_fminimizer_iterate (s) != GSL_SUCCESS)
+        break;
+      x = gsl_min_fminimizer_x_minimum (s);
+      if (gsl_min_test_interval (gsl_min_fminimizer_x_lower (s), gsl_min_fminimizer_x_upper (s),
+                                 1e-10, 0.0) == GSL_SUCCESS)
+        break;
+    }
+  }
+  gsl_min_fminimizer_free (s);
+  return x;
+}
+
+bl_fit *
+bl_fit_transform_run (const bl_design *d, const bl_fit_opts *opt, bl_err *err)
+{
+  const size_t n = bl_design_n (d);
+  const double *y = bl_design_y (d);
+  const double c0 = opt->shift_given ? opt->shift : 0.0;
+  bl_fit_opts o = *opt;
+  prof_ctx pc;
+  double *ys = NULL, *z = NULL, lambda = opt->lambda, jac = 0.0;
+  long double sl = 0.0L;
+  size_t bad = 0, first = 0;
+  bl_fit *f = NULL;
+  const char *name = opt->transform == BL_TRANSFORM_LOG ? "log"
+                     : opt->transform == BL_TRANSFORM_SQRT ? "sqrt" : "boxcox";
+
+  if ((opt->fam && opt->fam != &bl_family_gaussian)
+      || (opt->link && opt->link != &bl_link_identity)) {
+    bl_fail (err, BL_ESPEC, "--transform", "a transformed response is fitted by ordinary "
+             "least squares: leave out --family and --link");
+    return NULL;
+  }
+  if (opt->method == BL_METHOD_WLS) {
+    bl_fail (err, BL_ESPEC, "--transform", "--method wls and --transform cannot be combined "
+             "(prior --weights may be given)");
+    return NULL;
+  }
+  if (bl_design_offset (d)) {
+    bl_fail (err, BL_ESPEC, "--offset", "an offset applies to GLMs only, not to a transformed "
+             "response");
+    return NULL;
+  }
+  if (opt->transform == BL_TRANSFORM_BOXCOX && !opt->lambda_est
+      && !(lambda >= BL_BOXCOX_MIN && lambda <= BL_BOXCOX_MAX)) {
+    bl_fail (err, BL_ESPEC, "--transform", "the Box-Cox power must lie in [%g, %g], not %g",
+             BL_BOXCOX_MIN, BL_BOXCOX_MAX, lambda);
+    return NULL;
+  }
+  for (size_t i = 0; i < n; i++)
+    if (!(y[i] + c0 > 0.0) && bad++ == 0)
+      first = i;
+  if (bad) {
+    char where[1100];
+    snprintf (where, sizeof where, "%s:%zu", bl_design_source (d), bl_design_line (d, first));
+    if (opt->shift_given)
+      bl_fail (err, BL_EDATA, where, "'%s' + %g has %zu value%s <= 0 (first: %.17g); the %s "
+               "transform needs y + shift > 0", bl_design_response (d), c0, bad,
+               bad == 1 ? "" : "s", y[first] + c0, name);
+    else
+      bl_fail (err, BL_EDATA, where, "'%s' has %zu value%s <= 0 (first: %.17g); the %s "
+               "transform needs y > 0 (give --shift C to transform y + C)",
+               bl_design_response (d), bad, bad == 1 ? "" : "s", y[first], name);
+    return NULL;
+  }
+  ys = bl_mallocn (n, sizeof *ys);
+  z = bl_mallocn (n, sizeof *z);
+  if (!ys || !z)
+    goto nomem;
+  for (size_t i = 0; i < n; i++) {
+    ys[i] = y[i] + c0;
+    sl += log (ys[i]);
+  }
+  o.transform = BL_TRANSFORM_NONE;
+  o.method = BL_METHOD_OLS;
+  o.fam = &bl_family_gaussian;
+  o.link = &bl_link_identity;
+  o.se = BL_SE_MODEL;
+  pc.d = d;
+  pc.opt = &o;
+  pc.ys = ys;
+  pc.sumlog = (double) sl;
+  pc.z = z;
+  pc.status = BL_OK;
+  pc.err = err;
+
+  if (opt->transform == BL_TRANSFORM_BOXCOX && opt->lambda_est) {
+    const size_t ng = (size_t) lround ((BL_BOXCOX_MAX - BL_BOXCOX_MIN) / BL_BOXCOX_GRID) + 1;
+    double *grid = bl_mallocn (ng, sizeof *grid), *val = bl_mallocn (ng, sizeof *val);
+    double top, lo = NAN, hi = NAN, practical = NAN, best_l = -HUGE_VAL;
+    size_t m = 0;
+    if (!grid || !val) {
+      bl_free (grid);
+      bl_free (val);
+      goto nomem;
+    }
+    for (size_t k = 0; k < ng; k++) {
+      grid[k] = BL_BOXCOX_MIN + BL_BOXCOX_GRID * (double) k;
+      val[k] = profile (grid[k], &pc);
+      if (val[k] > val[m])
+        m = k;
+    }
+    if (pc.status != BL_OK || !(val[m] > -HUGE_VAL)) {
+      bl_free (grid);
+      bl_free (val);
+      if (pc.status == BL_OK)
+        bl_fail (err, BL_ENOCONV, "--transform", "the Box-Cox profile likelihood could not be "
+                 "evaluated at any power in [%g, %g]", BL_BOXCOX_MIN, BL_BOXCOX_MAX);
+      goto fail;
+    }
+    lambda = refine_max (&pc, grid, val, ng, m);
+    top = profile (lambda, &pc);
+    if (top < val[m]) {            /* keep the grid point if refining did not improve it */
+      lambda = grid[m];
+      top = val[m];
+    }
+    pc.thr = top - 0.5 * gsl_cdf_chisq_Pinv (0.95, 1.0);
+    /* Scan outward from lambda-hat; the bracket's inner end is the last grid point still
+       above the threshold, or lambda-hat itself. */
+    for (size_t k = m + 1; k-- > 0;)
+      if (grid[k] < lambda && val[k] < pc.thr) {
+        lo = interval_end (&pc, grid[k], (k + 1 < ng && grid[k + 1] < lambda) ? grid[k + 1]
+                                                                              : lambda);
+        break;
+      }
+    for (size_t k = m; k < ng; k++)
+      if (grid[k] > lambda && val[k] < pc.thr) {
+        hi = interval_end (&pc, (k >= 1 && grid[k - 1] > lambda) ? grid[k - 1] : lambda,
+                           grid[k]);
+        break;
+      }
+    /* The practical power: the multiple of 0.5 inside the interval nearest lambda-hat, ties
+       to the higher profile (common practice, no source). */
+    {
+      const double a = isfinite (lo) ? lo : BL_BOXCOX_MIN, b = isfinite (hi) ? hi : BL_BOXCOX_MAX;
+      for (double cand = ceil (2.0 * a) / 2.0; cand <= b + 1e-12; cand += 0.5) {
+        const double dist = fabs (cand - lambda);
+        const double pv = profile (cand, &pc);
+        if (!isfinite (practical) || dist < fabs (practical - lambda) - 1e-12
+            || (fabs (dist - fabs (practical - lambda)) <= 1e-12 && pv > best_l)) {
+          practical = cand;
+          best_l = pv;
+        }
+      }
+    }
+    if (pc.status != BL_OK) {
+      bl_free (grid);
+      bl_free (val);
+      goto fail;
+    }
+    boxcox (ys, n, lambda, z);
+    f = bl_fit_core (d, z, NULL, &o, 0, err);
+    if (!f) {
+      bl_free (grid);
+      bl_free (val);
+      goto fail;
+    }
+    f->prof_lambda = grid;
+    f->prof_loglik = val;
+    f->tr.nprofile = ng;
+    f->tr.profile_lambda = grid;
+    f->tr.profile_loglik = val;
+    f->tr.lambda_lo = lo;
+    f->tr.lambda_hi = hi;
+    f->tr.lambda_practical = practical;
+    f->tr.lambda_estimated = 1;
+  } else {
+    if (opt->transform == BL_TRANSFORM_LOG)
+      for (size_t i = 0; i < n; i++)
+        z[i] = log (ys[i]);
+    else if (opt->transform == BL_TRANSFORM_SQRT)
+      for (size_t i = 0; i < n; i++)
+        z[i] = sqrt (ys[i]);
+    else
+      boxcox (ys, n, lambda, z);
+    f = bl_fit_core (d, z, NULL, &o, 0, err);
+    if (!f)
+      goto fail;
+  }
+  /* The log-Jacobian of the change of variable. */
+  switch (opt->transform) {
+  case BL_TRANSFORM_LOG: jac = -pc.sumlog; break;
+  case BL_TRANSFORM_SQRT: jac = -(double) n * M_LN2 - 0.5 * pc.sumlog; break;
+  default: jac = (lambda - 1.0) * pc.sumlog; break;
+  }
+  f->tr.kind = opt->transform;
+  f->tr.name = name;
+  f->tr.lambda = opt->transform == BL_TRANSFORM_BOXCOX ? lambda : NAN;
+  f->tr.shift_given = opt->shift_given;
+  f->tr.shift = c0;
+  f->method = BL_METHOD_OLS;
+  if (f->st.converged) {
+    f->st.loglik_transformed = f->st.loglik;
+    if (isfinite (f->st.loglik))
+      bl_fit_set_loglik (f, f->st.loglik + jac, f->st.k + (f->tr.lambda_estimated ? 1u : 0u));
+    else
+      f->st.k += f->tr.lambda_estimated ? 1u : 0u;
+  }
+  if (opt->shift_given
+      && bl_warnings_add (&f->warn, "the response was shifted by %g before the %s transform; "
+                          "every result depends on that choice", c0, name) != BL_OK) {
+    bl_fit_free (f);
+    goto nomem;
+  }
+  bl_free (ys);
+  bl_free (z);
+  return f;
+nomem:
+  bl_fail (err, BL_ENOMEM, "transform", "out of memory");
+fail:
+  bl_free (ys);
+  bl_free (z);
+  return NULL;
+}
