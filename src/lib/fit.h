@@ -145,6 +145,12 @@ const bl_fit_transform_info *bl_fit_transform (const bl_fit *fit);
 const bl_fit_variance_info *bl_fit_variance (const bl_fit *fit);
 const char *bl_se_kind_name (bl_se_kind k);
 
+/* The mean of y on its original scale at the linear predictor XB of a transformed fit: with
+   SMEAR nonzero, Duan's (1983) smearing estimator (1/n) sum h^-1(XB + e_i) over the fit's
+   residuals; otherwise the naive back-transform h^-1(XB), a median.  The shift, if any, is
+   undone.  For an untransformed fit, XB itself. */
+double bl_fit_backtransform (const bl_fit *fit, double xb, int smear);
+
 #ifdef __cplusplus
 }
 #endif

@@ -65,6 +65,47 @@ bl_report_fit_json (FILE *out, const bl_fit *fit, const bl_report_info *info, bl
   jw_arr_end (&w);
   jw_str (&w, "offset", info->offset ? bl_terms_get (info->offset, 0)->label : NULL);
   jw_str (&w, "weights", info->weights);
+  {
+    const bl_fit_variance_info *v = bl_fit_variance (fit);
+    if (bl_fit_method (fit) == BL_METHOD_WLS && v->kind != BL_VARIANCE_NONE) {
+      jw_obj (&w, "variance");
+      jw_str (&w, "expr", v->expr);
+      jw_num (&w, "power", v->power);
+      jw_num (&w, "power_se", v->power_se);
+      jw_bool (&w, "power_estimated", v->power_estimated);
+      jw_str (&w, "kind", v->kind == BL_VARIANCE_FITTED ? "fitted" : "column");
+      jw_obj_end (&w);
+    } else if (bl_fit_method (fit) == BL_METHOD_WLS) {
+      jw_null (&w, "variance");
+    }
+  }
+  {
+    const bl_fit_transform_info *t = bl_fit_transform (fit);
+    if (t->kind != BL_TRANSFORM_NONE) {
+      jw_obj (&w, "transform");
+      jw_str (&w, "name", t->name);
+      jw_num (&w, "lambda", t->lambda);
+      jw_num (&w, "lambda_lo", t->lambda_lo);
+      jw_num (&w, "lambda_hi", t->lambda_hi);
+      jw_num (&w, "lambda_practical", t->lambda_practical);
+      jw_bool (&w, "lambda_estimated", t->lambda_estimated);
+      if (t->shift_given)
+        jw_num (&w, "shift", t->shift);
+      else
+        jw_null (&w, "shift");
+      jw_arr (&w, "profile");
+      for (size_t i = 0; i < t->nprofile; i++) {
+        jw_obj (&w, NULL);
+        jw_num (&w, "lambda", t->profile_lambda[i]);
+        jw_num (&w, "loglik", t->profile_loglik[i]);
+        jw_obj_end (&w);
+      }
+      jw_arr_end (&w);
+      jw_obj_end (&w);
+    } else if (bl_fit_method (fit) == BL_METHOD_OLS) {
+      jw_null (&w, "transform");
+    }
+  }
   jw_obj_end (&w);
 
   jw_obj (&w, "status");
@@ -112,6 +153,8 @@ bl_report_fit_json (FILE *out, const bl_fit *fit, const bl_report_info *info, bl
   jw_num (&w, "phi_pearson", st->phi_pearson);
   jw_num (&w, "phi_ml", st->phi_ml);
   jw_num (&w, "loglik", st->loglik);
+  if (bl_fit_transform (fit)->kind != BL_TRANSFORM_NONE)
+    jw_num (&w, "loglik_transformed", st->loglik_transformed);
   jw_num (&w, "aic", st->aic);
   jw_num (&w, "aicc", st->aicc);
   jw_num (&w, "bic", st->bic);

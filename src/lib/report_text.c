@@ -63,9 +63,49 @@ bl_report_fit_text (FILE *o, const bl_fit *fit, const bl_report_info *info, bl_e
     fprintf (o, "  offset      %s\n", bl_terms_get (info->offset, 0)->label);
   if (info->weights)
     fprintf (o, "  weights     %s\n", info->weights);
-  fprintf (o, "  variance    %s family, %s link (%s)\n", bl_fit_family (fit)->name,
-           bl_fit_link (fit)->name, bl_fit_method (fit) == BL_METHOD_OLS
-           ? "ordinary least squares" : "maximum likelihood by IRLS");
+  {
+    const bl_fit_transform_info *t = bl_fit_transform (fit);
+    const bl_fit_variance_info *v = bl_fit_variance (fit);
+    if (bl_fit_method (fit) == BL_METHOD_WLS) {
+      fprintf (o, "  variance    weighted least squares, Var y = sigma^2 %s%s\n",
+               v->kind == BL_VARIANCE_NONE ? "/ weight" : v->expr,
+               v->kind != BL_VARIANCE_NONE && info->weights ? " / weight" : "");
+      if (v->power_estimated)
+        fprintf (o, "              power K = %.6g (standard error %.3g), by maximum "
+                 "likelihood\n", v->power, v->power_se);
+    } else if (t->kind != BL_TRANSFORM_NONE) {
+      fprintf (o, "  variance    ordinary least squares of %s(%s%s)", t->name,
+               bl_design_response (d), t->shift_given ? " + shift" : "");
+      if (t->kind == BL_TRANSFORM_BOXCOX)
+        fprintf (o, ", lambda = %.6g%s", t->lambda, t->lambda_estimated ? " (estimated)" : "");
+      fputc ('\n', o);
+      if (t->lambda_estimated) {
+        fputs ("              95% profile interval for lambda: ", o);
+        if (isfinite (t->lambda_lo))
+          fprintf (o, "%.6g", t->lambda_lo);
+        else
+          fputs ("open below -3", o);
+        fputs (" to ", o);
+        if (isfinite (t->lambda_hi))
+          fprintf (o, "%.6g", t->lambda_hi);
+        else
+          fputs ("open above 3", o);
+        if (isfinite (t->lambda_practical))
+          fprintf (o, "; a round power inside it: %g\n", t->lambda_practical);
+        else
+          fputs ("; no multiple of 0.5 inside it\n", o);
+      }
+      if (t->shift_given)
+        fprintf (o, "              y was shifted by %g: results depend on that choice\n",
+                 t->shift);
+      fputs ("              estimates are on the transformed scale; the likelihood figures "
+             "are on y's\n", o);
+    } else {
+      fprintf (o, "  variance    %s family, %s link (%s)\n", bl_fit_family (fit)->name,
+               bl_fit_link (fit)->name, bl_fit_method (fit) == BL_METHOD_OLS
+               ? "ordinary least squares" : "maximum likelihood by IRLS");
+    }
+  }
   if (st->converged)
     fprintf (o, "  outcome     converged after %zu iteration%s, solver %s\n", st->iterations,
              st->iterations == 1 ? "" : "s", st->solver);
@@ -121,6 +161,11 @@ bl_report_fit_text (FILE *o, const bl_fit *fit, const bl_report_info *info, bl_e
   fputs ("   (maximum likelihood)\n", o);
   fputs ("    log-likelihood    ", o);
   num (o, 14, st->loglik);
+  if (bl_fit_transform (fit)->kind != BL_TRANSFORM_NONE) {
+    fputs ("   (on y's scale; transformed scale ", o);
+    num (o, 0, st->loglik_transformed);
+    fputc (')', o);
+  }
   fputs ("\n    AIC               ", o);
   num (o, 14, st->aic);
   fputs ("   AICc ", o);
