@@ -1,7 +1,7 @@
 /* transform.c -- ordinary least squares of a transformed response, reported on the original
    scale of y.
 
-   With z = h(y) ~ Normal(x'b, sigma^2 / a), the density of y is the normal density of h(y)
+   With z = h(y) normal with mean x'b and variance sigma^2 / a, the density of y is the normal density of h(y)
    times the Jacobian |h'(y)|, so the original-scale log-likelihood is
      l = l_z + sum_i log h'(y_i)
    (Box & Cox 1964, J. R. Statist. Soc. B 26, 211-252, section 3): for log, -sum log y; for

@@ -1,7 +1,7 @@
 /* wls.c -- weighted least squares: known weights, and a variance function with its power
    fixed or estimated by maximum likelihood.
 
-   Model: y_i ~ Normal(mu_i, sigma^2 v_i / a_i), mu = X b, a_i the prior weights and
+   Model: y_i is Normal(mu_i, sigma^2 v_i / a_i), mu = X b, a_i the prior weights and
    v_i = x_i^K (a positive column) or mu_i^K (the fitted mean).  With w_i = a_i / v_i and
    sigma^2 profiled out (sigma^2 = S / n, S = sum w_i r_i^2), the log-likelihood is
      l(b, K) = -n/2 (log(2 pi S / n) + 1) + 1/2 sum log w_i,

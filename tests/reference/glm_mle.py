@@ -17,7 +17,7 @@ back (Python float() is correctly rounded, as strtod is), so they see exactly wh
 
 Log-likelihoods with prior weights a_i (the definitions of src/lib/family.c; dispersion phi is
 that of a row with a_i = 1):
-  gaussian  y_i ~ N(mu_i, sigma^2/a_i):
+  gaussian  y_i distributed N(mu_i, sigma^2/a_i):
             l = sum [-0.5 log(2 pi sigma^2/a_i) - a_i (y_i - mu_i)^2 / (2 sigma^2)]
   poisson   l = sum a_i [y_i log mu_i - mu_i - lgamma(y_i + 1)]
   gamma     shape nu a_i, mean mu_i:
