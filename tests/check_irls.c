@@ -1085,7 +1085,8 @@ ran_invgauss (gsl_rng *r, double mu, double lam)
   return gsl_rng_uniform (r) <= mu / (mu + x) ? x : mu * mu / x;
 }
 
-/* N rows "y,x1,x2" from family K: x1 uniform on (-1, 1), x2 normal N(0, 0.5^2), eta = b0 + b1 x1 + b2 x2
+/* N rows "y,x1,x2" from family K: x1 uniform on (-1, 1), x2 normal N(0, 0.5^2),
+   eta = b0 + b1 x1 + b2 x2
    under link LNK, y drawn with dispersion PHI (gaussian sigma^2; gamma 1/shape; inverse
    gaussian 1/lambda). */
 static char *

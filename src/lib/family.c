@@ -135,7 +135,7 @@ gamma_shape (const double *a, size_t n, double dev, double *nu_out)
   for (size_t i = 0; i < n; i++)
     sa += a ? a[i] : 1.0;
   {
-    /* Starting value: the approximation nu = approx. (6 + 2 Dbar) / (Dbar (6 + Dbar)), Dbar = D / sum a
+    /* Starting value: nu approximately (6 + 2 Dbar) / (Dbar (6 + Dbar)), Dbar = D / sum a
        (McCullagh & Nelder 1989, eq. 8.6; from memory). */
     const double db = dev / sa;
     t = log ((6.0 + 2.0 * db) / (db * (6.0 + db)));

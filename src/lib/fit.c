@@ -188,7 +188,8 @@ alloc_tables (bl_fit *f)
   f->eta = bl_mallocn (n, sizeof (double));
   f->cov_unscaled = bl_mallocn (p * p, sizeof (double));
   f->w = bl_mallocn (n, sizeof (double));
-  return f->cov_unscaled && f->w && f->beta && f->se && f->wald && f->pval && f->lo && f->hi && f->cov && f->aliased
+  return f->cov_unscaled && f->w && f->beta && f->se && f->wald && f->pval && f->lo && f->hi
+         && f->cov && f->aliased
          && f->mu && f->eta;
 }
 

@@ -24,7 +24,9 @@ typedef enum bl_transform {
 
 /* The variance function of weighted least squares: Var y_i = sigma^2 v_i / a_i with
    v_i = x_i^K (a column) or mu_i^K (the fitted mean). */
-typedef enum bl_variance { BL_VARIANCE_NONE = 0, BL_VARIANCE_COLUMN, BL_VARIANCE_FITTED } bl_variance;
+typedef enum bl_variance {
+  BL_VARIANCE_NONE = 0, BL_VARIANCE_COLUMN, BL_VARIANCE_FITTED
+} bl_variance;
 
 #define BL_BOXCOX_MIN (-3.0)
 #define BL_BOXCOX_MAX 3.0

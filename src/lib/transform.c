@@ -1,8 +1,8 @@
 /* transform.c -- ordinary least squares of a transformed response, reported on the original
    scale of y.
 
-   With z = h(y) normal with mean x'b and variance sigma^2 / a, the density of y is the normal density of h(y)
-   times the Jacobian |h'(y)|, so the original-scale log-likelihood is
+   With z = h(y) normal with mean x'b and variance sigma^2 / a, the density of y is the
+   normal density of h(y) times the Jacobian |h'(y)|, so the original-scale log-likelihood is
      l = l_z + sum_i log h'(y_i)
    (Box & Cox 1964, J. R. Statist. Soc. B 26, 211-252, section 3): for log, -sum log y; for
    sqrt, sum (-log 2 - 0.5 log y); for Box-Cox (y^L - 1) / L, (L - 1) sum log y.  That sum is

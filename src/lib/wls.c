@@ -586,7 +586,8 @@ bl_fit_wls_run (const bl_design *d, const bl_fit_opts *opt, bl_err *err)
     if (opt->power_est)
       snprintf (k, sizeof k, "%.4g", f->var.power);
     snprintf (f->var.expr, sizeof f->var.expr, "%s^%s",
-              opt->variance == BL_VARIANCE_FITTED ? "fitted" : opt->variance_col ? opt->variance_col : "column", k);
+              opt->variance == BL_VARIANCE_FITTED ? "fitted"
+              : opt->variance_col ? opt->variance_col : "column", k);
   }
   return f;
 }
