@@ -527,6 +527,87 @@ START_TEST (source_alloc_fail)
 }
 END_TEST
 
+
+START_TEST (source_prefetch)
+{
+  /* With the producer thread the bytes are those of a synchronous read; a plain source is
+     left as it is; freeing in mid-stream stops the producer. */
+  const size_t n = 3000000;
+  char *text = make_text (n);
+  bl_err err = { 0 };
+  size_t zlen, len;
+  unsigned char *z = gzip_bytes (text, n, &zlen), *got, first[1000];
+  int st;
+  bl_source *src = bl_source_open_mem (z, zlen, "p.gz", &err);
+  ck_assert_ptr_nonnull (src);
+  ck_assert_uint_eq (bl_source_read (src, first, sizeof first, &st, &err), sizeof first);
+  ck_assert_int_eq (bl_source_prefetch (src, 3, 65536, &err), BL_OK);
+  ck_assert_int_eq (bl_source_prefetch (src, 3, 65536, &err), BL_OK);      /* twice: no-op */
+  got = read_all (src, 100003, &len, &st, &err);
+  ck_assert_msg (st == BL_OK, "source_prefetch: status %d %s", st, err.msg);
+  ck_assert_uint_eq (len, n - sizeof first);
+  ck_assert_msg (memcmp (first, text, sizeof first) == 0
+                 && memcmp (got, text + sizeof first, len) == 0, "source_prefetch: bytes differ");
+  ck_assert_uint_eq (bl_source_read (src, first, sizeof first, &st, &err), 0);
+  ck_assert_int_eq (st, BL_OK);
+  free (got);
+  bl_source_free (src);
+  src = bl_source_open_mem (z, zlen, "p.gz", &err);                      /* stop early */
+  ck_assert_int_eq (bl_source_prefetch (src, 2, 4096, &err), BL_OK);
+  ck_assert_uint_eq (bl_source_read (src, first, sizeof first, &st, &err), sizeof first);
+  bl_source_free (src);
+  src = bl_source_open_mem (text, n, "p.csv", &err);                     /* plain: nothing */
+  ck_assert_int_eq (bl_source_prefetch (src, 2, 4096, &err), BL_OK);
+  got = read_all (src, 65536, &len, &st, &err);
+  ck_assert_uint_eq (len, n);
+  free (got);
+  bl_source_free (src);
+  free (z);
+  free (text);
+}
+END_TEST
+
+START_TEST (source_prefetch_errors)
+{
+  /* Truncated and corrupt streams through the producer: the same status and message as a
+     synchronous read, and sticky. */
+  const size_t n = 400000;
+  char *text = make_text (n);
+  size_t zlen;
+  unsigned char *z = gzip_bytes (text, n, &zlen);
+  const size_t cut[] = { zlen - 3, zlen / 2 };
+  for (int k = 0; k < 3; k++) {
+    bl_err e1 = { 0 }, e2 = { 0 };
+    size_t l1, l2;
+    int s1, s2;
+    unsigned char *g1, *g2, out[4];
+    const size_t zl = k < 2 ? cut[k] : zlen;
+    bl_source *a, *b;
+    if (k == 2)
+      z[zlen / 2] ^= 0x3c;
+    a = bl_source_open_mem (z, zl, "e.gz", &e1);
+    b = bl_source_open_mem (z, zl, "e.gz", &e2);
+    ck_assert_int_eq (bl_source_prefetch (b, 2, 8192, &e2), BL_OK);
+    g1 = read_all (a, 5000, &l1, &s1, &e1);
+    g2 = read_all (b, 5000, &l2, &s2, &e2);
+    ck_assert_msg (s1 == BL_EDATA && s2 == BL_EDATA, "source_prefetch_errors %d: %d %d", k, s1,
+                   s2);
+    ck_assert_str_eq (e1.where, e2.where);
+    ck_assert_str_eq (e1.msg, e2.msg);
+    memset (&e2, 0, sizeof e2);
+    ck_assert_uint_eq (bl_source_read (b, out, sizeof out, &s2, &e2), 0);
+    ck_assert_msg (s2 == BL_EDATA && strcmp (e1.msg, e2.msg) == 0,
+                   "source_prefetch_errors %d: not sticky", k);
+    free (g1);
+    free (g2);
+    bl_source_free (a);
+    bl_source_free (b);
+  }
+  free (z);
+  free (text);
+}
+END_TEST
+
 static Suite *
 source_suite (void)
 {
@@ -541,6 +622,7 @@ source_suite (void)
   tcase_add_test (basics, source_gzip_file);
   tcase_add_test (basics, source_gzip_concat);
   tcase_add_test (basics, source_gzip_empty_member);
+  tcase_add_test (basics, source_prefetch);
   tcase_add_test (errors, source_missing_file);
   tcase_add_test (errors, source_directory);
   tcase_add_test (errors, source_gzip_truncated);
@@ -548,6 +630,7 @@ source_suite (void)
   tcase_add_test (errors, source_gzip_corrupt);
   tcase_add_test (errors, source_file_changed);
   tcase_add_test (errors, source_alloc_fail);
+  tcase_add_test (errors, source_prefetch_errors);
   suite_add_tcase (s, basics);
   suite_add_tcase (s, errors);
   return s;

@@ -967,3 +967,95 @@ bl_design_fill_ld (const bl_design *d, size_t row0, size_t nr, long double *out,
     }
   }
 }
+
+/* Gather SRC at the selected rows SEL (length m) into a new array, or NULL (ENOMEM); a NULL
+   SRC gives NULL with *OK left set. */
+static double *
+gather (const double *src, const size_t *sel, size_t m, int *ok)
+{
+  double *x;
+  if (!src)
+    return NULL;
+  x = bl_mallocn (m ? m : 1, sizeof *x);
+  if (!x) {
+    *ok = 0;
+    return NULL;
+  }
+  for (size_t i = 0; i < m; i++)
+    x[i] = src[sel[i]];
+  return x;
+}
+
+bl_design *
+bl_design_subset (const bl_design *d, const size_t *sel, size_t m, bl_err *err)
+{
+  bl_design *s = bl_calloc (1, sizeof *s);
+  int ok = 1;
+  if (!s)
+    goto nomem;
+  s->t = d->t;
+  s->intercept = d->intercept;
+  s->nread = d->nread;
+  s->n = m;
+  s->response = bl_strdup (d->response);
+  s->rows = bl_mallocn (m ? m : 1, sizeof *s->rows);
+  if (!s->response || !s->rows)
+    goto nomem;
+  for (size_t i = 0; i < m; i++)
+    s->rows[i] = d->rows[sel[i]];
+  s->y = gather (d->y, sel, m, &ok);
+  s->offset = gather (d->offset, sel, m, &ok);
+  s->prior_w = gather (d->prior_w, sel, m, &ok);
+  s->varcol = gather (d->varcol, sel, m, &ok);
+  if (!ok)
+    goto nomem;
+  if (d->nder) {
+    s->der = bl_calloc (d->nder, sizeof *s->der);
+    if (!s->der)
+      goto nomem;
+    s->dercap = d->nder;
+    for (size_t k = 0; k < d->nder; k++) {
+      s->nder++;
+      s->der[k].label = bl_strdup (d->der[k].label);
+      s->der[k].x = gather (d->der[k].x, sel, m, &ok);
+      if (d->der[k].xl) {
+        s->der[k].xl = bl_mallocn (m ? m : 1, sizeof (long double));
+        if (s->der[k].xl)
+          for (size_t i = 0; i < m; i++)
+            s->der[k].xl[i] = d->der[k].xl[sel[i]];
+        else
+          ok = 0;
+      }
+      if (!ok || !s->der[k].label)
+        goto nomem;
+    }
+  }
+  s->cols.c = bl_calloc (d->cols.n ? d->cols.n : 1, sizeof *s->cols.c);
+  if (!s->cols.c)
+    goto nomem;
+  s->cols.cap = d->cols.n;
+  for (size_t j = 0; j < d->cols.n; j++) {
+    const dcol *c = &d->cols.c[j];
+    dcol *o = &s->cols.c[j];
+    s->cols.n++;
+    o->label = bl_strdup (c->label);
+    o->nf = c->nf;
+    o->f = c->nf ? bl_mallocn (c->nf, sizeof *o->f) : NULL;
+    if (!o->label || (c->nf && !o->f))
+      goto nomem;
+    for (size_t k = 0; k < c->nf; k++) {
+      o->f[k] = c->f[k];
+      if (c->f[k].kind == F_OWNED)          /* point at the gathered copy */
+        for (size_t q = 0; q < d->nder; q++)
+          if (d->der[q].x == c->f[k].x) {
+            o->f[k].x = s->der[q].x;
+            o->f[k].xl = s->der[q].xl;
+          }
+    }
+  }
+  return s;
+nomem:
+  bl_design_free (s);
+  bl_fail (err, BL_ENOMEM, "design", "out of memory for a subset of %zu rows", m);
+  return NULL;
+}

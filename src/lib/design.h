@@ -81,6 +81,12 @@ void bl_design_fill (const bl_design *d, size_t row0, size_t nr, double *out, si
 void bl_design_fill_ld (const bl_design *d, size_t row0, size_t nr, long double *out,
                         size_t ld);
 
+/* A design over the M rows SEL[0..M-1] of D (indices into D's used rows, in the order given):
+   same columns, labels and levels (no re-coding, so coefficients mean the same), with its own
+   copies of y, offset, weights and derived terms.  For cross-validation folds.  D's table
+   must outlive the subset; D itself need not.  NULL with BL_ENOMEM on exhaustion. */
+bl_design *bl_design_subset (const bl_design *d, const size_t *sel, size_t m, bl_err *err);
+
 /* Row bookkeeping. */
 size_t bl_design_rows_read (const bl_design *d);       /* table rows */
 size_t bl_design_table_row (const bl_design *d, size_t i);  /* table row of used row i */

@@ -149,8 +149,10 @@ const char *bl_se_kind_name (bl_se_kind k);
 
 /* The mean of y on its original scale at the linear predictor XB of a transformed fit: with
    SMEAR nonzero, Duan's (1983) smearing estimator (1/n) sum h^-1(XB + e_i) over the fit's
-   residuals; otherwise the naive back-transform h^-1(XB), a median.  The shift, if any, is
+   residuals (closed forms for log and sqrt; for Box-Cox above BL_SMEAR_MAX residuals, every
+   k-th in row order, k = ceil(n / BL_SMEAR_MAX)); otherwise the naive back-transform h^-1(XB), a median.  The shift, if any, is
    undone.  For an untransformed fit, XB itself. */
+#define BL_SMEAR_MAX 5000
 double bl_fit_backtransform (const bl_fit *fit, double xb, int smear);
 
 #ifdef __cplusplus

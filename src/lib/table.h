@@ -32,7 +32,9 @@ typedef struct bl_table_opts {
   /* When non-NULL, polled once per chunk: once *CANCEL is nonzero the read fails with
      BL_ECANCEL ("reading was cancelled") and nothing is kept. */
   volatile sig_atomic_t *cancel;
-  size_t chunk;               /* bytes per parallel step (threads >= 2); 0 for the default */
+  /* Bytes per parallel step (threads >= 2); 0 for the default.  For gzip input at most
+     4 MiB are used, the size of the inflating thread's buffers. */
+  size_t chunk;
 } bl_table_opts;
 
 /* Fill OPT with the defaults (delimiter 0, decimal_comma 0, no categorical, max_levels

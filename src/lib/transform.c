@@ -362,12 +362,40 @@ double
 bl_fit_backtransform (const bl_fit *f, double xb, int smear)
 {
   const bl_fit_transform_info *t = &f->tr;
-  long double s = 0.0L;
+  const size_t n = f->n;
+  long double s = 0.0L, s1 = 0.0L, s2 = 0.0L;
+  size_t stride, cnt = 0;
   if (t->kind == BL_TRANSFORM_NONE)
     return xb;
-  if (!smear)
+  if (!smear || n == 0)
     return inverse_transform (t, xb) - t->shift;
-  for (size_t i = 0; i < f->n; i++)
+  switch (t->kind) {
+  case BL_TRANSFORM_LOG:
+    /* exp(xb) mean(exp(e_i)) */
+    for (size_t i = 0; i < n; i++)
+      s += exp (f->y[i] - f->mu[i]);
+    return exp (xb) * (double) (s / (long double) n) - t->shift;
+  case BL_TRANSFORM_SQRT:
+    /* mean((xb + e)^2) = xb^2 + 2 xb mean(e) + mean(e^2); the back-transform of sqrt is
+       taken as z^2 on the whole line here (the clipping at 0 changes nothing where xb + e_i
+       >= 0 for all i, the usual case) */
+    for (size_t i = 0; i < n; i++) {
+      const double e = f->y[i] - f->mu[i];
+      if (xb + e < 0.0)
+        goto general;
+      s1 += e;
+      s2 += (long double) e * e;
+    }
+    return (double) ((long double) xb * xb + 2.0L * xb * s1 / (long double) n
+                     + s2 / (long double) n) - t->shift;
+  default:
+    break;
+  }
+general:
+  /* the general sum; above BL_SMEAR_MAX residuals, every stride-th (a deterministic
+     subsample, in row order) */
+  stride = n > BL_SMEAR_MAX ? (n + BL_SMEAR_MAX - 1) / BL_SMEAR_MAX : 1;
+  for (size_t i = 0; i < n; i += stride, cnt++)
     s += inverse_transform (t, xb + (f->y[i] - f->mu[i]));
-  return (double) (s / (long double) f->n) - t->shift;
+  return (double) (s / (long double) cnt) - t->shift;
 }

@@ -1,0 +1,665 @@
+/* diag.c -- residuals and the variance checks (see diag.h for each formula's source). */
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <gsl/gsl_cdf.h>
+#include <gsl/gsl_randist.h>
+#include <gsl/gsl_sf_gamma.h>
+#include "alloc.h"
+#include "diag.h"
+#include "fit_impl.h"
+
+struct bl_diag {
+  bl_diag_result r;
+};
+
+void
+bl_diag_opts_init (bl_diag_opts *opt)
+{
+  opt->seed = BL_DIAG_SEED;
+  opt->null_reps = BL_DIAG_NULL_REPS;
+  opt->white_max_p = BL_DIAG_WHITE_MAX_P;
+}
+
+void
+bl_pearson_residuals (const bl_fit *f, double *r)
+{
+  for (size_t i = 0; i < f->n; i++) {
+    const double a = f->a ? f->a[i] : 1.0;
+    r[i] = (f->y[i] - f->mu[i]) * sqrt (a / f->fam->var (f->mu[i]));
+  }
+}
+
+typedef struct keyed { double key; size_t idx; } keyed;
+
+static int
+cmp_keyed (const void *pa, const void *pb)
+{
+  const keyed *a = pa, *b = pb;
+  if (a->key < b->key) return -1;
+  if (a->key > b->key) return 1;
+  return (a->idx > b->idx) - (a->idx < b->idx);    /* ties by row index */
+}
+
+int
+bl_order_by (const double *key, size_t n, size_t *order, bl_err *err)
+{
+  keyed *k = bl_mallocn (n ? n : 1, sizeof *k);
+  if (!k)
+    return bl_fail (err, BL_ENOMEM, "diagnose", "out of memory");
+  for (size_t i = 0; i < n; i++) {
+    k[i].key = key[i];
+    k[i].idx = i;
+  }
+  qsort (k, n, sizeof *k, cmp_keyed);
+  for (size_t i = 0; i < n; i++)
+    order[i] = k[i].idx;
+  bl_free (k);
+  return BL_OK;
+}
+
+void
+bl_spread_clear (bl_spread *s)
+{
+  if (!s)
+    return;
+  bl_free (s->groups);
+  s->groups = NULL;
+  s->ngroups = 0;
+}
+
+static int
+cmp_double (const void *pa, const void *pb)
+{
+  const double a = *(const double *) pa, b = *(const double *) pb;
+  return (a > b) - (a < b);
+}
+
+int
+bl_spread_compute (const double *fitted, const double *r, size_t n, gsl_rng *rng, size_t reps,
+                   bl_spread *out, bl_err *err)
+{
+  size_t G = BL_DIAG_GROUPS, *order;
+  double lo = HUGE_VAL, hi = 0.0;
+  memset (out, 0, sizeof *out);
+  out->ratio = out->null95 = NAN;
+  out->why = "";
+  while (G > 1 && n / G < BL_DIAG_MIN_GROUP)
+    G--;
+  if (G < 2) {
+    out->why = "fewer than 40 rows: no two groups of 20 to compare";
+    return BL_OK;
+  }
+  order = bl_mallocn (n, sizeof *order);
+  out->groups = bl_calloc (G, sizeof *out->groups);
+  if (!order || !out->groups) {
+    bl_free (order);
+    bl_spread_clear (out);
+    return bl_fail (err, BL_ENOMEM, "spread", "out of memory");
+  }
+  if (bl_order_by (fitted, n, order, err) != BL_OK) {
+    bl_free (order);
+    bl_spread_clear (out);
+    return BL_ENOMEM;
+  }
+  out->ngroups = G;
+  for (size_t g = 0; g < G; g++) {
+    const size_t a = g * n / G, b = (g + 1) * n / G;
+    long double ss = 0.0L, sf = 0.0L;
+    for (size_t k = a; k < b; k++) {
+      ss += (long double) r[order[k]] * r[order[k]];
+      sf += fitted[order[k]];
+    }
+    out->groups[g].n = b - a;
+    out->groups[g].fitted_mean = (double) (sf / (long double) (b - a));
+    out->groups[g].rms = sqrt ((double) (ss / (long double) (b - a)));
+    lo = out->groups[g].rms < lo ? out->groups[g].rms : lo;
+    hi = out->groups[g].rms > hi ? out->groups[g].rms : hi;
+  }
+  bl_free (order);
+  out->ratio = lo > 0.0 ? hi / lo : NAN;
+  if (!(lo > 0.0))
+    out->why = "a group has zero residual spread";
+  if (rng && reps > 0) {
+    double *sim = bl_mallocn (reps, sizeof *sim);
+    if (!sim) {
+      bl_spread_clear (out);
+      return bl_fail (err, BL_ENOMEM, "spread", "out of memory");
+    }
+    for (size_t k = 0; k < reps; k++) {
+      double l = HUGE_VAL, h = 0.0;
+      for (size_t g = 0; g < G; g++) {
+        const double nn = (double) out->groups[g].n;
+        const double rms = sqrt (gsl_ran_chisq (rng, nn) / nn);
+        l = rms < l ? rms : l;
+        h = rms > h ? rms : h;
+      }
+      sim[k] = h / l;
+    }
+    qsort (sim, reps, sizeof *sim, cmp_double);
+    out->null95 = sim[(size_t) ceil (0.95 * (double) reps) - 1];
+    bl_free (sim);
+  }
+  out->flag = isfinite (out->ratio) && out->ratio >= BL_DIAG_SPREAD_FLAG
+              && (!isfinite (out->null95) || out->ratio > out->null95);
+  return BL_OK;
+}
+
+/* ---------------------------------------------------------------- auxiliary regressions */
+
+typedef struct aux_ctx {
+  const bl_design *d;
+  size_t p;                 /* design columns */
+  size_t nx, *xcols;        /* the non-intercept design columns */
+  int white;                /* add squares and cross products */
+  double *tmp;              /* BL_IRLS_BLOCK x p */
+} aux_ctx;
+
+static void
+aux_fill (const void *vctx, size_t row0, size_t nr, double *out, size_t ld)
+{
+  const aux_ctx *c = vctx;
+  size_t col = 1;
+  bl_design_fill (c->d, row0, nr, c->tmp, BL_IRLS_BLOCK);
+  for (size_t i = 0; i < nr; i++)
+    out[i] = 1.0;
+  for (size_t a = 0; a < c->nx; a++, col++)
+    memcpy (out + col * ld, c->tmp + c->xcols[a] * BL_IRLS_BLOCK, nr * sizeof (double));
+  if (c->white)
+    for (size_t a = 0; a < c->nx; a++)
+      for (size_t b = a; b < c->nx; b++, col++) {
+        const double *xa = c->tmp + c->xcols[a] * BL_IRLS_BLOCK;
+        const double *xb = c->tmp + c->xcols[b] * BL_IRLS_BLOCK;
+        for (size_t i = 0; i < nr; i++)
+          out[i + col * ld] = xa[i] * xb[i];
+      }
+}
+
+/* Regress T (length n) on the auxiliary columns: RSS, TSS about the mean, and the rank. */
+static int
+aux_regress (aux_ctx *c, const double *t, size_t n, double *rss, double *tss, size_t *rank,
+             bl_err *err)
+{
+  const size_t q = 1 + c->nx + (c->white ? c->nx * (c->nx + 1) / 2 : 0);
+  bl_irls_model m = { &bl_family_gaussian, &bl_link_identity, n, q, t, NULL, NULL, aux_fill,
+                      NULL, c, 1 };
+  bl_irls_opts o;
+  bl_irls_work *ws;
+  long double s = 0.0L, ss = 0.0L;
+  int st;
+  bl_irls_opts_init (&o);
+  o.threads = 1;                 /* aux_fill shares one scratch block */
+  ws = bl_irls_work_new (&m, &o, err);
+  if (!ws)
+    return BL_ENOMEM;
+  st = bl_irls_run (ws, err);
+  if (st == BL_OK) {
+    *rss = bl_irls_deviance (ws);
+    *rank = bl_irls_sol (ws)->rank;
+  }
+  bl_irls_work_free (ws);
+  for (size_t i = 0; i < n; i++)
+    s += t[i];
+  for (size_t i = 0; i < n; i++) {
+    const long double dv = t[i] - s / (long double) n;
+    ss += dv * dv;
+  }
+  *tss = (double) ss;
+  return st;
+}
+
+/* Breusch & Pagan 1979 (Econometrica 47, 1287-1294): ESS / 2 of e^2 / (RSS / n) on the terms;
+   Koenker 1981 (J. Econometrics 17, 107-112): n R^2 of e^2 on the terms; White 1980
+   (Econometrica 48, 817-838): n R^2 of e^2 on the terms, their squares and cross products.
+   dof = rank of the auxiliary regressors less the intercept; chi-square p-values. */
+static int
+variance_tests (const bl_fit *f, const double *e, const bl_diag_opts *opt, bl_diag_result *r,
+                bl_err *err)
+{
+  const size_t n = f->n, p = f->p;
+  aux_ctx c;
+  double *u = bl_mallocn (n, sizeof *u);
+  long double rss0 = 0.0L;
+  double rss, tss;
+  size_t rank;
+  int st = BL_OK;
+  memset (&c, 0, sizeof c);
+  c.d = f->d;
+  c.p = p;
+  c.xcols = bl_mallocn (p ? p : 1, sizeof *c.xcols);
+  c.tmp = bl_mallocn ((size_t) BL_IRLS_BLOCK * (p ? p : 1), sizeof *c.tmp);
+  if (!u || !c.xcols || !c.tmp) {
+    st = bl_fail (err, BL_ENOMEM, "diagnose", "out of memory");
+    goto done;
+  }
+  for (size_t j = 0; j < p; j++)
+    if (!(bl_design_has_intercept (f->d) && j == 0) && !f->aliased[j])
+      c.xcols[c.nx++] = j;
+  for (size_t i = 0; i < n; i++)
+    rss0 += (long double) e[i] * e[i];
+  r->breusch_pagan.why = r->koenker.why = r->white.why = "";
+  if (c.nx == 0 || !(rss0 > 0.0L)) {
+    r->breusch_pagan.why = r->koenker.why = r->white.why =
+      c.nx == 0 ? "the model has no terms beside the intercept" : "the residuals are all zero";
+    goto done;
+  }
+  for (size_t i = 0; i < n; i++)
+    u[i] = e[i] * e[i] / (double) (rss0 / (long double) n);
+  if ((st = aux_regress (&c, u, n, &rss, &tss, &rank, err)) != BL_OK)
+    goto done;
+  r->breusch_pagan.done = 1;
+  r->breusch_pagan.stat = 0.5 * (tss - rss);
+  r->breusch_pagan.dof = rank - 1;
+  r->breusch_pagan.p = gsl_cdf_chisq_Q (r->breusch_pagan.stat, (double) (rank - 1));
+  for (size_t i = 0; i < n; i++)
+    u[i] = e[i] * e[i];
+  if ((st = aux_regress (&c, u, n, &rss, &tss, &rank, err)) != BL_OK)
+    goto done;
+  r->koenker.done = 1;
+  r->koenker.stat = tss > 0.0 ? (double) n * (1.0 - rss / tss) : 0.0;
+  r->koenker.dof = rank - 1;
+  r->koenker.p = gsl_cdf_chisq_Q (r->koenker.stat, (double) (rank - 1));
+  if (c.nx > opt->white_max_p) {
+    r->white.why = "skipped: more than the documented limit of non-intercept columns (20), "
+                   "which would need too many auxiliary columns";
+  } else {
+    c.white = 1;
+    if ((st = aux_regress (&c, u, n, &rss, &tss, &rank, err)) != BL_OK)
+      goto done;
+    r->white.done = 1;
+    r->white.stat = tss > 0.0 ? (double) n * (1.0 - rss / tss) : 0.0;
+    r->white.dof = rank - 1;
+    r->white.p = gsl_cdf_chisq_Q (r->white.stat, (double) (rank - 1));
+  }
+done:
+  bl_free (u);
+  bl_free (c.xcols);
+  bl_free (c.tmp);
+  return st;
+}
+
+/* The variance power: groups of at least 20 rows by fitted value (at least 10 groups); the
+   least-squares slope of log(mean squared raw residual) on log(mean fitted) estimates K in
+   Var y = c mu^K (the log-log mean-variance plot; e.g. McCullagh & Nelder 1989, section
+   12.6, from memory); groups with mean fitted <= 0 are left out and counted. */
+static int
+variance_power (const bl_fit *f, int integer_y, bl_power *pw, bl_err *err)
+{
+  const size_t n = f->n;
+  size_t G = n / BL_DIAG_MIN_GROUP, *order, m = 0;
+  double gx[BL_DIAG_POWER_MAX_GROUPS], gy[BL_DIAG_POWER_MAX_GROUPS];
+  memset (pw, 0, sizeof *pw);
+  pw->estimate = pw->se = pw->lo = pw->hi = NAN;
+  pw->why = "";
+  pw->suggested = NULL;
+  if (G > BL_DIAG_POWER_MAX_GROUPS)
+    G = BL_DIAG_POWER_MAX_GROUPS;
+  if (G < BL_DIAG_POWER_MIN_GROUPS) {
+    pw->why = "fewer than 200 rows: not 10 groups of 20";
+    return BL_OK;
+  }
+  order = bl_mallocn (n, sizeof *order);
+  if (!order)
+    return bl_fail (err, BL_ENOMEM, "diagnose", "out of memory");
+  if (bl_order_by (f->mu, n, order, err) != BL_OK) {
+    bl_free (order);
+    return BL_ENOMEM;
+  }
+  for (size_t g = 0; g < G; g++) {
+    const size_t a = g * n / G, b = (g + 1) * n / G;
+    long double sm = 0.0L, ss = 0.0L;
+    for (size_t k = a; k < b; k++) {
+      const double r = f->y[order[k]] - f->mu[order[k]];
+      sm += f->mu[order[k]];
+      ss += (long double) r * r;
+    }
+    sm /= (long double) (b - a);
+    ss /= (long double) (b - a);
+    if (!(sm > 0.0L) || !(ss > 0.0L)) {
+      pw->groups_left_out++;
+      continue;
+    }
+    gx[m] = log ((double) sm);
+    gy[m] = log ((double) ss);
+    m++;
+  }
+  bl_free (order);
+  pw->groups_used = m;
+  if (m < 3) {
+    pw->why = "fewer than 3 groups with a positive mean fitted value";
+    return BL_OK;
+  }
+  {
+    double mx = 0.0, my = 0.0, sxx = 0.0, sxy = 0.0, sse = 0.0, b, a0, t;
+    for (size_t k = 0; k < m; k++) {
+      mx += gx[k];
+      my += gy[k];
+    }
+    mx /= (double) m;
+    my /= (double) m;
+    for (size_t k = 0; k < m; k++) {
+      sxx += (gx[k] - mx) * (gx[k] - mx);
+      sxy += (gx[k] - mx) * (gy[k] - my);
+    }
+    if (!(sxx > 0.0)) {
+      pw->why = "the groups' mean fitted values do not vary";
+      return BL_OK;
+    }
+    b = sxy / sxx;
+    a0 = my - b * mx;
+    for (size_t k = 0; k < m; k++) {
+      const double res = gy[k] - a0 - b * gx[k];
+      sse += res * res;
+    }
+    pw->done = 1;
+    pw->estimate = b;
+    pw->se = sqrt (sse / (double) (m - 2) / sxx);
+    t = gsl_cdf_tdist_Qinv (0.025, (double) (m - 2));
+    pw->lo = b - t * pw->se;
+    pw->hi = b + t * pw->se;
+  }
+  /* the nearest of 0 (gaussian), 1 (poisson, integer y only), 2 (gamma), 3 (inverse gaussian) */
+  {
+    static const char *const names[] = { "gaussian", "poisson", "gamma", "inverse-gaussian" };
+    double best = HUGE_VAL;
+    for (int k = 0; k < 4; k++) {
+      if (k == 1 && !integer_y)
+        continue;
+      if (fabs (pw->estimate - k) < best) {
+        best = fabs (pw->estimate - k);
+        pw->suggested = names[k];
+      }
+    }
+  }
+  return BL_OK;
+}
+
+/* Lack of fit: Pearson residual means in bins of the fitted value and of each numeric column
+   (not the intercept, not 0/1 indicators); a bin mean beyond 3 standard errors of zero is
+   flagged (common practice, no source). */
+static int
+lack_of_fit (const bl_fit *f, const double *e, bl_lof *lof, bl_err *err)
+{
+  const size_t n = f->n, p = f->p;
+  size_t G = BL_DIAG_LOF_GROUPS, nagainst = 1, cap;
+  size_t *order = NULL;
+  double *x = NULL, *blk = NULL;
+  int st = BL_OK;
+  memset (lof, 0, sizeof *lof);
+  while (G > 1 && n / G < BL_DIAG_MIN_GROUP)
+    G--;
+  if (G < 2)
+    return BL_OK;
+  cap = G * (p + 1);
+  lof->groups = bl_calloc (cap, sizeof *lof->groups);
+  order = bl_mallocn (n, sizeof *order);
+  x = bl_mallocn (n, sizeof *x);
+  blk = bl_mallocn ((size_t) BL_IRLS_BLOCK * (p ? p : 1), sizeof *blk);
+  if (!lof->groups || !order || !x || !blk) {
+    st = bl_fail (err, BL_ENOMEM, "diagnose", "out of memory");
+    goto done;
+  }
+  for (size_t a = 0; a <= p; a++) {
+    const char *label = "fitted";
+    if (a == 0) {
+      memcpy (x, f->mu, n * sizeof *x);
+    } else {
+      const size_t j = a - 1;
+      int binary = 1;
+      if (f->aliased[j] || (bl_design_has_intercept (f->d) && j == 0))
+        continue;
+      for (size_t r0 = 0; r0 < n; r0 += BL_IRLS_BLOCK) {
+        const size_t nb = n - r0 < BL_IRLS_BLOCK ? n - r0 : BL_IRLS_BLOCK;
+        bl_design_fill (f->d, r0, nb, blk, BL_IRLS_BLOCK);
+        for (size_t i = 0; i < nb; i++) {
+          x[r0 + i] = blk[i + j * BL_IRLS_BLOCK];
+          binary &= x[r0 + i] == 0.0 || x[r0 + i] == 1.0;
+        }
+      }
+      if (binary)
+        continue;
+      label = bl_design_label (f->d, j);
+      nagainst++;
+    }
+    if ((st = bl_order_by (x, n, order, err)) != BL_OK)
+      goto done;
+    for (size_t g = 0; g < G; g++) {
+      const size_t lo = g * n / G, hi = (g + 1) * n / G, m = hi - lo;
+      long double sx = 0.0L, se = 0.0L, see = 0.0L;
+      bl_lof_group *grp = &lof->groups[lof->ngroups++];
+      for (size_t k = lo; k < hi; k++) {
+        sx += x[order[k]];
+        se += e[order[k]];
+      }
+      for (size_t k = lo; k < hi; k++) {
+        const long double dv = e[order[k]] - se / (long double) m;
+        see += dv * dv;
+      }
+      grp->against = label;
+      grp->n = m;
+      grp->x_mean = (double) (sx / (long double) m);
+      grp->resid_mean = (double) (se / (long double) m);
+      grp->se = m > 1 ? sqrt ((double) (see / (long double) (m - 1)) / (double) m) : NAN;
+      grp->flag = grp->se > 0.0 && fabs (grp->resid_mean) > BL_DIAG_LOF_Z * grp->se;
+      lof->flag |= grp->flag;
+    }
+  }
+  (void) nagainst;
+done:
+  bl_free (order);
+  bl_free (x);
+  bl_free (blk);
+  return st;
+}
+
+bl_diag *
+bl_diag_new (const bl_fit *f, const bl_diag_opts *opt, bl_err *err)
+{
+  bl_diag *d = bl_calloc (1, sizeof *d);
+  double *e = bl_mallocn (f->n ? f->n : 1, sizeof *e);
+  gsl_rng *rng = gsl_rng_alloc (gsl_rng_mt19937);
+  int integer_y = 1, st;
+  if (!d || !e || !rng) {
+    bl_free (d);
+    bl_free (e);
+    if (rng)
+      gsl_rng_free (rng);
+    bl_fail (err, BL_ENOMEM, "diagnose", "out of memory");
+    return NULL;
+  }
+  if (!f->st.converged) {
+    bl_free (d);
+    bl_free (e);
+    gsl_rng_free (rng);
+    bl_fail (err, BL_ENOCONV, "diagnose", "the model did not converge: nothing to diagnose");
+    return NULL;
+  }
+  gsl_rng_set (rng, opt->seed);
+  bl_pearson_residuals (f, e);
+  for (size_t i = 0; i < f->n && integer_y; i++)
+    integer_y = f->y[i] >= 0.0 && f->y[i] == floor (f->y[i]);
+  st = variance_tests (f, e, opt, &d->r, err);
+  if (st == BL_OK)
+    st = bl_spread_compute (f->mu, e, f->n, rng, opt->null_reps, &d->r.spread, err);
+  if (st == BL_OK)
+    st = variance_power (f, integer_y, &d->r.power, err);
+  if (st == BL_OK)
+    st = lack_of_fit (f, e, &d->r.lof, err);
+  bl_free (e);
+  gsl_rng_free (rng);
+  if (st != BL_OK) {
+    bl_diag_free (d);
+    return NULL;
+  }
+  return d;
+}
+
+void
+bl_diag_free (bl_diag *d)
+{
+  if (!d)
+    return;
+  bl_spread_clear (&d->r.spread);
+  bl_free (d->r.lof.groups);
+  bl_free (d);
+}
+
+const bl_diag_result *bl_diag_get (const bl_diag *d) { return &d->r; }
+
+/* ---------------------------------------------------------------- quantile residuals */
+
+/* The fitted distribution's CDF at y for row i (continuous families), with the dispersion
+   phi (row dispersion phi / a). */
+static double
+cdf_row (const bl_fit *f, size_t i, double y, double phi)
+{
+  const double a = f->a ? f->a[i] : 1.0, mu = f->mu[i];
+  if (f->fam == &bl_family_gaussian)
+    return gsl_cdf_gaussian_P (y - mu, sqrt (phi / a));
+  if (f->fam == &bl_family_gamma) {
+    const double shape = a / phi;
+    return gsl_cdf_gamma_P (y, shape, mu / shape);
+  }
+  if (f->fam == &bl_family_invgauss) {
+    /* Chhikara & Folks 1989, eq. 2.3: F = Phi(s (y/mu - 1)) + exp(2 lambda / mu) Phi(-s (y/mu
+       + 1)), s = sqrt(lambda / y), lambda = a / phi; the second term in log space */
+    const double lam = a / phi, s = sqrt (lam / y);
+    const double t1 = gsl_cdf_ugaussian_P (s * (y / mu - 1.0));
+    const double z2 = -s * (y / mu + 1.0);
+    const double t2 = exp (2.0 * lam / mu + log (gsl_cdf_ugaussian_P (z2)));
+    return t1 + (isfinite (t2) ? t2 : 0.0);
+  }
+  return NAN;
+}
+
+int
+bl_quantile_residuals (const bl_fit *f, gsl_rng *rng, double *q, bl_err *err)
+{
+  const double phi = f->fam->phi_free ? f->st.phi_pearson : 1.0;
+  for (size_t i = 0; i < f->n; i++) {
+    double u;
+    if (f->fam == &bl_family_poisson) {
+      /* randomized: u uniform on (F(y - 1), F(y)) (Dunn & Smyth 1996) */
+      const double y = f->y[i], mu = f->mu[i];
+      const double hi = gsl_cdf_poisson_P ((unsigned) y, mu);
+      const double lo = y >= 1.0 ? gsl_cdf_poisson_P ((unsigned) (y - 1.0), mu) : 0.0;
+      u = lo + gsl_rng_uniform_pos (rng) * (hi - lo);
+    } else {
+      u = cdf_row (f, i, f->y[i], phi);
+    }
+    if (u <= 0.0)
+      u = 1e-300;
+    if (u >= 1.0)
+      u = 1.0 - 1e-16;
+    q[i] = gsl_cdf_ugaussian_Pinv (u);
+  }
+  (void) err;
+  return BL_OK;
+}
+
+void
+bl_resid_table_free (bl_resid_table *t)
+{
+  if (!t)
+    return;
+  bl_free (t->response);
+  bl_free (t->pearson);
+  bl_free (t->deviance);
+  bl_free (t->working);
+  bl_free (t->quantile);
+  bl_free (t->leverage);
+  bl_free (t->cooks);
+  bl_free (t);
+}
+
+bl_resid_table *
+bl_resid_table_new (const bl_fit *f, gsl_rng *rng, bl_err *err)
+{
+  const size_t n = f->n, p = f->p;
+  bl_resid_table *t = bl_calloc (1, sizeof *t);
+  double *blk = bl_mallocn ((size_t) BL_IRLS_BLOCK * (p ? p : 1), sizeof *blk);
+  const double phi = f->fam->phi_free ? f->st.phi_pearson : 1.0;
+  if (!t || !blk)
+    goto nomem;
+  t->n = n;
+  t->response = bl_mallocn (n ? n : 1, sizeof (double));
+  t->pearson = bl_mallocn (n ? n : 1, sizeof (double));
+  t->deviance = bl_mallocn (n ? n : 1, sizeof (double));
+  t->working = bl_mallocn (n ? n : 1, sizeof (double));
+  t->quantile = bl_mallocn (n ? n : 1, sizeof (double));
+  t->leverage = bl_mallocn (n ? n : 1, sizeof (double));
+  t->cooks = bl_mallocn (n ? n : 1, sizeof (double));
+  if (!t->response || !t->pearson || !t->deviance || !t->working || !t->quantile
+      || !t->leverage || !t->cooks)
+    goto nomem;
+  bl_pearson_residuals (f, t->pearson);
+  if (bl_quantile_residuals (f, rng, t->quantile, err) != BL_OK)
+    goto fail;
+  for (size_t r0 = 0; r0 < n; r0 += BL_IRLS_BLOCK) {
+    const size_t nb = n - r0 < BL_IRLS_BLOCK ? n - r0 : BL_IRLS_BLOCK;
+    bl_design_fill (f->d, r0, nb, blk, BL_IRLS_BLOCK);
+    for (size_t i = 0; i < nb; i++) {
+      const size_t row = r0 + i;
+      const double a = f->a ? f->a[row] : 1.0, y = f->y[row], mu = f->mu[row];
+      const double dmu = f->link->dmu_deta (f->eta[row]);
+      double h = 0.0;
+      /* leverage h = w x' (X'WX)^-1 x (the diagonal of the IRLS hat matrix; McCullagh &
+         Nelder 1989, section 12.7.1), Cook's distance r_P^2 h / (phi k (1 - h)^2) with k the
+         rank (Cook 1977, Technometrics 19, 15-18, in its GLM form) */
+      for (size_t j = 0; j < p; j++) {
+        double s = 0.0;
+        if (f->aliased[j])
+          continue;
+        for (size_t k = 0; k < p; k++)
+          if (!f->aliased[k])
+            s += f->cov_unscaled[j + k * p] * blk[i + k * BL_IRLS_BLOCK];
+        h += blk[i + j * BL_IRLS_BLOCK] * s;
+      }
+      h *= f->w[row];
+      t->response[row] = y - mu;
+      t->deviance[row] = (y >= mu ? 1.0 : -1.0) * sqrt (a * f->fam->unit_dev (y, mu));
+      t->working[row] = (y - mu) / dmu;
+      t->leverage[row] = h;
+      t->cooks[row] = h < 1.0 ? t->pearson[row] * t->pearson[row] * h
+                                / (phi * (double) f->st.rank * (1.0 - h) * (1.0 - h)) : NAN;
+    }
+  }
+  bl_free (blk);
+  return t;
+nomem:
+  bl_fail (err, BL_ENOMEM, "residuals", "out of memory");
+fail:
+  bl_free (blk);
+  bl_resid_table_free (t);
+  return NULL;
+}
+
+void
+bl_ks_normal (double *x, size_t n, double *d, double *p)
+{
+  double dmax = 0.0, lam, s = 0.0, en;
+  if (n == 0) {
+    *d = *p = NAN;
+    return;
+  }
+  qsort (x, n, sizeof *x, cmp_double);
+  for (size_t i = 0; i < n; i++) {
+    const double F = gsl_cdf_ugaussian_P (x[i]);
+    const double d1 = (double) (i + 1) / (double) n - F, d2 = F - (double) i / (double) n;
+    dmax = d1 > dmax ? d1 : dmax;
+    dmax = d2 > dmax ? d2 : dmax;
+  }
+  en = sqrt ((double) n);
+  lam = (en + 0.12 + 0.11 / en) * dmax;
+  for (int k = 1; k <= 100; k++) {
+    const double term = 2.0 * ((k % 2) ? 1.0 : -1.0) * exp (-2.0 * k * k * lam * lam);
+    s += term;
+    if (fabs (term) < 1e-16)
+      break;
+  }
+  *d = dmax;
+  *p = s < 0.0 ? 0.0 : s > 1.0 ? 1.0 : s;
+  if (lam < 0.2)
+    *p = 1.0;
+}

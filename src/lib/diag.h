@@ -1,0 +1,124 @@
+/* diag.h -- residuals and the checks of whether the variance is really constant:
+   Breusch-Pagan, Koenker and White tests, the spread ratio with its null quantile, the
+   variance power, a lack-of-fit check, and the residual table. */
+#ifndef BALLAST_DIAG_H
+#define BALLAST_DIAG_H
+#include <stddef.h>
+#include <gsl/gsl_rng.h>
+#include "error.h"
+#include "fit.h"
+#ifdef __cplusplus
+extern "C" {
+#endif
+
+#define BL_DIAG_GROUPS 5            /* spread groups by fitted value */
+#define BL_DIAG_MIN_GROUP 20        /* rows a group at least */
+#define BL_DIAG_POWER_MIN_GROUPS 10 /* groups needed for the variance power */
+#define BL_DIAG_POWER_MAX_GROUPS 20
+#define BL_DIAG_WHITE_MAX_P 20      /* White's test skipped above this many non-intercept columns */
+#define BL_DIAG_NULL_REPS 4000      /* simulated replicates of the spread ratio under H0 */
+#define BL_DIAG_SPREAD_FLAG 2.0     /* a four-fold change of variance (common practice) */
+#define BL_DIAG_LOF_GROUPS 10       /* lack-of-fit bins */
+#define BL_DIAG_LOF_Z 3.0           /* a bin mean this many standard errors from 0 is flagged */
+#define BL_DIAG_SEED 20261201UL
+
+typedef struct bl_diag_opts {
+  unsigned long seed;               /* BL_DIAG_SEED; the null quantile's simulation */
+  size_t null_reps;                 /* BL_DIAG_NULL_REPS */
+  size_t white_max_p;               /* BL_DIAG_WHITE_MAX_P */
+} bl_diag_opts;
+
+void bl_diag_opts_init (bl_diag_opts *opt);
+
+typedef struct bl_diag_test {
+  int done;                         /* 0: skipped, see why */
+  double stat, p;
+  size_t dof;
+  const char *why;                  /* "" when done */
+} bl_diag_test;
+
+typedef struct bl_spread_group { size_t n; double fitted_mean, rms; } bl_spread_group;
+
+typedef struct bl_spread {
+  size_t ngroups;
+  bl_spread_group *groups;          /* owned; bl_spread_clear frees */
+  double ratio, null95;             /* NAN with why when fewer than 2 groups */
+  int flag;
+  const char *why;
+} bl_spread;
+
+typedef struct bl_power {
+  int done;
+  double estimate, se, lo, hi;      /* slope and its 95% interval */
+  size_t groups_used, groups_left_out;
+  const char *suggested;            /* "gaussian", "poisson", "gamma", "inverse-gaussian" */
+  const char *why;
+} bl_power;
+
+typedef struct bl_lof_group {
+  const char *against;              /* "fitted" or a column label (owned by the design/fit) */
+  size_t n;
+  double x_mean, resid_mean, se;
+  int flag;
+} bl_lof_group;
+
+typedef struct bl_lof {
+  int flag;
+  size_t ngroups;
+  bl_lof_group *groups;
+} bl_lof;
+
+typedef struct bl_diag bl_diag;
+
+typedef struct bl_diag_result {
+  bl_diag_test breusch_pagan, koenker, white;
+  bl_spread spread;
+  bl_power power;
+  bl_lof lof;
+} bl_diag_result;
+
+/* Pearson residuals of FIT into R (length n): (y - mu) sqrt(a / V(mu)) with the fit's own
+   response, means and prior weights, which makes them sqrt(w) r for WLS and the
+   transformed-scale residual for transformed OLS (one definition everywhere). */
+void bl_pearson_residuals (const bl_fit *fit, double *r);
+
+/* Row order by fitted value, ties by row index (a deterministic, stable order). */
+int bl_order_by (const double *key, size_t n, size_t *order, bl_err *err);
+
+/* The spread ratio of residuals R (length n) grouped by FITTED: G = BL_DIAG_GROUPS groups (fewer
+   when a group would hold fewer than BL_DIAG_MIN_GROUP rows); group g holds sorted rows
+   floor(g n / G) .. floor((g + 1) n / G) - 1; ratio = max rms / min rms.  null95 is its 95%
+   quantile under constant variance for these group sizes, simulated with RNG: under normal
+   residuals of common variance, n_g rms_g^2 / sigma^2 is chi-square on n_g (common practice,
+   no source).  Fills OUT (free with bl_spread_clear). */
+int bl_spread_compute (const double *fitted, const double *r, size_t n, gsl_rng *rng,
+                       size_t reps, bl_spread *out, bl_err *err);
+void bl_spread_clear (bl_spread *s);
+
+/* All checks on FIT.  NULL with ERR on failure. */
+bl_diag *bl_diag_new (const bl_fit *fit, const bl_diag_opts *opt, bl_err *err);
+void bl_diag_free (bl_diag *d);
+const bl_diag_result *bl_diag_get (const bl_diag *d);
+
+/* The residual table: per row the response, Pearson, deviance, working and randomized
+   quantile residuals (Dunn & Smyth 1996, J. Comput. Graph. Statist. 5, 236-244; the discrete
+   family's uniform draws from RNG), leverage and Cook's distance.  Arrays of length n. */
+typedef struct bl_resid_table {
+  size_t n;
+  double *response, *pearson, *deviance, *working, *quantile, *leverage, *cooks;
+} bl_resid_table;
+bl_resid_table *bl_resid_table_new (const bl_fit *fit, gsl_rng *rng, bl_err *err);
+void bl_resid_table_free (bl_resid_table *t);
+
+/* Quantile residuals alone (as in the table) into Q (length n). */
+int bl_quantile_residuals (const bl_fit *fit, gsl_rng *rng, double *q, bl_err *err);
+
+/* Kolmogorov-Smirnov test of X (length n, sorted in place) against the standard normal:
+   D = sup |F_n - Phi| and its asymptotic p-value with Stephens' (1970) correction,
+   lambda = (sqrt n + 0.12 + 0.11 / sqrt n) D, p = 2 sum (-1)^(k-1) exp(-2 k^2 lambda^2). */
+void bl_ks_normal (double *x, size_t n, double *d, double *p);
+
+#ifdef __cplusplus
+}
+#endif
+#endif
