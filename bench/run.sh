@@ -5,7 +5,7 @@
 # Environment: BENCH_OUT (data and results, default BUILDDIR/bench/out, gitignored),
 # BENCH_ROWS / BENCH_LIN_ROWS / BENCH_P50_ROWS (row counts, default 2000000 / 200000 / 400000),
 # BENCH_REGEN=1 (remake the data even when present), BENCH_IDLE_WAIT (seconds to wait for a
-# quiet machine before each step, default 30), BENCH_TRIES (runs of a step disturbed by other
+# quiet machine before each step, default 20), BENCH_TRIES (runs of a step disturbed by other
 # work before its quietest run is kept, default 3).
 #
 # Exit 0 when every figure was measured, whether it passed or missed its target (this is a
@@ -14,7 +14,7 @@ set -u
 B=${1:?usage: run.sh BUILDDIR}
 BENCH="$B/bench/bench_irls"
 OUT=${BENCH_OUT:-"$B/bench/out"}
-WAIT=${BENCH_IDLE_WAIT:-30}
+WAIT=${BENCH_IDLE_WAIT:-20}
 TRIES=${BENCH_TRIES:-3}
 RES="$OUT/results.txt"
 start=$(date +%s)
@@ -25,8 +25,8 @@ mkdir -p "$OUT" || exit 1
 
 # step TITLE OPENBLAS_THREADS MODE ARGS...: one measurement in its own process; its KEY VALUE
 # lines go to $RES, its account to stderr.  The BLAS thread count is fixed at process start.
-# A step during which other processes kept more than 5% of the machine busy is run again, up
-# to $TRIES times in all, and the quietest try is kept.
+# A step that other processes disturbed (bench_irls prints TAG.disturbed 1) is run again, up
+# to $TRIES times in all; the first undisturbed try, or else the quietest, is kept.
 step () {
   title=$1 blas=$2
   shift 2
@@ -45,7 +45,10 @@ step () {
     if [ -z "$best" ] || awk -v a="$load" -v b="$best_load" 'BEGIN { exit !(a < b) }'; then
       best=$try best_load=$load
     fi
-    awk -v a="$load" 'BEGIN { exit !(a <= 0.05) }' && break
+    if ! grep -q '\.disturbed 1$' "$OUT/step.$try"; then
+      best=$try
+      break
+    fi
     try=$((try + 1))
     [ "$try" -le "$TRIES" ] && echo "  (machine was busy: measuring again, try $try)" >&2
   done

@@ -10,6 +10,8 @@
 #include "cli.h"
 
 int cmd_fit (int argc, char **argv);
+int cmd_diagnose (int argc, char **argv);
+int cmd_compare (int argc, char **argv);
 
 typedef struct command {
   const char *name;
@@ -18,7 +20,9 @@ typedef struct command {
 } command;
 
 static const command commands[] = {
-  { "fit", cmd_fit, "fit one model (GLM by IRLS, or OLS) and report it" },
+  { "fit", cmd_fit, "fit one model (GLM, OLS, WLS or transformed OLS) and report it" },
+  { "diagnose", cmd_diagnose, "check whether the residual spread is constant" },
+  { "compare", cmd_compare, "rank every variance treatment on the same rows" },
 };
 #define NCOMMANDS (sizeof commands / sizeof commands[0])
 

@@ -31,4 +31,8 @@ void jw_null (bl_jsonw *w, const char *key);
 /* Finish the document (a newline) and return nonzero when any write failed. */
 int jw_finish (bl_jsonw *w);
 
+/* The "data" object shared by every document (report_json.c). */
+struct bl_design;
+void bl_report_data_json (bl_jsonw *w, const struct bl_design *d, const char *source);
+
 #endif

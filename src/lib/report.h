@@ -3,6 +3,8 @@
 #define BALLAST_REPORT_H
 #include <stdio.h>
 #include "error.h"
+#include "compare.h"
+#include "diag.h"
 #include "fit.h"
 #include "terms.h"
 #ifdef __cplusplus
@@ -24,6 +26,23 @@ int bl_report_fit_json (FILE *out, const bl_fit *fit, const bl_report_info *info
 
 /* Write FIT as the human-readable report.  Returns BL_OK or BL_EIO. */
 int bl_report_fit_text (FILE *out, const bl_fit *fit, const bl_report_info *info, bl_err *err);
+
+/* Diagnostics of FIT (doc/json.md, "diagnose"): JSON or text.  BL_OK or BL_EIO. */
+int bl_report_diag_json (FILE *out, const bl_fit *fit, const bl_diag *dg,
+                         const bl_report_info *info, bl_err *err);
+int bl_report_diag_text (FILE *out, const bl_fit *fit, const bl_diag *dg,
+                         const bl_report_info *info, bl_err *err);
+
+/* The residual table as CSV: row (1-based data row of the table), fitted, response, pearson,
+   deviance, working, quantile, leverage, cooks.  BL_OK or BL_EIO. */
+int bl_report_residuals_csv (FILE *out, const bl_fit *fit, const bl_resid_table *t,
+                             bl_err *err);
+
+/* A comparison (doc/json.md, "compare"): JSON or text.  D is the design the candidates share. */
+int bl_report_compare_json (FILE *out, const bl_compare *c, const bl_design *d,
+                            const bl_report_info *info, bl_err *err);
+int bl_report_compare_text (FILE *out, const bl_compare *c, const bl_design *d,
+                            const bl_report_info *info, bl_err *err);
 
 #ifdef __cplusplus
 }

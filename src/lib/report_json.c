@@ -11,6 +11,31 @@ why (bl_jsonw *w, const char *key, double val, const char *reason)
     jw_str (w, key, reason);
 }
 
+/* The "data" object of every document: where the rows came from and which were set aside. */
+void
+bl_report_data_json (bl_jsonw *w, const bl_design *d, const char *source)
+{
+  size_t dropped = 0;
+  jw_obj (w, "data");
+  jw_str (w, "source", source);
+  jw_size (w, "rows_read", bl_design_rows_read (d));
+  jw_size (w, "rows_used", bl_design_n (d));
+  for (size_t i = 0; i < bl_design_ndrop (d); i++) {
+    size_t c;
+    bl_design_drop_reason (d, i, &c);
+    dropped += c;
+  }
+  jw_size (w, "rows_dropped", dropped);
+  jw_obj (w, "drop_reasons");
+  for (size_t i = 0; i < bl_design_ndrop (d); i++) {
+    size_t c;
+    const char *r = bl_design_drop_reason (d, i, &c);
+    jw_size (w, r, c);
+  }
+  jw_obj_end (w);
+  jw_obj_end (w);
+}
+
 int
 bl_report_fit_json (FILE *out, const bl_fit *fit, const bl_report_info *info, bl_err *err)
 {
@@ -19,7 +44,6 @@ bl_report_fit_json (FILE *out, const bl_fit *fit, const bl_report_info *info, bl
   const bl_warnings *wn = bl_fit_warnings (fit);
   const bl_err *status = bl_fit_status (fit);
   const size_t p = bl_design_p (d);
-  size_t dropped = 0;
   bl_jsonw w;
 
   jw_init (&w, out);
@@ -29,24 +53,7 @@ bl_report_fit_json (FILE *out, const bl_fit *fit, const bl_report_info *info, bl
   jw_str (&w, "version", info->tool_version);
   jw_obj_end (&w);
 
-  jw_obj (&w, "data");
-  jw_str (&w, "source", info->source);
-  jw_size (&w, "rows_read", bl_design_rows_read (d));
-  jw_size (&w, "rows_used", bl_design_n (d));
-  for (size_t i = 0; i < bl_design_ndrop (d); i++) {
-    size_t c;
-    bl_design_drop_reason (d, i, &c);
-    dropped += c;
-  }
-  jw_size (&w, "rows_dropped", dropped);
-  jw_obj (&w, "drop_reasons");
-  for (size_t i = 0; i < bl_design_ndrop (d); i++) {
-    size_t c;
-    const char *r = bl_design_drop_reason (d, i, &c);
-    jw_size (&w, r, c);
-  }
-  jw_obj_end (&w);
-  jw_obj_end (&w);
+  bl_report_data_json (&w, d, info->source);
 
   jw_obj (&w, "model");
   jw_str (&w, "method", bl_method_name (bl_fit_method (fit)));

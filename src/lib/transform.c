@@ -254,7 +254,7 @@ bl_fit_transform_run (const bl_design *d, const bl_fit_opts *opt, bl_err *err)
         const double pv = profile (cand, &pc);
         if (!isfinite (practical) || dist < fabs (practical - lambda) - 1e-12
             || (fabs (dist - fabs (practical - lambda)) <= 1e-12 && pv > best_l)) {
-          practical = cand;
+          practical = cand == 0.0 ? 0.0 : cand;   /* ceil of a small negative is -0 */
           best_l = pv;
         }
       }

@@ -1,0 +1,169 @@
+/* cmd_diagnose.c -- 'ballast diagnose DATA': fit (OLS unless the fit options say otherwise)
+   and check whether the spread is constant. */
+#include <getopt.h>
+#include <stdio.h>
+#include <string.h>
+#include "ballast.h"
+#include "cli.h"
+#include "model_opts.h"
+
+static const char usage_head[] =
+  "usage: ballast diagnose DATA --response COL [--terms TERMS] [OPTION]...\n"
+  "\n"
+  "Fit a model (ordinary least squares unless the model options choose another) and check\n"
+  "whether its residual spread is constant: a lack-of-fit check first, the Breusch-Pagan,\n"
+  "Koenker and White tests, the spread ratio across groups by fitted value with its 95%\n"
+  "point under constant variance, and the power K in Var y = c mu^K with the family it\n"
+  "suggests.\n"
+  "\n";
+static const char usage_tail[] =
+  "\n"
+  "output:\n"
+  "  --residuals FILE.csv    also write the residual table (response, Pearson, deviance,\n"
+  "                          working and quantile residuals, leverage, Cook's distance)\n"
+  "  --seed N                seed of the simulated null quantile and of the randomized\n"
+  "                          quantile residuals (default 20261201)\n"
+  "  --json                  one JSON document instead of the text report\n"
+  "  -o, --output FILE       write the report to FILE (atomically) instead of stdout\n"
+  "  -q, --quiet             no warnings on stderr\n"
+  "  -h, --help              this help\n"
+  "\n"
+  "exit status: 0 done; 1 data or model problem; 2 usage, option or term-syntax error.\n";
+
+enum { OPT_JSON = OPT_FIRST_OWN, OPT_RESIDUALS, OPT_SEED };
+
+static const struct option long_opts[] = {
+  CLI_MODEL_LONG_OPTS,
+  { "json", no_argument, NULL, OPT_JSON },
+  { "residuals", required_argument, NULL, OPT_RESIDUALS },
+  { "seed", required_argument, NULL, OPT_SEED },
+  { "output", required_argument, NULL, 'o' },
+  { "quiet", no_argument, NULL, 'q' },
+  { "help", no_argument, NULL, 'h' },
+  { NULL, 0, NULL, 0 }
+};
+
+int
+cmd_diagnose (int argc, char **argv)
+{
+  const char *output = NULL, *residuals = NULL;
+  int json = 0, quiet = 0, c, rc, method_set = 0;
+  size_t seed = BL_DIAG_SEED;
+  cli_model m;
+  bl_fit *fit = NULL;
+  bl_diag *dg = NULL;
+  bl_diag_opts dopt;
+  bl_err err;
+  cli_out out, rout;
+
+  cli_model_init (&m);
+  bl_diag_opts_init (&dopt);
+  bl_err_clear (&err);
+  optind = 1;
+  opterr = 0;
+  while ((c = getopt_long (argc, argv, ":o:qh", long_opts, NULL)) != -1) {
+    const int r = cli_model_option (&m, c, optarg, "diagnose");
+    if (r > 0) {
+      cli_model_free (&m);
+      return r;
+    }
+    if (r == 0) {
+      method_set |= c == OPT_METHOD || c == OPT_FAMILY || c == OPT_LINK
+                    || c == OPT_TRANSFORM || c == OPT_VARIANCE;
+      continue;
+    }
+    switch (c) {
+    case OPT_JSON: json = 1; break;
+    case OPT_RESIDUALS: residuals = optarg; break;
+    case OPT_SEED:
+      if (cli_parse_size (optarg, &seed) != 0 && strcmp (optarg, "0") != 0) {
+        cli_model_free (&m);
+        return cli_usage_error ("diagnose", "--seed", "expected a non-negative integer, got "
+                                "'%s'", optarg);
+      }
+      if (strcmp (optarg, "0") == 0)
+        seed = 0;
+      break;
+    case 'o': output = optarg; break;
+    case 'q': quiet = 1; break;
+    case 'h':
+      cli_model_free (&m);
+      fputs (usage_head, stdout);
+      fputs (cli_model_help, stdout);
+      fputs (usage_tail, stdout);
+      return EXIT_DONE;
+    case ':':
+      cli_model_free (&m);
+      return cli_usage_error ("diagnose", argv[optind - 1], "this option needs a value");
+    default:
+      cli_model_free (&m);
+      return cli_usage_error ("diagnose", argv[optind - 1], "unknown option");
+    }
+  }
+  if (!method_set)
+    m.fo.method = BL_METHOD_OLS;
+  if ((rc = cli_model_finish (&m, argc, argv, optind, "diagnose")) != 0
+      || (rc = cli_model_load (&m, "diagnose")) != 0) {
+    cli_model_free (&m);
+    return rc;
+  }
+  dopt.seed = (unsigned long) seed;
+  rc = EXIT_DATA;
+  if (!(fit = bl_fit_glm (m.design, &m.fo, &err)) || !(dg = bl_diag_new (fit, &dopt, &err))) {
+    if (fit && !bl_fit_stats_get (fit)->converged)
+      cli_error ("diagnose", "%s", bl_fit_status (fit)->msg);
+    else
+      rc = cli_lib_error ("diagnose", &err);
+    goto done;
+  }
+  if (!quiet) {
+    const bl_warnings *wn = bl_fit_warnings (fit);
+    cli_model_warn_drops (&m);
+    for (size_t i = 0; i < wn->n; i++)
+      cli_warn ("diagnose", "%s", wn->msg[i]);
+  }
+  if (residuals) {
+    gsl_rng *rng = gsl_rng_alloc (gsl_rng_mt19937);
+    bl_resid_table *t;
+    if (!rng) {
+      cli_error ("diagnose", "out of memory");
+      goto done;
+    }
+    gsl_rng_set (rng, (unsigned long) seed);
+    t = bl_resid_table_new (fit, rng, &err);
+    gsl_rng_free (rng);
+    if (!t) {
+      rc = cli_lib_error ("diagnose", &err);
+      goto done;
+    }
+    if (cli_out_open (&rout, residuals) != 0) {
+      bl_resid_table_free (t);
+      goto done;
+    }
+    if (bl_report_residuals_csv (rout.f, fit, t, &err) != BL_OK) {
+      cli_out_abort (&rout);
+      bl_resid_table_free (t);
+      rc = cli_lib_error ("diagnose", &err);
+      goto done;
+    }
+    bl_resid_table_free (t);
+    if (cli_out_commit (&rout) != 0)
+      goto done;
+  }
+  if (cli_out_open (&out, output) == 0) {
+    bl_report_info info = { m.data, m.terms, m.offset, m.weights, bl_version () };
+    const int st = json ? bl_report_diag_json (out.f, fit, dg, &info, &err)
+                        : bl_report_diag_text (out.f, fit, dg, &info, &err);
+    if (st != BL_OK) {
+      cli_out_abort (&out);
+      rc = cli_lib_error ("diagnose", &err);
+    } else if (cli_out_commit (&out) == 0) {
+      rc = EXIT_DONE;
+    }
+  }
+done:
+  bl_diag_free (dg);
+  bl_fit_free (fit);
+  cli_model_free (&m);
+  return rc;
+}

@@ -1,0 +1,162 @@
+/* report_compare.c -- the ranked table of candidates, as JSON or as text. */
+#include <math.h>
+#include <string.h>
+#include "jsonw.h"
+#include "report.h"
+
+int
+bl_report_compare_json (FILE *out, const bl_compare *c, const bl_design *d,
+                        const bl_report_info *info, bl_err *err)
+{
+  const long win = bl_compare_winner (c);
+  const bl_warnings *adv = bl_compare_advice (c);
+  bl_jsonw w;
+  jw_init (&w, out);
+  jw_obj (&w, NULL);
+  jw_obj (&w, "tool");
+  jw_str (&w, "name", "ballast");
+  jw_str (&w, "version", info->tool_version);
+  jw_obj_end (&w);
+  bl_report_data_json (&w, d, info->source);
+  jw_str (&w, "response", bl_design_response (d));
+  jw_bool (&w, "integer_y", bl_compare_integer_y (c));
+  jw_str (&w, "rank_by", bl_compare_rank_by (c));
+  jw_size (&w, "folds", bl_compare_folds (c));
+  jw_size (&w, "seed", (size_t) bl_compare_seed (c));
+  jw_arr (&w, "candidates");
+  for (size_t i = 0; i < bl_compare_count (c); i++) {
+    const bl_candidate *k = bl_compare_get (c, i);
+    jw_obj (&w, NULL);
+    jw_str (&w, "id", k->id);
+    jw_str (&w, "description", k->description);
+    jw_str (&w, "method", k->method);
+    jw_str (&w, "family", k->family);
+    jw_str (&w, "link", k->link);
+    jw_str (&w, "transform", k->transform);
+    jw_num (&w, "lambda", k->lambda);
+    jw_num (&w, "variance_power", k->variance_power);
+    jw_bool (&w, "applicable", k->applicable);
+    jw_size (&w, "n", k->n);
+    if (k->converged) {
+      jw_size (&w, "k", k->k);
+      jw_size (&w, "rank", k->rank);
+    } else {
+      jw_null (&w, "k");
+      jw_null (&w, "rank");
+    }
+    jw_num (&w, "loglik", k->loglik);
+    jw_num (&w, "aic", k->aic);
+    jw_num (&w, "aicc", k->aicc);
+    jw_num (&w, "bic", k->bic);
+    jw_num (&w, "loglik_discrete", k->loglik_discrete);
+    jw_num (&w, "aic_discrete", k->aic_discrete);
+    jw_num (&w, "delta_aic", k->delta_aic);
+    jw_num (&w, "akaike_weight", k->akaike_weight);
+    jw_num (&w, "cv_rmse", k->cv_rmse);
+    jw_num (&w, "cv_mae", k->cv_mae);
+    jw_num (&w, "spread_ratio", k->spread_ratio);
+    jw_num (&w, "spread_null95", k->spread_null95);
+    jw_num (&w, "normality_stat", k->normality_stat);
+    jw_num (&w, "normality_p", k->normality_p);
+    jw_bool (&w, "converged", k->converged);
+    if (k->rank_position)
+      jw_size (&w, "position", k->rank_position);
+    else
+      jw_null (&w, "position");
+    jw_arr (&w, "notes");
+    for (size_t j = 0; j < k->notes.n; j++)
+      jw_str (&w, NULL, k->notes.msg[j]);
+    jw_arr_end (&w);
+    jw_obj_end (&w);
+  }
+  jw_arr_end (&w);
+  jw_str (&w, "recommended", win >= 0 ? bl_compare_get (c, (size_t) win)->id : NULL);
+  jw_arr (&w, "advice");
+  for (size_t j = 0; j < adv->n; j++)
+    jw_str (&w, NULL, adv->msg[j]);
+  jw_arr_end (&w);
+  jw_obj_end (&w);
+  if (jw_finish (&w) || fflush (out) != 0)
+    return bl_fail (err, BL_EIO, "output", "write failed");
+  return BL_OK;
+}
+
+static void
+cell (FILE *o, int width, int prec, double v)
+{
+  if (isfinite (v))
+    fprintf (o, " %*.*f", width, prec, v);
+  else
+    fprintf (o, " %*s", width, "--");
+}
+
+int
+bl_report_compare_text (FILE *o, const bl_compare *c, const bl_design *d,
+                        const bl_report_info *info, bl_err *err)
+{
+  const size_t nc = bl_compare_count (c);
+  const bl_warnings *adv = bl_compare_advice (c);
+  const int disc = bl_compare_integer_y (c);
+  size_t order[BL_COMPARE_MAX], m = 0;
+  fprintf (o, "ballast %s -- variance treatments side by side\n\n", info->tool_version);
+  fprintf (o, "  data        %s: %zu rows, the same for every candidate\n", info->source,
+           bl_design_n (d));
+  fprintf (o, "  response    %s%s\n", bl_design_response (d),
+           disc ? " (integer-valued: continuous candidates scored by the discretized "
+                  "likelihood)" : "");
+  fprintf (o, "  ranked by   %s; cross-validation: %zu folds, seed %lu\n\n",
+           disc ? "AIC of the discretized likelihood" : "AIC on y's scale",
+           bl_compare_folds (c), bl_compare_seed (c));
+  /* ranked first, then the unranked in table order */
+  for (size_t pos = 1; pos <= nc; pos++)
+    for (size_t i = 0; i < nc; i++)
+      if (bl_compare_get (c, i)->rank_position == pos)
+        order[m++] = i;
+  for (size_t i = 0; i < nc; i++)
+    if (!bl_compare_get (c, i)->rank_position)
+      order[m++] = i;
+  fprintf (o, "    %-3s %-10s %4s %13s %10s %7s %11s %11s %8s %9s\n", "#", "candidate", "k",
+           disc ? "AIC (discr.)" : "AIC", "delta", "weight", "cv RMSE", "cv MAE", "spread",
+           "normal p");
+  for (size_t r = 0; r < m; r++) {
+    const bl_candidate *k = bl_compare_get (c, order[r]);
+    if (k->rank_position)
+      fprintf (o, "    %-3zu", k->rank_position);
+    else
+      fprintf (o, "    %-3s", "-");
+    fprintf (o, " %-10s", k->id);
+    if (k->converged)
+      fprintf (o, " %4zu", k->k);
+    else
+      fprintf (o, " %4s", "--");
+    cell (o, 13, 2, disc ? k->aic_discrete : k->aic);
+    cell (o, 10, 2, k->delta_aic);
+    cell (o, 7, 3, k->akaike_weight);
+    cell (o, 11, 4, k->cv_rmse);
+    cell (o, 11, 4, k->cv_mae);
+    cell (o, 8, 2, k->spread_ratio);
+    cell (o, 9, 3, k->normality_p);
+    fputc ('\n', o);
+  }
+  fputs ("\n  Candidates\n", o);
+  for (size_t r = 0; r < m; r++) {
+    const bl_candidate *k = bl_compare_get (c, order[r]);
+    fprintf (o, "    %-10s %s", k->id, k->description);
+    if (isfinite (k->lambda))
+      fprintf (o, " (lambda %.4g)", k->lambda);
+    if (isfinite (k->variance_power))
+      fprintf (o, " (K %.4g)", k->variance_power);
+    fputc ('\n', o);
+    for (size_t j = 0; j < k->notes.n; j++)
+      fprintf (o, "               - %s\n", k->notes.msg[j]);
+  }
+  fputs ("\n  What the table says\n", o);
+  for (size_t j = 0; j < adv->n; j++)
+    fprintf (o, "    * %s\n", adv->msg[j]);
+  fputs ("\n  spread: largest / smallest rms Pearson residual across 5 groups by fitted value "
+         "(about 1 when\n  the variance model is right); normal p: Kolmogorov-Smirnov test of "
+         "the quantile residuals.\n", o);
+  if (fflush (o) != 0 || ferror (o))
+    return bl_fail (err, BL_EIO, "output", "write failed");
+  return BL_OK;
+}

@@ -1,0 +1,187 @@
+/* report_diag.c -- diagnostics and the residual table: const results in, text out. */
+#include <math.h>
+#include <string.h>
+#include "jsonw.h"
+#include "report.h"
+
+/* The "data" object shared by every JSON document. */
+static void
+test_json (bl_jsonw *w, const char *key, const bl_diag_test *t)
+{
+  jw_obj (w, key);
+  if (t->done) {
+    jw_num (w, "stat", t->stat);
+    jw_size (w, "dof", t->dof);
+    jw_num (w, "p", t->p);
+  } else {
+    jw_null (w, "stat");
+    jw_null (w, "dof");
+    jw_null (w, "p");
+    jw_str (w, "skipped", t->why);
+  }
+  jw_obj_end (w);
+}
+
+int
+bl_report_diag_json (FILE *out, const bl_fit *fit, const bl_diag *dg,
+                     const bl_report_info *info, bl_err *err)
+{
+  const bl_diag_result *r = bl_diag_get (dg);
+  const bl_design *d = bl_fit_design (fit);
+  bl_jsonw w;
+  jw_init (&w, out);
+  jw_obj (&w, NULL);
+  jw_obj (&w, "tool");
+  jw_str (&w, "name", "ballast");
+  jw_str (&w, "version", info->tool_version);
+  jw_obj_end (&w);
+  bl_report_data_json (&w, d, info->source);
+  jw_obj (&w, "model");
+  jw_str (&w, "method", bl_method_name (bl_fit_method (fit)));
+  jw_str (&w, "family", bl_fit_family (fit)->name);
+  jw_str (&w, "link", bl_fit_link (fit)->name);
+  jw_str (&w, "transform", bl_fit_transform (fit)->name);
+  jw_str (&w, "response", bl_design_response (d));
+  jw_obj_end (&w);
+  jw_str (&w, "residual", "pearson");
+  test_json (&w, "breusch_pagan", &r->breusch_pagan);
+  test_json (&w, "koenker", &r->koenker);
+  test_json (&w, "white", &r->white);
+  jw_obj (&w, "spread");
+  jw_num (&w, "ratio", r->spread.ratio);
+  jw_num (&w, "null95", r->spread.null95);
+  jw_bool (&w, "flag", r->spread.flag);
+  jw_num (&w, "flag_at", BL_DIAG_SPREAD_FLAG);
+  if (r->spread.why[0])
+    jw_str (&w, "why_null", r->spread.why);
+  jw_arr (&w, "groups");
+  for (size_t g = 0; g < r->spread.ngroups; g++) {
+    jw_obj (&w, NULL);
+    jw_size (&w, "n", r->spread.groups[g].n);
+    jw_num (&w, "fitted_mean", r->spread.groups[g].fitted_mean);
+    jw_num (&w, "rms", r->spread.groups[g].rms);
+    jw_obj_end (&w);
+  }
+  jw_arr_end (&w);
+  jw_obj_end (&w);
+  jw_obj (&w, "variance_power");
+  jw_num (&w, "estimate", r->power.estimate);
+  jw_num (&w, "se", r->power.se);
+  jw_num (&w, "lo", r->power.lo);
+  jw_num (&w, "hi", r->power.hi);
+  jw_size (&w, "groups_used", r->power.groups_used);
+  jw_size (&w, "groups_left_out", r->power.groups_left_out);
+  if (!r->power.done)
+    jw_str (&w, "why_null", r->power.why);
+  jw_obj_end (&w);
+  jw_str (&w, "suggested_family", r->power.suggested);
+  jw_obj (&w, "lack_of_fit");
+  jw_bool (&w, "flag", r->lof.flag);
+  jw_num (&w, "z", BL_DIAG_LOF_Z);
+  jw_arr (&w, "groups");
+  for (size_t g = 0; g < r->lof.ngroups; g++) {
+    const bl_lof_group *q = &r->lof.groups[g];
+    jw_obj (&w, NULL);
+    jw_str (&w, "against", q->against);
+    jw_size (&w, "n", q->n);
+    jw_num (&w, "x_mean", q->x_mean);
+    jw_num (&w, "resid_mean", q->resid_mean);
+    jw_num (&w, "se", q->se);
+    jw_bool (&w, "flag", q->flag);
+    jw_obj_end (&w);
+  }
+  jw_arr_end (&w);
+  jw_obj_end (&w);
+  jw_obj_end (&w);
+  if (jw_finish (&w) || fflush (out) != 0)
+    return bl_fail (err, BL_EIO, "output", "write failed");
+  return BL_OK;
+}
+
+static void
+test_text (FILE *o, const char *name, const bl_diag_test *t)
+{
+  if (t->done)
+    fprintf (o, "    %-34s %12.4f   dof %-4zu   p %.4g\n", name, t->stat, t->dof, t->p);
+  else
+    fprintf (o, "    %-34s %12s   (%s)\n", name, "--", t->why);
+}
+
+int
+bl_report_diag_text (FILE *o, const bl_fit *fit, const bl_diag *dg,
+                     const bl_report_info *info, bl_err *err)
+{
+  const bl_diag_result *r = bl_diag_get (dg);
+  const bl_design *d = bl_fit_design (fit);
+  fprintf (o, "ballast %s -- is the spread constant?\n\n", info->tool_version);
+  fprintf (o, "  data        %s: %zu rows used of %zu\n", info->source, bl_design_n (d),
+           bl_design_rows_read (d));
+  fprintf (o, "  model       %s, %s family, %s link%s%s; residuals: Pearson\n",
+           bl_method_name (bl_fit_method (fit)), bl_fit_family (fit)->name,
+           bl_fit_link (fit)->name, bl_fit_transform (fit)->name ? ", transform " : "",
+           bl_fit_transform (fit)->name ? bl_fit_transform (fit)->name : "");
+  fputs ("\n  First, the mean model (variance tests also fire when it is wrong)\n", o);
+  if (r->lof.flag) {
+    fputs ("    FLAG: residual means drift away from zero in these bins (beyond 3 se):\n", o);
+    for (size_t g = 0; g < r->lof.ngroups; g++)
+      if (r->lof.groups[g].flag)
+        fprintf (o, "      against %-20s near %-12.5g mean %+.4g (se %.3g, n %zu)\n",
+                 r->lof.groups[g].against, r->lof.groups[g].x_mean,
+                 r->lof.groups[g].resid_mean, r->lof.groups[g].se, r->lof.groups[g].n);
+  } else {
+    fputs ("    no bin of fitted values or numeric terms has a residual mean beyond 3 se\n", o);
+  }
+  fputs ("\n  Tests of constant variance\n", o);
+  test_text (o, "Breusch-Pagan (1979)", &r->breusch_pagan);
+  test_text (o, "Koenker (1981), studentized", &r->koenker);
+  test_text (o, "White (1980)", &r->white);
+  fputs ("\n  Spread by fitted value\n", o);
+  if (r->spread.ngroups) {
+    fprintf (o, "    %-8s %8s %16s %14s\n", "group", "rows", "mean fitted", "rms residual");
+    for (size_t g = 0; g < r->spread.ngroups; g++)
+      fprintf (o, "    %-8zu %8zu %16.6g %14.6g\n", g + 1, r->spread.groups[g].n,
+               r->spread.groups[g].fitted_mean, r->spread.groups[g].rms);
+    fprintf (o, "    largest / smallest rms = %.4g (95%% point under constant variance %.4g)"
+             "%s\n", r->spread.ratio, r->spread.null95,
+             r->spread.flag ? ": FLAG, the spread changes with the level" : "");
+  } else {
+    fprintf (o, "    (%s)\n", r->spread.why);
+  }
+  fputs ("\n  How the variance grows with the mean\n", o);
+  if (r->power.done)
+    fprintf (o, "    power K in Var = c mu^K: %.3g (se %.3g, 95%% interval %.3g to %.3g) from "
+             "%zu groups%s\n    nearest family: %s\n", r->power.estimate, r->power.se,
+             r->power.lo, r->power.hi, r->power.groups_used,
+             r->power.groups_left_out ? " (some left out: mean fitted <= 0)" : "",
+             r->power.suggested);
+  else
+    fprintf (o, "    (%s)\n", r->power.why);
+  fputs ("\n  These checks are evidence, not proof: they guide the choice of a remedy, which\n"
+         "  should be validated on new data before acting on it.\n", o);
+  if (fflush (o) != 0 || ferror (o))
+    return bl_fail (err, BL_EIO, "output", "write failed");
+  return BL_OK;
+}
+
+int
+bl_report_residuals_csv (FILE *o, const bl_fit *fit, const bl_resid_table *t, bl_err *err)
+{
+  const bl_design *d = bl_fit_design (fit);
+  const double *mu = bl_fit_mu (fit);
+  fputs ("row,fitted,response,pearson,deviance,working,quantile,leverage,cooks\n", o);
+  for (size_t i = 0; i < t->n; i++) {
+    const double v[8] = { mu[i], t->response[i], t->pearson[i], t->deviance[i], t->working[i],
+                          t->quantile[i], t->leverage[i], t->cooks[i] };
+    fprintf (o, "%zu", bl_design_table_row (d, i) + 1);
+    for (int k = 0; k < 8; k++) {
+      if (isfinite (v[k]))
+        fprintf (o, ",%.17g", v[k]);
+      else
+        fputs (",", o);
+    }
+    fputc ('\n', o);
+  }
+  if (fflush (o) != 0 || ferror (o))
+    return bl_fail (err, BL_EIO, "output", "write failed");
+  return BL_OK;
+}
