@@ -907,9 +907,19 @@ void
 bl_design_fill (const bl_design *d, size_t row0, size_t nr, double *out, size_t ld)
 {
   const size_t *rows = d->rows + row0;
+  /* rows [row0, row0 + nr) are table rows row0.. when no row before them was dropped */
+  const int contiguous = nr > 0 && rows[nr - 1] - rows[0] == nr - 1;
   for (size_t j = 0; j < d->cols.n; j++) {
     const dcol *c = &d->cols.c[j];
     double *o = out + j * ld;
+    if (c->nf == 1 && c->f[0].kind == F_TABLE && contiguous) {
+      memcpy (o, c->f[0].x + rows[0], nr * sizeof *o);     /* a plain column, copied */
+      continue;
+    }
+    if (c->nf == 1 && c->f[0].kind == F_OWNED) {
+      memcpy (o, c->f[0].x + row0, nr * sizeof *o);
+      continue;
+    }
     for (size_t i = 0; i < nr; i++)
       o[i] = 1.0;
     for (size_t k = 0; k < c->nf; k++) {

@@ -119,6 +119,13 @@ bl_family_loglik (const bl_family *fam, const double *y, const double *mu, const
                   size_t n, double phi)
 {
   long double s = 0.0L;
+  if (fam == &bl_family_gamma && !a) {
+    /* the same sum with lgamma(1/phi) taken out of the loop (one shape for every row) */
+    const double sh = 1.0 / phi;
+    for (size_t i = 0; i < n; i++)
+      s += sh * log (sh * y[i] / mu[i]) - sh * y[i] / mu[i] - log (y[i]);
+    return (double) (s - (long double) n * gsl_sf_lngamma (sh));
+  }
   for (size_t i = 0; i < n; i++)
     s += fam->logpdf (y[i], mu[i], a ? a[i] : 1.0, phi);
   return (double) s;
@@ -146,12 +153,20 @@ gamma_shape (const double *a, size_t n, double dev, double *nu_out)
     const double nu = exp (t);
     long double f = -0.5L * dev, fp = 0.0L;
     gsl_sf_result r0, r1;
-    for (size_t i = 0; i < n; i++) {
-      const double ai = a ? a[i] : 1.0, x = nu * ai;
-      if (gsl_sf_psi_e (x, &r0) != GSL_SUCCESS || gsl_sf_psi_1_e (x, &r1) != GSL_SUCCESS)
+    if (!a) {
+      /* no prior weights: every row has the same argument, one evaluation serves all */
+      if (gsl_sf_psi_e (nu, &r0) != GSL_SUCCESS || gsl_sf_psi_1_e (nu, &r1) != GSL_SUCCESS)
         return BL_ENOCONV;
-      f += ai * (log (x) - r0.val);
-      fp += ai * (1.0 - x * r1.val);   /* d/dt of a (log(nu a) - psi(nu a)) */
+      f += (long double) n * (log (nu) - r0.val);
+      fp += (long double) n * (1.0 - nu * r1.val);
+    } else {
+      for (size_t i = 0; i < n; i++) {
+        const double ai = a[i], x = nu * ai;
+        if (gsl_sf_psi_e (x, &r0) != GSL_SUCCESS || gsl_sf_psi_1_e (x, &r1) != GSL_SUCCESS)
+          return BL_ENOCONV;
+        f += ai * (log (x) - r0.val);
+        fp += ai * (1.0 - x * r1.val);   /* d/dt of a (log(nu a) - psi(nu a)) */
+      }
     }
     if (f > 0.0L)
       lo = t;                            /* root lies at larger nu */
