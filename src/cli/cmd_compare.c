@@ -140,7 +140,7 @@ cmd_compare (int argc, char **argv)
   }
   copt.folds = folds;
   copt.seed = (unsigned long) seed;
-  copt.fit = m.fo;
+  copt.fit = m.job.fit;
   rc = EXIT_DATA;
   if (!(cmp = bl_compare_run (m.design, &copt, &err))) {
     rc = cli_lib_error ("compare", &err);
@@ -149,7 +149,7 @@ cmd_compare (int argc, char **argv)
   if (!quiet)
     cli_model_warn_drops (&m);
   if (cli_out_open (&out, output) == 0) {
-    bl_report_info info = { m.data, m.terms, m.offset, m.weights, bl_version () };
+    bl_report_info info = { m.job.data, m.terms, m.offset, m.job.weights, bl_version () };
     const int st = json ? bl_report_compare_json (out.f, cmp, m.design, &info, &err)
                         : bl_report_compare_text (out.f, cmp, m.design, &info, &err);
     if (st != BL_OK) {

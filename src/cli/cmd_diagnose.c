@@ -101,7 +101,7 @@ cmd_diagnose (int argc, char **argv)
     }
   }
   if (!method_set)
-    m.fo.method = BL_METHOD_OLS;
+    m.job.fit.method = BL_METHOD_OLS;
   if ((rc = cli_model_finish (&m, argc, argv, optind, "diagnose")) != 0
       || (rc = cli_model_load (&m, "diagnose")) != 0) {
     cli_model_free (&m);
@@ -109,7 +109,8 @@ cmd_diagnose (int argc, char **argv)
   }
   dopt.seed = (unsigned long) seed;
   rc = EXIT_DATA;
-  if (!(fit = bl_fit_glm (m.design, &m.fo, &err)) || !(dg = bl_diag_new (fit, &dopt, &err))) {
+  if (!(fit = bl_fit_glm (m.design, &m.job.fit, &err))
+      || !(dg = bl_diag_new (fit, &dopt, &err))) {
     if (fit && !bl_fit_stats_get (fit)->converged)
       cli_error ("diagnose", "%s", bl_fit_status (fit)->msg);
     else
@@ -151,7 +152,7 @@ cmd_diagnose (int argc, char **argv)
       goto done;
   }
   if (cli_out_open (&out, output) == 0) {
-    bl_report_info info = { m.data, m.terms, m.offset, m.weights, bl_version () };
+    bl_report_info info = { m.job.data, m.terms, m.offset, m.job.weights, bl_version () };
     const int st = json ? bl_report_diag_json (out.f, fit, dg, &info, &err)
                         : bl_report_diag_text (out.f, fit, dg, &info, &err);
     if (st != BL_OK) {

@@ -79,7 +79,7 @@ cmd_fit (int argc, char **argv)
     cli_model_free (&m);
     return rc;
   }
-  if (!(fit = bl_fit_glm (m.design, &m.fo, &err))) {
+  if (!(fit = bl_fit_glm (m.design, &m.job.fit, &err))) {
     rc = cli_lib_error ("fit", &err);
     cli_model_free (&m);
     return rc;
@@ -92,7 +92,7 @@ cmd_fit (int argc, char **argv)
   }
   rc = EXIT_DATA;
   if (cli_out_open (&out, output) == 0) {
-    bl_report_info info = { m.data, m.terms, m.offset, m.weights, bl_version () };
+    bl_report_info info = { m.job.data, m.terms, m.offset, m.job.weights, bl_version () };
     const int st = json ? bl_report_fit_json (out.f, fit, &info, &err)
                         : bl_report_fit_text (out.f, fit, &info, &err);
     if (st != BL_OK) {

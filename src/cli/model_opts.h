@@ -5,7 +5,6 @@
 #include <getopt.h>
 #include "ballast.h"
 
-#define CLI_MAX_LIST 256
 
 enum {
   OPT_RESPONSE = 256, OPT_TERMS, OPT_NO_INTERCEPT, OPT_METHOD, OPT_FAMILY, OPT_LINK,
@@ -44,15 +43,7 @@ enum {
 extern const char cli_model_help[];
 
 typedef struct cli_model {
-  const char *response, *terms_text, *weights, *offset_text, *data;
-  const char *categorical[CLI_MAX_LIST], *reference[CLI_MAX_LIST];
-  size_t ncat, nref;
-  int intercept, method_given;
-  const char *varcol;
-  char varbuf[1024];
-  char *catbuf;
-  bl_fit_opts fo;
-  bl_table_opts to;
+  bl_job job;
   bl_terms *terms, *offset;
   bl_table *table;
   bl_design *design;

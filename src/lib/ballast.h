@@ -14,6 +14,9 @@
 #include "irls.h"
 #include "fit.h"
 #include "report.h"
+#include "diag.h"
+#include "compare.h"
+#include "job.h"
 #ifdef __cplusplus
 extern "C" {
 #endif

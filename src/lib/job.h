@@ -1,0 +1,77 @@
+/* job.h -- the settings of one modelling job, set key by key.
+
+   The command line (--family gamma) and a spec file (family = gamma) set the same keys
+   through bl_job_set, so a value means the same and is refused with the same message in
+   both; only WHERE differs ("--family" or "pumps.spec:12"). */
+#ifndef BALLAST_JOB_H
+#define BALLAST_JOB_H
+#include <stddef.h>
+#include "compare.h"
+#include "design.h"
+#include "error.h"
+#include "fit.h"
+#include "table.h"
+#include "terms.h"
+#ifdef __cplusplus
+extern "C" {
+#endif
+
+#define BL_JOB_MAX_LIST 256
+
+typedef struct bl_job {
+  char *data, *response, *terms, *weights, *offset, *candidates, *varcol;
+  char *categorical[BL_JOB_MAX_LIST];
+  size_t ncat;
+  char *reference[BL_JOB_MAX_LIST];
+  size_t nref;
+  int intercept;
+  int method_given;        /* --method was set */
+  int model_keys;          /* a single-model key was set: method, family, link, variance,
+                              transform, shift, dispersion */
+  bl_fit_opts fit;
+  bl_table_opts table;
+  size_t folds;
+  unsigned long seed;
+  int seed_given;
+} bl_job;
+
+/* Defaults: intercept on, the fit and table defaults, BL_COMPARE_FOLDS, BL_COMPARE_SEED. */
+void bl_job_init (bl_job *j);
+/* Free the strings.  The job can be reused after bl_job_init. */
+void bl_job_clear (bl_job *j);
+/* Deep copy SRC into DST (initialized or cleared).  BL_OK or BL_ENOMEM. */
+int bl_job_copy (bl_job *dst, const bl_job *src, bl_err *err);
+
+/* Whether KEY is one of the job's keys (for spec files: "unknown key"). */
+int bl_job_has_key (const char *key);
+/* Whether KEY takes no value on the command line (no-intercept, decimal-comma). */
+int bl_job_key_is_flag (const char *key);
+
+/* Set KEY to VALUE.  Keys: data, response, terms, no-intercept, method, family, link,
+   weights, offset, categorical (a comma list, replacing), reference (COL=LEVEL, comma lists
+   accumulate), dispersion, level, se, variance, transform, shift, delimiter, decimal-comma,
+   max-iter, epsilon, solver, threads, candidates, folds, seed.  Flags take VALUE NULL, or
+   yes/no/true/false/1/0.  A bad value is BL_ESPEC with ERR->where = WHERE and a message that
+   quotes it; BL_ENOMEM.  Term syntax is checked by bl_job_parse_terms, not here. */
+int bl_job_set (bl_job *j, const char *key, const char *value, const char *where,
+                bl_err *err);
+
+/* Check the combination after every key is set, and resolve implied choices (a variance
+   function implies wls, a transform ols).  SINGLE: the job fits one model (fit, diagnose)
+   rather than a comparison.  BL_ESPEC naming the option ("--variance") or WHERE_SPEC when
+   not NULL (a spec file's job line). */
+int bl_job_finish (bl_job *j, int single, const char *where_spec, bl_err *err);
+
+/* Parse the terms and the offset (syntax only).  *TERMS and *OFFSET are NULL when not given;
+   the caller frees them.  BL_ESPEC with where "--terms"/"--offset" or WHERE_SPEC. */
+int bl_job_parse_terms (const bl_job *j, const char *where_spec, bl_terms **terms,
+                        bl_terms **offset, bl_err *err);
+
+/* Read the table and build the design (terms parsed as above). */
+int bl_job_load (const bl_job *j, const bl_terms *terms, const bl_terms *offset,
+                 bl_table **table, bl_design **design, bl_err *err);
+
+#ifdef __cplusplus
+}
+#endif
+#endif
