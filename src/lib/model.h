@@ -1,0 +1,55 @@
+/* model.h -- a fitted model saved as JSON, read back, and used to predict on new data. */
+#ifndef BALLAST_MODEL_H
+#define BALLAST_MODEL_H
+#include <stdio.h>
+#include "error.h"
+#include "fit.h"
+#include "table.h"
+#include "terms.h"
+#ifdef __cplusplus
+extern "C" {
+#endif
+
+#define BL_MODEL_FORMAT 1               /* "format_version" */
+#define BL_MODEL_RESIDUALS_MAX 5000     /* residuals kept for smearing; above, a documented
+                                           deterministic subsample (every k-th row) */
+
+/* Write FIT as a model file (doc/model-format.md): format version, response, terms (canonical
+   text and labels), intercept, categorical columns with their levels and references, the
+   column labels, method, family, link, offset, weights, variance function and K, transform
+   with lambda and shift, smearing residuals, coefficients, covariance, dispersion, dof_resid,
+   level.  BL_OK or BL_EIO. */
+int bl_model_write (FILE *out, const bl_fit *fit, const bl_terms *terms,
+                    const bl_terms *offset, const char *weights, bl_err *err);
+
+typedef struct bl_model bl_model;
+
+/* Read a model file.  NULL with ERR: BL_EIO (unreadable), BL_EDATA (not a ballast model, a
+   newer format, or inconsistent: where = "FILE" and the key), BL_ENOMEM. */
+bl_model *bl_model_read (const char *path, bl_err *err);
+void bl_model_free (bl_model *m);
+
+/* Predictions for every row of T, in order.  Each array has length nrows(T). */
+typedef struct bl_prediction {
+  size_t n;
+  double *mean, *mean_lo, *mean_hi, *pred_lo, *pred_hi;
+  int has_response;                   /* T holds the response: scores below exist */
+  double deviance, rmse, mae;         /* out-of-sample, on y's scale */
+} bl_prediction;
+
+/* Predict on T (read with the model's categorical columns forced: see
+   bl_model_table_opts).  A missing column, a missing or out-of-domain value in a used column,
+   or an unseen categorical level is BL_EDATA with where = "FILE:LINE" of the row; nothing is
+   returned then. */
+bl_prediction *bl_model_predict (const bl_model *m, const bl_table *t, double level,
+                                 bl_err *err);
+void bl_prediction_free (bl_prediction *p);
+
+/* Table options for reading new data for M: its categorical columns forced categorical.
+   The pointers stay valid until bl_model_free. */
+void bl_model_table_opts (const bl_model *m, bl_table_opts *opt);
+
+#ifdef __cplusplus
+}
+#endif
+#endif
