@@ -66,7 +66,7 @@ int
 cmd_compare (int argc, char **argv)
 {
   const char *output = NULL;
-  int json = 0, quiet = 0, c, rc;
+  int json = 0, quiet = 0, c, rc, li = -1;
   size_t folds = BL_COMPARE_FOLDS, seed = BL_COMPARE_SEED;
   cli_model m;
   bl_compare_opts copt;
@@ -79,12 +79,14 @@ cmd_compare (int argc, char **argv)
   bl_err_clear (&err);
   optind = 1;
   opterr = 0;
-  while ((c = getopt_long (argc, argv, ":o:qh", long_opts, NULL)) != -1) {
+  while ((c = getopt_long (argc, argv, ":o:qh", long_opts, &li)) != -1) {
     int r;
     if (c == OPT_METHOD || c == OPT_FAMILY || c == OPT_LINK || c == OPT_VARIANCE
         || c == OPT_TRANSFORM || c == OPT_SHIFT || c == OPT_DISPERSION) {
+      char where[64];
+      snprintf (where, sizeof where, "--%s", long_opts[li].name);
       cli_model_free (&m);
-      return cli_usage_error ("compare", argv[optind - 1], "compare fits its candidates' own "
+      return cli_usage_error ("compare", where, "compare fits its candidates' own "
                               "models: choose them with --candidates");
     }
     r = cli_model_option (&m, c, optarg, "compare");

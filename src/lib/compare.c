@@ -308,6 +308,13 @@ cross_validate (const bl_design *d, const bl_compare_opts *opt, const spec *sp, 
       goto done;
     }
     ft = bl_fit_glm (sub, &o, &e);
+    if ((ft ? ft->status.code : e.code) == BL_ENOMEM) {
+      /* exhaustion is the caller's error, not a note about the fold (compare.h) */
+      st = bl_fail (err, BL_ENOMEM, "compare", "out of memory");
+      bl_fit_free (ft);
+      bl_design_free (sub);
+      goto done;
+    }
     if (!ft || !ft->st.converged) {
       if (bl_warnings_add (&k->notes, "cross-validation: fold %zu could not be fitted (%s)",
                            g + 1, ft ? ft->status.msg : e.msg) != BL_OK)
