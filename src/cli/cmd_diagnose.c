@@ -152,7 +152,8 @@ cmd_diagnose (int argc, char **argv)
       goto done;
   }
   if (cli_out_open (&out, output) == 0) {
-    bl_report_info info = { m.job.data, m.terms, m.offset, m.job.weights, bl_version () };
+    bl_report_info info = { m.job.data, m.terms, m.offset, m.job.weights, bl_version (),
+                            NULL };
     const int st = json ? bl_report_diag_json (out.f, fit, dg, &info, &err)
                         : bl_report_diag_text (out.f, fit, dg, &info, &err);
     if (st != BL_OK) {

@@ -13,7 +13,6 @@ extern "C" {
 #define BL_COMPARE_FOLDS 10
 #define BL_COMPARE_SEED 20261201UL
 #define BL_COMPARE_DELTA 2.0         /* candidates within this AIC of the winner: a tie */
-#define BL_COMPARE_SMEAR_MAX 2000    /* Box-Cox smearing in CV uses at most this many residuals */
 #define BL_COMPARE_MAX 32
 
 /* Default candidate ids, in table order:

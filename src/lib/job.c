@@ -11,7 +11,7 @@ static const char *const keys[] = {
   "data", "response", "terms", "no-intercept", "method", "family", "link", "weights",
   "offset", "categorical", "reference", "dispersion", "level", "se", "variance",
   "transform", "shift", "delimiter", "decimal-comma", "max-iter", "epsilon", "solver",
-  "threads", "candidates", "folds", "seed"
+  "threads", "candidates", "folds", "seed", "against"
 };
 
 void
@@ -29,7 +29,7 @@ void
 bl_job_clear (bl_job *j)
 {
   char **const s[] = { &j->data, &j->response, &j->terms, &j->weights, &j->offset,
-                       &j->candidates, &j->varcol };
+                       &j->candidates, &j->varcol, &j->against };
   for (size_t i = 0; i < sizeof s / sizeof s[0]; i++) {
     bl_free (*s[i]);
     *s[i] = NULL;
@@ -58,12 +58,12 @@ bl_job_copy (bl_job *dst, const bl_job *src, bl_err *err)
   bl_job_clear (dst);
   *dst = *src;
   dst->data = dst->response = dst->terms = dst->weights = dst->offset = NULL;
-  dst->candidates = dst->varcol = NULL;
+  dst->candidates = dst->varcol = dst->against = NULL;
   dst->ncat = dst->nref = 0;
   if (dup_into (&dst->data, src->data) || dup_into (&dst->response, src->response)
       || dup_into (&dst->terms, src->terms) || dup_into (&dst->weights, src->weights)
       || dup_into (&dst->offset, src->offset) || dup_into (&dst->candidates, src->candidates)
-      || dup_into (&dst->varcol, src->varcol))
+      || dup_into (&dst->varcol, src->varcol) || dup_into (&dst->against, src->against))
     goto nomem;
   for (size_t i = 0; i < src->ncat; i++, dst->ncat++)
     if (!(dst->categorical[i] = bl_strdup (src->categorical[i])))
@@ -220,10 +220,10 @@ bl_job_set (bl_job *j, const char *key, const char *value, const char *where, bl
   if (!bl_job_key_is_flag (key) && !value)
     BAD ("'%s' needs a value", key);
   if (!strcmp (key, "data") || !strcmp (key, "response") || !strcmp (key, "terms")
-      || !strcmp (key, "weights") || !strcmp (key, "offset")) {
+      || !strcmp (key, "weights") || !strcmp (key, "offset") || !strcmp (key, "against")) {
     char **dst = !strcmp (key, "data") ? &j->data : !strcmp (key, "response") ? &j->response
                  : !strcmp (key, "terms") ? &j->terms : !strcmp (key, "weights") ? &j->weights
-                 : &j->offset;
+                 : !strcmp (key, "against") ? &j->against : &j->offset;
     if (!*v)
       BAD ("'%s' needs a value", key);
     if (dup_into (dst, v) != BL_OK)
@@ -481,6 +481,18 @@ bl_job_parse_terms (const bl_job *j, const char *where_spec, bl_terms **terms,
   return BL_OK;
 }
 
+void
+bl_job_design_opts (const bl_job *j, const bl_terms *offset, bl_design_opts *dopt)
+{
+  bl_design_opts_init (dopt);
+  dopt->intercept = j->intercept;
+  dopt->reference = (const char *const *) j->reference;
+  dopt->n_reference = j->nref;
+  dopt->weights = j->weights;
+  dopt->offset = offset;
+  dopt->variance = j->fit.variance == BL_VARIANCE_COLUMN ? j->varcol : NULL;
+}
+
 int
 bl_job_load (const bl_job *j, const bl_terms *terms, const bl_terms *offset,
              bl_table **table, bl_design **design, bl_err *err)
@@ -493,13 +505,7 @@ bl_job_load (const bl_job *j, const bl_terms *terms, const bl_terms *offset,
   to.n_categorical = j->ncat;
   if (!(*table = bl_table_read (j->data, &to, err)))
     return err ? err->code : BL_EIO;
-  bl_design_opts_init (&dopt);
-  dopt.intercept = j->intercept;
-  dopt.reference = (const char *const *) j->reference;
-  dopt.n_reference = j->nref;
-  dopt.weights = j->weights;
-  dopt.offset = offset;
-  dopt.variance = j->fit.variance == BL_VARIANCE_COLUMN ? j->varcol : NULL;
+  bl_job_design_opts (j, offset, &dopt);
   if (!(*design = bl_design_new (*table, j->response, terms, &dopt, err))) {
     bl_table_free (*table);
     *table = NULL;

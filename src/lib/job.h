@@ -19,7 +19,7 @@ extern "C" {
 #define BL_JOB_MAX_LIST 256
 
 typedef struct bl_job {
-  char *data, *response, *terms, *weights, *offset, *candidates, *varcol;
+  char *data, *response, *terms, *weights, *offset, *candidates, *varcol, *against;
   char *categorical[BL_JOB_MAX_LIST];
   size_t ncat;
   char *reference[BL_JOB_MAX_LIST];
@@ -50,7 +50,8 @@ int bl_job_key_is_flag (const char *key);
 /* Set KEY to VALUE.  Keys: data, response, terms, no-intercept, method, family, link,
    weights, offset, categorical (a comma list, replacing), reference (COL=LEVEL, comma lists
    accumulate), dispersion, level, se, variance, transform, shift, delimiter, decimal-comma,
-   max-iter, epsilon, solver, threads, candidates, folds, seed.  Flags take VALUE NULL, or
+   max-iter, epsilon, solver, threads, candidates, folds, seed, against (the terms of a
+   smaller nested model to test the fit against).  Flags take VALUE NULL, or
    yes/no/true/false/1/0.  A bad value is BL_ESPEC with ERR->where = WHERE and a message that
    quotes it; BL_ENOMEM.  Term syntax is checked by bl_job_parse_terms, not here. */
 int bl_job_set (bl_job *j, const char *key, const char *value, const char *where,
@@ -66,6 +67,9 @@ int bl_job_finish (bl_job *j, int single, const char *where_spec, bl_err *err);
    the caller frees them.  BL_ESPEC with where "--terms"/"--offset" or WHERE_SPEC. */
 int bl_job_parse_terms (const bl_job *j, const char *where_spec, bl_terms **terms,
                         bl_terms **offset, bl_err *err);
+
+/* The design options the job implies (OFFSET parsed as above). */
+void bl_job_design_opts (const bl_job *j, const bl_terms *offset, bl_design_opts *dopt);
 
 /* Read the table and build the design (terms parsed as above). */
 int bl_job_load (const bl_job *j, const bl_terms *terms, const bl_terms *offset,

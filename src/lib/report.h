@@ -6,6 +6,7 @@
 #include "compare.h"
 #include "diag.h"
 #include "fit.h"
+#include "nested.h"
 #include "terms.h"
 #ifdef __cplusplus
 extern "C" {
@@ -18,6 +19,7 @@ typedef struct bl_report_info {
   const bl_terms *offset;      /* NULL when none */
   const char *weights;         /* prior-weight column, or NULL */
   const char *tool_version;    /* "0.1.0" */
+  const bl_nested *against;    /* a nested-model test to report, or NULL */
 } bl_report_info;
 
 /* Write FIT as one JSON document to OUT (keys documented in doc/json.md).  Returns BL_OK or

@@ -130,6 +130,20 @@ bl_report_fit_json (FILE *out, const bl_fit *fit, const bl_report_info *info, bl
   jw_str (&w, "solver", st->solver);
   jw_obj_end (&w);
 
+  if (info->against) {
+    const bl_nested *a = info->against;
+    jw_obj (&w, "against");
+    jw_str (&w, "terms", a->terms);
+    jw_num (&w, "stat", a->stat);
+    jw_size (&w, "dof", a->dof);
+    if (a->dof2)
+      jw_size (&w, "dof2", a->dof2);
+    jw_num (&w, "p", a->p);
+    jw_str (&w, "form", a->form);
+    jw_num (&w, "deviance_small", a->deviance_small);
+    jw_num (&w, "deviance_big", a->deviance_big);
+    jw_obj_end (&w);
+  }
   jw_num (&w, "level", st->level);
   jw_str (&w, "se_kind", st->se_kind);
   jw_str (&w, "wald_kind", st->wald_is_t ? "t" : "z");

@@ -178,6 +178,15 @@ bl_report_fit_text (FILE *o, const bl_fit *fit, const bl_report_info *info, bl_e
   if (!isfinite (st->deviance_null) && st->deviance_null_why[0])
     fprintf (o, "    (no null deviance: %s)\n", st->deviance_null_why);
 
+  if (info->against) {
+    const bl_nested *a = info->against;
+    fprintf (o, "\n  Against the smaller model (%s)\n", a->terms[0] ? a->terms : "intercept");
+    fprintf (o, "    deviance %.6g there, %.6g here: ", a->deviance_small, a->deviance_big);
+    if (a->dof2)
+      fprintf (o, "F = %.4g on %zu and %zu dof, p %.4g\n", a->stat, a->dof, a->dof2, a->p);
+    else
+      fprintf (o, "chi2 = %.4g on %zu dof, p %.4g\n", a->stat, a->dof, a->p);
+  }
   if (wn->n) {
     fputs ("\n  Warnings\n", o);
     for (size_t i = 0; i < wn->n; i++)

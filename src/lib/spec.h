@@ -39,7 +39,8 @@ typedef struct bl_spec_job {
 typedef struct bl_spec bl_spec;      /* opaque */
 
 /* Job names: letters, digits, '-', '_' and '.', not starting with '.' or '-', 1 to
-   BL_SPEC_NAME_MAX bytes, not "summary" or "index" (the report's own names, any case).  Names
+   BL_SPEC_NAME_MAX bytes, not "summary" or "index" (the report's own names, in any case and
+   with any extension: "summary.csv", "Index.html").  Names
    must also be unique ignoring ASCII case.  1 when NAME is a valid name on its own. */
 int bl_spec_name_ok (const char *name);
 
