@@ -4,6 +4,7 @@
 #include <string.h>
 #include "ballast.h"
 #include "cli.h"
+#include "model.h"
 #include "model_opts.h"
 
 static const char usage_head[] =
@@ -17,27 +18,48 @@ static const char usage_tail[] =
   "output:\n"
   "  --json                  one JSON document instead of the text report\n"
   "  -o, --output FILE       write the report to FILE (atomically) instead of stdout\n"
+  "  --save MODEL.json       also save the fitted model (atomically) for 'ballast predict'\n"
   "  -q, --quiet             no warnings on stderr\n"
   "  -h, --help              this help\n"
   "\n"
   "exit status: 0 done; 1 data or model problem (including no convergence);\n"
   "2 usage, option or term-syntax error.\n";
 
-enum { OPT_JSON = OPT_FIRST_OWN };
+enum { OPT_JSON = OPT_FIRST_OWN, OPT_SAVE };
 
 static const struct option long_opts[] = {
   CLI_MODEL_LONG_OPTS,
   { "json", no_argument, NULL, OPT_JSON },
+  { "save", required_argument, NULL, OPT_SAVE },
   { "output", required_argument, NULL, 'o' },
   { "quiet", no_argument, NULL, 'q' },
   { "help", no_argument, NULL, 'h' },
   { NULL, 0, NULL, 0 }
 };
 
+/* Write the fitted model to SAVE (when given), atomically: EXIT_DONE or EXIT_DATA. */
+static int
+save_model (const char *save, const bl_fit *fit, const cli_model *m)
+{
+  cli_out so;
+  bl_err err;
+  if (!save)
+    return EXIT_DONE;
+  if (cli_out_open (&so, save) != 0)
+    return EXIT_DATA;
+  if (bl_model_write (so.f, fit, m->terms, m->offset, m->job.weights, &err) != BL_OK) {
+    cli_out_abort (&so);
+    if (err.code == BL_EIO)
+      snprintf (err.where, sizeof err.where, "%s", save);
+    return cli_lib_error ("fit", &err);
+  }
+  return cli_out_commit (&so) == 0 ? EXIT_DONE : EXIT_DATA;
+}
+
 int
 cmd_fit (int argc, char **argv)
 {
-  const char *output = NULL;
+  const char *output = NULL, *save = NULL;
   int json = 0, quiet = 0, c, rc;
   cli_model m;
   bl_fit *fit = NULL;
@@ -58,6 +80,14 @@ cmd_fit (int argc, char **argv)
       continue;
     switch (c) {
     case OPT_JSON: json = 1; break;
+    case OPT_SAVE:
+      if (strcmp (optarg, "-") == 0 || optarg[0] == '\0') {
+        cli_model_free (&m);
+        return cli_usage_error ("fit", "--save", "the model needs a file name, not '%s'",
+                                optarg);
+      }
+      save = optarg;
+      break;
     case 'o': output = optarg; break;
     case 'q': quiet = 1; break;
     case 'h':
@@ -92,7 +122,8 @@ cmd_fit (int argc, char **argv)
   }
   rc = EXIT_DATA;
   if (cli_out_open (&out, output) == 0) {
-    bl_report_info info = { m.job.data, m.terms, m.offset, m.job.weights, bl_version () };
+    bl_report_info info = { m.job.data, m.terms, m.offset, m.job.weights, bl_version (),
+                            NULL };
     const int st = json ? bl_report_fit_json (out.f, fit, &info, &err)
                         : bl_report_fit_text (out.f, fit, &info, &err);
     if (st != BL_OK) {
@@ -102,7 +133,7 @@ cmd_fit (int argc, char **argv)
       if (!bl_fit_stats_get (fit)->converged)
         cli_error ("fit", "%s", bl_fit_status (fit)->msg);
       else
-        rc = EXIT_DONE;
+        rc = save_model (save, fit, &m);
     }
   }
   bl_fit_free (fit);

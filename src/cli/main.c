@@ -12,6 +12,8 @@
 int cmd_fit (int argc, char **argv);
 int cmd_diagnose (int argc, char **argv);
 int cmd_compare (int argc, char **argv);
+int cmd_run (int argc, char **argv);
+int cmd_predict (int argc, char **argv);
 
 typedef struct command {
   const char *name;
@@ -23,6 +25,8 @@ static const command commands[] = {
   { "fit", cmd_fit, "fit one model (GLM, OLS, WLS or transformed OLS) and report it" },
   { "diagnose", cmd_diagnose, "check whether the residual spread is constant" },
   { "compare", cmd_compare, "rank every variance treatment on the same rows" },
+  { "run", cmd_run, "run the jobs of a spec file into a report folder" },
+  { "predict", cmd_predict, "predict from a saved model, with intervals" },
 };
 #define NCOMMANDS (sizeof commands / sizeof commands[0])
 

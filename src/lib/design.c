@@ -50,6 +50,17 @@ typedef struct drop {
   size_t count;
 } drop;
 
+typedef struct catinfo {    /* a categorical column the terms use (bl_design_cat_*) */
+  char *column;
+  char **levels;            /* the levels with an indicator column, in column order */
+  size_t nlevels;
+  char *reference;
+} catinfo;
+
+/* Code of a fixed level that the table does not hold: matches no row (not even a missing
+   cell, whose code is -1). */
+#define ABSENT INT32_MIN
+
 struct bl_design {
   const bl_table *t;
   char *response;
@@ -62,6 +73,8 @@ struct bl_design {
   size_t nder, dercap;
   drop *drops;
   size_t ndrops;
+  catinfo *cats;
+  size_t ncats;
 };
 
 /* State used only while building. */
@@ -72,6 +85,10 @@ typedef struct build {
   long *ref_over;           /* per table column: reference level from opt, or -1 */
   unsigned char **lev_used; /* per categorical term column: which levels occur in used rows */
   int32_t *ref;             /* per table column: the reference level chosen */
+  const bl_design_opts *opt;
+  int32_t **fixcode;        /* per table column with fixed levels: the table code of each
+                               fixed level (ABSENT when the table lacks it) */
+  const bl_design_levels **fixed;   /* per table column: its fixed levels, or NULL */
 } build;
 
 void
@@ -83,6 +100,10 @@ bl_design_opts_init (bl_design_opts *opt)
   opt->weights = NULL;
   opt->variance = NULL;
   opt->offset = NULL;
+  opt->levels = NULL;
+  opt->n_levels = 0;
+  opt->response_optional = 0;
+  opt->missing_error = 0;
 }
 
 static int
@@ -431,6 +452,15 @@ expand (build *b, const bl_term *term, collist *out)
     }
     f.kind = F_IND;
     f.codes = bl_table_codes (b->t, j);
+    if (b->fixed[j]) {
+      const bl_design_levels *fx = b->fixed[j];
+      for (size_t k = 0; k < fx->nlevels && status == BL_OK; k++) {
+        f.level = b->fixcode[j][k];
+        status = collist_push (b, out, join_label (term->label, fx->levels[k], '='), &f, 1,
+                               NULL, 0);
+      }
+      return status;
+    }
     for (size_t k = 0; k < bl_table_nlevels (b->t, j) && status == BL_OK; k++) {
       if (!b->lev_used[j][k] || (int32_t) k == b->ref[j])
         continue;
@@ -564,6 +594,13 @@ select_rows (build *b, const long *check, size_t ncheck)
       if (num ? isnan (num[r]) : bl_table_codes (t, (size_t) check[k])[r] < 0)
         break;
     }
+    if (k < ncheck && b->opt->missing_error) {
+      char w[1100];
+      row_where (t, r, w, sizeof w);
+      bl_free (count);
+      return bl_fail (b->err, BL_EDATA, w, "missing value in '%s'",
+                      bl_table_colname (t, (size_t) check[k]));
+    }
     if (k < ncheck)
       count[k]++;
     else
@@ -606,7 +643,102 @@ select_rows (build *b, const long *check, size_t ncheck)
   return status;
 }
 
-/* Which levels of each categorical term column occur in the used rows, and the reference. */
+/* Append a catinfo for table column J with the NL levels at LEV (table level indices, or
+   the fixed texts FX when FX is set) and reference text REF. */
+static int
+cat_push (build *b, size_t j, const bl_design_levels *fx, const unsigned char *used,
+          int32_t ref)
+{
+  bl_design *d = b->d;
+  const bl_table *t = b->t;
+  catinfo *c, *nc = bl_realloc (d->cats, (d->ncats + 1) * sizeof *nc);
+  size_t nl = 0;
+  if (!nc)
+    return oom (b);
+  d->cats = nc;
+  c = &d->cats[d->ncats++];
+  memset (c, 0, sizeof *c);
+  c->column = bl_strdup (bl_table_colname (t, j));
+  c->reference = bl_strdup (fx ? fx->reference : bl_table_level (t, j, (size_t) ref));
+  if (fx)
+    nl = fx->nlevels;
+  else
+    for (size_t k = 0; k < bl_table_nlevels (t, j); k++)
+      nl += used[k] && (int32_t) k != ref;
+  c->levels = bl_calloc (nl ? nl : 1, sizeof *c->levels);
+  if (!c->column || !c->reference || !c->levels)
+    return oom (b);
+  if (fx) {
+    for (size_t k = 0; k < nl; k++)
+      if (!(c->levels[c->nlevels++] = bl_strdup (fx->levels[k])))
+        return oom (b);
+  } else {
+    for (size_t k = 0; k < bl_table_nlevels (t, j); k++)
+      if (used[k] && (int32_t) k != ref
+          && !(c->levels[c->nlevels++] = bl_strdup (bl_table_level (t, j, k))))
+        return oom (b);
+  }
+  return BL_OK;
+}
+
+/* The table code of level text TEXT in column J, or ABSENT. */
+static int32_t
+level_code (const bl_table *t, size_t j, const char *text)
+{
+  for (size_t k = 0; k < bl_table_nlevels (t, j); k++)
+    if (strcmp (bl_table_level (t, j, k), text) == 0)
+      return (int32_t) k;
+  return ABSENT;
+}
+
+/* Column J has fixed levels FX: map them to the table's codes and check that every used row
+   holds one of them or the reference. */
+static int
+fix_levels (build *b, size_t j, const bl_design_levels *fx)
+{
+  const bl_table *t = b->t;
+  const bl_design *d = b->d;
+  const int32_t *codes = bl_table_codes (t, j);
+  const size_t nl = bl_table_nlevels (t, j);
+  unsigned char *known;
+  if (bl_table_is_numeric (t, j))
+    return bl_fail (b->err, BL_ESPEC, bl_table_source (t), "'%s' is numeric, but the design "
+                    "was given its categorical levels", bl_table_colname (t, j));
+  b->fixcode[j] = bl_mallocn (fx->nlevels ? fx->nlevels : 1, sizeof *b->fixcode[j]);
+  known = bl_calloc (nl ? nl : 1, 1);
+  if (!b->fixcode[j] || !known) {
+    bl_free (known);
+    return oom (b);
+  }
+  for (size_t k = 0; k < fx->nlevels; k++) {
+    b->fixcode[j][k] = level_code (t, j, fx->levels[k]);
+    if (b->fixcode[j][k] != ABSENT)
+      known[b->fixcode[j][k]] = 1;
+  }
+  b->ref[j] = level_code (t, j, fx->reference);
+  if (b->ref[j] != ABSENT)
+    known[b->ref[j]] = 1;
+  for (size_t i = 0; i < d->n; i++) {
+    const size_t r = d->rows[i];
+    if (codes[r] >= 0 && !known[codes[r]]) {
+      char w[1100], list[400];
+      size_t len = (size_t) snprintf (list, sizeof list, "%s", fx->reference);
+      for (size_t k = 0; k < fx->nlevels && len < sizeof list; k++)
+        len += (size_t) snprintf (list + len, sizeof list - len, ", %s", fx->levels[k]);
+      bl_free (known);
+      row_where (t, r, w, sizeof w);
+      return bl_fail (b->err, BL_EDATA, w, "'%s' has level '%s', which the model does not "
+                      "know (its levels: %s)", bl_table_colname (t, j),
+                      bl_table_level (t, j, (size_t) codes[r]), list);
+    }
+  }
+  bl_free (known);
+  b->fixed[j] = fx;
+  return cat_push (b, j, fx, NULL, b->ref[j]);
+}
+
+/* Which levels of each categorical term column occur in the used rows, and the reference;
+   or the fixed levels the options give. */
 static int
 choose_levels (build *b, const long *check, size_t nterm0, size_t nterm1)
 {
@@ -614,8 +746,18 @@ choose_levels (build *b, const long *check, size_t nterm0, size_t nterm1)
   const bl_design *d = b->d;
   for (size_t k = nterm0; k < nterm1; k++) {
     const size_t j = (size_t) check[k];
+    const bl_design_levels *fx = NULL;
     const int32_t *codes;
     size_t nl;
+    int status;
+    for (size_t e = 0; e < b->opt->n_levels && !fx; e++)
+      if (strcmp (b->opt->levels[e].column, bl_table_colname (t, j)) == 0)
+        fx = &b->opt->levels[e];
+    if (fx) {
+      if (!b->fixed[j] && (status = fix_levels (b, j, fx)) != BL_OK)
+        return status;
+      continue;
+    }
     if (bl_table_is_numeric (t, j) || b->lev_used[j])
       continue;
     codes = bl_table_codes (t, j);
@@ -637,6 +779,8 @@ choose_levels (build *b, const long *check, size_t nterm0, size_t nterm1)
         l++;
       b->ref[j] = (int32_t) l;
     }
+    if ((status = cat_push (b, j, NULL, b->lev_used[j], b->ref[j])) != BL_OK)
+      return status;
   }
   return BL_OK;
 }
@@ -652,13 +796,17 @@ build_design (build *b, const char *response, const bl_terms *terms, const bl_de
   int status;
 
   /* Specification errors first: response, terms, weights, offset, reference. */
-  if (!response)
+  if (!response && !opt->response_optional)
     return bl_fail (b->err, BL_ESPEC, "--response", "no response column given");
-  resp = bl_table_find (t, response);
-  if (resp < 0)
+  resp = response ? bl_table_find (t, response) : -1;
+  if (resp < 0 && opt->response_optional) {
+    bl_free (d->response);                  /* absent: the design has no y */
+    d->response = NULL;
+  } else if (resp < 0) {
     return bl_fail (b->err, BL_ESPEC, "--response", "no column '%s' in %s", response,
                     bl_table_source (t));
-  if (!bl_table_is_numeric (t, (size_t) resp))
+  }
+  if (resp >= 0 && !bl_table_is_numeric (t, (size_t) resp))
     return bl_fail (b->err, BL_ESPEC, "--response", "'%s' is categorical; the response must "
                     "be numeric", response);
   for (size_t i = 0; i < nterms; i++) {
@@ -703,7 +851,8 @@ build_design (build *b, const char *response, const bl_terms *terms, const bl_de
   check = bl_mallocn (nleaves + 1, sizeof *check);
   if (!check)
     return oom (b);
-  check[ncheck++] = resp;
+  if (resp >= 0 && !opt->response_optional)
+    check[ncheck++] = resp;
   nterm0 = ncheck;
   for (size_t i = 0; i < nterms; i++)
     collect_leaves (t, bl_terms_get (terms, i), check, &ncheck);
@@ -732,11 +881,13 @@ build_design (build *b, const char *response, const bl_terms *terms, const bl_de
     return status;
 
   /* The vectors over the used rows. */
-  d->y = bl_mallocn (d->n, sizeof *d->y);
-  if (!d->y)
-    return oom (b);
-  for (size_t i = 0; i < d->n; i++)
-    d->y[i] = bl_table_num (t, (size_t) resp)[d->rows[i]];
+  if (resp >= 0) {
+    d->y = bl_mallocn (d->n, sizeof *d->y);
+    if (!d->y)
+      return oom (b);
+    for (size_t i = 0; i < d->n; i++)
+      d->y[i] = bl_table_num (t, (size_t) resp)[d->rows[i]];
+  }
   if (wcol >= 0) {
     const double *wv = bl_table_num (t, (size_t) wcol);
     int all_one = 1;
@@ -804,7 +955,7 @@ bl_design_new (const bl_table *t, const char *response, const bl_terms *terms,
                const bl_design_opts *opt, bl_err *err)
 {
   bl_design_opts defaults;
-  build b = { NULL, t, err, NULL, NULL, NULL };
+  build b = { NULL, t, err, NULL, NULL, NULL, NULL, NULL, NULL };
   const size_t ncols = bl_table_ncols (t);
   int status = BL_ENOMEM;
   if (!opt) {
@@ -815,9 +966,13 @@ bl_design_new (const bl_table *t, const char *response, const bl_terms *terms,
   b.ref_over = bl_mallocn (ncols, sizeof *b.ref_over);
   b.lev_used = bl_calloc (ncols, sizeof *b.lev_used);
   b.ref = bl_calloc (ncols, sizeof *b.ref);
+  b.opt = opt;
+  b.fixcode = bl_calloc (ncols, sizeof *b.fixcode);
+  b.fixed = bl_calloc (ncols, sizeof *b.fixed);
   if (b.d && response)
     b.d->response = bl_strdup (response);
-  if (!b.d || !b.ref_over || !b.lev_used || !b.ref || (response && !b.d->response)) {
+  if (!b.d || !b.ref_over || !b.lev_used || !b.ref || !b.fixcode || !b.fixed
+      || (response && !b.d->response)) {
     oom (&b);
   } else {
     for (size_t j = 0; j < ncols; j++)
@@ -829,6 +984,10 @@ bl_design_new (const bl_table *t, const char *response, const bl_terms *terms,
   }
   for (size_t j = 0; b.lev_used && j < ncols; j++)
     bl_free (b.lev_used[j]);
+  for (size_t j = 0; b.fixcode && j < ncols; j++)
+    bl_free (b.fixcode[j]);
+  bl_free (b.fixcode);
+  bl_free ((void *) b.fixed);
   bl_free (b.lev_used);
   bl_free (b.ref_over);
   bl_free (b.ref);
@@ -837,6 +996,19 @@ bl_design_new (const bl_table *t, const char *response, const bl_terms *terms,
     return NULL;
   }
   return b.d;
+}
+
+static void
+cats_free (catinfo *c, size_t n)
+{
+  for (size_t i = 0; c && i < n; i++) {
+    bl_free (c[i].column);
+    bl_free (c[i].reference);
+    for (size_t k = 0; c[i].levels && k < c[i].nlevels; k++)
+      bl_free (c[i].levels[k]);
+    bl_free (c[i].levels);
+  }
+  bl_free (c);
 }
 
 void
@@ -860,6 +1032,7 @@ bl_design_free (bl_design *d)
   for (size_t k = 0; k < d->ndrops; k++)
     bl_free (d->drops[k].text);
   bl_free (d->drops);
+  cats_free (d->cats, d->ncats);
   bl_free (d);
 }
 
@@ -874,6 +1047,31 @@ const double *bl_design_varcol (const bl_design *d) { return d->varcol; }
 size_t bl_design_rows_read (const bl_design *d) { return d->nread; }
 const char *bl_design_source (const bl_design *d) { return bl_table_source (d->t); }
 size_t bl_design_ndrop (const bl_design *d) { return d->ndrops; }
+size_t bl_design_ncat (const bl_design *d) { return d->ncats; }
+
+const char *
+bl_design_cat_column (const bl_design *d, size_t i)
+{
+  return i < d->ncats ? d->cats[i].column : NULL;
+}
+
+size_t
+bl_design_cat_nlevels (const bl_design *d, size_t i)
+{
+  return i < d->ncats ? d->cats[i].nlevels : 0;
+}
+
+const char *
+bl_design_cat_level (const bl_design *d, size_t i, size_t k)
+{
+  return i < d->ncats && k < d->cats[i].nlevels ? d->cats[i].levels[k] : NULL;
+}
+
+const char *
+bl_design_cat_reference (const bl_design *d, size_t i)
+{
+  return i < d->ncats ? d->cats[i].reference : NULL;
+}
 
 const char *
 bl_design_label (const bl_design *d, size_t j)
@@ -1007,10 +1205,28 @@ bl_design_subset (const bl_design *d, const size_t *sel, size_t m, bl_err *err)
   s->intercept = d->intercept;
   s->nread = d->nread;
   s->n = m;
-  s->response = bl_strdup (d->response);
+  s->response = d->response ? bl_strdup (d->response) : NULL;
   s->rows = bl_mallocn (m ? m : 1, sizeof *s->rows);
-  if (!s->response || !s->rows)
+  if ((d->response && !s->response) || !s->rows)
     goto nomem;
+  if (d->ncats) {
+    s->cats = bl_calloc (d->ncats, sizeof *s->cats);
+    if (!s->cats)
+      goto nomem;
+    for (size_t i = 0; i < d->ncats; i++) {
+      const catinfo *c = &d->cats[i];
+      catinfo *o = &s->cats[i];
+      s->ncats++;
+      o->column = bl_strdup (c->column);
+      o->reference = bl_strdup (c->reference);
+      o->levels = bl_calloc (c->nlevels ? c->nlevels : 1, sizeof *o->levels);
+      if (!o->column || !o->reference || !o->levels)
+        goto nomem;
+      for (size_t k = 0; k < c->nlevels; k++)
+        if (!(o->levels[o->nlevels++] = bl_strdup (c->levels[k])))
+          goto nomem;
+    }
+  }
   for (size_t i = 0; i < m; i++)
     s->rows[i] = d->rows[sel[i]];
   s->y = gather (d->y, sel, m, &ok);

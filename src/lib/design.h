@@ -18,6 +18,17 @@ extern "C" {
 typedef struct bl_design bl_design;   /* opaque; defined in design.c; it keeps a pointer to
                                          its table, which must outlive it */
 
+/* The indicator columns of one categorical column fixed from outside, as when a saved model
+   is applied to new data: one column per entry of LEVELS, in that order, labelled
+   "COLUMN=LEVEL", whether or not the level occurs in the table, and none for REFERENCE.  A
+   used row whose level is neither in LEVELS nor REFERENCE is BL_EDATA naming its line. */
+typedef struct bl_design_levels {
+  const char *column;              /* a categorical column of the table */
+  const char *const *levels;       /* the levels that have an indicator column */
+  size_t nlevels;
+  const char *reference;           /* the level left out */
+} bl_design_levels;
+
 typedef struct bl_design_opts {
   int intercept;                   /* nonzero (default): column 0 is "intercept" */
   const char *const *reference;    /* "COL=LEVEL" reference levels; may be NULL */
@@ -28,6 +39,18 @@ typedef struct bl_design_opts {
                                       (weighted least squares), or NULL; every used value
                                       must be > 0 (BL_EDATA naming the row); its missing
                                       cells drop rows as "missing 'COL'" after the offset's */
+  /* Fixed levels for categorical columns (see bl_design_levels); may be NULL.  An entry
+     takes precedence over a reference entry for the same column; entries for columns that
+     no term uses are ignored. */
+  const bl_design_levels *levels;
+  size_t n_levels;
+  /* Nonzero: RESPONSE may be NULL or absent from the table (then bl_design_y is NULL), and
+     its missing cells drop no row (y is NAN there).  0 (default): as described below. */
+  int response_optional;
+  /* Nonzero: a missing cell in a column the rows need is BL_EDATA with where = "FILE:LINE"
+     ("missing value in 'age'") instead of dropping the row, so that the design keeps every
+     table row in order.  0 (default): rows are dropped and counted. */
+  int missing_error;
 } bl_design_opts;
 
 void bl_design_opts_init (bl_design_opts *opt);
@@ -86,6 +109,16 @@ void bl_design_fill_ld (const bl_design *d, size_t row0, size_t nr, long double 
    copies of y, offset, weights and derived terms.  For cross-validation folds.  D's table
    must outlive the subset; D itself need not.  NULL with BL_ENOMEM on exhaustion. */
 bl_design *bl_design_subset (const bl_design *d, const size_t *sel, size_t m, bl_err *err);
+
+/* The categorical columns the terms use, in order of first use, with the levels that have
+   indicator columns (in column order) and the reference level left out: what a saved model
+   needs to rebuild the same columns on new data (bl_design_levels).  Strings stay valid until
+   bl_design_free. */
+size_t bl_design_ncat (const bl_design *d);
+const char *bl_design_cat_column (const bl_design *d, size_t i);
+size_t bl_design_cat_nlevels (const bl_design *d, size_t i);
+const char *bl_design_cat_level (const bl_design *d, size_t i, size_t k);
+const char *bl_design_cat_reference (const bl_design *d, size_t i);
 
 /* Row bookkeeping. */
 size_t bl_design_rows_read (const bl_design *d);       /* table rows */

@@ -290,7 +290,7 @@ variance_power (const bl_fit *f, int integer_y, bl_power *pw, bl_err *err)
   size_t G = n / BL_DIAG_MIN_GROUP, *order, m = 0;
   double gx[BL_DIAG_POWER_MAX_GROUPS], gy[BL_DIAG_POWER_MAX_GROUPS];
   memset (pw, 0, sizeof *pw);
-  pw->estimate = pw->se = pw->lo = pw->hi = NAN;
+  pw->estimate = pw->se = pw->lo = pw->hi = pw->intercept = NAN;
   pw->why = "";
   pw->suggested = NULL;
   if (G > BL_DIAG_POWER_MAX_GROUPS)
@@ -326,6 +326,8 @@ variance_power (const bl_fit *f, int integer_y, bl_power *pw, bl_err *err)
   }
   bl_free (order);
   pw->groups_used = m;
+  memcpy (pw->log_mean, gx, m * sizeof *gx);
+  memcpy (pw->log_var, gy, m * sizeof *gy);
   if (m < 3) {
     pw->why = "fewer than 3 groups with a positive mean fitted value";
     return BL_OK;
@@ -354,6 +356,7 @@ variance_power (const bl_fit *f, int integer_y, bl_power *pw, bl_err *err)
     }
     pw->done = 1;
     pw->estimate = b;
+    pw->intercept = a0;
     pw->se = sqrt (sse / (double) (m - 2) / sxx);
     t = gsl_cdf_tdist_Qinv (0.025, (double) (m - 2));
     pw->lo = b - t * pw->se;
@@ -493,6 +496,22 @@ bl_diag_new (const bl_fit *f, const bl_diag_opts *opt, bl_err *err)
     return NULL;
   }
   return d;
+}
+
+int
+bl_variance_power (const bl_fit *f, bl_power *out, bl_err *err)
+{
+  int integer_y = 1;
+  if (!f->st.converged) {
+    memset (out, 0, sizeof *out);
+    out->estimate = out->se = out->lo = out->hi = out->intercept = NAN;
+    out->why = "the model did not converge";
+    return bl_fail (err, BL_ENOCONV, "diagnose", "the model did not converge: nothing to "
+                    "diagnose");
+  }
+  for (size_t i = 0; i < f->n && integer_y; i++)
+    integer_y = f->y[i] >= 0.0 && f->y[i] == floor (f->y[i]);
+  return variance_power (f, integer_y, out, err);
 }
 
 void

@@ -53,6 +53,12 @@ typedef struct bl_power {
   size_t groups_used, groups_left_out;
   const char *suggested;            /* "gaussian", "poisson", "gamma", "inverse-gaussian" */
   const char *why;
+  /* The points of the log-log mean-variance plot, groups_used of them in order of fitted
+     value: log of the group's mean fitted value and log of its mean squared raw residual;
+     intercept is the fitted line's (NAN unless done), so log_var = intercept + estimate
+     log_mean. */
+  double log_mean[BL_DIAG_POWER_MAX_GROUPS], log_var[BL_DIAG_POWER_MAX_GROUPS];
+  double intercept;
 } bl_power;
 
 typedef struct bl_lof_group {
@@ -94,6 +100,11 @@ int bl_order_by (const double *key, size_t n, size_t *order, bl_err *err);
 int bl_spread_compute (const double *fitted, const double *r, size_t n, gsl_rng *rng,
                        size_t reps, bl_spread *out, bl_err *err);
 void bl_spread_clear (bl_spread *s);
+
+/* The variance power of FIT alone (as bl_diag_new computes it, with its plot points) into
+   OUT.  Returns BL_OK (OUT->done says whether there was an estimate, OUT->why why not),
+   BL_ENOCONV when FIT did not converge, or BL_ENOMEM; OUT is filled in every case. */
+int bl_variance_power (const bl_fit *fit, bl_power *out, bl_err *err);
 
 /* All checks on FIT.  NULL with ERR on failure. */
 bl_diag *bl_diag_new (const bl_fit *fit, const bl_diag_opts *opt, bl_err *err);

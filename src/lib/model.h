@@ -35,19 +35,43 @@ typedef struct bl_prediction {
   double *mean, *mean_lo, *mean_hi, *pred_lo, *pred_hi;
   int has_response;                   /* T holds the response: scores below exist */
   double deviance, rmse, mae;         /* out-of-sample, on y's scale */
+  size_t n_scored;                    /* rows with the response, over which they are taken */
 } bl_prediction;
 
 /* Predict on T (read with the model's categorical columns forced: see
    bl_model_table_opts).  A missing column, a missing or out-of-domain value in a used column,
    or an unseen categorical level is BL_EDATA with where = "FILE:LINE" of the row; nothing is
-   returned then. */
+   returned then.  LEVEL in (0, 1) is the level of both intervals; 0 or NAN takes the
+   fit's level; anything else is BL_ESPEC.  The intervals and scores are those of
+   doc/model-format.md ("Prediction"); the prediction intervals of the poisson, gamma and
+   inverse gaussian families leave out the uncertainty of the coefficients. */
 bl_prediction *bl_model_predict (const bl_model *m, const bl_table *t, double level,
                                  bl_err *err);
 void bl_prediction_free (bl_prediction *p);
 
+/* Write P, the predictions for the rows of T, as CSV to OUT: a header, then one record per
+   row of T in order with the columns row (1-based data row), mean, mean_lo, mean_hi,
+   pred_lo, pred_hi, and then the NKEEP columns named in KEEP as T holds them (numbers %.17g,
+   categorical levels as text; missing cells empty; fields quoted per RFC 4180 when needed).
+   Non-finite numbers are written inf, -inf, or an empty field for NAN.  A KEEP name that T
+   lacks, or that repeats an output column, is BL_EDATA (where = "FILE:1") before anything is
+   written.  BL_OK, or BL_EIO when a write failed. */
+int bl_prediction_write_csv (FILE *out, const bl_prediction *p, const bl_table *t,
+                             const char *const *keep, size_t nkeep, bl_err *err);
+
 /* Table options for reading new data for M: its categorical columns forced categorical.
    The pointers stay valid until bl_model_free. */
 void bl_model_table_opts (const bl_model *m, bl_table_opts *opt);
+
+/* Accessors of a model read back; pointers valid until bl_model_free.  bl_model_beta has
+   length bl_model_p (NAN for aliased columns), bl_model_cov is p x p column-major (NAN in
+   aliased rows and columns); bl_model_level is the confidence level of the fit. */
+size_t bl_model_p (const bl_model *m);
+const char *bl_model_label (const bl_model *m, size_t j);
+const double *bl_model_beta (const bl_model *m);
+const double *bl_model_cov (const bl_model *m);
+const char *bl_model_response (const bl_model *m);
+double bl_model_level (const bl_model *m);
 
 #ifdef __cplusplus
 }

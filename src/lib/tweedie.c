@@ -1,0 +1,70 @@
+/* tweedie.c -- the Tweedie density by the series of Dunn & Smyth (2005). */
+#include <math.h>
+#include <gsl/gsl_sf_gamma.h>
+#include "tweedie.h"
+
+/*
+ * For y > 0 (Dunn & Smyth 2005, eqs. 4-5):
+ *   f(y) = (1/y) W(y) exp[ (1/phi) (y mu^(1-p) / (1-p) - mu^(2-p) / (2-p)) ],
+ *   W = sum_{j>=1} W_j,  log W_j = j z - lgamma(j + 1) - lgamma(-j alpha),
+ *   alpha = (2-p)/(1-p) < 0,  z = -alpha log y + alpha log(p-1) - (1-alpha) log phi
+ *                                - log(2-p),
+ * the largest term near j_max = y^(2-p) / (phi (2-p)).  The sum is accumulated relative to
+ * the largest term, so nothing overflows at large y or small phi.
+ */
+static double
+log_w (double y, double phi, double p)
+{
+  const double alpha = (2.0 - p) / (1.0 - p);
+  const double z = -alpha * log (y) + alpha * log (p - 1.0) - (1.0 - alpha) * log (phi)
+                   - log (2.0 - p);
+  double jmax = exp ((2.0 - p) * log (y)) / (phi * (2.0 - p));
+  double lmax, s = 0.0;
+  long j0;
+  if (!(jmax >= 1.0))
+    jmax = 1.0;
+  if (jmax > 1e15)
+    jmax = 1e15;
+  j0 = (long) floor (jmax + 0.5);
+  if (j0 < 1)
+    j0 = 1;
+#define LOGWJ(j) ((double) (j) * z - gsl_sf_lngamma ((double) (j) + 1.0) \
+                  - gsl_sf_lngamma (-(double) (j) * alpha))
+  lmax = LOGWJ (j0);
+  /* upward from j0, then downward to 1 */
+  for (long j = j0, k = 0; k < BL_TWEEDIE_TERMS_MAX; j++, k++) {
+    const double t = exp (LOGWJ (j) - lmax);
+    s += t;
+    if (t < 1e-17 * s && j > j0)
+      break;
+  }
+  for (long j = j0 - 1, k = 0; j >= 1 && k < BL_TWEEDIE_TERMS_MAX; j--, k++) {
+    const double t = exp (LOGWJ (j) - lmax);
+    s += t;
+    if (t < 1e-17 * s)
+      break;
+  }
+#undef LOGWJ
+  return lmax + log (s);
+}
+
+double
+bl_tweedie_logpdf (double y, double mu, double phi, double p)
+{
+  if (!(mu > 0.0) || !(phi > 0.0) || !(p > 1.0 && p < 2.0) || !(y >= 0.0) || !isfinite (y))
+    return -HUGE_VAL;
+  if (y == 0.0)
+    return -exp ((2.0 - p) * log (mu)) / (phi * (2.0 - p));
+  return -log (y) + log_w (y, phi, p)
+         + (y * exp ((1.0 - p) * log (mu)) / (1.0 - p) - exp ((2.0 - p) * log (mu)) / (2.0 - p))
+           / phi;
+}
+
+double
+bl_tweedie_unit_dev (double y, double mu, double p)
+{
+  const double t1 = y > 0.0 ? exp ((2.0 - p) * log (y)) / ((1.0 - p) * (2.0 - p)) : 0.0;
+  const double d = 2.0 * (t1 - y * exp ((1.0 - p) * log (mu)) / (1.0 - p)
+                          + exp ((2.0 - p) * log (mu)) / (2.0 - p));
+  return d > 0.0 ? d : 0.0;
+}
