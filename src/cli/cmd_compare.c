@@ -152,7 +152,7 @@ cmd_compare (int argc, char **argv)
     cli_model_warn_drops (&m);
   if (cli_out_open (&out, output) == 0) {
     bl_report_info info = { m.job.data, m.terms, m.offset, m.job.weights, bl_version (),
-                            NULL };
+                            NULL, NULL };
     const int st = json ? bl_report_compare_json (out.f, cmp, m.design, &info, &err)
                         : bl_report_compare_text (out.f, cmp, m.design, &info, &err);
     if (st != BL_OK) {

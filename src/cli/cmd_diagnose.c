@@ -21,6 +21,8 @@ static const char usage_tail[] =
   "output:\n"
   "  --residuals FILE.csv    also write the residual table (response, Pearson, deviance,\n"
   "                          working and quantile residuals, leverage, Cook's distance)\n"
+  "  --by COL                also test equal spread across the levels of the categorical\n"
+  "                          column COL (Brown-Forsythe), with each level's spread\n"
   "  --seed N                seed of the simulated null quantile and of the randomized\n"
   "                          quantile residuals (default 20261201)\n"
   "  --json                  one JSON document instead of the text report\n"
@@ -30,13 +32,14 @@ static const char usage_tail[] =
   "\n"
   "exit status: 0 done; 1 data or model problem; 2 usage, option or term-syntax error.\n";
 
-enum { OPT_JSON = OPT_FIRST_OWN, OPT_RESIDUALS, OPT_SEED };
+enum { OPT_JSON = OPT_FIRST_OWN, OPT_RESIDUALS, OPT_SEED, OPT_BY };
 
 static const struct option long_opts[] = {
   CLI_MODEL_LONG_OPTS,
   { "json", no_argument, NULL, OPT_JSON },
   { "residuals", required_argument, NULL, OPT_RESIDUALS },
   { "seed", required_argument, NULL, OPT_SEED },
+  { "by", required_argument, NULL, OPT_BY },
   { "output", required_argument, NULL, 'o' },
   { "quiet", no_argument, NULL, 'q' },
   { "help", no_argument, NULL, 'h' },
@@ -46,7 +49,9 @@ static const struct option long_opts[] = {
 int
 cmd_diagnose (int argc, char **argv)
 {
-  const char *output = NULL, *residuals = NULL;
+  const char *output = NULL, *residuals = NULL, *by = NULL;
+  bl_bf bf;
+  int have_bf = 0;
   int json = 0, quiet = 0, c, rc, method_set = 0;
   size_t seed = BL_DIAG_SEED;
   cli_model m;
@@ -75,6 +80,7 @@ cmd_diagnose (int argc, char **argv)
     switch (c) {
     case OPT_JSON: json = 1; break;
     case OPT_RESIDUALS: residuals = optarg; break;
+    case OPT_BY: by = optarg; break;
     case OPT_SEED:
       if (cli_parse_size (optarg, &seed) != 0 && strcmp (optarg, "0") != 0) {
         cli_model_free (&m);
@@ -151,9 +157,16 @@ cmd_diagnose (int argc, char **argv)
     if (cli_out_commit (&rout) != 0)
       goto done;
   }
+  if (by) {
+    if (bl_brown_forsythe (fit, m.table, by, &bf, &err) != BL_OK) {
+      rc = cli_lib_error ("diagnose", &err);
+      goto done;
+    }
+    have_bf = 1;
+  }
   if (cli_out_open (&out, output) == 0) {
     bl_report_info info = { m.job.data, m.terms, m.offset, m.job.weights, bl_version (),
-                            NULL };
+                            NULL, have_bf ? &bf : NULL };
     const int st = json ? bl_report_diag_json (out.f, fit, dg, &info, &err)
                         : bl_report_diag_text (out.f, fit, dg, &info, &err);
     if (st != BL_OK) {
@@ -164,6 +177,8 @@ cmd_diagnose (int argc, char **argv)
     }
   }
 done:
+  if (have_bf)
+    bl_bf_clear (&bf);
   bl_diag_free (dg);
   bl_fit_free (fit);
   cli_model_free (&m);

@@ -123,7 +123,7 @@ cmd_fit (int argc, char **argv)
   rc = EXIT_DATA;
   if (cli_out_open (&out, output) == 0) {
     bl_report_info info = { m.job.data, m.terms, m.offset, m.job.weights, bl_version (),
-                            NULL };
+                            NULL, NULL };
     const int st = json ? bl_report_fit_json (out.f, fit, &info, &err)
                         : bl_report_fit_text (out.f, fit, &info, &err);
     if (st != BL_OK) {

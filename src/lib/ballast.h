@@ -17,6 +17,11 @@
 #include "diag.h"
 #include "compare.h"
 #include "job.h"
+#include "spec.h"
+#include "batch.h"
+#include "model.h"
+#include "nested.h"
+#include "tweedie.h"
 #ifdef __cplusplus
 extern "C" {
 #endif

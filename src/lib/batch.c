@@ -271,6 +271,7 @@ result:
     info.weights = j->weights;
     info.tool_version = bl_version ();
     info.against = NULL;
+    info.by = NULL;
     if (cmp)
       st = bl_report_compare_json (mb.f, cmp, design, &info, &e);
     else if (fit)

@@ -682,3 +682,128 @@ bl_ks_normal (double *x, size_t n, double *d, double *p)
   if (lam < 0.2)
     *p = 1.0;
 }
+
+/* ---------------------------------------------------------------- Brown-Forsythe */
+
+void
+bl_bf_clear (bl_bf *b)
+{
+  if (!b)
+    return;
+  bl_free (b->groups);
+  b->groups = NULL;
+  b->ngroups = 0;
+}
+
+/* Median of X[0..n-1] (sorted in place). */
+static double
+median_of (double *x, size_t n)
+{
+  qsort (x, n, sizeof *x, cmp_double);
+  return n % 2 ? x[n / 2] : 0.5 * (x[n / 2 - 1] + x[n / 2]);
+}
+
+int
+bl_brown_forsythe (const bl_fit *f, const bl_table *t, const char *col, bl_bf *out,
+                   bl_err *err)
+{
+  const size_t n = f->n;
+  const long jc = bl_table_find (t, col);
+  const int32_t *codes;
+  size_t L, *cnt = NULL, *start = NULL, *pos = NULL, G = 0;
+  double *r = NULL, *sorted = NULL, *z = NULL;
+  long double zbar = 0.0L, between = 0.0L, within = 0.0L;
+  int st = BL_OK;
+
+  memset (out, 0, sizeof *out);
+  out->stat = out->p = NAN;
+  snprintf (out->column, sizeof out->column, "%s", col);
+  if (jc < 0)
+    return bl_fail (err, BL_ESPEC, "--by", "no column '%s' in %s", col, bl_table_source (t));
+  codes = bl_table_codes (t, (size_t) jc);
+  if (!codes)
+    return bl_fail (err, BL_ESPEC, "--by", "'%s' is numeric; --by needs a categorical column "
+                    "(declare it with --categorical)", col);
+  L = bl_table_nlevels (t, (size_t) jc);
+  cnt = bl_calloc (L ? L : 1, sizeof *cnt);
+  start = bl_calloc (L + 1, sizeof *start);
+  pos = bl_calloc (L ? L : 1, sizeof *pos);
+  r = bl_mallocn (n ? n : 1, sizeof *r);
+  sorted = bl_mallocn (n ? n : 1, sizeof *sorted);
+  z = bl_mallocn (n ? n : 1, sizeof *z);
+  out->groups = bl_calloc (L ? L : 1, sizeof *out->groups);
+  if (!cnt || !start || !pos || !r || !sorted || !z || !out->groups) {
+    st = bl_fail (err, BL_ENOMEM, "diagnose", "out of memory");
+    goto done;
+  }
+  bl_pearson_residuals (f, r);
+  for (size_t i = 0; i < n; i++) {
+    const int32_t c = codes[bl_design_table_row (f->d, i)];
+    if (c < 0) {
+      char where[1100];
+      snprintf (where, sizeof where, "%s:%zu", bl_table_source (t), bl_design_line (f->d, i));
+      st = bl_fail (err, BL_EDATA, where, "--by column '%s' is missing on a row the model "
+                    "uses", col);
+      goto done;
+    }
+    cnt[c]++;
+  }
+  for (size_t k = 0; k < L; k++)
+    start[k + 1] = start[k] + cnt[k];
+  for (size_t i = 0; i < n; i++) {
+    const size_t c = (size_t) codes[bl_design_table_row (f->d, i)];
+    sorted[start[c] + pos[c]++] = r[i];
+  }
+  /* z = |r - group median|, grouped the same way */
+  for (size_t k = 0; k < L; k++) {
+    double med, s = 0.0;
+    if (!cnt[k])
+      continue;
+    memcpy (z + start[k], sorted + start[k], cnt[k] * sizeof *z);
+    med = median_of (z + start[k], cnt[k]);
+    for (size_t q = start[k]; q < start[k + 1]; q++) {
+      z[q] = fabs (sorted[q] - med);
+      s += z[q];
+    }
+    out->groups[G].level = bl_table_level (t, (size_t) jc, k);
+    out->groups[G].n = cnt[k];
+    out->groups[G].median = med;
+    out->groups[G].spread = s / (double) cnt[k];
+    G++;
+    zbar += s;
+  }
+  out->ngroups = G;
+  if (G < 2 || n <= G) {
+    st = bl_fail (err, BL_EDATA, "--by", "'%s' has %zu level%s with rows: no spread to "
+                  "compare", col, G, G == 1 ? "" : "s");
+    goto done;
+  }
+  zbar /= (long double) n;
+  for (size_t k = 0; k < L; k++) {
+    long double m = 0.0L;
+    if (!cnt[k])
+      continue;
+    for (size_t q = start[k]; q < start[k + 1]; q++)
+      m += z[q];
+    m /= (long double) cnt[k];
+    between += (long double) cnt[k] * (m - zbar) * (m - zbar);
+    for (size_t q = start[k]; q < start[k + 1]; q++)
+      within += (z[q] - m) * (z[q] - m);
+  }
+  out->dof = G - 1;
+  out->dof2 = n - G;
+  out->stat = within > 0.0L ? (double) ((between / (long double) (G - 1))
+                                         / (within / (long double) (n - G))) : NAN;
+  out->p = isfinite (out->stat) ? gsl_cdf_fdist_Q (out->stat, (double) out->dof,
+                                                   (double) out->dof2) : NAN;
+done:
+  bl_free (cnt);
+  bl_free (start);
+  bl_free (pos);
+  bl_free (r);
+  bl_free (sorted);
+  bl_free (z);
+  if (st != BL_OK)
+    bl_bf_clear (out);
+  return st;
+}

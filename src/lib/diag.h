@@ -7,6 +7,7 @@
 #include <gsl/gsl_rng.h>
 #include "error.h"
 #include "fit.h"
+#include "table.h"
 #ifdef __cplusplus
 extern "C" {
 #endif
@@ -128,6 +129,30 @@ int bl_quantile_residuals (const bl_fit *fit, gsl_rng *rng, double *q, bl_err *e
    D = sup |F_n - Phi| and its asymptotic p-value with Stephens' (1970) correction,
    lambda = (sqrt n + 0.12 + 0.11 / sqrt n) D, p = 2 sum (-1)^(k-1) exp(-2 k^2 lambda^2). */
 void bl_ks_normal (double *x, size_t n, double *d, double *p);
+
+/* Equal spread across the levels of a categorical column: the Brown-Forsythe (1974, JASA
+   69, 364-367) test, the one-way ANOVA F of z_i = |r_i - median of r in i's group| with r
+   the Pearson residuals, on (G - 1, N - G) degrees of freedom. */
+typedef struct bl_bf_group {
+  const char *level;                /* valid while the table lives */
+  size_t n;
+  double median, spread;            /* the group's median residual and mean |r - median| */
+} bl_bf_group;
+
+typedef struct bl_bf {
+  char column[256];
+  double stat, p;
+  size_t dof, dof2;
+  size_t ngroups;
+  bl_bf_group *groups;              /* owned; bl_bf_clear frees */
+} bl_bf;
+
+/* Group FIT's rows by the categorical column COL of T (the fit's own table).  BL_ESPEC when
+   COL is missing or not categorical ("--by"), BL_EDATA when a used row has no level there
+   (naming its line) or fewer than two groups have rows, BL_ENOMEM. */
+int bl_brown_forsythe (const bl_fit *fit, const bl_table *t, const char *col, bl_bf *out,
+                       bl_err *err);
+void bl_bf_clear (bl_bf *b);
 
 #ifdef __cplusplus
 }

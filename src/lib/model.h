@@ -18,7 +18,7 @@ extern "C" {
    text and labels), intercept, categorical columns with their levels and references, the
    column labels, method, family, link, offset, weights, variance function and K, transform
    with lambda and shift, smearing residuals, coefficients, covariance, dispersion, dof_resid,
-   level.  BL_OK or BL_EIO. */
+   level.  BL_OK or BL_EIO; BL_EDATA when the fit did not converge (nothing to save). */
 int bl_model_write (FILE *out, const bl_fit *fit, const bl_terms *terms,
                     const bl_terms *offset, const char *weights, bl_err *err);
 

@@ -20,6 +20,7 @@ typedef struct bl_report_info {
   const char *weights;         /* prior-weight column, or NULL */
   const char *tool_version;    /* "0.1.0" */
   const bl_nested *against;    /* a nested-model test to report, or NULL */
+  const bl_bf *by;             /* diagnose --by: spread by group, or NULL */
 } bl_report_info;
 
 /* Write FIT as one JSON document to OUT (keys documented in doc/json.md).  Returns BL_OK or

@@ -75,6 +75,27 @@ bl_report_diag_json (FILE *out, const bl_fit *fit, const bl_diag *dg,
     jw_str (&w, "why_null", r->power.why);
   jw_obj_end (&w);
   jw_str (&w, "suggested_family", r->power.suggested);
+  if (info->by) {
+    const bl_bf *b = info->by;
+    jw_obj (&w, "by");
+    jw_str (&w, "column", b->column);
+    jw_str (&w, "test", "brown-forsythe");
+    jw_num (&w, "stat", b->stat);
+    jw_size (&w, "dof", b->dof);
+    jw_size (&w, "dof2", b->dof2);
+    jw_num (&w, "p", b->p);
+    jw_arr (&w, "groups");
+    for (size_t g = 0; g < b->ngroups; g++) {
+      jw_obj (&w, NULL);
+      jw_str (&w, "level", b->groups[g].level);
+      jw_size (&w, "n", b->groups[g].n);
+      jw_num (&w, "median", b->groups[g].median);
+      jw_num (&w, "spread", b->groups[g].spread);
+      jw_obj_end (&w);
+    }
+    jw_arr_end (&w);
+    jw_obj_end (&w);
+  }
   jw_obj (&w, "lack_of_fit");
   jw_bool (&w, "flag", r->lof.flag);
   jw_num (&w, "z", BL_DIAG_LOF_Z);
@@ -146,6 +167,15 @@ bl_report_diag_text (FILE *o, const bl_fit *fit, const bl_diag *dg,
              r->spread.flag ? ": FLAG, the spread changes with the level" : "");
   } else {
     fprintf (o, "    (%s)\n", r->spread.why);
+  }
+  if (info->by) {
+    const bl_bf *b = info->by;
+    fprintf (o, "\n  Spread by '%s' (Brown-Forsythe): F = %.4g on %zu and %zu dof, p %.4g\n",
+             b->column, b->stat, b->dof, b->dof2, b->p);
+    fprintf (o, "    %-20s %8s %14s %16s\n", "level", "rows", "median resid", "mean |r - med|");
+    for (size_t g = 0; g < b->ngroups; g++)
+      fprintf (o, "    %-20.20s %8zu %14.5g %16.5g\n", b->groups[g].level, b->groups[g].n,
+               b->groups[g].median, b->groups[g].spread);
   }
   fputs ("\n  How the variance grows with the mean\n", o);
   if (r->power.done)
