@@ -63,6 +63,9 @@ cmd_fit (int argc, char **argv)
   int json = 0, quiet = 0, c, rc;
   cli_model m;
   bl_fit *fit = NULL;
+  bl_nested nested;
+  bl_terms *small = NULL;
+  int have_nested = 0;
   bl_err err;
   cli_out out;
 
@@ -104,13 +107,24 @@ cmd_fit (int argc, char **argv)
       return cli_usage_error ("fit", argv[optind - 1], "unknown option");
     }
   }
-  if ((rc = cli_model_finish (&m, argc, argv, optind, "fit")) != 0
-      || (rc = cli_model_load (&m, "fit")) != 0) {
+  if ((rc = cli_model_finish (&m, argc, argv, optind, "fit")) != 0) {
+    cli_model_free (&m);
+    return rc;
+  }
+  /* the smaller model's syntax, before any work */
+  if (m.job.against && !(small = bl_terms_parse (m.job.against, "--against", &err))) {
+    rc = cli_lib_error ("fit", &err);
+    cli_model_free (&m);
+    return rc;
+  }
+  if ((rc = cli_model_load (&m, "fit")) != 0) {
+    bl_terms_free (small);
     cli_model_free (&m);
     return rc;
   }
   if (!(fit = bl_fit_glm (m.design, &m.job.fit, &err))) {
     rc = cli_lib_error ("fit", &err);
+    bl_terms_free (small);
     cli_model_free (&m);
     return rc;
   }
@@ -120,10 +134,25 @@ cmd_fit (int argc, char **argv)
     for (size_t i = 0; i < wn->n; i++)
       cli_warn ("fit", "%s", wn->msg[i]);
   }
+  if (small && bl_fit_stats_get (fit)->converged) {
+    /* the likelihood-ratio test against the smaller model */
+    bl_design_opts dopt;
+    bl_job_design_opts (&m.job, m.offset, &dopt);
+    rc = bl_nested_test (fit, m.table, small, &dopt, &m.job.fit, &nested, &err);
+    bl_terms_free (small);
+    small = NULL;
+    if (rc != BL_OK) {
+      rc = cli_lib_error ("fit", &err);
+      bl_fit_free (fit);
+      cli_model_free (&m);
+      return rc;
+    }
+    have_nested = 1;
+  }
   rc = EXIT_DATA;
   if (cli_out_open (&out, output) == 0) {
     bl_report_info info = { m.job.data, m.terms, m.offset, m.job.weights, bl_version (),
-                            NULL, NULL };
+                            have_nested ? &nested : NULL, NULL };
     const int st = json ? bl_report_fit_json (out.f, fit, &info, &err)
                         : bl_report_fit_text (out.f, fit, &info, &err);
     if (st != BL_OK) {
@@ -136,6 +165,7 @@ cmd_fit (int argc, char **argv)
         rc = save_model (save, fit, &m);
     }
   }
+  bl_terms_free (small);
   bl_fit_free (fit);
   cli_model_free (&m);
   return rc;

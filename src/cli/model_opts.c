@@ -15,7 +15,11 @@ const char cli_model_help[] =
   "  --method glm|ols|wls    glm (default): maximum likelihood by IRLS; ols: the gaussian\n"
   "                          family with the identity link; wls: weighted least squares\n"
   "                          with --weights and/or --variance\n"
-  "  --family NAME           gaussian (default), poisson, gamma, inverse-gaussian\n"
+  "  --family NAME           gaussian (default), poisson, gamma, inverse-gaussian,\n"
+  "                          negative-binomial (Var = mu + mu^2/theta), tweedie\n"
+  "                          (compound poisson-gamma, Var = phi mu^p, 1 < p < 2)\n"
+  "  --theta T               negative binomial: fix theta (default: estimated)\n"
+  "  --power P|est           tweedie: the power p (default: est, by profile likelihood)\n"
   "  --link NAME             identity, log, inverse; default: the canonical link (identity,\n"
   "                          log, inverse), but log for inverse-gaussian, whose canonical\n"
   "                          link 1/mu^2 is not offered\n"
@@ -33,8 +37,11 @@ const char cli_model_help[] =
   "  --dispersion KIND       model (default) or pearson (poisson: scale the standard\n"
   "                          errors by the Pearson estimate)\n"
   "  --level X               confidence level of the intervals (default 0.95)\n"
+  "  --against TERMS         fit: test against the smaller model with these terms\n"
+  "                          (likelihood ratio: chi-square, or F when phi is estimated)\n"
   "  --se KIND               standard errors: model (default), hc0, hc1, hc2, hc3\n"
-  "                          (heteroscedasticity-consistent sandwich)\n"
+  "                          (heteroscedasticity-consistent sandwich), cluster\n"
+  "  --cluster COL           with --se cluster: the column naming each row's cluster\n"
   "\n"
   "input:\n"
   "  --delimiter C           field delimiter (default ',', or tab for .tsv names)\n"
@@ -55,7 +62,8 @@ static const struct { int code; const char *key; } codes[] = {
   { OPT_DELIMITER, "delimiter" }, { OPT_DECIMAL_COMMA, "decimal-comma" },
   { OPT_MAX_ITER, "max-iter" }, { OPT_EPSILON, "epsilon" }, { OPT_SOLVER, "solver" },
   { OPT_THREADS, "threads" }, { OPT_VARIANCE, "variance" }, { OPT_TRANSFORM, "transform" },
-  { OPT_SHIFT, "shift" }, { OPT_SE, "se" }
+  { OPT_SHIFT, "shift" }, { OPT_SE, "se" }, { OPT_THETA, "theta" }, { OPT_POWER, "power" },
+  { OPT_AGAINST, "against" }, { OPT_CLUSTER, "cluster" }
 };
 
 void

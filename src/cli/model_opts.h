@@ -10,7 +10,8 @@ enum {
   OPT_RESPONSE = 256, OPT_TERMS, OPT_NO_INTERCEPT, OPT_METHOD, OPT_FAMILY, OPT_LINK,
   OPT_WEIGHTS, OPT_OFFSET, OPT_CATEGORICAL, OPT_REFERENCE, OPT_DISPERSION, OPT_LEVEL,
   OPT_DELIMITER, OPT_DECIMAL_COMMA, OPT_MAX_ITER, OPT_EPSILON, OPT_SOLVER, OPT_THREADS,
-  OPT_VARIANCE, OPT_TRANSFORM, OPT_SHIFT, OPT_SE,
+  OPT_VARIANCE, OPT_TRANSFORM, OPT_SHIFT, OPT_SE, OPT_THETA, OPT_POWER, OPT_AGAINST,
+  OPT_CLUSTER,
   OPT_FIRST_OWN = 400           /* subcommands number their own options from here */
 };
 
@@ -37,7 +38,11 @@ enum {
   { "variance", required_argument, NULL, OPT_VARIANCE }, \
   { "transform", required_argument, NULL, OPT_TRANSFORM }, \
   { "shift", required_argument, NULL, OPT_SHIFT }, \
-  { "se", required_argument, NULL, OPT_SE }
+  { "se", required_argument, NULL, OPT_SE }, \
+  { "theta", required_argument, NULL, OPT_THETA }, \
+  { "power", required_argument, NULL, OPT_POWER }, \
+  { "against", required_argument, NULL, OPT_AGAINST }, \
+  { "cluster", required_argument, NULL, OPT_CLUSTER }
 
 /* Help text for the shared options. */
 extern const char cli_model_help[];

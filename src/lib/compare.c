@@ -58,6 +58,10 @@ static const spec specs[] = {
     BL_VARIANCE_NONE, "gamma GLM, identity link" },
   { "ig-log", BL_METHOD_GLM, &bl_family_invgauss, &bl_link_log, BL_TRANSFORM_NONE, 0,
     BL_VARIANCE_NONE, "inverse gaussian GLM, log link" },
+  { "nb-log", BL_METHOD_GLM, &bl_family_negbin, &bl_link_log, BL_TRANSFORM_NONE, 0,
+    BL_VARIANCE_NONE, "negative binomial GLM, log link, theta estimated" },
+  { "tw-log", BL_METHOD_GLM, &bl_family_tweedie, &bl_link_log, BL_TRANSFORM_NONE, 0,
+    BL_VARIANCE_NONE, "Tweedie GLM, log link, power estimated" },
 };
 #define NSPECS (sizeof specs / sizeof specs[0])
 
@@ -67,6 +71,8 @@ struct bl_compare {
   spec sp[BL_COMPARE_MAX];
   double lam[BL_COMPARE_MAX];      /* fixed lambda of an ls-bc=L candidate */
   int integer_y;
+  int zero_groups;               /* y has exact zeros and non-integer values */
+  int default_list;              /* the candidates are the default list */
   long winner;
   bl_warnings advice;
   size_t folds;
@@ -182,6 +188,8 @@ cand_init (bl_candidate *k, const spec *sp, double lam)
   k->cv_rmse = k->cv_mae = NAN;
   k->spread_ratio = k->spread_null95 = NAN;
   k->normality_stat = k->normality_p = NAN;
+  k->theta = k->power = NAN;
+  k->group = NULL;
 }
 
 static void
@@ -199,6 +207,7 @@ fit_opts_for (const bl_compare_opts *opt, const spec *sp, double lam, bl_fit_opt
   o->power_est = sp->var != BL_VARIANCE_NONE;
   o->variance_col = NULL;
   o->dispersion_pearson = 0;
+  o->fam_par_est = 1;
 }
 
 /* h(y) of a transformed fit, for the discretized likelihood. */
@@ -241,7 +250,7 @@ static double
 discrete_loglik (const bl_fit *f)
 {
   long double l = 0.0L;
-  if (f->fam == &bl_family_poisson)
+  if (f->fam == &bl_family_poisson || f->fam == &bl_family_negbin)
     return f->st.loglik;
   for (size_t i = 0; i < f->n; i++) {
     const double y = f->y_own && f->tr.kind != BL_TRANSFORM_NONE
@@ -398,7 +407,7 @@ done:
 
 static int
 fit_candidate (bl_compare *c, size_t i, const bl_design *d, const bl_compare_opts *opt,
-               int pos_y, int int_y, bl_err *err)
+               int pos_y, int int_y, int nonneg_y, bl_err *err)
 {
   bl_candidate *k = &c->c[i];
   const spec *sp = &c->sp[i];
@@ -413,8 +422,14 @@ fit_candidate (bl_compare *c, size_t i, const bl_design *d, const bl_compare_opt
             || sp->fam == &bl_family_invgauss) && !pos_y)
     why = "not applicable: it needs y > 0, and some y <= 0 (no rows are dropped to make it "
           "fit)";
-  else if (sp->fam == &bl_family_poisson && !int_y)
-    why = "not applicable: poisson needs integer-valued y >= 0";
+  else if ((sp->fam == &bl_family_poisson || sp->fam == &bl_family_negbin) && !int_y)
+    why = sp->fam == &bl_family_poisson ? "not applicable: poisson needs integer-valued y >= 0"
+          : "not applicable: the negative binomial needs integer-valued y >= 0";
+  else if (sp->fam == &bl_family_tweedie && c->default_list && !c->zero_groups)
+    why = "left out by default: Tweedie is fitted when y >= 0 has exact zeros and non-integer "
+          "values (ask for it with --candidates)";
+  else if (sp->fam == &bl_family_tweedie && !nonneg_y)
+    why = "not applicable: Tweedie needs y >= 0";
   if (why) {
     k->applicable = 0;
     return bl_warnings_add (&k->notes, "%s", why) == BL_OK ? BL_OK
@@ -445,6 +460,10 @@ fit_candidate (bl_compare *c, size_t i, const bl_design *d, const bl_compare_opt
       k->lambda = k->fit->tr.lambda;
     if (sp->var != BL_VARIANCE_NONE)
       k->variance_power = k->fit->var.power;
+    if (sp->fam == &bl_family_negbin)
+      k->theta = st->fam_par;
+    if (sp->fam == &bl_family_tweedie)
+      k->power = st->fam_par;
     for (size_t w = 0; w < k->fit->warn.n; w++)
       if (bl_warnings_add (&k->notes, "%s", k->fit->warn.msg[w]) != BL_OK)
         return bl_fail (err, BL_ENOMEM, "compare", "out of memory");
@@ -464,8 +483,8 @@ bl_compare_run (const bl_design *d, const bl_compare_opts *opt, bl_err *err)
   const size_t n = bl_design_n (d);
   const double *y = bl_design_y (d);
   size_t *fold = NULL, *perm = NULL;
-  int pos_y = 1, st = BL_OK;
-  double best = HUGE_VAL, wsum = 0.0;
+  int pos_y = 1, nonneg_y = 1, any_zero = 0, st = BL_OK;
+  double wsum = 0.0;
   if (!c) {
     bl_fail (err, BL_ENOMEM, "compare", "out of memory");
     return NULL;
@@ -474,16 +493,20 @@ bl_compare_run (const bl_design *d, const bl_compare_opts *opt, bl_err *err)
   c->seed = opt->seed;
   c->winner = -1;
   c->integer_y = 1;
+  c->default_list = opt->candidates == NULL;
   if (parse_list (opt->candidates ? opt->candidates : BL_COMPARE_DEFAULT, c, err) != BL_OK) {
     bl_free (c);
     return NULL;
   }
   for (size_t i = 0; i < n; i++) {
     pos_y &= y[i] > 0.0;
+    nonneg_y &= y[i] >= 0.0;
+    any_zero |= y[i] == 0.0;
     c->integer_y &= y[i] >= 0.0 && y[i] == floor (y[i]);
   }
+  c->zero_groups = any_zero && nonneg_y && !c->integer_y;
   for (size_t i = 0; i < c->nc && st == BL_OK; i++) {
-    st = fit_candidate (c, i, d, opt, pos_y, c->integer_y, err);
+    st = fit_candidate (c, i, d, opt, pos_y, c->integer_y, nonneg_y, err);
     /* the practical Box-Cox power, when it is not a transform already in the table */
     if (st == BL_OK && c->sp[i].tr == BL_TRANSFORM_BOXCOX && c->sp[i].lambda_est
         && c->c[i].fit && c->c[i].converged && c->nc < BL_COMPARE_MAX) {
@@ -510,32 +533,51 @@ bl_compare_run (const bl_design *d, const bl_compare_opts *opt, bl_err *err)
   if (st != BL_OK)
     goto fail;
 
-  /* ranking by rank_by over the converged candidates with a finite score */
-  for (size_t i = 0; i < c->nc; i++) {
-    const double s = c->integer_y ? c->c[i].aic_discrete : c->c[i].aic;
-    if (c->c[i].converged && isfinite (s) && s < best) {
-      best = s;
-      c->winner = (long) i;
-    }
-  }
-  for (size_t i = 0; i < c->nc; i++) {
-    const double s = c->integer_y ? c->c[i].aic_discrete : c->c[i].aic;
-    if (c->c[i].converged && isfinite (s)) {
-      c->c[i].delta_aic = s - best;
-      wsum += exp (-0.5 * c->c[i].delta_aic);
-    }
-  }
+  /* ranking by rank_by over the converged candidates with a finite score; with exact zeros
+     in non-integer y, within each group (a density and a mixed likelihood are not on one
+     scale), the winner from the point-mass group when it has one */
   for (size_t i = 0; i < c->nc; i++)
-    if (isfinite (c->c[i].delta_aic)) {
+    if (c->zero_groups)
+      c->c[i].group = c->sp[i].fam == &bl_family_tweedie ? "point-mass" : "continuous";
+  for (int pass = 0; pass < (c->zero_groups ? 2 : 1); pass++) {
+    const char *grp = !c->zero_groups ? NULL : pass == 0 ? "point-mass" : "continuous";
+    double gbest = HUGE_VAL;
+    long gwin = -1;
+    wsum = 0.0;
+    for (size_t i = 0; i < c->nc; i++) {
+      const double s = c->integer_y ? c->c[i].aic_discrete : c->c[i].aic;
+      if (grp && strcmp (c->c[i].group, grp) != 0)
+        continue;
+      if (c->c[i].converged && isfinite (s) && s < gbest) {
+        gbest = s;
+        gwin = (long) i;
+      }
+    }
+    for (size_t i = 0; i < c->nc; i++) {
+      const double s = c->integer_y ? c->c[i].aic_discrete : c->c[i].aic;
+      if (grp && strcmp (c->c[i].group, grp) != 0)
+        continue;
+      if (c->c[i].converged && isfinite (s)) {
+        c->c[i].delta_aic = s - gbest;
+        wsum += exp (-0.5 * c->c[i].delta_aic);
+      }
+    }
+    for (size_t i = 0; i < c->nc; i++) {
       size_t pos = 1;
+      if ((grp && strcmp (c->c[i].group, grp) != 0) || !isfinite (c->c[i].delta_aic))
+        continue;
       c->c[i].akaike_weight = exp (-0.5 * c->c[i].delta_aic) / wsum;
       for (size_t j = 0; j < c->nc; j++)
         if (j != i && isfinite (c->c[j].delta_aic)
+            && (!grp || strcmp (c->c[j].group, grp) == 0)
             && (c->c[j].delta_aic < c->c[i].delta_aic
                 || (c->c[j].delta_aic == c->c[i].delta_aic && j < i)))
           pos++;
       c->c[i].rank_position = pos;
     }
+    if (c->winner < 0 && gwin >= 0)
+      c->winner = gwin;
+  }
 
   /* cross-validation, with folds from one seeded permutation */
   if (opt->folds >= 2 && n >= opt->folds) {
@@ -612,6 +654,38 @@ bl_compare_run (const bl_design *d, const bl_compare_opts *opt, bl_err *err)
                             "its standard errors are too small and its likelihood too "
                             "confident", c->c[i].fit->st.phi_pearson) != BL_OK)
       goto nomem;
+  if (c->zero_groups
+      && bl_warnings_add (&c->advice, "y has exact zeros: only candidates with a point mass at "
+                          "zero (Tweedie) can account for them; the continuous candidates "
+                          "give zeros a density, not a probability, so they are ranked in a "
+                          "group of their own and their AICs are not compared with "
+                          "Tweedie's") != BL_OK)
+    goto nomem;
+  {
+    const bl_candidate *po = NULL, *nb = NULL;
+    for (size_t i = 0; i < c->nc; i++) {
+      if (c->c[i].converged && c->sp[i].fam == &bl_family_poisson)
+        po = &c->c[i];
+      if (c->c[i].converged && c->sp[i].fam == &bl_family_negbin)
+        nb = &c->c[i];
+    }
+    if (po && nb && isfinite (po->aic) && isfinite (nb->aic)) {
+      const double gain = po->aic - nb->aic;
+      int wst;
+      if (gain > 10.0)
+        wst = bl_warnings_add (&c->advice, "the negative binomial beats poisson by %.3g AIC "
+                               "(theta %.3g): the counts are overdispersed, and poisson's "
+                               "standard errors are too small", gain, nb->theta);
+      else if (gain > -BL_COMPARE_DELTA)
+        wst = bl_warnings_add (&c->advice, "the negative binomial and poisson tie (AIC "
+                               "difference %.3g): no clear overdispersion; the simpler "
+                               "poisson suffices", gain);
+      else
+        wst = BL_OK;
+      if (wst != BL_OK)
+        goto nomem;
+    }
+  }
   if (bl_warnings_add (&c->advice, "a ranking is evidence, not proof: validate the chosen "
                        "model on new data before acting on it") != BL_OK)
     goto nomem;
@@ -651,3 +725,4 @@ const bl_warnings *bl_compare_advice (const bl_compare *c) { return &c->advice; 
 size_t bl_compare_folds (const bl_compare *c) { return c->folds; }
 unsigned long bl_compare_seed (const bl_compare *c) { return c->seed; }
 int bl_compare_integer_y (const bl_compare *c) { return c->integer_y; }
+int bl_compare_zero_groups (const bl_compare *c) { return c->zero_groups; }

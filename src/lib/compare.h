@@ -24,9 +24,16 @@ extern "C" {
      wls-mu    weighted least squares, Var y = sigma^2 mu^K, K estimated
      gau-log   gaussian GLM, log link         poi-log   poisson GLM, log link
      gam-log   gamma GLM, log link            gam-inv   gamma, inverse link
-     gam-id    gamma, identity link           ig-log    inverse gaussian, log link */
-#define BL_COMPARE_DEFAULT "ls,ls-log,ls-sqrt,ls-bc,wls-mu,gau-log,poi-log,gam-log,gam-inv," \
-                           "gam-id,ig-log"
+     gam-id    gamma, identity link           ig-log    inverse gaussian, log link
+     nb-log    negative binomial, log link, theta estimated (integer y)
+     tw-log    Tweedie, log link, power estimated (y >= 0; fitted by default only when y has
+               exact zeros and non-integer values)
+   When y has exact zeros and non-integer values, only candidates with a point mass at zero
+   (tw-log) can account for the zeros: the candidates are ranked in two groups, "point-mass"
+   and "continuous", each with its own deltas and weights, and the recommendation comes from
+   the point-mass group. */
+#define BL_COMPARE_DEFAULT "ls,ls-log,ls-sqrt,ls-bc,wls-mu,gau-log,poi-log,nb-log,gam-log," \
+                           "gam-inv,gam-id,ig-log,tw-log"
 
 typedef struct bl_compare_opts {
   const char *candidates;          /* comma-separated ids, or NULL for BL_COMPARE_DEFAULT */
@@ -58,6 +65,9 @@ typedef struct bl_candidate {
   int spread_flag;
   double normality_stat, normality_p;     /* Kolmogorov-Smirnov of the quantile residuals */
   size_t rank_position;                   /* 1 = winner; 0 = not ranked */
+  const char *group;                      /* "point-mass" or "continuous" when y has exact
+                                             zeros and non-integer values; else NULL */
+  double theta, power;                    /* nb-log theta, tw-log power; NAN elsewhere */
   bl_warnings notes;
   bl_fit *fit;                            /* NULL when not fitted */
 } bl_candidate;
@@ -79,6 +89,8 @@ const bl_warnings *bl_compare_advice (const bl_compare *c);
 size_t bl_compare_folds (const bl_compare *c);
 unsigned long bl_compare_seed (const bl_compare *c);
 int bl_compare_integer_y (const bl_compare *c);
+/* Nonzero when y has exact zeros and non-integer values (ranking by group). */
+int bl_compare_zero_groups (const bl_compare *c);
 
 #ifdef __cplusplus
 }

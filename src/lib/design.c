@@ -1037,6 +1037,7 @@ bl_design_free (bl_design *d)
 }
 
 size_t bl_design_n (const bl_design *d) { return d->n; }
+const bl_table *bl_design_table (const bl_design *d) { return d->t; }
 size_t bl_design_p (const bl_design *d) { return d->cols.n; }
 int bl_design_has_intercept (const bl_design *d) { return d->intercept; }
 const char *bl_design_response (const bl_design *d) { return d->response; }

@@ -122,6 +122,7 @@ const char *bl_design_cat_reference (const bl_design *d, size_t i);
 
 /* Row bookkeeping. */
 size_t bl_design_rows_read (const bl_design *d);       /* table rows */
+const bl_table *bl_design_table (const bl_design *d);  /* the table it was built from */
 size_t bl_design_table_row (const bl_design *d, size_t i);  /* table row of used row i */
 size_t bl_design_line (const bl_design *d, size_t i);  /* source line of used row i */
 const char *bl_design_source (const bl_design *d);     /* the table's name */

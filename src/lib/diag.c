@@ -9,6 +9,7 @@
 #include "alloc.h"
 #include "diag.h"
 #include "fit_impl.h"
+#include "tweedie.h"
 
 struct bl_diag {
   bl_diag_result r;
@@ -27,7 +28,7 @@ bl_pearson_residuals (const bl_fit *f, double *r)
 {
   for (size_t i = 0; i < f->n; i++) {
     const double a = f->a ? f->a[i] : 1.0;
-    r[i] = (f->y[i] - f->mu[i]) * sqrt (a / f->fam->var (f->mu[i]));
+    r[i] = (f->y[i] - f->mu[i]) * sqrt (a / bl_family_var (f->fam, f->mu[i], f->fam_par));
   }
 }
 
@@ -183,7 +184,7 @@ aux_regress (aux_ctx *c, const double *t, size_t n, double *rss, double *tss, si
 {
   const size_t q = 1 + c->nx + (c->white ? c->nx * (c->nx + 1) / 2 : 0);
   bl_irls_model m = { &bl_family_gaussian, &bl_link_identity, n, q, t, NULL, NULL, aux_fill,
-                      NULL, c, 1 };
+                      NULL, c, 1, 0.0 };
   bl_irls_opts o;
   bl_irls_work *ws;
   long double s = 0.0L, ss = 0.0L;
@@ -564,6 +565,18 @@ bl_quantile_residuals (const bl_fit *f, gsl_rng *rng, double *q, bl_err *err)
       const double hi = gsl_cdf_poisson_P ((unsigned) y, mu);
       const double lo = y >= 1.0 ? gsl_cdf_poisson_P ((unsigned) (y - 1.0), mu) : 0.0;
       u = lo + gsl_rng_uniform_pos (rng) * (hi - lo);
+    } else if (f->fam == &bl_family_negbin) {
+      /* the same with NB(theta, theta / (theta + mu)) */
+      const double y = f->y[i], mu = f->mu[i], th = f->fam_par, pr = th / (th + mu);
+      const double hi = gsl_cdf_negative_binomial_P ((unsigned) y, pr, th);
+      const double lo = y >= 1.0 ? gsl_cdf_negative_binomial_P ((unsigned) (y - 1.0), pr, th)
+                                 : 0.0;
+      u = lo + gsl_rng_uniform_pos (rng) * (hi - lo);
+    } else if (f->fam == &bl_family_tweedie) {
+      /* the point mass at 0 is randomized over (0, P(Y = 0)); elsewhere F is continuous */
+      const double a = f->a ? f->a[i] : 1.0;
+      const double F = bl_tweedie_cdf (f->y[i], f->mu[i], f->st.phi_ml / a, f->fam_par);
+      u = f->y[i] == 0.0 ? gsl_rng_uniform_pos (rng) * F : F;
     } else {
       u = cdf_row (f, i, f->y[i], phi);
     }
@@ -637,7 +650,8 @@ bl_resid_table_new (const bl_fit *f, gsl_rng *rng, bl_err *err)
       }
       h *= f->w[row];
       t->response[row] = y - mu;
-      t->deviance[row] = (y >= mu ? 1.0 : -1.0) * sqrt (a * f->fam->unit_dev (y, mu));
+      t->deviance[row] = (y >= mu ? 1.0 : -1.0)
+                         * sqrt (a * bl_family_dev (f->fam, y, mu, f->fam_par));
       t->working[row] = (y - mu) / dmu;
       t->leverage[row] = h;
       t->cooks[row] = h < 1.0 ? t->pearson[row] * t->pearson[row] * h

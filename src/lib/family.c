@@ -10,6 +10,7 @@
 #include <gsl/gsl_sf_gamma.h>
 #include <gsl/gsl_sf_psi.h>
 #include "family.h"
+#include "tweedie.h"
 
 #define LOG_2PI 1.8378770664093454835606594728112   /* log(2 pi) */
 
@@ -85,33 +86,85 @@ ig_logpdf (double y, double mu, double a, double phi)
 
 const bl_family bl_family_gaussian = {
   "gaussian", gau_var, gau_dev, mu_any, any_real, "any real y", 1, 0, &bl_link_identity,
-  gau_logpdf, gau_start
+  gau_logpdf, gau_start, NULL, NULL, NULL, NULL
 };
 const bl_family bl_family_poisson = {
   "poisson", poi_var, poi_dev, mu_pos, nonneg, "y >= 0", 0, 1, &bl_link_log,
-  poi_logpdf, poi_start
+  poi_logpdf, poi_start, NULL, NULL, NULL, NULL
 };
 const bl_family bl_family_gamma = {
   "gamma", gam_var, gam_dev, mu_pos, positive, "y > 0", 1, 0, &bl_link_inverse,
-  gam_logpdf, pos_start
+  gam_logpdf, pos_start, NULL, NULL, NULL, NULL
 };
 /* The canonical link of the inverse gaussian is 1/mu^2, which is not in ballast's link set;
    its default here is log. */
 const bl_family bl_family_invgauss = {
   "inverse-gaussian", ig_var, ig_dev, mu_pos, positive, "y > 0", 1, 0, &bl_link_log,
-  ig_logpdf, pos_start
+  ig_logpdf, pos_start, NULL, NULL, NULL, NULL
+};
+
+/* ---- negative binomial (NB2; Lawless 1987, Canad. J. Statist. 15, 209-225; Hilbe 2011,
+   Negative Binomial Regression, 2nd ed., ch. 8): V = mu + mu^2 / theta,
+   d = 2 [y log(y/mu) - (y + theta) log((y + theta) / (mu + theta))],
+   log P = a [lgamma(y + theta) - lgamma(theta) - lgamma(y + 1) + theta log(theta / (theta +
+   mu)) + y log(mu / (theta + mu))] */
+static double nb_var (double mu, double th) { return mu + mu * mu / th; }
+static double
+nb_dev (double y, double mu, double th)
+{
+  return nonneg_dev (2.0 * (ylogy (y, mu) - (y + th) * log ((y + th) / (mu + th))));
+}
+static double
+nb_logpdf (double y, double mu, double a, double phi, double th)
+{
+  (void) phi;
+  return a * (gsl_sf_lngamma (y + th) - gsl_sf_lngamma (th) - gsl_sf_lngamma (y + 1.0)
+              + th * log (th / (th + mu)) + (y > 0.0 ? y * log (mu / (th + mu)) : 0.0));
+}
+
+/* ---- Tweedie, 1 < p < 2: V = mu^p, the unit deviance and density of tweedie.h; the row's
+   dispersion is phi / a. */
+static double tw_var (double mu, double p) { return exp (p * log (mu)); }
+static double tw_dev (double y, double mu, double p) { return bl_tweedie_unit_dev (y, mu, p); }
+static double
+tw_logpdf (double y, double mu, double a, double phi, double p)
+{
+  return bl_tweedie_logpdf (y, mu, phi / a, p);
+}
+static double tw_start (double y, double ybar) { return y + 0.1 * ybar; }
+
+const bl_family bl_family_negbin = {
+  "negative-binomial", NULL, NULL, mu_pos, nonneg, "y >= 0", 0, 1, &bl_link_log,
+  NULL, poi_start, nb_var, nb_dev, nb_logpdf, "theta"
+};
+const bl_family bl_family_tweedie = {
+  "tweedie", NULL, NULL, mu_pos, nonneg, "y >= 0", 1, 0, &bl_link_log,
+  NULL, tw_start, tw_var, tw_dev, tw_logpdf, "power"
 };
 
 const bl_family *
 bl_family_find (const char *name)
 {
   static const bl_family *const all[] = {
-    &bl_family_gaussian, &bl_family_poisson, &bl_family_gamma, &bl_family_invgauss
+    &bl_family_gaussian, &bl_family_poisson, &bl_family_gamma, &bl_family_invgauss,
+    &bl_family_negbin, &bl_family_tweedie
   };
   for (size_t i = 0; i < sizeof all / sizeof all[0]; i++)
     if (strcmp (all[i]->name, name) == 0)
       return all[i];
   return NULL;
+}
+
+double
+bl_family_loglik_p (const bl_family *fam, const double *y, const double *mu, const double *a,
+                    size_t n, double phi, double par)
+{
+  long double s = 0.0L;
+  if (!fam->logpdf_p)
+    return bl_family_loglik (fam, y, mu, a, n, phi);
+  for (size_t i = 0; i < n; i++)
+    s += fam->logpdf_p (y[i], mu[i], a ? a[i] : 1.0, phi, par);
+  return (double) s;
 }
 
 double

@@ -28,12 +28,39 @@ typedef struct bl_family {
   double (*logpdf) (double y, double mu, double a, double phi);
   /* A starting mean from y (and the weighted mean ybar) that lies in the mean space. */
   double (*mustart) (double y, double ybar);
+  /* Families with a shape parameter PAR (negative binomial: theta; Tweedie: the power p)
+     give these instead of var, unit_dev and logpdf (which are then NULL); use the
+     bl_family_var / _dev / _logpdf wrappers below, which serve both kinds. */
+  double (*var_p) (double mu, double par);
+  double (*dev_p) (double y, double mu, double par);
+  double (*logpdf_p) (double y, double mu, double a, double phi, double par);
+  const char *par_name;                   /* "theta", "power"; NULL without a parameter */
 } bl_family;
+
+static inline double
+bl_family_var (const bl_family *f, double mu, double par)
+{
+  return f->var_p ? f->var_p (mu, par) : f->var (mu);
+}
+static inline double
+bl_family_dev (const bl_family *f, double y, double mu, double par)
+{
+  return f->dev_p ? f->dev_p (y, mu, par) : f->unit_dev (y, mu);
+}
+static inline double
+bl_family_logpdf (const bl_family *f, double y, double mu, double a, double phi, double par)
+{
+  return f->logpdf_p ? f->logpdf_p (y, mu, a, phi, par) : f->logpdf (y, mu, a, phi);
+}
 
 extern const bl_family bl_family_gaussian;
 extern const bl_family bl_family_poisson;
 extern const bl_family bl_family_gamma;
 extern const bl_family bl_family_invgauss;
+/* Negative binomial NB2, Var = mu + mu^2 / theta (par = theta > 0), and Tweedie compound
+   Poisson-gamma, Var = phi mu^p (par = p in (1, 2)). */
+extern const bl_family bl_family_negbin;
+extern const bl_family bl_family_tweedie;
 
 /* The family named NAME, or NULL. */
 const bl_family *bl_family_find (const char *name);
@@ -52,6 +79,9 @@ int bl_family_phi_ml (const bl_family *fam, const double *y, const double *mu, c
 /* Log-likelihood sum_i logpdf(y_i, mu_i, a_i, phi), summed in long double. */
 double bl_family_loglik (const bl_family *fam, const double *y, const double *mu,
                          const double *a, size_t n, double phi);
+/* The same for a family with a parameter. */
+double bl_family_loglik_p (const bl_family *fam, const double *y, const double *mu,
+                           const double *a, size_t n, double phi, double par);
 
 #ifdef __cplusplus
 }

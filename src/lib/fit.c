@@ -33,9 +33,12 @@ bl_fit_opts_init (bl_fit_opts *opt)
   opt->shift = 0.0;
   opt->variance = BL_VARIANCE_NONE;
   opt->variance_col = NULL;
+  opt->cluster_col = NULL;
   opt->power_est = 0;
   opt->power = 0.0;
   opt->wls_max_iter = BL_WLS_MAX_ITER;
+  opt->fam_par = NAN;
+  opt->fam_par_est = 1;
   bl_irls_opts_init (&opt->irls);
 }
 
@@ -52,8 +55,8 @@ bl_method_name (bl_method m)
 const char *
 bl_se_kind_name (bl_se_kind k)
 {
-  static const char *const names[] = { "model", "hc0", "hc1", "hc2", "hc3" };
-  return (unsigned) k < 5 ? names[k] : "model";
+  static const char *const names[] = { "model", "hc0", "hc1", "hc2", "hc3", "cluster" };
+  return (unsigned) k < 6 ? names[k] : "model";
 }
 
 void
@@ -140,10 +143,11 @@ null_deviance (bl_fit *f, const bl_fit_opts *opt)
     }
     ybar = (double) (sy / sa);   /* the MLE of a common mean in every family and link */
     for (size_t i = 0; i < n; i++)
-      dev += (a ? a[i] : 1.0) * f->fam->unit_dev (y[i], ybar);
+      dev += (a ? a[i] : 1.0) * bl_family_dev (f->fam, y[i], ybar, f->fam_par);
     f->st.deviance_null = (double) dev;
   } else if (bl_design_has_intercept (d)) {
-    bl_irls_model m = { f->fam, f->link, n, 1, y, off, a, ones_fill, NULL, NULL, 1 };
+    bl_irls_model m = { f->fam, f->link, n, 1, y, off, a, ones_fill, NULL, NULL, 1,
+                        f->fam_par };
     bl_irls_opts io = opt->irls;
     bl_err e;
     bl_irls_work *ws;
@@ -166,7 +170,7 @@ null_deviance (bl_fit *f, const bl_fit_opts *opt)
         f->st.deviance_null_why = "the offset alone gives no valid mean under this link";
         return;
       }
-      dev += (a ? a[i] : 1.0) * f->fam->unit_dev (y[i], mu);
+      dev += (a ? a[i] : 1.0) * bl_family_dev (f->fam, y[i], mu, f->fam_par);
     }
     f->st.deviance_null = (double) dev;
   }
@@ -212,7 +216,7 @@ summarize (bl_fit *f, const bl_irls_work *ws, const bl_fit_opts *opt, bl_err *er
   for (size_t i = 0; i < n; i++) {
     /* working weights at the fit, for leverages and sandwich covariances */
     const double dmu = f->link->dmu_deta (f->eta[i]);
-    f->w[i] = (a ? a[i] : 1.0) * dmu * dmu / f->fam->var (f->mu[i]);
+    f->w[i] = (a ? a[i] : 1.0) * dmu * dmu / bl_family_var (f->fam, f->mu[i], f->fam_par);
   }
   st->rank = sol->rank;
   st->dof_resid = n > sol->rank ? n - sol->rank : 0;
@@ -220,7 +224,7 @@ summarize (bl_fit *f, const bl_irls_work *ws, const bl_fit_opts *opt, bl_err *er
   st->deviance = bl_irls_deviance (ws);
   for (size_t i = 0; i < n; i++) {
     const double ai = a ? a[i] : 1.0, r = y[i] - f->mu[i];
-    x2 += ai * r * r / f->fam->var (f->mu[i]);
+    x2 += ai * r * r / bl_family_var (f->fam, f->mu[i], f->fam_par);
     ssy += ai * y[i] * y[i];
   }
   st->pearson = (double) x2;
@@ -272,7 +276,7 @@ summarize (bl_fit *f, const bl_irls_work *ws, const bl_fit_opts *opt, bl_err *er
     st->loglik_why = "the dispersion MLE could not be computed";
     st->aicc_why = st->loglik_why;
   } else {
-    st->loglik = bl_family_loglik (f->fam, y, f->mu, a, n, st->phi_ml);
+    st->loglik = bl_family_loglik_p (f->fam, y, f->mu, a, n, st->phi_ml, f->fam_par);
     st->aic = -2.0 * st->loglik + 2.0 * (double) st->k;
     st->bic = -2.0 * st->loglik + (double) st->k * log ((double) n);
     if (n > st->k + 1) {
@@ -363,9 +367,12 @@ bl_fit_core (const bl_design *d, const double *y, const double *a, const bl_fit_
   f->var.kind = BL_VARIANCE_NONE;
   f->var.power = f->var.power_se = NAN;
   f->st.loglik_transformed = NAN;
+  f->st.fam_par = f->st.fam_par_se = f->st.fam_par_lo = f->st.fam_par_hi = NAN;
+  f->st.fam_par_why = "";
   f->fam = fam;
   f->link = lnk;
   f->method = opt->method;
+  f->fam_par = opt->fam_par;
   f->n = bl_design_n (d);
   f->p = bl_design_p (d);
   f->st.n = f->n;
@@ -398,6 +405,7 @@ bl_fit_core (const bl_design *d, const double *y, const double *a, const bl_fit_
   m.fill_ld = design_fill_ld;
   m.ctx = d;
   m.intercept = bl_design_has_intercept (d);
+  m.fam_par = f->fam_par;
   ws = bl_irls_work_new (&m, &opt->irls, err);
   if (!ws) {
     bl_fit_free (f);
@@ -512,13 +520,23 @@ bl_fit *
 bl_fit_glm (const bl_design *d, const bl_fit_opts *opt, bl_err *err)
 {
   bl_fit *f;
-  if (opt->transform != BL_TRANSFORM_NONE)
+  const bl_family *fam = opt->fam;
+  if (fam == &bl_family_negbin)
+    f = bl_fit_negbin_run (d, opt, err);
+  else if (fam == &bl_family_tweedie)
+    f = bl_fit_tweedie_run (d, opt, err);
+  else if (opt->transform != BL_TRANSFORM_NONE)
     f = bl_fit_transform_run (d, opt, err);
   else if (opt->method == BL_METHOD_WLS)
     f = bl_fit_wls_run (d, opt, err);
   else
     f = bl_fit_core (d, NULL, NULL, opt, 0, err);
-  if (f && f->st.converged && opt->se != BL_SE_MODEL
+  if (f && f->st.converged && opt->se == BL_SE_CLUSTER) {
+    if (bl_fit_sandwich_cluster (f, bl_design_table (d), opt->cluster_col, err) != BL_OK) {
+      bl_fit_free (f);
+      return NULL;
+    }
+  } else if (f && f->st.converged && opt->se != BL_SE_MODEL
       && bl_fit_sandwich (f, opt->se, err) != BL_OK) {
     bl_fit_free (f);
     return NULL;
@@ -544,6 +562,7 @@ const double *bl_fit_cov (const bl_fit *f) { return f->cov; }
 const double *bl_fit_mu (const bl_fit *f) { return f->mu; }
 const double *bl_fit_eta (const bl_fit *f) { return f->eta; }
 const double *bl_fit_y (const bl_fit *f) { return f->y; }
+double bl_fit_family_par (const bl_fit *f) { return f->fam_par; }
 const double *bl_fit_prior_w (const bl_fit *f) { return f->a; }
 const double *bl_fit_working_w (const bl_fit *f) { return f->w; }
 const bl_fit_transform_info *bl_fit_transform (const bl_fit *f) { return &f->tr; }

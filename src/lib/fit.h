@@ -15,7 +15,10 @@ typedef enum bl_method { BL_METHOD_GLM = 0, BL_METHOD_OLS, BL_METHOD_WLS } bl_me
 
 /* Standard errors: model-based, or the heteroscedasticity-consistent sandwich (White 1980,
    Econometrica 48, 817-838; MacKinnon & White 1985, J. Econometrics 29, 305-325). */
-typedef enum bl_se_kind { BL_SE_MODEL = 0, BL_SE_HC0, BL_SE_HC1, BL_SE_HC2, BL_SE_HC3 } bl_se_kind;
+typedef enum bl_se_kind {
+  BL_SE_MODEL = 0, BL_SE_HC0, BL_SE_HC1, BL_SE_HC2, BL_SE_HC3,
+  BL_SE_CLUSTER                 /* summed within clusters (Liang & Zeger 1986) */
+} bl_se_kind;
 
 /* A transform of the response for ordinary least squares. */
 typedef enum bl_transform {
@@ -74,9 +77,12 @@ typedef struct bl_fit_opts {
   bl_variance variance;           /* BL_METHOD_WLS: the variance function (the column is the
                                      design's variance column) */
   const char *variance_col;       /* its name, for the resolved expression ("load_pct^2") */
+  const char *cluster_col;        /* BL_SE_CLUSTER: the column that names each row's cluster */
   int power_est;                  /* estimate K (else use power) */
   double power;
   size_t wls_max_iter;            /* BL_WLS_MAX_ITER */
+  double fam_par;                 /* negative binomial theta, Tweedie power p (when fixed) */
+  int fam_par_est;                /* estimate it (the default for both families) */
   bl_irls_opts irls;
 } bl_fit_opts;
 
@@ -95,9 +101,16 @@ typedef struct bl_fit_stats {
   double deviance, deviance_null, pearson, phi_pearson, phi_ml, phi_used;
   double loglik, aic, aicc, bic;
   double loglik_transformed;      /* transformed OLS: the normal loglik of h(y); else NAN */
+  /* The family's parameter: negative binomial theta (with its standard error) or the
+     Tweedie power p (with its 95% profile interval); NAN where it does not apply, or with
+     fam_par_why when it ran off (theta to infinity). */
+  double fam_par, fam_par_se, fam_par_lo, fam_par_hi;
+  int fam_par_est;
+  const char *fam_par_why;
   const char *deviance_null_why, *loglik_why, *aicc_why, *phi_ml_why;
   const char *solver;             /* "qr-extended" or "qr-streamed" */
-  const char *se_kind;            /* "model", "pearson", "hc0" ... "hc3" */
+  const char *se_kind;            /* "model", "pearson", "hc0" ... "hc3", "cluster" */
+  size_t clusters;                /* BL_SE_CLUSTER: the number of clusters */
 } bl_fit_stats;
 
 /* Fit the model OPT describes to the rows and columns of D: a GLM by IRLS, OLS, weighted least
@@ -146,6 +159,9 @@ const double *bl_fit_working_w (const bl_fit *fit);
 const bl_fit_transform_info *bl_fit_transform (const bl_fit *fit);
 const bl_fit_variance_info *bl_fit_variance (const bl_fit *fit);
 const char *bl_se_kind_name (bl_se_kind k);
+/* The family parameter the fit used (negative binomial theta, also when theta ran to
+   infinity and was capped; the Tweedie power), or 0 for the other families. */
+double bl_fit_family_par (const bl_fit *fit);
 
 /* The mean of y on its original scale at the linear predictor XB of a transformed fit: with
    SMEAR nonzero, Duan's (1983) smearing estimator (1/n) sum h^-1(XB + e_i) over the fit's

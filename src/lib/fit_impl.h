@@ -19,6 +19,7 @@ struct bl_fit {
   double *cov_unscaled;      /* (X'WX)^-1 at the fit, p x p; aliased rows/columns 0 */
   double *w;                 /* working weights at the fit, length n */
   int *aliased;
+  double fam_par;            /* negative binomial theta or Tweedie power (else 0) */
   bl_fit_transform_info tr;
   bl_fit_variance_info var;
   double *prof_lambda, *prof_loglik;   /* Box-Cox profile points */
@@ -39,6 +40,9 @@ void bl_fit_wald_table (bl_fit *f);
 /* The engines (wls.c, transform.c) and the sandwich covariance (vcov.c). */
 bl_fit *bl_fit_wls_run (const bl_design *d, const bl_fit_opts *opt, bl_err *err);
 bl_fit *bl_fit_transform_run (const bl_design *d, const bl_fit_opts *opt, bl_err *err);
+bl_fit *bl_fit_negbin_run (const bl_design *d, const bl_fit_opts *opt, bl_err *err);
+bl_fit *bl_fit_tweedie_run (const bl_design *d, const bl_fit_opts *opt, bl_err *err);
 int bl_fit_sandwich (bl_fit *f, bl_se_kind kind, bl_err *err);
+int bl_fit_sandwich_cluster (bl_fit *f, const bl_table *t, const char *col, bl_err *err);
 
 #endif

@@ -291,11 +291,11 @@ pass_part (bl_irls_work *ws, part *pt, const double *beta, int accumulate, doubl
         pt->bad_row = r0 + i;
         return;
       }
-      dsum += a * fam->unit_dev (y, mu[i]);
+      dsum += a * bl_family_dev (fam, y, mu[i], m->fam_par);
       if (accumulate) {
         /* log link: dmu/deta = mu, which saves an exp per row */
         const double dmu = (lnk == &bl_link_log) ? mu[i] : lnk->dmu_deta (eta[i]);
-        const double w = a * dmu * dmu / fam->var (mu[i]);
+        const double w = a * dmu * dmu / bl_family_var (fam, mu[i], m->fam_par);
         const double s = sqrt (w);
         const double off = m->offset ? m->offset[r0 + i] : 0.0;
         if (lbuf) {

@@ -48,6 +48,7 @@ typedef struct bl_irls_model {
   bl_fill_ld_fn fill_ld;     /* may be NULL: fill's doubles are widened */
   const void *ctx;
   int intercept;             /* nonzero: column 0 is the constant 1 */
+  double fam_par;            /* the family's parameter (negative binomial theta, Tweedie p) */
 } bl_irls_model;
 
 typedef struct bl_irls_opts {

@@ -11,7 +11,7 @@ static const char *const keys[] = {
   "data", "response", "terms", "no-intercept", "method", "family", "link", "weights",
   "offset", "categorical", "reference", "dispersion", "level", "se", "variance",
   "transform", "shift", "delimiter", "decimal-comma", "max-iter", "epsilon", "solver",
-  "threads", "candidates", "folds", "seed", "against"
+  "threads", "candidates", "folds", "seed", "against", "theta", "power", "cluster"
 };
 
 void
@@ -29,7 +29,7 @@ void
 bl_job_clear (bl_job *j)
 {
   char **const s[] = { &j->data, &j->response, &j->terms, &j->weights, &j->offset,
-                       &j->candidates, &j->varcol, &j->against };
+                       &j->candidates, &j->varcol, &j->against, &j->cluster };
   for (size_t i = 0; i < sizeof s / sizeof s[0]; i++) {
     bl_free (*s[i]);
     *s[i] = NULL;
@@ -58,12 +58,13 @@ bl_job_copy (bl_job *dst, const bl_job *src, bl_err *err)
   bl_job_clear (dst);
   *dst = *src;
   dst->data = dst->response = dst->terms = dst->weights = dst->offset = NULL;
-  dst->candidates = dst->varcol = dst->against = NULL;
+  dst->candidates = dst->varcol = dst->against = dst->cluster = NULL;
   dst->ncat = dst->nref = 0;
   if (dup_into (&dst->data, src->data) || dup_into (&dst->response, src->response)
       || dup_into (&dst->terms, src->terms) || dup_into (&dst->weights, src->weights)
       || dup_into (&dst->offset, src->offset) || dup_into (&dst->candidates, src->candidates)
-      || dup_into (&dst->varcol, src->varcol) || dup_into (&dst->against, src->against))
+      || dup_into (&dst->varcol, src->varcol) || dup_into (&dst->against, src->against)
+      || dup_into (&dst->cluster, src->cluster))
     goto nomem;
   for (size_t i = 0; i < src->ncat; i++, dst->ncat++)
     if (!(dst->categorical[i] = bl_strdup (src->categorical[i])))
@@ -72,6 +73,7 @@ bl_job_copy (bl_job *dst, const bl_job *src, bl_err *err)
     if (!(dst->reference[i] = bl_strdup (src->reference[i])))
       goto nomem;
   dst->fit.variance_col = dst->varcol;
+  dst->fit.cluster_col = dst->cluster;
   return BL_OK;
 nomem:
   bl_job_clear (dst);
@@ -220,14 +222,17 @@ bl_job_set (bl_job *j, const char *key, const char *value, const char *where, bl
   if (!bl_job_key_is_flag (key) && !value)
     BAD ("'%s' needs a value", key);
   if (!strcmp (key, "data") || !strcmp (key, "response") || !strcmp (key, "terms")
-      || !strcmp (key, "weights") || !strcmp (key, "offset") || !strcmp (key, "against")) {
+      || !strcmp (key, "weights") || !strcmp (key, "offset") || !strcmp (key, "against")
+      || !strcmp (key, "cluster")) {
     char **dst = !strcmp (key, "data") ? &j->data : !strcmp (key, "response") ? &j->response
                  : !strcmp (key, "terms") ? &j->terms : !strcmp (key, "weights") ? &j->weights
-                 : !strcmp (key, "against") ? &j->against : &j->offset;
+                 : !strcmp (key, "against") ? &j->against
+                 : !strcmp (key, "cluster") ? &j->cluster : &j->offset;
     if (!*v)
       BAD ("'%s' needs a value", key);
     if (dup_into (dst, v) != BL_OK)
       NOMEM ();
+    j->fit.cluster_col = j->cluster;
     return BL_OK;
   }
   if (!strcmp (key, "no-intercept")) {
@@ -302,13 +307,13 @@ bl_job_set (bl_job *j, const char *key, const char *value, const char *where, bl
     return BL_OK;
   }
   if (!strcmp (key, "se")) {
-    static const char *const names[] = { "model", "hc0", "hc1", "hc2", "hc3" };
-    for (int k = 0; k < 5; k++)
+    static const char *const names[] = { "model", "hc0", "hc1", "hc2", "hc3", "cluster" };
+    for (int k = 0; k < 6; k++)
       if (!strcmp (v, names[k])) {
         fo->se = (bl_se_kind) k;
         return BL_OK;
       }
-    BAD ("expected model, hc0, hc1, hc2 or hc3, got '%s'", v);
+    BAD ("expected model, hc0, hc1, hc2, hc3 or cluster, got '%s'", v);
   }
   if (!strcmp (key, "dispersion")) {
     j->model_keys = 1;
@@ -351,6 +356,26 @@ bl_job_set (bl_job *j, const char *key, const char *value, const char *where, bl
         NOMEM ();
       BAD ("expected COL=LEVEL, got '%s'", v);
     }
+    return BL_OK;
+  }
+  if (!strcmp (key, "theta")) {
+    j->model_keys = 1;
+    j->fam_par_key = 't';
+    if (parse_double (v, &fo->fam_par) != 0 || !(fo->fam_par > 0.0))
+      BAD ("expected a positive number, got '%s'", v);
+    fo->fam_par_est = 0;
+    return BL_OK;
+  }
+  if (!strcmp (key, "power")) {
+    j->model_keys = 1;
+    j->fam_par_key = 'p';
+    if (!strcmp (v, "est")) {
+      fo->fam_par_est = 1;
+      return BL_OK;
+    }
+    if (parse_double (v, &fo->fam_par) != 0 || !(fo->fam_par > 1.0 && fo->fam_par < 2.0))
+      BAD ("expected a number strictly between 1 and 2, or 'est', got '%s'", v);
+    fo->fam_par_est = 0;
     return BL_OK;
   }
   if (!strcmp (key, "level")) {
@@ -445,6 +470,15 @@ bl_job_finish (bl_job *j, int single, const char *where_spec, bl_err *err)
   if (fo->method == BL_METHOD_WLS && fo->variance == BL_VARIANCE_NONE && !j->weights)
     return bl_fail (err, BL_ESPEC, W ("--method"), "wls needs --weights COL or --variance "
                     "EXPR");
+  if (fo->se == BL_SE_CLUSTER && !j->cluster)
+    return bl_fail (err, BL_ESPEC, W ("--se"), "cluster standard errors need --cluster COL");
+  if (j->cluster && fo->se != BL_SE_CLUSTER)
+    return bl_fail (err, BL_ESPEC, W ("--cluster"), "--cluster applies with --se cluster");
+  if (j->fam_par_key == 't' && fo->fam != &bl_family_negbin)
+    return bl_fail (err, BL_ESPEC, W ("--theta"), "theta applies to --family "
+                    "negative-binomial only");
+  if (j->fam_par_key == 'p' && fo->fam != &bl_family_tweedie)
+    return bl_fail (err, BL_ESPEC, W ("--power"), "power applies to --family tweedie only");
   if (fo->shift_given && fo->transform == BL_TRANSFORM_NONE)
     return bl_fail (err, BL_ESPEC, W ("--shift"), "a shift applies only with --transform");
   if (fo->transform != BL_TRANSFORM_NONE && !j->method_given)

@@ -19,7 +19,7 @@ extern "C" {
 #define BL_JOB_MAX_LIST 256
 
 typedef struct bl_job {
-  char *data, *response, *terms, *weights, *offset, *candidates, *varcol, *against;
+  char *data, *response, *terms, *weights, *offset, *candidates, *varcol, *against, *cluster;
   char *categorical[BL_JOB_MAX_LIST];
   size_t ncat;
   char *reference[BL_JOB_MAX_LIST];
@@ -33,6 +33,7 @@ typedef struct bl_job {
   size_t folds;
   unsigned long seed;
   int seed_given;
+  char fam_par_key;        /* 't' after theta, 'p' after power, else 0 */
 } bl_job;
 
 /* Defaults: intercept on, the fit and table defaults, BL_COMPARE_FOLDS, BL_COMPARE_SEED. */
@@ -51,7 +52,8 @@ int bl_job_key_is_flag (const char *key);
    weights, offset, categorical (a comma list, replacing), reference (COL=LEVEL, comma lists
    accumulate), dispersion, level, se, variance, transform, shift, delimiter, decimal-comma,
    max-iter, epsilon, solver, threads, candidates, folds, seed, against (the terms of a
-   smaller nested model to test the fit against).  Flags take VALUE NULL, or
+   smaller nested model to test the fit against), theta (negative binomial, fixed), power
+   (Tweedie: a number in (1, 2), or est).  Flags take VALUE NULL, or
    yes/no/true/false/1/0.  A bad value is BL_ESPEC with ERR->where = WHERE and a message that
    quotes it; BL_ENOMEM.  Term syntax is checked by bl_job_parse_terms, not here. */
 int bl_job_set (bl_job *j, const char *key, const char *value, const char *where,

@@ -36,6 +36,7 @@
 #include <stdio.h>
 #include <string.h>
 #include <gsl/gsl_cdf.h>
+#include "tweedie.h"
 #include <gsl/gsl_sf_erf.h>
 #include <jansson.h>
 #include "alloc.h"
@@ -78,6 +79,7 @@ struct bl_model {
   double *res;
   double smear_mean_exp, smear_mean, smear_mean_sq, smear_min;
   double phi_used, phi_pearson, phi_ml, level;
+  double fam_par;                 /* negative binomial theta, Tweedie power */
   size_t n, rank, dof_resid;
   int wald_is_t;
 };
@@ -197,6 +199,10 @@ bl_model_write (FILE *out, const bl_fit *fit, const bl_terms *terms, const bl_te
   jw_str (&w, "method", bl_method_name (bl_fit_method (fit)));
   jw_str (&w, "family", bl_fit_family (fit)->name);
   jw_str (&w, "link", bl_fit_link (fit)->name);
+  if (bl_fit_family (fit)->par_name)
+    jw_num (&w, "family_par", bl_fit_family_par (fit));
+  else
+    jw_null (&w, "family_par");
   jw_obj (&w, "variance");
   jw_str (&w, "kind", variance_name (vi->kind));
   jw_str (&w, "column", vi->kind == BL_VARIANCE_COLUMN ? varcol : NULL);
@@ -709,12 +715,17 @@ bl_model_read (const char *path, bl_err *err)
       || get_num (&r, root, "dispersion", 1, &m->phi_used) != BL_OK
       || get_num (&r, root, "phi_pearson", 1, &m->phi_pearson) != BL_OK
       || get_num (&r, root, "phi_ml", 1, &m->phi_ml) != BL_OK
+      || get_num (&r, root, "family_par", 1, &m->fam_par) != BL_OK
       || get_size (&r, root, "n", &m->n) != BL_OK
       || get_size (&r, root, "rank", &m->rank) != BL_OK
       || get_size (&r, root, "dof_resid", &m->dof_resid) != BL_OK
       || get_bool (&r, root, "wald_is_t", &m->wald_is_t) != BL_OK
       || get_num (&r, root, "level", 0, &m->level) != BL_OK)
     goto fail;
+  if (m->fam->par_name && !(m->fam_par > 0.0)) {
+    bad (&r, "family_par", "the family's parameter must be a positive number");
+    goto fail;
+  }
   if (!(m->level > 0.0 && m->level < 1.0)) {
     bad (&r, "level", "expected a number in (0, 1)");
     goto fail;
@@ -941,6 +952,24 @@ poisson_quantile (double p, double mu)
   return k;
 }
 
+/* The same for the negative binomial NB(theta, theta / (theta + mu)) (GSL's CDF). */
+static double
+negbin_quantile (double p, double mu, double th)
+{
+  const double pr = th / (th + mu);
+  double k = floor (mu + gsl_cdf_ugaussian_Pinv (p) * sqrt (mu + mu * mu / th));
+  if (!(k >= 0.0))
+    k = 0.0;
+  if (gsl_cdf_negative_binomial_P ((unsigned) k, pr, th) >= p) {
+    while (k > 0.0 && gsl_cdf_negative_binomial_P ((unsigned) (k - 1.0), pr, th) >= p)
+      k -= 1.0;
+  } else {
+    while (gsl_cdf_negative_binomial_P ((unsigned) k, pr, th) < p)
+      k += 1.0;
+  }
+  return k;
+}
+
 /*
  * CDF of the inverse gaussian IG(mu, lambda) (Chhikara & Folks 1989, The Inverse Gaussian
  * Distribution, eq. 2.12; Johnson, Kotz & Balakrishnan 1994, Continuous Univariate
@@ -989,6 +1018,12 @@ glm_pred_interval (const bl_model *m, double mu, double a, double alpha, double 
   if (m->fam == &bl_family_poisson) {
     *lo = poisson_quantile (p1, mu);
     *hi = poisson_quantile (p2, mu);
+  } else if (m->fam == &bl_family_negbin) {
+    *lo = negbin_quantile (p1, mu, m->fam_par);
+    *hi = negbin_quantile (p2, mu, m->fam_par);
+  } else if (m->fam == &bl_family_tweedie) {
+    *lo = bl_tweedie_quantile (p1, mu, m->phi_ml / a, m->fam_par);
+    *hi = bl_tweedie_quantile (p2, mu, m->phi_ml / a, m->fam_par);
   } else if (m->fam == &bl_family_gamma) {
     const double shape = a / m->phi_ml, scale = mu * m->phi_ml / a;
     *lo = gsl_cdf_gamma_Pinv (p1, shape, scale);
@@ -1184,7 +1219,7 @@ bl_model_predict (const bl_model *m, const bl_table *t, double level, bl_err *er
                        "(%s)", m->response, s, m->fam->name, m->fam->support);
               goto fail;
             }
-            dev += (long double) a * m->fam->unit_dev (y[row], mu);
+            dev += (long double) a * bl_family_dev (m->fam, y[row], mu, m->fam_par);
           }
         }
       }

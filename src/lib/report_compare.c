@@ -21,6 +21,7 @@ bl_report_compare_json (FILE *out, const bl_compare *c, const bl_design *d,
   jw_str (&w, "response", bl_design_response (d));
   jw_bool (&w, "integer_y", bl_compare_integer_y (c));
   jw_str (&w, "rank_by", bl_compare_rank_by (c));
+  jw_bool (&w, "ranked_by_group", bl_compare_zero_groups (c));
   jw_size (&w, "folds", bl_compare_folds (c));
   jw_size (&w, "seed", (size_t) bl_compare_seed (c));
   jw_arr (&w, "candidates");
@@ -35,6 +36,10 @@ bl_report_compare_json (FILE *out, const bl_compare *c, const bl_design *d,
     jw_str (&w, "transform", k->transform);
     jw_num (&w, "lambda", k->lambda);
     jw_num (&w, "variance_power", k->variance_power);
+    jw_num (&w, "theta", k->theta);
+    jw_num (&w, "power", k->power);
+    if (k->group)
+      jw_str (&w, "group", k->group);
     jw_bool (&w, "applicable", k->applicable);
     jw_size (&w, "n", k->n);
     if (k->converged) {
@@ -107,11 +112,16 @@ bl_report_compare_text (FILE *o, const bl_compare *c, const bl_design *d,
   fprintf (o, "  ranked by   %s; cross-validation: %zu folds, seed %lu\n\n",
            disc ? "AIC of the discretized likelihood" : "AIC on y's scale",
            bl_compare_folds (c), bl_compare_seed (c));
-  /* ranked first, then the unranked in table order */
-  for (size_t pos = 1; pos <= nc; pos++)
-    for (size_t i = 0; i < nc; i++)
-      if (bl_compare_get (c, i)->rank_position == pos)
-        order[m++] = i;
+  /* ranked first (by group when y has exact zeros: point-mass, then continuous), then the
+     unranked in table order */
+  for (int g = 0; g < (bl_compare_zero_groups (c) ? 2 : 1); g++)
+    for (size_t pos = 1; pos <= nc; pos++)
+      for (size_t i = 0; i < nc; i++) {
+        const bl_candidate *k = bl_compare_get (c, i);
+        if (k->rank_position == pos
+            && (!k->group || strcmp (k->group, g == 0 ? "point-mass" : "continuous") == 0))
+          order[m++] = i;
+      }
   for (size_t i = 0; i < nc; i++)
     if (!bl_compare_get (c, i)->rank_position)
       order[m++] = i;
@@ -146,6 +156,12 @@ bl_report_compare_text (FILE *o, const bl_compare *c, const bl_design *d,
       fprintf (o, " (lambda %.4g)", k->lambda);
     if (isfinite (k->variance_power))
       fprintf (o, " (K %.4g)", k->variance_power);
+    if (isfinite (k->theta))
+      fprintf (o, " (theta %.4g)", k->theta);
+    if (isfinite (k->power))
+      fprintf (o, " (p %.4g)", k->power);
+    if (k->group)
+      fprintf (o, " [%s group]", k->group);
     fputc ('\n', o);
     for (size_t j = 0; j < k->notes.n; j++)
       fprintf (o, "               - %s\n", k->notes.msg[j]);

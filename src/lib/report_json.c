@@ -146,6 +146,8 @@ bl_report_fit_json (FILE *out, const bl_fit *fit, const bl_report_info *info, bl
   }
   jw_num (&w, "level", st->level);
   jw_str (&w, "se_kind", st->se_kind);
+  if (!strcmp (st->se_kind, "cluster"))
+    jw_size (&w, "clusters", st->clusters);
   jw_str (&w, "wald_kind", st->wald_is_t ? "t" : "z");
 
   jw_arr (&w, "coef");
@@ -180,6 +182,16 @@ bl_report_fit_json (FILE *out, const bl_fit *fit, const bl_report_info *info, bl
   jw_num (&w, "aicc", st->aicc);
   jw_num (&w, "bic", st->bic);
   jw_size (&w, "k", st->k);
+  if (bl_fit_family (fit) == &bl_family_negbin) {
+    jw_num (&w, "theta", st->fam_par);
+    jw_num (&w, "theta_se", st->fam_par_se);
+    jw_bool (&w, "theta_estimated", st->fam_par_est);
+  } else if (bl_fit_family (fit) == &bl_family_tweedie) {
+    jw_num (&w, "power", st->fam_par);
+    jw_num (&w, "power_lo", st->fam_par_lo);
+    jw_num (&w, "power_hi", st->fam_par_hi);
+    jw_bool (&w, "power_estimated", st->fam_par_est);
+  }
   jw_obj (&w, "null_reasons");
   why (&w, "deviance", st->deviance, st->loglik_why);
   why (&w, "deviance_null", st->deviance_null, st->deviance_null_why);
@@ -190,6 +202,8 @@ bl_report_fit_json (FILE *out, const bl_fit *fit, const bl_report_info *info, bl
   why (&w, "aic", st->aic, st->loglik_why);
   why (&w, "aicc", st->aicc, st->aicc_why);
   why (&w, "bic", st->bic, st->loglik_why);
+  if (bl_fit_family (fit) == &bl_family_negbin)
+    why (&w, "theta", st->fam_par, st->fam_par_why);
   jw_obj_end (&w);
   jw_obj_end (&w);
   jw_obj_end (&w);

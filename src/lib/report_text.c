@@ -104,6 +104,20 @@ bl_report_fit_text (FILE *o, const bl_fit *fit, const bl_report_info *info, bl_e
       fprintf (o, "  variance    %s family, %s link (%s)\n", bl_fit_family (fit)->name,
                bl_fit_link (fit)->name, bl_fit_method (fit) == BL_METHOD_OLS
                ? "ordinary least squares" : "maximum likelihood by IRLS");
+      if (bl_fit_family (fit) == &bl_family_negbin) {
+        if (isfinite (st->fam_par))
+          fprintf (o, "              theta = %.6g (standard error %.3g)%s: Var = mu + mu^2 / "
+                   "theta\n", st->fam_par, st->fam_par_se, st->fam_par_est ? ", estimated"
+                   : ", fixed");
+        else
+          fprintf (o, "              theta: %s\n", st->fam_par_why);
+      } else if (bl_fit_family (fit) == &bl_family_tweedie) {
+        fprintf (o, "              power p = %.5g%s: Var = phi mu^p", st->fam_par,
+                 st->fam_par_est ? " (estimated)" : " (fixed)");
+        if (st->fam_par_est)
+          fprintf (o, "; 95%% profile interval %.4g to %.4g", st->fam_par_lo, st->fam_par_hi);
+        fputc ('\n', o);
+      }
     }
   }
   if (st->converged)

@@ -1,7 +1,16 @@
 /* tweedie.c -- the Tweedie density by the series of Dunn & Smyth (2005). */
+#define _GNU_SOURCE 1            /* lgamma_r: the C library's log-gamma without the global
+                                    signgam, so the series is safe on several threads */
 #include <math.h>
 #include <gsl/gsl_sf_gamma.h>
 #include "tweedie.h"
+
+static double
+lgam (double x)
+{
+  int sign;
+  return lgamma_r (x, &sign);
+}
 
 /*
  * For y > 0 (Dunn & Smyth 2005, eqs. 4-5):
@@ -28,8 +37,7 @@ log_w (double y, double phi, double p)
   j0 = (long) floor (jmax + 0.5);
   if (j0 < 1)
     j0 = 1;
-#define LOGWJ(j) ((double) (j) * z - gsl_sf_lngamma ((double) (j) + 1.0) \
-                  - gsl_sf_lngamma (-(double) (j) * alpha))
+#define LOGWJ(j) ((double) (j) * z - lgam ((double) (j) + 1.0) - lgam (-(double) (j) * alpha))
   lmax = LOGWJ (j0);
   /* upward from j0, then downward to 1 */
   for (long j = j0, k = 0; k < BL_TWEEDIE_TERMS_MAX; j++, k++) {
@@ -67,4 +75,47 @@ bl_tweedie_unit_dev (double y, double mu, double p)
   const double d = 2.0 * (t1 - y * exp ((1.0 - p) * log (mu)) / (1.0 - p)
                           + exp ((2.0 - p) * log (mu)) / (2.0 - p));
   return d > 0.0 ? d : 0.0;
+}
+
+double
+bl_tweedie_cdf (double y, double mu, double phi, double p)
+{
+  const double lam = exp ((2.0 - p) * log (mu)) / (phi * (2.0 - p));
+  const double alpha = (2.0 - p) / (p - 1.0), gam = phi * (p - 1.0) * exp ((p - 1.0) * log (mu));
+  const double nmax = lam + 40.0 * sqrt (lam) + 60.0;
+  long double s;
+  if (!(y >= 0.0))
+    return 0.0;
+  s = expl (-(long double) lam);                       /* P(N = 0) */
+  if (y == 0.0)
+    return (double) s;
+  for (double nn = 1.0; nn <= nmax; nn += 1.0) {
+    const double lw = -lam + nn * log (lam) - lgam (nn + 1.0);
+    if (lw < -745.0 && nn > lam)
+      break;
+    if (lw < -745.0)
+      continue;
+    s += expl ((long double) lw) * gsl_sf_gamma_inc_P (nn * alpha, y / gam);
+  }
+  return s > 1.0L ? 1.0 : (double) s;
+}
+
+double
+bl_tweedie_quantile (double prob, double mu, double phi, double p)
+{
+  double lo = 0.0, hi = mu > 0.0 ? mu : 1.0;
+  if (prob <= bl_tweedie_cdf (0.0, mu, phi, p))
+    return 0.0;
+  for (int k = 0; k < 200 && bl_tweedie_cdf (hi, mu, phi, p) < prob; k++) {
+    lo = hi;
+    hi *= 2.0;
+  }
+  for (int k = 0; k < 200 && hi - lo > 1e-12 * hi; k++) {
+    const double mid = 0.5 * (lo + hi);
+    if (bl_tweedie_cdf (mid, mu, phi, p) < prob)
+      lo = mid;
+    else
+      hi = mid;
+  }
+  return 0.5 * (lo + hi);
 }

@@ -14,6 +14,14 @@ extern "C" {
    exp(-mu^(2-p) / (phi (2-p))).  Returns -HUGE_VAL for y < 0 or arguments out of range. */
 double bl_tweedie_logpdf (double y, double mu, double phi, double p);
 
+/* P(Y <= y): the zero mass plus the compound sum over N of Poisson(lambda) weights times the
+   Gamma(N alpha, gamma) CDF, lambda = mu^(2-p) / (phi (2-p)), alpha = (2-p)/(p-1),
+   gamma = phi (p-1) mu^(p-1) (the compound Poisson-gamma representation; Jorgensen 1997,
+   section 4.2).  The sum runs over N until the Poisson weights are negligible. */
+double bl_tweedie_cdf (double y, double mu, double phi, double p);
+/* The P quantile: 0 when P <= P(Y = 0), else by bisection on the CDF. */
+double bl_tweedie_quantile (double prob, double mu, double phi, double p);
+
 /* The Tweedie unit deviance d(y, mu) = 2 [ y^(2-p) / ((1-p)(2-p)) - y mu^(1-p) / (1-p)
    + mu^(2-p) / (2-p) ] (Jorgensen 1997, The Theory of Dispersion Models, ch. 4). */
 double bl_tweedie_unit_dev (double y, double mu, double p);

@@ -104,7 +104,7 @@ for m in glm ols; do
 done
 bl fit "$data" --response hours --terms load --se hc9
 expect_rc "--se hc9 exit" 2
-expect_err "--se hc9 message" "ballast: --se: expected model, hc0, hc1, hc2 or hc3, got 'hc9'"
+expect_err "--se hc9 message" "ballast: --se: expected model, hc0, hc1, hc2, hc3 or cluster, got 'hc9'"
 expect_err "--se hc9 hint" "$usage_hint"
 expect_out_empty "--se hc9: nothing on stdout"
 

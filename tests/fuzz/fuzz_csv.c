@@ -57,7 +57,7 @@ static void
 compare (const bl_table *a, const bl_err *ea, const bl_table *b, const bl_err *eb,
          const char *what)
 {
-  char d[2600];
+  char d[3200];
   size_t i, j, k;
   if (!a || !b) {
     if (a || b) {
