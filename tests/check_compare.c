@@ -16,7 +16,6 @@
    - basics: a simulation study of how often the generating remedy wins or ties. */
 #include <check.h>
 #include <math.h>
-#include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -36,81 +35,6 @@
 
 /* ---------------------------------------------------------------- helpers */
 
-/* A growing text buffer for CSV built in the test. */
-typedef struct sbuf { char *s; size_t len, cap; } sbuf;
-
-static void
-sb_printf (sbuf *b, const char *fmt, ...)
-{
-  va_list ap;
-  int need;
-  for (;;) {
-    va_start (ap, fmt);
-    need = vsnprintf (b->s ? b->s + b->len : NULL, b->s ? b->cap - b->len : 0, fmt, ap);
-    va_end (ap);
-    ck_assert_int_ge (need, 0);
-    if (b->s && b->len + (size_t) need < b->cap) {
-      b->len += (size_t) need;
-      return;
-    }
-    b->cap = (b->cap + (size_t) need + 1) * 2;
-    b->s = realloc (b->s, b->cap);
-    ck_assert_ptr_nonnull (b->s);
-  }
-}
-
-/* Everything one fit needs, freed together by job_free. */
-typedef struct job {
-  bl_table *t;
-  bl_terms *terms, *off;
-  bl_design *d;
-  bl_fit *f;
-} job;
-
-static void
-job_free (job *j)
-{
-  bl_fit_free (j->f);
-  bl_design_free (j->d);
-  bl_terms_free (j->terms);
-  bl_terms_free (j->off);
-  bl_table_free (j->t);
-  memset (j, 0, sizeof *j);
-}
-
-/* Read CSV text into J's table (CAT: categorical columns) and build the design. */
-static void
-job_design (job *j, const sbuf *csv, const char *const *cat, size_t ncat, const char *resp,
-            const char *terms, const char *weights, const char *offset)
-{
-  bl_err err = { 0 };
-  bl_table_opts to;
-  bl_design_opts dopt;
-  bl_table_opts_init (&to);
-  to.categorical = cat;
-  to.n_categorical = ncat;
-  j->t = bl_table_read_mem (csv->s, csv->len, "mem.csv", &to, &err);
-  ck_assert_msg (j->t != NULL, "read: %s: %s", err.where, err.msg);
-  j->terms = bl_terms_parse (terms, "--terms", &err);
-  ck_assert_msg (j->terms != NULL, "terms '%s': %s", terms, err.msg);
-  if (offset) {
-    j->off = bl_terms_parse (offset, "--offset", &err);
-    ck_assert_msg (j->off != NULL, "offset '%s': %s", offset, err.msg);
-  }
-  bl_design_opts_init (&dopt);
-  dopt.weights = weights;
-  dopt.offset = j->off;
-  j->d = bl_design_new (j->t, resp, j->terms, &dopt, &err);
-  ck_assert_msg (j->d != NULL, "design '%s': %s: %s", terms, err.where, err.msg);
-}
-
-static double
-rel (double a, double b)
-{
-  const double s = fabs (b) > 1e-300 ? fabs (b) : 1.0;
-  return fabs (a - b) / s;
-}
-
 /* Data "y,x,g,t" of scenario K, N rows, log mu = 1 + x, x uniform(0,1), a three-level
    factor g with no effect, an exposure t (unused unless asked for):
      0 gamma with log link, shape 4      1 lognormal, log y = 1 + x + N(0, 0.4^2)
@@ -119,11 +43,11 @@ rel (double a, double b)
      5 y^2 normal: y = sqrt(20 + 10 x + N(0, 1)), Box-Cox power 2
      6 skewed positive with OLS fitted values below 0: y = exp(-2 + 5 x) gamma(shape 2) */
 static void
-sim (sbuf *csv, int K, size_t n, unsigned long seed)
+sim (test_buf *csv, int K, size_t n, unsigned long seed)
 {
   gsl_rng *r = gsl_rng_alloc (gsl_rng_mt19937);
   gsl_rng_set (r, seed);
-  sb_printf (csv, "y,x,g,t\n");
+  test_buf_printf (csv, "y,x,g,t\n");
   for (size_t i = 0; i < n; i++) {
     const double x = gsl_rng_uniform (r), mu = exp (1.0 + x);
     const int g = (int) gsl_rng_uniform_int (r, 3);
@@ -138,7 +62,7 @@ sim (sbuf *csv, int K, size_t n, unsigned long seed)
     case 5: y = sqrt (20.0 + 10.0 * x + gsl_ran_gaussian (r, 1.0)); break;
     default: y = exp (-2.0 + 5.0 * x) * gsl_ran_gamma (r, 2.0, 0.5); break;
     }
-    sb_printf (csv, "%.17g,%.17g,%c,%.17g\n", y, x, "abc"[g], t);
+    test_buf_printf (csv, "%.17g,%.17g,%c,%.17g\n", y, x, "abc"[g], t);
   }
   gsl_rng_free (r);
 }
@@ -237,12 +161,12 @@ START_TEST (compare_aic_equals_fit)
 {
   static const int scen[] = { 0, 1, 5 };
   for (size_t s = 0; s < 3; s++) {
-    sbuf csv = { 0 };
-    job j = { 0 };
+    test_buf csv = { 0 };
+    test_job j = { 0 };
     bl_compare *c;
     size_t nfit = 0;
     sim (&csv, scen[s], 400, 11u + s);
-    job_design (&j, &csv, cat_g, 1, "y", "x, g", NULL, NULL);
+    test_job_csv (&j, &csv, cat_g, 1, "y", "x, g", NULL, NULL);
     c = run_compare (j.d, NULL, 0, BL_COMPARE_SEED);
     ck_assert_str_eq (bl_compare_rank_by (c), "aic");
     for (size_t i = 0; i < bl_compare_count (c); i++) {
@@ -269,7 +193,7 @@ START_TEST (compare_aic_equals_fit)
     }
     ck_assert_msg (nfit >= 9, "aic scenario %d: only %zu candidates fitted", scen[s], nfit);
     bl_compare_free (c);
-    job_free (&j);
+    test_job_free (&j);
     free (csv.s);
   }
 }
@@ -281,14 +205,14 @@ END_TEST
    own log-likelihood; aic_discrete = -2 l_d + 2 k. */
 START_TEST (compare_discrete_loglik)
 {
-  sbuf csv = { 0 };
-  job j = { 0 };
+  test_buf csv = { 0 };
+  test_job j = { 0 };
   bl_compare *c;
   const bl_candidate *ls, *poi, *gl;
   long double l = 0.0L;
   size_t zeros = 0;
   sim (&csv, 3, 500, 5);
-  job_design (&j, &csv, cat_g, 1, "y", "x, g", NULL, NULL);
+  test_job_csv (&j, &csv, cat_g, 1, "y", "x, g", NULL, NULL);
   c = run_compare (j.d, "ls,poi-log,gau-log,gam-log", 0, BL_COMPARE_SEED);
   ck_assert_str_eq (bl_compare_rank_by (c), "aic_discrete");
   ck_assert_int_eq (bl_compare_integer_y (c), 1);
@@ -316,8 +240,8 @@ START_TEST (compare_discrete_loglik)
     bl_fit_free (f);
   }
   ck_assert_msg (zeros > 0, "discrete: no zero counts in the data");
-  ck_assert_msg (rel (ls->loglik_discrete, (double) l) <= 1e-12, "discrete ls: %.17g vs %.17g",
-                 ls->loglik_discrete, (double) l);
+  ck_assert_msg (test_rel_safe (ls->loglik_discrete, (double) l) <= 1e-12,
+                 "discrete ls: %.17g vs %.17g", ls->loglik_discrete, (double) l);
   ck_assert_msg (ls->aic_discrete == -2.0 * ls->loglik_discrete + 2.0 * (double) ls->k,
                  "discrete ls: aic_discrete");
   ck_assert_msg (poi->loglik_discrete == poi->loglik, "discrete poisson: %.17g vs %.17g",
@@ -328,7 +252,7 @@ START_TEST (compare_discrete_loglik)
            bl_compare_get (c, (size_t) bl_compare_winner (c))->id);
   ck_assert_str_eq (bl_compare_get (c, (size_t) bl_compare_winner (c))->id, "poi-log");
   bl_compare_free (c);
-  job_free (&j);
+  test_job_free (&j);
   free (csv.s);
 }
 END_TEST
@@ -356,15 +280,15 @@ folds_direct (size_t n, size_t K, unsigned long seed, size_t *fold)
 START_TEST (compare_cv_direct)
 {
   enum { N = 300, K = 7 };
-  sbuf csv = { 0 };
-  job j = { 0 };
+  test_buf csv = { 0 };
+  test_job j = { 0 };
   bl_compare *c, *c2, *c0;
   const bl_candidate *ls;
   size_t fold[N];
   double se = 0.0, ae = 0.0;
   const unsigned long seed = 424242;
   sim (&csv, 2, N, 8);
-  job_design (&j, &csv, cat_g, 1, "y", "x, g", NULL, NULL);
+  test_job_csv (&j, &csv, cat_g, 1, "y", "x, g", NULL, NULL);
   ck_assert_str_eq (bl_design_label (j.d, 2), "g=b");
   c = run_compare (j.d, NULL, K, seed);
   c2 = run_compare (j.d, NULL, K, seed);
@@ -414,10 +338,10 @@ START_TEST (compare_cv_direct)
   ls = cand (c, "ls");
   fprintf (stderr, "cv ls: rmse %.15g (direct %.15g), mae %.15g (direct %.15g)\n",
            ls->cv_rmse, sqrt (se / N), ls->cv_mae, ae / N);
-  ck_assert_msg (rel (ls->cv_rmse, sqrt (se / N)) <= 1e-10, "cv ls: rmse %.17g vs %.17g",
+  ck_assert_msg (test_rel_safe (ls->cv_rmse, sqrt (se / N)) <= 1e-10, "cv ls: rmse %.17g vs %.17g",
                  ls->cv_rmse, sqrt (se / N));
-  ck_assert_msg (rel (ls->cv_mae, ae / N) <= 1e-10, "cv ls: mae %.17g vs %.17g", ls->cv_mae,
-                 ae / N);
+  ck_assert_msg (test_rel_safe (ls->cv_mae, ae / N) <= 1e-10, "cv ls: mae %.17g vs %.17g",
+                 ls->cv_mae, ae / N);
   ck_assert_uint_eq (bl_compare_count (c), bl_compare_count (c2));
   for (size_t i = 0; i < bl_compare_count (c); i++) {
     const bl_candidate *a = bl_compare_get (c, i), *b = bl_compare_get (c2, i);
@@ -437,7 +361,7 @@ START_TEST (compare_cv_direct)
   bl_compare_free (c);
   bl_compare_free (c2);
   bl_compare_free (c0);
-  job_free (&j);
+  test_job_free (&j);
   free (csv.s);
 }
 END_TEST
@@ -449,13 +373,13 @@ END_TEST
 START_TEST (compare_weights)
 {
   for (int K = 0; K < 4; K++) {
-    sbuf csv = { 0 };
-    job j = { 0 };
+    test_buf csv = { 0 };
+    test_job j = { 0 };
     bl_compare *c;
     double wsum = 0.0;
     long win;
     sim (&csv, K, 300, 70u + (unsigned) K);
-    job_design (&j, &csv, cat_g, 1, "y", "x, g", NULL, NULL);
+    test_job_csv (&j, &csv, cat_g, 1, "y", "x, g", NULL, NULL);
     c = run_compare (j.d, NULL, 0, BL_COMPARE_SEED);
     win = bl_compare_winner (c);
     ck_assert_msg (win >= 0, "weights %d: no winner", K);
@@ -467,9 +391,10 @@ START_TEST (compare_weights)
       if (isfinite (k->akaike_weight)) {
         wsum += k->akaike_weight;
         ck_assert_msg (k->delta_aic >= 0.0, "weights %d %s: delta < 0", K, k->id);
-        ck_assert_msg (rel (k->akaike_weight, bl_compare_get (c, (size_t) win)->akaike_weight
-                            * exp (-0.5 * k->delta_aic)) <= 1e-12, "weights %d %s: ratio",
-                       K, k->id);
+        ck_assert_msg (test_rel_safe (k->akaike_weight,
+                                      bl_compare_get (c, (size_t) win)->akaike_weight
+                                      * exp (-0.5 * k->delta_aic)) <= 1e-12,
+                       "weights %d %s: ratio", K, k->id);
         for (size_t m = 0; m < bl_compare_count (c); m++) {
           const bl_candidate *o = bl_compare_get (c, m);
           if (o->rank_position && o->rank_position < k->rank_position)
@@ -482,7 +407,7 @@ START_TEST (compare_weights)
     }
     ck_assert_msg (fabs (wsum - 1.0) <= 1e-12, "weights %d: sum %.17g", K, wsum);
     bl_compare_free (c);
-    job_free (&j);
+    test_job_free (&j);
     free (csv.s);
   }
 }
@@ -494,12 +419,12 @@ END_TEST
 START_TEST (compare_boxcox_practical)
 {
   for (int s = 0; s < 2; s++) {
-    sbuf csv = { 0 };
-    job j = { 0 };
+    test_buf csv = { 0 };
+    test_job j = { 0 };
     bl_compare *c;
     size_t ibc = 0, nbcl = 0;
     sim (&csv, s == 0 ? 5 : 1, 600, 123);
-    job_design (&j, &csv, NULL, 0, "y", "x", NULL, NULL);
+    test_job_csv (&j, &csv, NULL, 0, "y", "x", NULL, NULL);
     c = run_compare (j.d, NULL, 0, BL_COMPARE_SEED);
     for (size_t i = 0; i < bl_compare_count (c); i++) {
       if (strcmp (bl_compare_get (c, i)->id, "ls-bc") == 0)
@@ -530,7 +455,7 @@ START_TEST (compare_boxcox_practical)
       ck_assert_uint_eq (bl_compare_count (c), 13);   /* the 13 defaults */
     }
     bl_compare_free (c);
-    job_free (&j);
+    test_job_free (&j);
     free (csv.s);
   }
 }
@@ -553,10 +478,10 @@ START_TEST (compare_error_list)
     { "ls-bc=", "unknown candidate 'ls-bc='" },
     { "ls-bc=0.5x", "unknown candidate 'ls-bc=0.5x'" },
   };
-  sbuf csv = { 0 };
-  job j = { 0 };
+  test_buf csv = { 0 };
+  test_job j = { 0 };
   sim (&csv, 0, 100, 1);
-  job_design (&j, &csv, NULL, 0, "y", "x", NULL, NULL);
+  test_job_csv (&j, &csv, NULL, 0, "y", "x", NULL, NULL);
   for (size_t i = 0; i < sizeof bad / sizeof bad[0]; i++) {
     bl_err err = { 0 };
     bl_compare_opts co;
@@ -578,7 +503,7 @@ START_TEST (compare_error_list)
     ck_assert_int_eq (bl_compare_check_list (" ls , ls-bc=-1.5,ls-bc=3 ", &err), BL_OK);
   }
   bl_compare_free (NULL);
-  job_free (&j);
+  test_job_free (&j);
   free (csv.s);
 }
 END_TEST
@@ -591,15 +516,15 @@ START_TEST (compare_error_not_applicable)
   static const char *const needs_pos[] = { "ls-log", "ls-sqrt", "ls-bc", "gam-log", "gam-inv",
                                            "gam-id", "ig-log" };
   static const char *const non_glm[] = { "ls", "ls-log", "ls-sqrt", "ls-bc", "wls-mu" };
-  sbuf csv = { 0 };
-  job j = { 0 };
+  test_buf csv = { 0 };
+  test_job j = { 0 };
   bl_compare *c;
   /* y <= 0 and non-integer: normal data shifted down */
-  sb_printf (&csv, "y,x\n");
+  test_buf_printf (&csv, "y,x\n");
   for (size_t i = 0; i < 200; i++)
-    sb_printf (&csv, "%.17g,%.17g\n", -1.5 + 0.02 * (double) i + sin (2.385 * (double) i),
-               0.005 * (double) i);
-  job_design (&j, &csv, NULL, 0, "y", "x", NULL, NULL);
+    test_buf_printf (&csv, "%.17g,%.17g\n", -1.5 + 0.02 * (double) i + sin (2.385 * (double) i),
+                     0.005 * (double) i);
+  test_job_csv (&j, &csv, NULL, 0, "y", "x", NULL, NULL);
   c = run_compare (j.d, NULL, 0, BL_COMPARE_SEED);
   ck_assert_uint_eq (bl_compare_count (c), 13);   /* the 13 defaults */
   for (size_t i = 0; i < bl_compare_count (c); i++)
@@ -618,12 +543,12 @@ START_TEST (compare_error_not_applicable)
   ck_assert_msg (cand (c, "ls")->converged && cand (c, "gau-log")->applicable,
                  "not applicable: ls not fitted");
   bl_compare_free (c);
-  job_free (&j);
+  test_job_free (&j);
   free (csv.s);
   memset (&csv, 0, sizeof csv);
   /* an offset */
   sim (&csv, 3, 300, 19);
-  job_design (&j, &csv, NULL, 0, "y", "x", NULL, "log(t)");
+  test_job_csv (&j, &csv, NULL, 0, "y", "x", NULL, "log(t)");
   c = run_compare (j.d, NULL, 0, BL_COMPARE_SEED);
   for (size_t i = 0; i < sizeof non_glm / sizeof non_glm[0]; i++) {
     const bl_candidate *k = cand (c, non_glm[i]);
@@ -633,7 +558,7 @@ START_TEST (compare_error_not_applicable)
   ck_assert_msg (cand (c, "poi-log")->converged && cand (c, "gau-log")->converged,
                  "offset: GLMs not fitted");
   bl_compare_free (c);
-  job_free (&j);
+  test_job_free (&j);
   free (csv.s);
 }
 END_TEST
@@ -642,12 +567,12 @@ END_TEST
    with Var = sigma^2 mu^K cannot start when least squares gives fitted values <= 0. */
 START_TEST (compare_error_candidate_fails)
 {
-  sbuf csv = { 0 };
-  job j = { 0 };
+  test_buf csv = { 0 };
+  test_job j = { 0 };
   bl_compare *c;
   const bl_candidate *k;
   sim (&csv, 6, 400, 3);
-  job_design (&j, &csv, NULL, 0, "y", "x", NULL, NULL);
+  test_job_csv (&j, &csv, NULL, 0, "y", "x", NULL, NULL);
   c = run_compare (j.d, "ls,wls-mu,gam-log", 5, BL_COMPARE_SEED);
   k = cand (c, "wls-mu");
   ck_assert_msg (k && k->applicable && !k->converged, "fails: wls-mu converged");
@@ -657,7 +582,7 @@ START_TEST (compare_error_candidate_fails)
                  && k->rank_position == 0, "fails: wls-mu scored");
   ck_assert_str_eq (bl_compare_get (c, (size_t) bl_compare_winner (c))->id, "gam-log");
   bl_compare_free (c);
-  job_free (&j);
+  test_job_free (&j);
   free (csv.s);
 }
 END_TEST
@@ -666,11 +591,11 @@ END_TEST
    (SQLite's malloc tests); a no-op outside an --enable-alloc-fail build. */
 START_TEST (compare_error_alloc_failure)
 {
-  sbuf csv = { 0 };
-  job j = { 0 };
+  test_buf csv = { 0 };
+  test_job j = { 0 };
   unsigned long nfail = 0, swallowed = 0;
   sim (&csv, 0, 40, 4);
-  job_design (&j, &csv, NULL, 0, "y", "x", NULL, NULL);
+  test_job_csv (&j, &csv, NULL, 0, "y", "x", NULL, NULL);
   for (unsigned long k = 1; k < 100000; k++) {
     bl_err err = { 0 };
     bl_compare_opts co;
@@ -708,7 +633,7 @@ START_TEST (compare_error_alloc_failure)
            "out-of-memory note instead: %lu\n", nfail, swallowed);
   ck_assert_msg (swallowed == 0, "compare alloc failure: %lu runs kept an out-of-memory "
                  "note instead of failing", swallowed);
-  job_free (&j);
+  test_job_free (&j);
   free (csv.s);
 }
 END_TEST
@@ -734,12 +659,12 @@ START_TEST (compare_simulation_study)
   for (int K = 0; K < 4; K++) {
     size_t ok = 0, wins = 0, fam_ok = 0;
     for (unsigned long seed = 1; seed <= 50; seed++) {
-      sbuf csv = { 0 };
-      job j = { 0 };
+      test_buf csv = { 0 };
+      test_job j = { 0 };
       bl_compare *c;
       const bl_candidate *k;
       sim (&csv, K, 500, 1000u * (unsigned long) K + seed);
-      job_design (&j, &csv, NULL, 0, "y", "x", NULL, NULL);
+      test_job_csv (&j, &csv, NULL, 0, "y", "x", NULL, NULL);
       c = run_compare (j.d, NULL, 0, seed);
       k = cand (c, gen[K]);
       ck_assert_msg (k && k->converged, "study %s seed %lu: %s not fitted", name[K], seed,
@@ -757,7 +682,7 @@ START_TEST (compare_simulation_study)
                               && strcmp (w->transform, k->transform) == 0)));
       }
       bl_compare_free (c);
-      job_free (&j);
+      test_job_free (&j);
       free (csv.s);
     }
     fprintf (stderr, "study %-9s: %s wins %2zu/50, wins or within delta 2 %2zu/50; the "
@@ -805,12 +730,5 @@ compare_suite (void)
 int
 main (void)
 {
-  SRunner *sr;
-  int failed;
-  gsl_set_error_handler_off ();
-  sr = srunner_create (compare_suite ());
-  srunner_run_all (sr, CK_NORMAL);
-  failed = srunner_ntests_failed (sr);
-  srunner_free (sr);
-  return failed ? EXIT_FAILURE : EXIT_SUCCESS;
+  return test_run_suite (compare_suite (), 1);
 }

@@ -14,6 +14,7 @@
 #include "design.h"
 #include "table.h"
 #include "terms.h"
+#include "testutil.h"
 
 /* Data rows 0..8 are physical lines 2..10.  Row 3 lacks load, row 4 lacks age, row 7 lacks
    stops (and is the only row of site D). */
@@ -663,10 +664,5 @@ design_suite (void)
 int
 main (void)
 {
-  SRunner *sr = srunner_create (design_suite ());
-  int failed;
-  srunner_run_all (sr, CK_NORMAL);
-  failed = srunner_ntests_failed (sr);
-  srunner_free (sr);
-  return failed ? EXIT_FAILURE : EXIT_SUCCESS;
+  return test_run_suite (design_suite (), 0);
 }

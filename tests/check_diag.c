@@ -14,7 +14,6 @@
      power on simulated families. */
 #include <check.h>
 #include <math.h>
-#include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -38,96 +37,14 @@
 
 /* ---------------------------------------------------------------- helpers */
 
-/* A growing text buffer for CSV built in the test. */
-typedef struct sbuf { char *s; size_t len, cap; } sbuf;
-
-static void
-sb_printf (sbuf *b, const char *fmt, ...)
-{
-  va_list ap;
-  int need;
-  for (;;) {
-    va_start (ap, fmt);
-    need = vsnprintf (b->s ? b->s + b->len : NULL, b->s ? b->cap - b->len : 0, fmt, ap);
-    va_end (ap);
-    ck_assert_int_ge (need, 0);
-    if (b->s && b->len + (size_t) need < b->cap) {
-      b->len += (size_t) need;
-      return;
-    }
-    b->cap = (b->cap + (size_t) need + 1) * 2;
-    b->s = realloc (b->s, b->cap);
-    ck_assert_ptr_nonnull (b->s);
-  }
-}
-
-/* Everything one fit needs, freed together by job_free. */
-typedef struct job {
-  bl_table *t;
-  bl_terms *terms, *off;
-  bl_design *d;
-  bl_fit *f;
-} job;
-
-static void
-job_free (job *j)
-{
-  bl_fit_free (j->f);
-  bl_design_free (j->d);
-  bl_terms_free (j->terms);
-  bl_terms_free (j->off);
-  bl_table_free (j->t);
-  memset (j, 0, sizeof *j);
-}
-
-/* Read CSV text into J's table (CAT: categorical columns) and build the design. */
-static void
-job_design (job *j, const sbuf *csv, const char *const *cat, size_t ncat, const char *resp,
-            const char *terms, const char *weights, const char *offset)
-{
-  bl_err err = { 0 };
-  bl_table_opts to;
-  bl_design_opts dopt;
-  bl_table_opts_init (&to);
-  to.categorical = cat;
-  to.n_categorical = ncat;
-  j->t = bl_table_read_mem (csv->s, csv->len, "mem.csv", &to, &err);
-  ck_assert_msg (j->t != NULL, "read: %s: %s", err.where, err.msg);
-  j->terms = bl_terms_parse (terms, "--terms", &err);
-  ck_assert_msg (j->terms != NULL, "terms '%s': %s", terms, err.msg);
-  if (offset) {
-    j->off = bl_terms_parse (offset, "--offset", &err);
-    ck_assert_msg (j->off != NULL, "offset '%s': %s", offset, err.msg);
-  }
-  bl_design_opts_init (&dopt);
-  dopt.weights = weights;
-  dopt.offset = j->off;
-  j->d = bl_design_new (j->t, resp, j->terms, &dopt, &err);
-  ck_assert_msg (j->d != NULL, "design '%s': %s: %s", terms, err.where, err.msg);
-}
-
 /* Fit J's design with method M, family FAM and link LNK; require convergence. */
 static const bl_fit *
-job_fit (job *j, bl_method m, const bl_family *fam, const bl_link *lnk)
+job_fit (test_job *j, bl_method m, const bl_family *fam, const bl_link *lnk)
 {
-  bl_err err = { 0 };
   bl_fit_opts fo;
   bl_fit_opts_init (&fo);
   fo.method = m;
-  fo.fam = fam;
-  fo.link = lnk;
-  j->f = bl_fit_glm (j->d, &fo, &err);
-  ck_assert_msg (j->f != NULL, "fit %s/%s: %s: %s", fam->name, lnk->name, err.where, err.msg);
-  ck_assert_msg (bl_fit_stats_get (j->f)->converged, "fit %s/%s did not converge: %s",
-                 fam->name, lnk->name, bl_fit_status (j->f)->msg);
-  return j->f;
-}
-
-static double
-rel (double a, double b)
-{
-  const double s = fabs (b) > 1e-300 ? fabs (b) : 1.0;
-  return fabs (a - b) / s;
+  return test_job_fit_glm (j, fam, lnk, &fo);
 }
 
 /* Least squares of T on the columns of Z by GSL's SVD solver: RSS, TSS about the mean and the
@@ -167,8 +84,8 @@ START_TEST (diag_variance_tests_gsl)
   gsl_rng *r = gsl_rng_alloc (gsl_rng_mt19937);
   double x1[N], x2[N], y[N];
   int site[N];
-  sbuf csv = { 0 };
-  job j = { 0 };
+  test_buf csv = { 0 };
+  test_job j = { 0 };
   bl_diag_opts dopt;
   bl_diag *dg;
   bl_err err = { 0 };
@@ -180,16 +97,16 @@ START_TEST (diag_variance_tests_gsl)
   double e[N], rss0, rss, tss, ess, stat;
   size_t rank;
   gsl_rng_set (r, 4711);
-  sb_printf (&csv, "y,x1,x2,site\n");
+  test_buf_printf (&csv, "y,x1,x2,site\n");
   for (size_t i = 0; i < N; i++) {
     x1[i] = 3.0 * gsl_rng_uniform (r);
     x2[i] = gsl_ran_gaussian (r, 1.3);
     site[i] = (int) gsl_rng_uniform_int (r, 3);
     y[i] = 2.385 + 1.47 * x1[i] - 0.713 * x2[i] + 0.9 * (site[i] == 1) - 0.4 * (site[i] == 2)
            + gsl_ran_gaussian (r, 0.5 + 0.8 * x1[i]);
-    sb_printf (&csv, "%.17g,%.17g,%.17g,%c\n", y[i], x1[i], x2[i], "ABC"[site[i]]);
+    test_buf_printf (&csv, "%.17g,%.17g,%.17g,%c\n", y[i], x1[i], x2[i], "ABC"[site[i]]);
   }
-  job_design (&j, &csv, cat, 1, "y", "x1, x2, site", NULL, NULL);
+  test_job_csv (&j, &csv, cat, 1, "y", "x1, x2, site", NULL, NULL);
   ck_assert_str_eq (bl_design_label (j.d, 3), "site=B");
   ck_assert_str_eq (bl_design_label (j.d, 4), "site=C");
   job_fit (&j, BL_METHOD_OLS, &bl_family_gaussian, &bl_link_identity);
@@ -221,21 +138,22 @@ START_TEST (diag_variance_tests_gsl)
   ess = tss - rss;
   stat = 0.5 * ess;
   ck_assert_msg (res->breusch_pagan.done, "breusch-pagan: not done");
-  ck_assert_msg (rel (res->breusch_pagan.stat, stat) <= 1e-9, "breusch-pagan: stat %.17g vs "
-                 "%.17g", res->breusch_pagan.stat, stat);
+  ck_assert_msg (test_rel_safe (res->breusch_pagan.stat, stat) <= 1e-9,
+                 "breusch-pagan: stat %.17g vs %.17g", res->breusch_pagan.stat, stat);
   ck_assert_uint_eq (res->breusch_pagan.dof, rank - 1);
   ck_assert_uint_eq (res->breusch_pagan.dof, 4);
-  ck_assert_msg (rel (res->breusch_pagan.p, gsl_cdf_chisq_Q (stat, 4.0)) <= 1e-9,
+  ck_assert_msg (test_rel_safe (res->breusch_pagan.p, gsl_cdf_chisq_Q (stat, 4.0)) <= 1e-9,
                  "breusch-pagan: p %.17g", res->breusch_pagan.p);
   /* Koenker */
   for (size_t i = 0; i < N; i++)
     gsl_vector_set (t, i, e[i] * e[i]);
   gsl_aux (X, t, &rss, &tss, &rank);
   stat = N * (1.0 - rss / tss);
-  ck_assert_msg (rel (res->koenker.stat, stat) <= 1e-9, "koenker: stat %.17g vs %.17g",
+  ck_assert_msg (test_rel_safe (res->koenker.stat, stat) <= 1e-9, "koenker: stat %.17g vs %.17g",
                  res->koenker.stat, stat);
   ck_assert_uint_eq (res->koenker.dof, 4);
-  ck_assert_msg (rel (res->koenker.p, gsl_cdf_chisq_Q (stat, 4.0)) <= 1e-9, "koenker: p");
+  ck_assert_msg (test_rel_safe (res->koenker.p, gsl_cdf_chisq_Q (stat, 4.0)) <= 1e-9,
+                 "koenker: p");
   /* White: all 10 squares and cross products of the 4 columns (rank 12 of 15), and the 7
      that are not aliased, which must give the same statistic */
   for (size_t i = 0; i < N; i++) {
@@ -258,12 +176,12 @@ START_TEST (diag_variance_tests_gsl)
   ck_assert_uint_eq (rank, 12);
   stat = N * (1.0 - rss / tss);
   ck_assert_msg (res->white.done, "white: not done: %s", res->white.why);
-  ck_assert_msg (rel (res->white.stat, stat) <= 1e-9, "white: stat %.17g vs %.17g",
+  ck_assert_msg (test_rel_safe (res->white.stat, stat) <= 1e-9, "white: stat %.17g vs %.17g",
                  res->white.stat, stat);
   ck_assert_uint_eq (res->white.dof, 11);
-  ck_assert_msg (rel (res->white.p, gsl_cdf_chisq_Q (stat, 11.0)) <= 1e-9, "white: p");
+  ck_assert_msg (test_rel_safe (res->white.p, gsl_cdf_chisq_Q (stat, 11.0)) <= 1e-9, "white: p");
   bl_diag_free (dg);
-  job_free (&j);
+  test_job_free (&j);
   free (csv.s);
   gsl_multifit_linear_free (w);
   gsl_matrix_free (X);
@@ -283,26 +201,26 @@ START_TEST (diag_white_skipped)
 {
   enum { N = 300, P = 21 };
   gsl_rng *r = gsl_rng_alloc (gsl_rng_mt19937);
-  sbuf csv = { 0 }, terms = { 0 };
-  job j = { 0 };
+  test_buf csv = { 0 }, terms = { 0 };
+  test_job j = { 0 };
   bl_diag_opts dopt;
   bl_diag *dg;
   bl_err err = { 0 };
   gsl_rng_set (r, 99);
-  sb_printf (&csv, "y");
+  test_buf_printf (&csv, "y");
   for (size_t k = 0; k < P; k++) {
-    sb_printf (&csv, ",x%zu", k);
-    sb_printf (&terms, "%sx%zu", k ? ", " : "", k);
+    test_buf_printf (&csv, ",x%zu", k);
+    test_buf_printf (&terms, "%sx%zu", k ? ", " : "", k);
   }
-  sb_printf (&csv, "\n");
+  test_buf_printf (&csv, "\n");
   for (size_t i = 0; i < N; i++) {
     double yv = 1.0 + gsl_ran_gaussian (r, 1.0);
-    sb_printf (&csv, "%.17g", yv);
+    test_buf_printf (&csv, "%.17g", yv);
     for (size_t k = 0; k < P; k++)
-      sb_printf (&csv, ",%.17g", gsl_rng_uniform (r));
-    sb_printf (&csv, "\n");
+      test_buf_printf (&csv, ",%.17g", gsl_rng_uniform (r));
+    test_buf_printf (&csv, "\n");
   }
-  job_design (&j, &csv, NULL, 0, "y", terms.s, NULL, NULL);
+  test_job_csv (&j, &csv, NULL, 0, "y", terms.s, NULL, NULL);
   job_fit (&j, BL_METHOD_OLS, &bl_family_gaussian, &bl_link_identity);
   bl_diag_opts_init (&dopt);
   dg = bl_diag_new (j.f, &dopt, &err);
@@ -320,7 +238,7 @@ START_TEST (diag_white_skipped)
   ck_assert_msg (dg && bl_diag_get (dg)->white.done, "white at the limit: not done");
   ck_assert_uint_eq (bl_diag_get (dg)->white.dof, 21 + 21 * 22 / 2);
   bl_diag_free (dg);
-  job_free (&j);
+  test_job_free (&j);
   free (csv.s);
   free (terms.s);
   gsl_rng_free (r);
@@ -330,11 +248,11 @@ END_TEST
 /* Data "y,x,w" from family K (0 gaussian, 1 gamma, 2 inverse gaussian, 3 poisson) with
    log mu = 0.8 + 1.1 x, x uniform(0,1), prior weights w in {1, 2.5} (not for poisson). */
 static void
-sim_family (sbuf *csv, int K, size_t n, unsigned long seed)
+sim_family (test_buf *csv, int K, size_t n, unsigned long seed)
 {
   gsl_rng *r = gsl_rng_alloc (gsl_rng_mt19937);
   gsl_rng_set (r, seed);
-  sb_printf (csv, "y,x,w\n");
+  test_buf_printf (csv, "y,x,w\n");
   for (size_t i = 0; i < n; i++) {
     const double x = gsl_rng_uniform (r), mu = exp (0.8 + 1.1 * x);
     const double a = K == 3 ? 1.0 : (i % 3 == 0 ? 2.5 : 1.0);
@@ -351,7 +269,7 @@ sim_family (sbuf *csv, int K, size_t n, unsigned long seed)
     }
     default: y = (double) gsl_ran_poisson (r, mu); break;
     }
-    sb_printf (csv, "%.17g,%.17g,%.17g\n", y, x, a);
+    test_buf_printf (csv, "%.17g,%.17g,%.17g\n", y, x, a);
   }
   gsl_rng_free (r);
 }
@@ -381,14 +299,14 @@ START_TEST (diag_quantile_continuous)
   gsl_integration_workspace *iw = gsl_integration_workspace_alloc (1000);
   for (int K = 0; K < 3; K++) {
     enum { N = 300 };
-    sbuf csv = { 0 };
-    job j = { 0 };
+    test_buf csv = { 0 };
+    test_job j = { 0 };
     bl_err err = { 0 };
     double q[N], worst = 0.0;
     double phi;
     const double *y, *mu, *a;
     sim_family (&csv, K, N, 1000u + (unsigned) K);
-    job_design (&j, &csv, NULL, 0, "y", "x", "w", NULL);
+    test_job_csv (&j, &csv, NULL, 0, "y", "x", "w", NULL);
     job_fit (&j, BL_METHOD_GLM, fam[K], &bl_link_log);
     phi = bl_fit_stats_get (j.f)->phi_pearson;
     y = bl_fit_y (j.f);
@@ -418,7 +336,7 @@ START_TEST (diag_quantile_continuous)
     fprintf (stderr, "quantile residuals %s: largest difference %.3g\n", fam[K]->name, worst);
     ck_assert_msg (worst <= (K == 2 ? 1e-10 : 1e-9), "quantile %s: worst difference %.3g",
                    fam[K]->name, worst);
-    job_free (&j);
+    test_job_free (&j);
     free (csv.s);
   }
   gsl_integration_workspace_free (iw);
@@ -470,7 +388,7 @@ START_TEST (diag_ks_normal)
   memcpy (xs, x, N * sizeof *x);
   bl_ks_normal (x, N, &d, &p);
   lam = f * d;
-  ck_assert_msg (rel (d, ks_direct (xs, N)) <= 1e-12, "ks: D %.17g vs %.17g", d,
+  ck_assert_msg (test_rel_safe (d, ks_direct (xs, N)) <= 1e-12, "ks: D %.17g vs %.17g", d,
                  ks_direct (xs, N));
   ck_assert_msg (fabs (lam - 1.36) <= 1e-6, "ks: lambda %.9f", lam);
   ck_assert_msg (fabs (p - kolmogorov_q (lam)) <= 1e-12, "ks: p %.17g vs %.17g", p,
@@ -500,13 +418,13 @@ END_TEST
 START_TEST (diag_quantile_poisson)
 {
   enum { N = 20000 };
-  sbuf csv = { 0 };
-  job j = { 0 };
+  test_buf csv = { 0 };
+  test_job j = { 0 };
   bl_err err = { 0 };
   double *q = malloc (N * sizeof *q), d, p, lam;
   gsl_rng *r = gsl_rng_alloc (gsl_rng_mt19937);
   sim_family (&csv, 3, N, 777);
-  job_design (&j, &csv, NULL, 0, "y", "x", NULL, NULL);
+  test_job_csv (&j, &csv, NULL, 0, "y", "x", NULL, NULL);
   job_fit (&j, BL_METHOD_GLM, &bl_family_poisson, &bl_link_log);
   gsl_rng_set (r, 2024);
   ck_assert_int_eq (bl_quantile_residuals (j.f, r, q, &err), BL_OK);
@@ -530,7 +448,7 @@ START_TEST (diag_quantile_poisson)
     lam = (sqrt ((double) N) + 0.12 + 0.11 / sqrt ((double) N)) * d;
     ck_assert_msg (kolmogorov_q (lam) < 1e-6, "poisson quantile: Phi^-1(F(y)) passes KS");
   }
-  job_free (&j);
+  test_job_free (&j);
   free (csv.s);
   free (q);
   gsl_rng_free (r);
@@ -595,16 +513,16 @@ START_TEST (diag_spread_groups_ties)
       }
       ck_assert_msg (sp.groups[g].n == b - a, "spread n=%zu g=%zu: size", n, g);
       ck_assert_msg (sp.groups[g].n >= 20, "spread n=%zu g=%zu: fewer than 20", n, g);
-      ck_assert_msg (rel (sp.groups[g].rms, sqrt (ss / (double) (b - a))) <= 1e-13,
+      ck_assert_msg (test_rel_safe (sp.groups[g].rms, sqrt (ss / (double) (b - a))) <= 1e-13,
                      "spread n=%zu g=%zu: rms %.17g vs %.17g", n, g, sp.groups[g].rms,
                      sqrt (ss / (double) (b - a)));
-      ck_assert_msg (rel (sp.groups[g].fitted_mean, sf / (double) (b - a)) <= 1e-13,
+      ck_assert_msg (test_rel_safe (sp.groups[g].fitted_mean, sf / (double) (b - a)) <= 1e-13,
                      "spread n=%zu g=%zu: fitted mean", n, g);
       lo = GSL_MIN (lo, sp.groups[g].rms);
       hi = GSL_MAX (hi, sp.groups[g].rms);
     }
     if (sp.ngroups)
-      ck_assert_msg (rel (sp.ratio, hi / lo) <= 1e-15, "spread n=%zu: ratio", n);
+      ck_assert_msg (test_rel_safe (sp.ratio, hi / lo) <= 1e-15, "spread n=%zu: ratio", n);
     bl_spread_clear (&sp);
     bl_spread_clear (&sp);                       /* twice is harmless */
     free (fv);
@@ -654,7 +572,8 @@ START_TEST (diag_spread_null95_simulated)
     q = gsl_stats_quantile_from_sorted_data (sim, 1, reps, 0.95);
     fprintf (stderr, "spread null95 n=%zu: ballast %.4f, simulated here %.4f\n", n, sp.null95,
              q);
-    ck_assert_msg (rel (sp.null95, q) <= 0.03, "null95 n=%zu: %.4f vs %.4f", n, sp.null95, q);
+    ck_assert_msg (test_rel_safe (sp.null95, q) <= 0.03, "null95 n=%zu: %.4f vs %.4f", n,
+                   sp.null95, q);
     ck_assert_msg (!sp.flag, "null95 n=%zu: constant residuals flagged", n);
     bl_spread_clear (&sp);
     free (fv);
@@ -687,7 +606,7 @@ START_TEST (diag_spread_flag_rule)
     gsl_rng_set (r, 5);
     ck_assert_int_eq (bl_spread_compute (fv, e, N, r, 1000, &sp, &err), BL_OK);
     ck_assert_msg (sp.null95 < 1.5, "flag rule: null95 %.3f", sp.null95);
-    ck_assert_msg (rel (sp.ratio, cs[c]) <= 1e-14, "flag rule c=%g: ratio %.17g", cs[c],
+    ck_assert_msg (test_rel_safe (sp.ratio, cs[c]) <= 1e-14, "flag rule c=%g: ratio %.17g", cs[c],
                    sp.ratio);
     ck_assert_msg (sp.flag == want[c], "flag rule c=%g: flag %d", cs[c], sp.flag);
     bl_spread_clear (&sp);
@@ -724,15 +643,15 @@ START_TEST (diag_resid_table_identities)
                                             &bl_family_gaussian };
   gsl_rng *r = gsl_rng_alloc (gsl_rng_mt19937);
   for (int K = 0; K < 3; K++) {
-    sbuf csv = { 0 };
-    job j = { 0 };
+    test_buf csv = { 0 };
+    test_job j = { 0 };
     bl_err err = { 0 };
     bl_resid_table *t;
     double x[N], lev = 0.0, dev = 0.0;
     int g[N];
     const bl_fit_stats *st;
     gsl_rng_set (r, 60u + (unsigned) K);
-    sb_printf (&csv, "y,x,g,w\n");
+    test_buf_printf (&csv, "y,x,g,w\n");
     for (size_t i = 0; i < N; i++) {
       const double mu = exp (1.2 + 0.9 * (x[i] = gsl_rng_uniform (r)));
       const double a = K == 1 ? 1.0 : 0.5 + (double) (i % 4);
@@ -741,9 +660,9 @@ START_TEST (diag_resid_table_identities)
       y = K == 0 ? gsl_ran_gamma (r, 2.0 * a, mu / (2.0 * a))
           : K == 1 ? (double) gsl_ran_poisson (r, mu * (1 + 0.3 * g[i]))
           : mu + gsl_ran_gaussian (r, 1.0 / sqrt (a));
-      sb_printf (&csv, "%.17g,%.17g,%c,%.17g\n", y, x[i], "pqr"[g[i]], a);
+      test_buf_printf (&csv, "%.17g,%.17g,%c,%.17g\n", y, x[i], "pqr"[g[i]], a);
     }
-    job_design (&j, &csv, cat, 1, "y", "x, g", K == 1 ? NULL : "w", NULL);
+    test_job_csv (&j, &csv, cat, 1, "y", "x, g", K == 1 ? NULL : "w", NULL);
     if (K == 2)
       job_fit (&j, BL_METHOD_OLS, &bl_family_gaussian, &bl_link_identity);
     else
@@ -783,13 +702,13 @@ START_TEST (diag_resid_table_identities)
     ck_assert_uint_eq (st->rank, 4);
     ck_assert_msg (fabs (lev - (double) st->rank) <= 1e-10, "resid table %s: sum h %.15g",
                    fam[K]->name, lev);
-    ck_assert_msg (rel (dev, st->deviance) <= 1e-12, "resid table %s: sum d^2 %.17g vs D "
-                   "%.17g", fam[K]->name, dev, st->deviance);
+    ck_assert_msg (test_rel_safe (dev, st->deviance) <= 1e-12,
+                   "resid table %s: sum d^2 %.17g vs D %.17g", fam[K]->name, dev, st->deviance);
     for (size_t i = 0; i < N; i++) {
       const double y = bl_fit_y (j.f)[i], mu = bl_fit_mu (j.f)[i];
       const double phi = K == 1 ? 1.0 : st->phi_pearson, h = t->leverage[i];
       const double cook = t->pearson[i] * t->pearson[i] * h / (phi * 4.0 * (1 - h) * (1 - h));
-      ck_assert_msg (rel (t->cooks[i], cook) <= 1e-12, "resid table %s: cooks[%zu]",
+      ck_assert_msg (test_rel_safe (t->cooks[i], cook) <= 1e-12, "resid table %s: cooks[%zu]",
                      fam[K]->name, i);
       ck_assert_msg (t->response[i] == y - mu, "resid table %s: response[%zu]", fam[K]->name,
                      i);
@@ -823,7 +742,7 @@ START_TEST (diag_resid_table_identities)
             yi += row[k] * gsl_vector_get (b, k);
           num += wts[i] * (bl_fit_mu (j.f)[i] - yi) * (bl_fit_mu (j.f)[i] - yi);
         }
-        ck_assert_msg (rel (t->cooks[del], num / (4.0 * s2)) <= 1e-8,
+        ck_assert_msg (test_rel_safe (t->cooks[del], num / (4.0 * s2)) <= 1e-8,
                        "cooks deletion row %zu: %.17g vs %.17g", del, t->cooks[del],
                        num / (4.0 * s2));
         gsl_matrix_free (A);
@@ -836,7 +755,7 @@ START_TEST (diag_resid_table_identities)
     }
     bl_resid_table_free (t);
     bl_resid_table_free (NULL);
-    job_free (&j);
+    test_job_free (&j);
     free (csv.s);
   }
   gsl_rng_free (r);
@@ -848,13 +767,13 @@ END_TEST
 /* A fit that did not converge: BL_ENOCONV, where "diagnose", and nothing returned. */
 START_TEST (diag_error_not_converged)
 {
-  sbuf csv = { 0 };
-  job j = { 0 };
+  test_buf csv = { 0 };
+  test_job j = { 0 };
   bl_err err = { 0 };
   bl_fit_opts fo;
   bl_diag_opts dopt;
   sim_family (&csv, 1, 300, 3);
-  job_design (&j, &csv, NULL, 0, "y", "x", NULL, NULL);
+  test_job_csv (&j, &csv, NULL, 0, "y", "x", NULL, NULL);
   bl_fit_opts_init (&fo);
   fo.fam = &bl_family_gamma;
   fo.link = &bl_link_log;
@@ -869,7 +788,7 @@ START_TEST (diag_error_not_converged)
   ck_assert_msg (strstr (err.msg, "did not converge") != NULL, "not converged: msg '%s'",
                  err.msg);
   bl_diag_free (NULL);
-  job_free (&j);
+  test_job_free (&j);
   free (csv.s);
 }
 END_TEST
@@ -879,12 +798,12 @@ END_TEST
    stays 0 and the loop ends at once. */
 START_TEST (diag_error_alloc_failure)
 {
-  sbuf csv = { 0 };
-  job j = { 0 };
+  test_buf csv = { 0 };
+  test_job j = { 0 };
   bl_diag_opts dopt;
   unsigned long nfail = 0;
   sim_family (&csv, 1, 250, 17);
-  job_design (&j, &csv, NULL, 0, "y", "x", NULL, NULL);
+  test_job_csv (&j, &csv, NULL, 0, "y", "x", NULL, NULL);
   job_fit (&j, BL_METHOD_GLM, &bl_family_gamma, &bl_link_log);
   bl_diag_opts_init (&dopt);
   dopt.null_reps = 50;
@@ -915,7 +834,7 @@ START_TEST (diag_error_alloc_failure)
   }
   bl_alloc_fail_at (0);
   fprintf (stderr, "diag allocation failures provoked: %lu\n", nfail);
-  job_free (&j);
+  test_job_free (&j);
   free (csv.s);
 }
 END_TEST
@@ -933,18 +852,18 @@ START_TEST (diag_spread_false_flags)
     const size_t n = sizes[s], reps = 1000;
     size_t flags = 0, over95 = 0;
     for (size_t rep = 0; rep < reps; rep++) {
-      sbuf csv = { 0 };
-      job j = { 0 };
+      test_buf csv = { 0 };
+      test_job j = { 0 };
       bl_err err = { 0 };
       bl_diag_opts dopt;
       bl_diag *dg;
       gsl_rng_set (r, 100000u * (unsigned) s + (unsigned) rep);
-      sb_printf (&csv, "y,x\n");
+      test_buf_printf (&csv, "y,x\n");
       for (size_t i = 0; i < n; i++) {
         const double x = gsl_rng_uniform (r);
-        sb_printf (&csv, "%.17g,%.17g\n", 3.1 + 2.2 * x + gsl_ran_gaussian (r, 0.8), x);
+        test_buf_printf (&csv, "%.17g,%.17g\n", 3.1 + 2.2 * x + gsl_ran_gaussian (r, 0.8), x);
       }
-      job_design (&j, &csv, NULL, 0, "y", "x", NULL, NULL);
+      test_job_csv (&j, &csv, NULL, 0, "y", "x", NULL, NULL);
       job_fit (&j, BL_METHOD_OLS, &bl_family_gaussian, &bl_link_identity);
       bl_diag_opts_init (&dopt);
       dopt.seed = 7u + (unsigned long) rep;
@@ -954,7 +873,7 @@ START_TEST (diag_spread_false_flags)
       flags += (size_t) bl_diag_get (dg)->spread.flag;
       over95 += bl_diag_get (dg)->spread.ratio > bl_diag_get (dg)->spread.null95;
       bl_diag_free (dg);
-      job_free (&j);
+      test_job_free (&j);
       free (csv.s);
     }
     fprintf (stderr, "spread false-flag rate n=%zu: %zu/%zu (ratio above null95 alone: "
@@ -974,22 +893,22 @@ START_TEST (diag_power_families)
   gsl_rng *r = gsl_rng_alloc (gsl_rng_mt19937);
   for (int K = 0; K < 3; K++) {
     enum { N = 4000 };
-    sbuf csv = { 0 };
-    job j = { 0 };
+    test_buf csv = { 0 };
+    test_job j = { 0 };
     bl_err err = { 0 };
     bl_diag_opts dopt;
     bl_diag *dg;
     const bl_power *pw;
     gsl_rng_set (r, 300u + (unsigned) K);
-    sb_printf (&csv, "y,x\n");
+    test_buf_printf (&csv, "y,x\n");
     for (size_t i = 0; i < N; i++) {
       const double x = gsl_rng_uniform (r), mu = exp (0.5 + 2.0 * x);
       const double y = K == 0 ? mu + gsl_ran_gaussian (r, 1.5)
                        : K == 1 ? gsl_ran_gamma (r, 4.0, mu / 4.0)
                        : (double) gsl_ran_poisson (r, mu);
-      sb_printf (&csv, "%.17g,%.17g\n", y, x);
+      test_buf_printf (&csv, "%.17g,%.17g\n", y, x);
     }
-    job_design (&j, &csv, NULL, 0, "y", "x", NULL, NULL);
+    test_job_csv (&j, &csv, NULL, 0, "y", "x", NULL, NULL);
     if (K == 0)
       job_fit (&j, BL_METHOD_GLM, &bl_family_gaussian, &bl_link_log);
     else
@@ -1012,7 +931,7 @@ START_TEST (diag_power_families)
     ck_assert_msg (pw->suggested && strcmp (pw->suggested, want[K]) == 0,
                    "power %s: suggested %s", want[K], pw->suggested);
     bl_diag_free (dg);
-    job_free (&j);
+    test_job_free (&j);
     free (csv.s);
   }
   gsl_rng_free (r);
@@ -1028,19 +947,19 @@ START_TEST (diag_power_rows_and_left_out)
   gsl_rng *r = gsl_rng_alloc (gsl_rng_mt19937);
   for (size_t s = 0; s < 3; s++) {
     const size_t n = sizes[s];
-    sbuf csv = { 0 };
-    job j = { 0 };
+    test_buf csv = { 0 };
+    test_job j = { 0 };
     bl_err err = { 0 };
     bl_diag_opts dopt;
     bl_diag *dg;
     const bl_power *pw;
     gsl_rng_set (r, 41u + (unsigned) s);
-    sb_printf (&csv, "y,x\n");
+    test_buf_printf (&csv, "y,x\n");
     for (size_t i = 0; i < n; i++) {
       const double x = gsl_rng_uniform (r);
-      sb_printf (&csv, "%.17g,%.17g\n", -4.0 + 12.0 * x + gsl_ran_gaussian (r, 1.0), x);
+      test_buf_printf (&csv, "%.17g,%.17g\n", -4.0 + 12.0 * x + gsl_ran_gaussian (r, 1.0), x);
     }
-    job_design (&j, &csv, NULL, 0, "y", "x", NULL, NULL);
+    test_job_csv (&j, &csv, NULL, 0, "y", "x", NULL, NULL);
     job_fit (&j, BL_METHOD_OLS, &bl_family_gaussian, &bl_link_identity);
     bl_diag_opts_init (&dopt);
     dopt.null_reps = 100;
@@ -1071,7 +990,7 @@ START_TEST (diag_power_rows_and_left_out)
       free (ord);
     }
     bl_diag_free (dg);
-    job_free (&j);
+    test_job_free (&j);
     free (csv.s);
   }
   gsl_rng_free (r);
@@ -1087,19 +1006,19 @@ START_TEST (diag_lack_of_fit)
   for (size_t seed = 0; seed <= 20; seed++) {
     const int quad = seed == 20;
     const size_t n = quad ? 500 : 2000;
-    sbuf csv = { 0 };
-    job j = { 0 };
+    test_buf csv = { 0 };
+    test_job j = { 0 };
     bl_err err = { 0 };
     bl_diag_opts dopt;
     bl_diag *dg;
     gsl_rng_set (r, 900u + (unsigned) seed);
-    sb_printf (&csv, "y,x\n");
+    test_buf_printf (&csv, "y,x\n");
     for (size_t i = 0; i < n; i++) {
       const double x = 2.0 * gsl_rng_uniform (r);
       const double y = 1.3 + 0.7 * x + (quad ? 1.9 * x * x : 0.0) + gsl_ran_gaussian (r, 1.0);
-      sb_printf (&csv, "%.17g,%.17g\n", y, x);
+      test_buf_printf (&csv, "%.17g,%.17g\n", y, x);
     }
-    job_design (&j, &csv, NULL, 0, "y", "x", NULL, NULL);
+    test_job_csv (&j, &csv, NULL, 0, "y", "x", NULL, NULL);
     job_fit (&j, BL_METHOD_OLS, &bl_family_gaussian, &bl_link_identity);
     bl_diag_opts_init (&dopt);
     dopt.null_reps = 100;
@@ -1115,7 +1034,7 @@ START_TEST (diag_lack_of_fit)
       flagged += (size_t) bl_diag_get (dg)->lof.flag;
     }
     bl_diag_free (dg);
-    job_free (&j);
+    test_job_free (&j);
     free (csv.s);
   }
   fprintf (stderr, "lack of fit, correct model: %zu of 20 seeds flagged\n", flagged);
@@ -1162,12 +1081,5 @@ diag_suite (void)
 int
 main (void)
 {
-  SRunner *sr;
-  int failed;
-  gsl_set_error_handler_off ();
-  sr = srunner_create (diag_suite ());
-  srunner_run_all (sr, CK_NORMAL);
-  failed = srunner_ntests_failed (sr);
-  srunner_free (sr);
-  return failed ? EXIT_FAILURE : EXIT_SUCCESS;
+  return test_run_suite (diag_suite (), 1);
 }

@@ -439,12 +439,5 @@ family_suite (void)
 int
 main (void)
 {
-  SRunner *sr;
-  int failed;
-  gsl_set_error_handler_off ();
-  sr = srunner_create (family_suite ());
-  srunner_run_all (sr, CK_NORMAL);
-  failed = srunner_ntests_failed (sr);
-  srunner_free (sr);
-  return failed ? EXIT_FAILURE : EXIT_SUCCESS;
+  return test_run_suite (family_suite (), 1);
 }

@@ -16,7 +16,6 @@
      binned density above 2000 rows; a single model's coefficient table; a failed job. */
 #include <check.h>
 #include <math.h>
-#include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -36,31 +35,9 @@
 
 /* ---------------------------------------------------------------- helpers */
 
-typedef struct sbuf { char *s; size_t len, cap; } sbuf;
-
-static void
-sb_printf (sbuf *b, const char *fmt, ...)
-{
-  va_list ap;
-  int need;
-  for (;;) {
-    va_start (ap, fmt);
-    need = vsnprintf (b->s ? b->s + b->len : NULL, b->s ? b->cap - b->len : 0, fmt, ap);
-    va_end (ap);
-    ck_assert_int_ge (need, 0);
-    if (b->s && b->len + (size_t) need < b->cap) {
-      b->len += (size_t) need;
-      return;
-    }
-    b->cap = (b->cap + (size_t) need + 1) * 2;
-    b->s = realloc (b->s, b->cap);
-    ck_assert_ptr_nonnull (b->s);
-  }
-}
-
 /* Everything one job needs, freed together by job_free. */
 typedef struct job {
-  sbuf csv;
+  test_buf csv;
   bl_table *t;
   bl_terms *terms;
   bl_design *d;
@@ -90,12 +67,12 @@ job_data (job *j, size_t n, const char *resp_col)
   gsl_rng *r = gsl_rng_alloc (gsl_rng_mt19937);
   ck_assert_ptr_nonnull (r);
   gsl_rng_set (r, 4711);
-  sb_printf (&j->csv, "%s,x,g\n", resp_col);
+  test_buf_printf (&j->csv, "%s,x,g\n", resp_col);
   for (size_t i = 0; i < n; i++) {
     const double x = 2.0 * gsl_rng_uniform (r);
     const double mu = exp (1.0 + 0.8 * x);
-    sb_printf (&j->csv, "%.6g,%.6g,%s\n", gsl_ran_gamma (r, 3.0, mu / 3.0), x,
-               gsl_rng_uniform (r) < 0.5 ? "a<b" : "\"c&d\"");
+    test_buf_printf (&j->csv, "%.6g,%.6g,%s\n", gsl_ran_gamma (r, 3.0, mu / 3.0), x,
+                     gsl_rng_uniform (r) < 0.5 ? "a<b" : "\"c&d\"");
   }
   gsl_rng_free (r);
   j->t = bl_table_read_mem (j->csv.s, j->csv.len, "mem.csv", NULL, &err);
@@ -727,12 +704,5 @@ html_suite (void)
 int
 main (void)
 {
-  SRunner *sr;
-  int failed;
-  gsl_set_error_handler_off ();
-  sr = srunner_create (html_suite ());
-  srunner_run_all (sr, CK_NORMAL);
-  failed = srunner_ntests_failed (sr);
-  srunner_free (sr);
-  return failed ? EXIT_FAILURE : EXIT_SUCCESS;
+  return test_run_suite (html_suite (), 1);
 }

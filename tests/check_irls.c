@@ -12,7 +12,6 @@
      seeds), bit-identical results whatever the thread count. */
 #include <check.h>
 #include <math.h>
-#include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -29,145 +28,6 @@
 
 /* ---------------------------------------------------------------- helpers */
 
-/* Everything one fit needs, freed together by job_free. */
-typedef struct job {
-  bl_table *t;
-  bl_terms *terms, *off;
-  bl_design *d;
-  bl_fit *f;
-} job;
-
-static void
-job_free (job *j)
-{
-  bl_fit_free (j->f);
-  bl_design_free (j->d);
-  bl_terms_free (j->terms);
-  bl_terms_free (j->off);
-  bl_table_free (j->t);
-  memset (j, 0, sizeof *j);
-}
-
-static bl_table *
-table_mem (const char *csv, size_t len, const char *name, const char *const *cat, size_t ncat)
-{
-  bl_err err = { 0 };
-  bl_table_opts to;
-  bl_table *t;
-  bl_table_opts_init (&to);
-  to.categorical = cat;
-  to.n_categorical = ncat;
-  t = bl_table_read_mem (csv, len, name, &to, &err);
-  ck_assert_msg (t != NULL, "read %s: %s: %s", name, err.where, err.msg);
-  return t;
-}
-
-static bl_table *
-table_file (const char *file, const char *const *cat, size_t ncat)
-{
-  char path[1024];
-  bl_err err = { 0 };
-  bl_table_opts to;
-  bl_table *t;
-  bl_table_opts_init (&to);
-  to.categorical = cat;
-  to.n_categorical = ncat;
-  t = bl_table_read (test_data_path (file, path, sizeof path), &to, &err);
-  ck_assert_msg (t != NULL, "read %s: %s: %s", path, err.where, err.msg);
-  return t;
-}
-
-static bl_terms *
-terms_of (const char *text, const char *where)
-{
-  bl_err err = { 0 };
-  bl_terms *t;
-  if (!text)
-    return NULL;
-  t = bl_terms_parse (text, where, &err);
-  ck_assert_msg (t != NULL, "parse '%s': %s", text, err.msg);
-  return t;
-}
-
-/* Build J's design on J->t; TERMS NULL gives the intercept-only design. */
-static void
-job_design (job *j, const char *resp, const char *terms, const char *weights,
-            const char *offset)
-{
-  bl_err err = { 0 };
-  bl_design_opts dopt;
-  bl_design_opts_init (&dopt);
-  j->terms = terms_of (terms, "--terms");
-  j->off = terms_of (offset, "--offset");
-  dopt.weights = weights;
-  dopt.offset = j->off;
-  j->d = bl_design_new (j->t, resp, j->terms, &dopt, &err);
-  ck_assert_msg (j->d != NULL, "design '%s': %s: %s", terms ? terms : "(intercept)", err.where,
-                 err.msg);
-}
-
-/* Fit J's design with FAM and LNK (other options from BASE, or the defaults); require a
-   converged fit. */
-static const bl_fit *
-job_fit (job *j, const bl_family *fam, const bl_link *lnk, const bl_fit_opts *base)
-{
-  bl_err err = { 0 };
-  bl_fit_opts fo;
-  if (base)
-    fo = *base;
-  else
-    bl_fit_opts_init (&fo);
-  fo.fam = fam;
-  fo.link = lnk;
-  j->f = bl_fit_glm (j->d, &fo, &err);
-  ck_assert_msg (j->f != NULL, "fit %s/%s: %s: %s", fam->name, lnk->name, err.where, err.msg);
-  ck_assert_msg (bl_fit_stats_get (j->f)->converged, "fit %s/%s did not converge: %s",
-                 fam->name, lnk->name, bl_fit_status (j->f)->msg);
-  return j->f;
-}
-
-/* Column index of LABEL in D. */
-static size_t
-col_of (const bl_design *d, const char *label)
-{
-  for (size_t j = 0; j < bl_design_p (d); j++)
-    if (strcmp (bl_design_label (d, j), label) == 0)
-      return j;
-  ck_abort_msg ("no column '%s' in the design", label);
-  return 0;
-}
-
-/* Nonzero when some warning of F contains FRAG. */
-static int
-has_warning (const bl_fit *f, const char *frag)
-{
-  const bl_warnings *w = bl_fit_warnings (f);
-  for (size_t i = 0; i < w->n; i++)
-    if (strstr (w->msg[i], frag))
-      return 1;
-  return 0;
-}
-
-/* A growable text buffer for CSV built in memory. */
-typedef struct sbuf { char *s; size_t len, cap; } sbuf;
-
-static void
-sb_printf (sbuf *b, const char *fmt, ...)
-{
-  va_list ap;
-  int k;
-  if (b->cap - b->len < 256) {
-    b->cap = b->cap ? 2 * b->cap : 1 << 16;
-    b->s = realloc (b->s, b->cap);
-    ck_assert_msg (b->s != NULL, "sbuf: out of memory");
-  }
-  va_start (ap, fmt);
-  k = vsnprintf (b->s + b->len, b->cap - b->len, fmt, ap);
-  va_end (ap);
-  ck_assert_msg (k >= 0 && (size_t) k < b->cap - b->len, "sbuf: line too long");
-  b->len += (size_t) k;
-}
-
 static const bl_family *const fams[4] = {
   &bl_family_gaussian, &bl_family_poisson, &bl_family_gamma, &bl_family_invgauss
 };
@@ -178,12 +38,6 @@ static const char *
 mle_file (size_t k)
 {
   return k == 1 ? "mle_counts.csv" : "mle_amounts.csv";
-}
-
-static double
-rel (double x, double r)
-{
-  return fabs (x - r) / fabs (r);
 }
 
 /* ---------------------------------------------------------------- reference */
@@ -198,15 +52,15 @@ START_TEST (irls_clotting)
   const char *lot[2] = { "lot1", "lot2" };
   const double b0[2] = { -0.01655, -0.02391 }, b1[2] = { 0.01534, 0.02360 };
   for (size_t l = 0; l < 2; l++) {
-    job j = { 0 };
+    test_job j = { 0 };
     const double *b;
     size_t i0, i1;
-    j.t = table_file ("glm/clotting.csv", NULL, 0);
-    job_design (&j, lot[l], "log(u)", NULL, NULL);
-    job_fit (&j, &bl_family_gamma, &bl_link_inverse, NULL);
+    j.t = test_table_file ("glm/clotting.csv", NULL, 0);
+    test_job_design (&j, lot[l], "log(u)", NULL, NULL);
+    test_job_fit_glm (&j, &bl_family_gamma, &bl_link_inverse, NULL);
     b = bl_fit_beta (j.f);
-    i0 = col_of (j.d, "intercept");
-    i1 = col_of (j.d, "log(u)");
+    i0 = test_design_col (j.d, "intercept");
+    i1 = test_design_col (j.d, "log(u)");
     fprintf (stderr, "clotting %s: b0 %.7f (ref %.5f), b1 %.7f (ref %.5f)\n", lot[l], b[i0],
              b0[l], b[i1], b1[l]);
     ck_assert_msg (fabs (b[i0] - b0[l]) <= 0.5e-5, "clotting %s b0 = %.8f, ref %.5f", lot[l],
@@ -214,7 +68,7 @@ START_TEST (irls_clotting)
     ck_assert_msg (fabs (b[i1] - b1[l]) <= 0.5e-5, "clotting %s b1 = %.8f, ref %.5f", lot[l],
                    b[i1], b1[l]);
     ck_assert_uint_eq (bl_fit_stats_get (j.f)->n, 9);
-    job_free (&j);
+    test_job_free (&j);
   }
 }
 END_TEST
@@ -225,7 +79,7 @@ static char *
 ships_filtered (size_t *len, size_t *rows)
 {
   char path[1024], line[256];
-  sbuf b = { 0 };
+  test_buf b = { 0 };
   FILE *fp = fopen (test_data_path ("glm/ships.csv", path, sizeof path), "r");
   int header = 1;
   ck_assert_msg (fp != NULL, "open %s", path);
@@ -235,14 +89,14 @@ ships_filtered (size_t *len, size_t *rows)
     int year, period;
     double service, incidents;
     if (header) {
-      sb_printf (&b, "%s", line);
+      test_buf_printf (&b, "%s", line);
       header = 0;
       continue;
     }
     ck_assert_msg (sscanf (line, "%15[^,],%d,%d,%lf,%lf", type, &year, &period, &service,
                            &incidents) == 5, "ships.csv: bad line '%s'", line);
     if (service > 0.0) {
-      sb_printf (&b, "%s", line);
+      test_buf_printf (&b, "%s", line);
       (*rows)++;
     }
   }
@@ -265,15 +119,15 @@ START_TEST (irls_ships)
     { "type=E", 0.326 }, { "year=65", 0.697 }, { "year=70", 0.818 }, { "year=75", 0.453 },
     { "period=75", 0.384 }
   };
-  job j = { 0 };
+  test_job j = { 0 };
   size_t len, rows;
   char *csv = ships_filtered (&len, &rows);
   const bl_fit_stats *st;
   const double *b;
   ck_assert_uint_eq (rows, 34);
-  j.t = table_mem (csv, len, "ships34.csv", cat, 2);
-  job_design (&j, "incidents", "type, year, period", NULL, "log(service)");
-  job_fit (&j, &bl_family_poisson, &bl_link_log, NULL);
+  j.t = test_table_mem (csv, len, "ships34.csv", cat, 2);
+  test_job_design (&j, "incidents", "type, year, period", NULL, "log(service)");
+  test_job_fit_glm (&j, &bl_family_poisson, &bl_link_log, NULL);
   st = bl_fit_stats_get (j.f);
   b = bl_fit_beta (j.f);
   fprintf (stderr, "ships: deviance %.5f on %zu df (ref 38.69 on 25), pearson/dof %.5f "
@@ -289,14 +143,14 @@ START_TEST (irls_ships)
                  st->phi_pearson);
   ck_assert_msg (fabs (st->pearson / 25.0 - 1.69) <= 0.005, "ships pearson %.6f", st->pearson);
   for (size_t k = 0; k < sizeof pub / sizeof pub[0]; k++) {
-    const double x = b[col_of (j.d, pub[k].label)];
+    const double x = b[test_design_col (j.d, pub[k].label)];
     fprintf (stderr, "ships: %-10s %9.5f (ref %6.3f)\n", pub[k].label, x, pub[k].b);
     ck_assert_msg (fabs (x - pub[k].b) <= 0.0005, "ships %s = %.6f, ref %.3f", pub[k].label,
                    x, pub[k].b);
   }
   /* phi = 1.69 > BL_FIT_OVERDISPERSION: the fitter warns (fit.h, common practice) */
-  ck_assert_msg (has_warning (j.f, "overdispersion"), "ships: no overdispersion warning");
-  job_free (&j);
+  ck_assert_msg (test_fit_has_warning (j.f, "overdispersion"), "ships: no overdispersion warning");
+  test_job_free (&j);
   free (csv);
 }
 END_TEST
@@ -474,21 +328,21 @@ START_TEST (irls_scipy_mle)
     const double *b, *se;
     double wb = 0.0, wfp = 0.0, wse = 0.0, wll, wdev, wphi, wphip, wx2, bfp[3], phip_ref;
     size_t steps;
-    job j = { 0 }, j2 = { 0 };
+    test_job j = { 0 }, j2 = { 0 };
     ck_assert_msg (fam && lnk, "glm_mle.txt: unknown pair %s %s", r[c].fam, r[c].link);
     for (size_t k = 0; k < 4; k++)
       for (size_t l = 0; l < 3; l++)
         if (fams[k] == fam && lnks[l] == lnk)
           seen[k][l]++;
-    j.t = table_file (r[c].data, NULL, 0);
-    job_design (&j, "y", "x1, x2", "w", NULL);
-    job_fit (&j, fam, lnk, NULL);
+    j.t = test_table_file (r[c].data, NULL, 0);
+    test_job_design (&j, "y", "x1, x2", "w", NULL);
+    test_job_fit_glm (&j, fam, lnk, NULL);
     st = bl_fit_stats_get (j.f);
     b = bl_fit_beta (j.f);
     ck_assert_uint_eq (st->n, 60);
-    j2.t = table_file (r[c].data, NULL, 0);
-    job_design (&j2, "y", "x1, x2", "w", NULL);
-    job_fit (&j2, fam, lnk, &tight);
+    j2.t = test_table_file (r[c].data, NULL, 0);
+    test_job_design (&j2, "y", "x1, x2", "w", NULL);
+    test_job_fit_glm (&j2, fam, lnk, &tight);
     st2 = bl_fit_stats_get (j2.f);
     se = bl_fit_se (j2.f);
     steps = engine_fixed_point (j.d, fam, lnk, bfp);
@@ -496,7 +350,7 @@ START_TEST (irls_scipy_mle)
       const double scale = fabs (r[c].beta[k]) + r[c].se[k];
       const double dfp = fabs (bfp[k] - r[c].beta[k]) / scale;
       const double db = fabs (b[k] - r[c].beta[k]) / scale;
-      const double ds = rel (se[k], r[c].se[k]);
+      const double ds = test_rel (se[k], r[c].se[k]);
       wfp = dfp > wfp ? dfp : wfp;
       wb = db > wb ? db : wb;
       wse = ds > wse ? ds : wse;
@@ -508,12 +362,12 @@ START_TEST (irls_scipy_mle)
       ck_assert_msg (ds <= 1e-7, "%s %s se[%zu] = %.17g, ref se_fisher %.17g (rel %.2g)",
                      r[c].fam, r[c].link, k, se[k], r[c].se[k], ds);
     }
-    wll = rel (st->loglik, r[c].loglik);
-    wdev = rel (st->deviance, r[c].dev);
-    wphi = rel (st->phi_ml, r[c].phi_ml);
-    wx2 = rel (st2->pearson, r[c].x2);
+    wll = test_rel (st->loglik, r[c].loglik);
+    wdev = test_rel (st->deviance, r[c].dev);
+    wphi = test_rel (st->phi_ml, r[c].phi_ml);
+    wx2 = test_rel (st2->pearson, r[c].x2);
     phip_ref = fam->phi_free ? r[c].phi_p : r[c].x2 / 57.0;
-    wphip = rel (st2->phi_pearson, phip_ref);
+    wphip = test_rel (st2->phi_pearson, phip_ref);
     fprintf (stderr, "glm_mle %-16s %-8s worst diff: engine beta %.1e (%zu steps); default "
              "fit beta %.1e (%zu iter) loglik %.1e deviance %.1e phi_ml %.1e; tight fit "
              "(%zu iter) se %.1e pearson %.1e phi_pearson %.1e\n", r[c].fam, r[c].link, wfp,
@@ -531,8 +385,8 @@ START_TEST (irls_scipy_mle)
     if (!fam->phi_free)
       ck_assert_msg (st2->phi_used == r[c].phi_p, "%s %s phi_used %.17g, ref %.17g", r[c].fam,
                      r[c].link, st2->phi_used, r[c].phi_p);
-    job_free (&j);
-    job_free (&j2);
+    test_job_free (&j);
+    test_job_free (&j2);
   }
   for (size_t k = 0; k < 4; k++)
     for (size_t l = 0; l < 3; l++)
@@ -555,31 +409,31 @@ START_TEST (irls_independence_table)
   };
   const char *rn[4] = { "R1", "R2", "R3", "R4" }, *cn[3] = { "ca", "cb", "cc" };
   double rt[4] = { 0 }, ct[3] = { 0 }, tot = 0.0, worst = 0.0;
-  sbuf b = { 0 };
-  job j = { 0 };
+  test_buf b = { 0 };
+  test_job j = { 0 };
   const double *mu;
-  sb_printf (&b, "r,c,count\n");
+  test_buf_printf (&b, "r,c,count\n");
   for (size_t i = 0; i < 4; i++)
     for (size_t k = 0; k < 3; k++) {
-      sb_printf (&b, "%s,%s,%g\n", rn[i], cn[k], cnt[i][k]);
+      test_buf_printf (&b, "%s,%s,%g\n", rn[i], cn[k], cnt[i][k]);
       rt[i] += cnt[i][k];
       ct[k] += cnt[i][k];
       tot += cnt[i][k];
     }
-  j.t = table_mem (b.s, b.len, "table43.csv", NULL, 0);
-  job_design (&j, "count", "r, c", NULL, NULL);
-  job_fit (&j, &bl_family_poisson, &bl_link_log, NULL);
+  j.t = test_table_mem (b.s, b.len, "table43.csv", NULL, 0);
+  test_job_design (&j, "count", "r, c", NULL, NULL);
+  test_job_fit_glm (&j, &bl_family_poisson, &bl_link_log, NULL);
   ck_assert_uint_eq (bl_design_p (j.d), 6);
   mu = bl_fit_mu (j.f);
   for (size_t i = 0; i < 4; i++)
     for (size_t k = 0; k < 3; k++) {
       const double want = rt[i] * ct[k] / tot, got = mu[i * 3 + k];
-      worst = rel (got, want) > worst ? rel (got, want) : worst;
-      ck_assert_msg (rel (got, want) <= 1e-9, "independence mu[%s,%s] = %.17g, closed form "
+      worst = test_rel (got, want) > worst ? test_rel (got, want) : worst;
+      ck_assert_msg (test_rel (got, want) <= 1e-9, "independence mu[%s,%s] = %.17g, closed form "
                      "%.17g", rn[i], cn[k], got, want);
     }
   fprintf (stderr, "independence table: worst rel diff of mu %.1e\n", worst);
-  job_free (&j);
+  test_job_free (&j);
   free (b.s);
 }
 END_TEST
@@ -592,15 +446,15 @@ START_TEST (irls_intercept_only)
 {
   for (size_t k = 0; k < 4; k++)
     for (size_t l = 0; l < 3; l++) {
-      job j = { 0 };
+      test_job j = { 0 };
       const double *y, *a, *mu;
       const bl_fit_stats *st;
       long double sy = 0.0L, sa = 0.0L;
       double ybar, worst = 0.0;
       size_t n;
-      j.t = table_file (mle_file (k), NULL, 0);
-      job_design (&j, "y", NULL, "w", NULL);
-      job_fit (&j, fams[k], lnks[l], NULL);
+      j.t = test_table_file (mle_file (k), NULL, 0);
+      test_job_design (&j, "y", NULL, "w", NULL);
+      test_job_fit_glm (&j, fams[k], lnks[l], NULL);
       n = bl_design_n (j.d);
       y = bl_design_y (j.d);
       a = bl_design_prior_w (j.d);
@@ -614,18 +468,18 @@ START_TEST (irls_intercept_only)
       }
       ybar = (double) (sy / sa);
       for (size_t i = 0; i < n; i++) {
-        worst = rel (mu[i], ybar) > worst ? rel (mu[i], ybar) : worst;
-        ck_assert_msg (rel (mu[i], ybar) <= 1e-10, "%s/%s intercept-only mu[%zu] = %.17g, "
+        worst = test_rel (mu[i], ybar) > worst ? test_rel (mu[i], ybar) : worst;
+        ck_assert_msg (test_rel (mu[i], ybar) <= 1e-10, "%s/%s intercept-only mu[%zu] = %.17g, "
                        "weighted mean %.17g", fams[k]->name, lnks[l]->name, i, mu[i], ybar);
       }
-      ck_assert_msg (rel (st->deviance, st->deviance_null) <= 1e-10, "%s/%s intercept-only "
+      ck_assert_msg (test_rel (st->deviance, st->deviance_null) <= 1e-10, "%s/%s intercept-only "
                      "deviance %.17g, null %.17g", fams[k]->name, lnks[l]->name, st->deviance,
                      st->deviance_null);
-      ck_assert_msg (rel (bl_fit_beta (j.f)[0], lnks[l]->g (ybar)) <= 1e-10, "%s/%s b0",
+      ck_assert_msg (test_rel (bl_fit_beta (j.f)[0], lnks[l]->g (ybar)) <= 1e-10, "%s/%s b0",
                      fams[k]->name, lnks[l]->name);
       fprintf (stderr, "intercept-only %-16s %-8s worst rel diff of mu %.1e\n", fams[k]->name,
                lnks[l]->name, worst);
-      job_free (&j);
+      test_job_free (&j);
     }
 }
 END_TEST
@@ -671,14 +525,14 @@ START_TEST (irls_loglik_gsl)
 {
   for (size_t k = 0; k < 4; k++)
     for (size_t l = 0; l < 3; l++) {
-      job j = { 0 };
+      test_job j = { 0 };
       const bl_fit_stats *st;
       double ref;
       size_t n;
       const double *y, *a, *mu;
-      j.t = table_file (mle_file (k), NULL, 0);
-      job_design (&j, "y", "x1, x2", "w", NULL);
-      job_fit (&j, fams[k], lnks[l], NULL);
+      j.t = test_table_file (mle_file (k), NULL, 0);
+      test_job_design (&j, "y", "x1, x2", "w", NULL);
+      test_job_fit_glm (&j, fams[k], lnks[l], NULL);
       st = bl_fit_stats_get (j.f);
       n = bl_design_n (j.d);
       y = bl_design_y (j.d);
@@ -687,9 +541,10 @@ START_TEST (irls_loglik_gsl)
       ck_assert (a != NULL);
       ref = gsl_loglik (k, y, mu, a, n, st->phi_ml);
       fprintf (stderr, "loglik vs gsl %-16s %-8s rel diff %.1e\n", fams[k]->name,
-               lnks[l]->name, rel (st->loglik, ref));
-      ck_assert_msg (rel (st->loglik, ref) <= 1e-10, "%s/%s loglik %.17g, gsl densities %.17g",
-                     fams[k]->name, lnks[l]->name, st->loglik, ref);
+               lnks[l]->name, test_rel (st->loglik, ref));
+      ck_assert_msg (test_rel (st->loglik, ref) <= 1e-10,
+                     "%s/%s loglik %.17g, gsl densities %.17g", fams[k]->name, lnks[l]->name,
+                     st->loglik, ref);
       ck_assert_msg (st->aic == -2.0 * st->loglik + 2.0 * (double) st->k, "%s/%s aic",
                      fams[k]->name, lnks[l]->name);
       ck_assert_uint_eq (st->k, 3 + (k == 1 ? 0 : 1));
@@ -699,7 +554,7 @@ START_TEST (irls_loglik_gsl)
                        "%s/%s phi_ml %.17g is not the maximum over phi", fams[k]->name,
                        lnks[l]->name, st->phi_ml);
       }
-      job_free (&j);
+      test_job_free (&j);
     }
 }
 END_TEST
@@ -721,27 +576,28 @@ static const int rep_w[12] = { 2, 1, 3, 1, 4, 2, 1, 3, 2, 1, 3, 2 };
 
 START_TEST (irls_weights_replicate)
 {
-  sbuf bw = { 0 }, br = { 0 };
-  sb_printf (&bw, "ya,yc,x1,x2,w\n");
-  sb_printf (&br, "ya,yc,x1,x2\n");
+  test_buf bw = { 0 }, br = { 0 };
+  test_buf_printf (&bw, "ya,yc,x1,x2,w\n");
+  test_buf_printf (&br, "ya,yc,x1,x2\n");
   for (size_t i = 0; i < 12; i++) {
-    sb_printf (&bw, "%g,%g,%g,%g,%d\n", rep_ya[i], rep_yc[i], rep_x1[i], rep_x2[i], rep_w[i]);
+    test_buf_printf (&bw, "%g,%g,%g,%g,%d\n", rep_ya[i], rep_yc[i], rep_x1[i], rep_x2[i],
+                     rep_w[i]);
     for (int r = 0; r < rep_w[i]; r++)
-      sb_printf (&br, "%g,%g,%g,%g\n", rep_ya[i], rep_yc[i], rep_x1[i], rep_x2[i]);
+      test_buf_printf (&br, "%g,%g,%g,%g\n", rep_ya[i], rep_yc[i], rep_x1[i], rep_x2[i]);
   }
   for (size_t k = 0; k < 4; k++)
     for (size_t l = 0; l < 3; l++) {
-      job jw = { 0 }, jr = { 0 };
+      test_job jw = { 0 }, jr = { 0 };
       const char *resp = k == 1 ? "yc" : "ya";
       const bl_fit_stats *sw, *sr;
       const double *bwt, *brp, *se;
       double worst = 0.0;
-      jw.t = table_mem (bw.s, bw.len, "weighted.csv", NULL, 0);
-      jr.t = table_mem (br.s, br.len, "replicated.csv", NULL, 0);
-      job_design (&jw, resp, "x1, x2", "w", NULL);
-      job_design (&jr, resp, "x1, x2", NULL, NULL);
-      job_fit (&jw, fams[k], lnks[l], NULL);
-      job_fit (&jr, fams[k], lnks[l], NULL);
+      jw.t = test_table_mem (bw.s, bw.len, "weighted.csv", NULL, 0);
+      jr.t = test_table_mem (br.s, br.len, "replicated.csv", NULL, 0);
+      test_job_design (&jw, resp, "x1, x2", "w", NULL);
+      test_job_design (&jr, resp, "x1, x2", NULL, NULL);
+      test_job_fit_glm (&jw, fams[k], lnks[l], NULL);
+      test_job_fit_glm (&jr, fams[k], lnks[l], NULL);
       sw = bl_fit_stats_get (jw.f);
       sr = bl_fit_stats_get (jr.f);
       bwt = bl_fit_beta (jw.f);
@@ -755,17 +611,17 @@ START_TEST (irls_weights_replicate)
         ck_assert_msg (d <= 1e-9, "%s/%s beta[%zu] weighted %.17g, replicated %.17g",
                        fams[k]->name, lnks[l]->name, c, bwt[c], brp[c]);
       }
-      ck_assert_msg (rel (sw->deviance, sr->deviance) <= 1e-10, "%s/%s deviance weighted "
+      ck_assert_msg (test_rel (sw->deviance, sr->deviance) <= 1e-10, "%s/%s deviance weighted "
                      "%.17g, replicated %.17g", fams[k]->name, lnks[l]->name, sw->deviance,
                      sr->deviance);
       if (k == 1)
-        ck_assert_msg (rel (sw->loglik, sr->loglik) <= 1e-10, "poisson/%s loglik weighted "
+        ck_assert_msg (test_rel (sw->loglik, sr->loglik) <= 1e-10, "poisson/%s loglik weighted "
                        "%.17g, replicated %.17g", lnks[l]->name, sw->loglik, sr->loglik);
       fprintf (stderr, "weights vs replication %-16s %-8s beta %.1e deviance %.1e%s\n",
-               fams[k]->name, lnks[l]->name, worst, rel (sw->deviance, sr->deviance),
+               fams[k]->name, lnks[l]->name, worst, test_rel (sw->deviance, sr->deviance),
                k == 1 ? "" : " (loglik not compared)");
-      job_free (&jw);
-      job_free (&jr);
+      test_job_free (&jw);
+      test_job_free (&jr);
     }
   free (bw.s);
   free (br.s);
@@ -799,11 +655,11 @@ START_TEST (irls_error_support)
   static const char poi[] = "y,x\n3,1.1\n1,2.3\n-2,0.4\n5,1.9\n4,2.6\n";
   bl_fit_opts fo;
   bl_err err = { 0 };
-  job j = { 0 };
+  test_job j = { 0 };
   bl_fit *f;
   bl_fit_opts_init (&fo);
-  j.t = table_mem (gam, strlen (gam), "amounts.csv", NULL, 0);
-  job_design (&j, "y", "x", NULL, NULL);
+  j.t = test_table_mem (gam, strlen (gam), "amounts.csv", NULL, 0);
+  test_job_design (&j, "y", "x", NULL, NULL);
   fo.fam = &bl_family_gamma;
   f = bl_fit_glm (j.d, &fo, &err);
   expect_fail (f, &err, BL_EDATA, "amounts.csv:3", "has 2 values", "y > 0", "gamma y <= 0");
@@ -812,15 +668,15 @@ START_TEST (irls_error_support)
   bl_err_clear (&err);
   f = bl_fit_glm (j.d, &fo, &err);
   expect_fail (f, &err, BL_EDATA, "amounts.csv:3", "has 2 values", "y > 0", "invgauss y <= 0");
-  job_free (&j);
+  test_job_free (&j);
 
-  j.t = table_mem (poi, strlen (poi), "counts.csv", NULL, 0);
-  job_design (&j, "y", "x", NULL, NULL);
+  j.t = test_table_mem (poi, strlen (poi), "counts.csv", NULL, 0);
+  test_job_design (&j, "y", "x", NULL, NULL);
   fo.fam = &bl_family_poisson;
   bl_err_clear (&err);
   f = bl_fit_glm (j.d, &fo, &err);
   expect_fail (f, &err, BL_EDATA, "counts.csv:4", "has 1 value ", "y >= 0", "poisson y < 0");
-  job_free (&j);
+  test_job_free (&j);
 }
 END_TEST
 
@@ -828,12 +684,12 @@ END_TEST
 START_TEST (irls_error_poisson_nonint)
 {
   static const char csv[] = "y,x\n3,1.1\n1.5,2.3\n2,0.4\n5,1.9\n4.25,2.6\n6,3.3\n";
-  job j = { 0 };
-  j.t = table_mem (csv, strlen (csv), "frac.csv", NULL, 0);
-  job_design (&j, "y", "x", NULL, NULL);
-  job_fit (&j, &bl_family_poisson, &bl_link_log, NULL);
-  ck_assert_msg (has_warning (j.f, "2 non-integer values"), "no non-integer warning");
-  job_free (&j);
+  test_job j = { 0 };
+  j.t = test_table_mem (csv, strlen (csv), "frac.csv", NULL, 0);
+  test_job_design (&j, "y", "x", NULL, NULL);
+  test_job_fit_glm (&j, &bl_family_poisson, &bl_link_log, NULL);
+  ck_assert_msg (test_fit_has_warning (j.f, "2 non-integer values"), "no non-integer warning");
+  test_job_free (&j);
 }
 END_TEST
 
@@ -843,9 +699,9 @@ START_TEST (irls_error_options)
   const double bad_level[] = { 0.0, 1.0, 1.5, -0.2, NAN };
   bl_fit_opts fo;
   bl_err err = { 0 };
-  job j = { 0 };
-  j.t = table_file ("mle_amounts.csv", NULL, 0);
-  job_design (&j, "y", "x1, x2", "w", NULL);
+  test_job j = { 0 };
+  j.t = test_table_file ("mle_amounts.csv", NULL, 0);
+  test_job_design (&j, "y", "x1, x2", "w", NULL);
   bl_fit_opts_init (&fo);
   fo.method = BL_METHOD_OLS;
   fo.fam = &bl_family_gamma;
@@ -866,7 +722,7 @@ START_TEST (irls_error_options)
     expect_fail (bl_fit_glm (j.d, &fo, &err), &err, BL_ESPEC, "--level", "between 0 and 1",
                  NULL, what);
   }
-  job_free (&j);
+  test_job_free (&j);
 }
 END_TEST
 
@@ -876,11 +732,11 @@ START_TEST (irls_error_noconv)
 {
   bl_fit_opts fo;
   bl_err err = { 0 };
-  job j = { 0 };
+  test_job j = { 0 };
   const bl_fit_stats *st;
   const bl_err *s;
-  j.t = table_file ("mle_amounts.csv", NULL, 0);
-  job_design (&j, "y", "x1, x2", "w", NULL);
+  j.t = test_table_file ("mle_amounts.csv", NULL, 0);
+  test_job_design (&j, "y", "x1, x2", "w", NULL);
   bl_fit_opts_init (&fo);
   fo.fam = &bl_family_gamma;
   fo.link = &bl_link_log;
@@ -900,7 +756,7 @@ START_TEST (irls_error_noconv)
   ck_assert_msg (isnan (st->loglik) && st->loglik_why[0] != '\0', "noconv loglik %g",
                  st->loglik);
   ck_assert_msg (isnan (st->deviance), "noconv deviance %g", st->deviance);
-  job_free (&j);
+  test_job_free (&j);
 }
 END_TEST
 
@@ -910,9 +766,9 @@ START_TEST (irls_error_cancel)
   volatile sig_atomic_t flag = 1;
   bl_fit_opts fo;
   bl_err err = { 0 };
-  job j = { 0 };
-  j.t = table_file ("mle_amounts.csv", NULL, 0);
-  job_design (&j, "y", "x1, x2", "w", NULL);
+  test_job j = { 0 };
+  j.t = test_table_file ("mle_amounts.csv", NULL, 0);
+  test_job_design (&j, "y", "x1, x2", "w", NULL);
   bl_fit_opts_init (&fo);
   fo.fam = &bl_family_gamma;
   fo.irls.cancel = &flag;
@@ -923,7 +779,7 @@ START_TEST (irls_error_cancel)
   ck_assert_msg (strstr (bl_fit_status (j.f)->msg, "cancelled") != NULL, "cancel msg '%s'",
                  bl_fit_status (j.f)->msg);
   ck_assert_int_eq (bl_fit_stats_get (j.f)->converged, 0);
-  job_free (&j);
+  test_job_free (&j);
 }
 END_TEST
 
@@ -934,14 +790,14 @@ START_TEST (irls_error_no_start)
   static const char csv[] = "y,x\n-3.1,1.1\n-1.4,2.3\n-2.2,0.4\n-5.6,1.9\n";
   bl_fit_opts fo;
   bl_err err = { 0 };
-  job j = { 0 };
-  j.t = table_mem (csv, strlen (csv), "neg.csv", NULL, 0);
-  job_design (&j, "y", "x", NULL, NULL);
+  test_job j = { 0 };
+  j.t = test_table_mem (csv, strlen (csv), "neg.csv", NULL, 0);
+  test_job_design (&j, "y", "x", NULL, NULL);
   bl_fit_opts_init (&fo);
   fo.link = &bl_link_log;
   expect_fail (bl_fit_glm (j.d, &fo, &err), &err, BL_EDATA, "irls",
                "no valid starting mean at row 1", "log link", "gaussian log, y < 0");
-  job_free (&j);
+  test_job_free (&j);
 }
 END_TEST
 
@@ -952,17 +808,17 @@ START_TEST (irls_error_aliased)
   static const double x1[8] = { 0.37, -1.21, 2.05, 0.88, -0.46, 1.63, -0.97, 0.14 };
   static const double x2[8] = { 1.9, 0.27, -0.83, 1.12, 2.41, -0.35, 0.66, -1.48 };
   static const double y[8] = { 4.21, 1.37, 3.95, 5.02, 3.11, 3.88, 2.04, 1.76 };
-  sbuf b = { 0 };
-  sb_printf (&b, "y,x1,x2,x3\n");
+  test_buf b = { 0 };
+  test_buf_printf (&b, "y,x1,x2,x3\n");
   for (size_t i = 0; i < 8; i++)
-    sb_printf (&b, "%.17g,%.17g,%.17g,%.17g\n", y[i], x1[i], x2[i], 2.0 * x1[i]);
+    test_buf_printf (&b, "%.17g,%.17g,%.17g,%.17g\n", y[i], x1[i], x2[i], 2.0 * x1[i]);
   for (size_t k = 0; k < 4; k++) {
-    job j = { 0 };
+    test_job j = { 0 };
     const bl_fit_stats *st;
     const int *al;
-    j.t = table_mem (b.s, b.len, "alias.csv", NULL, 0);
-    job_design (&j, "y", "x1, x2, x3", NULL, NULL);
-    job_fit (&j, fams[k], &bl_link_log, NULL);
+    j.t = test_table_mem (b.s, b.len, "alias.csv", NULL, 0);
+    test_job_design (&j, "y", "x1, x2, x3", NULL, NULL);
+    test_job_fit_glm (&j, fams[k], &bl_link_log, NULL);
     st = bl_fit_stats_get (j.f);
     al = bl_fit_aliased (j.f);
     ck_assert_msg (st->rank == 3 && st->p == 4, "%s alias: rank %zu p %zu", fams[k]->name,
@@ -974,10 +830,10 @@ START_TEST (irls_error_aliased)
     for (size_t c = 0; c < 3; c++)
       ck_assert_msg (isfinite (bl_fit_beta (j.f)[c]) && bl_fit_se (j.f)[c] > 0.0, "%s alias: "
                      "beta[%zu] %g", fams[k]->name, c, bl_fit_beta (j.f)[c]);
-    ck_assert_msg (has_warning (j.f, "'x3' is aliased"), "%s alias: no warning",
+    ck_assert_msg (test_fit_has_warning (j.f, "'x3' is aliased"), "%s alias: no warning",
                    fams[k]->name);
     ck_assert_uint_eq (st->dof_resid, 5);
-    job_free (&j);
+    test_job_free (&j);
   }
   free (b.s);
 }
@@ -989,21 +845,21 @@ START_TEST (irls_error_perfect)
 {
   static const char csv[] = "y,x\n1.5,0.5\n2.125,1.75\n2.375,2.25\n2.75,3\n3.5,4.5\n"
                             "4.375,6.25\n";
-  job j = { 0 };
+  test_job j = { 0 };
   const bl_fit_stats *st;
-  j.t = table_mem (csv, strlen (csv), "exact.csv", NULL, 0);
-  job_design (&j, "y", "x", NULL, NULL);
-  job_fit (&j, &bl_family_gaussian, &bl_link_identity, NULL);
+  j.t = test_table_mem (csv, strlen (csv), "exact.csv", NULL, 0);
+  test_job_design (&j, "y", "x", NULL, NULL);
+  test_job_fit_glm (&j, &bl_family_gaussian, &bl_link_identity, NULL);
   st = bl_fit_stats_get (j.f);
   ck_assert_int_eq (st->perfect, 1);
   ck_assert_msg (isnan (st->loglik) && isnan (st->aic) && isnan (st->bic), "perfect: loglik "
                  "%g aic %g", st->loglik, st->aic);
   ck_assert_msg (st->loglik_why[0] != '\0', "perfect: loglik_why empty");
-  ck_assert_msg (has_warning (j.f, "perfect fit"), "perfect: no warning");
+  ck_assert_msg (test_fit_has_warning (j.f, "perfect fit"), "perfect: no warning");
   ck_assert_msg (fabs (bl_fit_beta (j.f)[0] - 1.25) <= 1e-14
                  && fabs (bl_fit_beta (j.f)[1] - 0.5) <= 1e-14, "perfect: beta %.17g %.17g",
                  bl_fit_beta (j.f)[0], bl_fit_beta (j.f)[1]);
-  job_free (&j);
+  test_job_free (&j);
 }
 END_TEST
 
@@ -1015,9 +871,9 @@ START_TEST (irls_error_ships_offset)
   char want[1100];
   bl_err err = { 0 };
   bl_design_opts dopt;
-  bl_terms *terms = terms_of ("type, year, period", "--terms");
-  bl_terms *off = terms_of ("log(service)", "--offset");
-  bl_table *t = table_file ("glm/ships.csv", cat, 2);
+  bl_terms *terms = test_terms_parse ("type, year, period", "--terms");
+  bl_terms *off = test_terms_parse ("log(service)", "--offset");
+  bl_table *t = test_table_file ("glm/ships.csv", cat, 2);
   bl_design *d;
   bl_design_opts_init (&dopt);
   dopt.offset = off;
@@ -1039,11 +895,11 @@ END_TEST
 START_TEST (irls_error_alloc_failure)
 {
   bl_fit_opts fo;
-  job j = { 0 };
+  test_job j = { 0 };
   bl_fit *f;
   unsigned long n;
-  j.t = table_file ("mle_amounts.csv", NULL, 0);
-  job_design (&j, "y", "x1, x2", "w", NULL);
+  j.t = test_table_file ("mle_amounts.csv", NULL, 0);
+  test_job_design (&j, "y", "x1, x2", "w", NULL);
   bl_fit_opts_init (&fo);
   fo.fam = &bl_family_gamma;
   fo.link = &bl_link_log;
@@ -1068,7 +924,7 @@ START_TEST (irls_error_alloc_failure)
     fprintf (stderr, "alloc failure: bl_fit_glm succeeded from allocation %lu on\n", n);
     ck_assert_msg (n > 10, "alloc failure: only %lu allocations", n);
   }
-  job_free (&j);
+  test_job_free (&j);
 }
 END_TEST
 
@@ -1094,9 +950,9 @@ sim_csv (unsigned long seed, size_t k, const bl_link *lnk, size_t n, const doubl
          double phi, size_t *len)
 {
   gsl_rng *r = gsl_rng_alloc (gsl_rng_mt19937);
-  sbuf s = { 0 };
+  test_buf s = { 0 };
   gsl_rng_set (r, seed);
-  sb_printf (&s, "y,x1,x2\n");
+  test_buf_printf (&s, "y,x1,x2\n");
   for (size_t i = 0; i < n; i++) {
     const double x1 = 2.0 * gsl_rng_uniform (r) - 1.0, x2 = gsl_ran_gaussian (r, 0.5);
     const double mu = lnk->ginv (b[0] + b[1] * x1 + b[2] * x2);
@@ -1107,7 +963,7 @@ sim_csv (unsigned long seed, size_t k, const bl_link *lnk, size_t n, const doubl
     case 2: y = gsl_ran_gamma (r, 1.0 / phi, mu * phi); break;
     default: y = ran_invgauss (r, mu, 1.0 / phi); break;
     }
-    sb_printf (&s, "%.17g,%.17g,%.17g\n", y, x1, x2);
+    test_buf_printf (&s, "%.17g,%.17g,%.17g\n", y, x1, x2);
   }
   gsl_rng_free (r);
   *len = s.len;
@@ -1131,12 +987,12 @@ START_TEST (irls_simulation_recovery)
     size_t len;
     char *csv = sim_csv (sims[s].seed, sims[s].k, sims[s].l, 100000, sims[s].b, sims[s].phi,
                          &len);
-    job j = { 0 };
+    test_job j = { 0 };
     const double *b, *se;
     const bl_fit_stats *st;
-    j.t = table_mem (csv, len, "sim.csv", NULL, 0);
-    job_design (&j, "y", "x1, x2", NULL, NULL);
-    job_fit (&j, fams[sims[s].k], sims[s].l, NULL);
+    j.t = test_table_mem (csv, len, "sim.csv", NULL, 0);
+    test_job_design (&j, "y", "x1, x2", NULL, NULL);
+    test_job_fit_glm (&j, fams[sims[s].k], sims[s].l, NULL);
     b = bl_fit_beta (j.f);
     se = bl_fit_se (j.f);
     st = bl_fit_stats_get (j.f);
@@ -1150,10 +1006,10 @@ START_TEST (irls_simulation_recovery)
     if (sims[s].k != 1) {
       fprintf (stderr, "simulation %-16s phi_ml = %.5f (true %.3f)\n", fams[sims[s].k]->name,
                st->phi_ml, sims[s].phi);
-      ck_assert_msg (rel (st->phi_ml, sims[s].phi) <= 0.03, "simulation %s phi_ml %.6f, true "
+      ck_assert_msg (test_rel (st->phi_ml, sims[s].phi) <= 0.03, "simulation %s phi_ml %.6f, true "
                      "%.3f", fams[sims[s].k]->name, st->phi_ml, sims[s].phi);
     }
-    job_free (&j);
+    test_job_free (&j);
     free (csv);
   }
 }
@@ -1167,12 +1023,12 @@ START_TEST (irls_threads_bit_identical)
   static const double b0[3] = { 1.2, 0.3, -0.5 };
   size_t len, n;
   char *csv = sim_csv (7321, 2, &bl_link_log, 50000, b0, 0.4, &len);
-  job j = { 0 };
+  test_job j = { 0 };
   bl_fit *f[3];
   bl_fit_opts fo;
   bl_err err = { 0 };
-  j.t = table_mem (csv, len, "sim50k.csv", NULL, 0);
-  job_design (&j, "y", "x1, x2", NULL, NULL);
+  j.t = test_table_mem (csv, len, "sim50k.csv", NULL, 0);
+  test_job_design (&j, "y", "x1, x2", NULL, NULL);
   n = bl_design_n (j.d);
   for (int t = 0; t < 3; t++) {
     bl_fit_opts_init (&fo);
@@ -1199,11 +1055,11 @@ START_TEST (irls_threads_bit_identical)
                    <= 1e-10 * (fabs (bl_fit_beta (f[2])[c]) + bl_fit_se (f[2])[c]),
                    "streamed vs extended beta[%zu] %.17g %.17g", c, bl_fit_beta (f[0])[c],
                    bl_fit_beta (f[2])[c]);
-  ck_assert_msg (rel (bl_fit_stats_get (f[0])->deviance, bl_fit_stats_get (f[2])->deviance)
+  ck_assert_msg (test_rel (bl_fit_stats_get (f[0])->deviance, bl_fit_stats_get (f[2])->deviance)
                  <= 1e-10, "streamed vs extended deviance");
   for (int t = 0; t < 3; t++)
     bl_fit_free (f[t]);
-  job_free (&j);
+  test_job_free (&j);
   free (csv);
 }
 END_TEST
@@ -1212,14 +1068,14 @@ END_TEST
    errors; summary counts are consistent (fit.h). */
 START_TEST (irls_ols_equals_glm)
 {
-  job j = { 0 };
+  test_job j = { 0 };
   bl_fit_opts fo;
   bl_err err = { 0 };
   bl_fit *ols;
   const bl_fit_stats *st;
-  j.t = table_file ("mle_amounts.csv", NULL, 0);
-  job_design (&j, "y", "x1, x2", "w", NULL);
-  job_fit (&j, &bl_family_gaussian, &bl_link_identity, NULL);
+  j.t = test_table_file ("mle_amounts.csv", NULL, 0);
+  test_job_design (&j, "y", "x1, x2", "w", NULL);
+  test_job_fit_glm (&j, &bl_family_gaussian, &bl_link_identity, NULL);
   bl_fit_opts_init (&fo);
   fo.method = BL_METHOD_OLS;
   ols = bl_fit_glm (j.d, &fo, &err);
@@ -1242,7 +1098,7 @@ START_TEST (irls_ols_equals_glm)
   ck_assert_ptr_eq (bl_fit_design (j.f), j.d);
   ck_assert_int_eq (bl_fit_status (j.f)->code, BL_OK);
   bl_fit_free (ols);
-  job_free (&j);
+  test_job_free (&j);
 }
 END_TEST
 
@@ -1289,12 +1145,5 @@ irls_suite (void)
 int
 main (void)
 {
-  SRunner *sr;
-  int failed;
-  gsl_set_error_handler_off ();
-  sr = srunner_create (irls_suite ());
-  srunner_run_all (sr, CK_NORMAL);
-  failed = srunner_ntests_failed (sr);
-  srunner_free (sr);
-  return failed ? EXIT_FAILURE : EXIT_SUCCESS;
+  return test_run_suite (irls_suite (), 1);
 }

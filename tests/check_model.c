@@ -17,7 +17,6 @@
      eq. 2.1). */
 #include <check.h>
 #include <math.h>
-#include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -38,29 +37,6 @@
 static const char *const sites[] = { "east-wharf", "kiln-road", "mill-lane", "north-quay" };
 static const char *const duties[] = { "heavy", "light", "standard" };
 
-/* A growing text buffer. */
-typedef struct sbuf {
-  char *s;
-  size_t n, cap;
-} sbuf;
-
-static void
-sb_printf (sbuf *b, const char *fmt, ...)
-{
-  va_list ap;
-  int k;
-  if (b->cap - b->n < 512) {
-    b->cap = b->cap ? 2 * b->cap : 4096;
-    b->s = realloc (b->s, b->cap);
-    ck_assert_ptr_nonnull (b->s);
-  }
-  va_start (ap, fmt);
-  k = vsnprintf (b->s + b->n, b->cap - b->n, fmt, ap);
-  va_end (ap);
-  ck_assert (k > 0 && (size_t) k < b->cap - b->n);
-  b->n += (size_t) k;
-}
-
 /* N rows of the pump fleet from SEED (caller frees). */
 static char *
 pump_csv (size_t n, unsigned long seed)
@@ -68,9 +44,9 @@ pump_csv (size_t n, unsigned long seed)
   static const double site_s[] = { 0.0, 0.31, -0.22, 0.47 }, site_r[] = { 0.0, -0.14, 0.26,
                                                                            0.09 };
   gsl_rng *r = gsl_rng_alloc (gsl_rng_mt19937);
-  sbuf b = { NULL, 0, 0 };
+  test_buf b = { NULL, 0, 0 };
   gsl_rng_set (r, seed);
-  sb_printf (&b, "site,duty,age,load,hours,stops,repair,amount,w\n");
+  test_buf_printf (&b, "site,duty,age,load,hours,stops,repair,amount,w\n");
   for (size_t i = 0; i < n; i++) {
     const size_t s = i < 4 ? i : gsl_rng_uniform_int (r, 4), du = gsl_rng_uniform_int (r, 3);
     const double age = 0.5 + 14.0 * gsl_rng_uniform (r);
@@ -84,8 +60,8 @@ pump_csv (size_t n, unsigned long seed)
     const double repair = gsl_ran_gamma (r, 2.7, mu_r / 2.7);
     const double amount = mu_a + gsl_ran_gaussian (r, 0.35 * pow (mu_a, 0.8));
     const double w = 0.5 + 1.5 * gsl_rng_uniform (r);
-    sb_printf (&b, "%s,%s,%.6g,%.4g,%.5g,%u,%.6g,%.6g,%.4g\n", sites[s], duties[du], age, load,
-               hours, stops, repair, amount, w);
+    test_buf_printf (&b, "%s,%s,%.6g,%.4g,%.5g,%u,%.6g,%.6g,%.4g\n", sites[s], duties[du], age,
+                     load, hours, stops, repair, amount, w);
   }
   gsl_rng_free (r);
   return b.s;
@@ -181,12 +157,6 @@ predict_ok (const job *j, const char *csv, double level, bl_table **tout, const 
   return p;
 }
 
-static double
-rel (double x, double c)
-{
-  return c == 0.0 ? fabs (x) : fabs (x - c) / fabs (c);
-}
-
 /* The round trip: predictions on the training rows reproduce the fitted means. */
 static void
 check_roundtrip (const char *resp, const char *terms, const char *offset, const char *weights,
@@ -207,8 +177,9 @@ check_roundtrip (const char *resp, const char *terms, const char *offset, const 
     /* transformed: the smeared mean of the fit at its own linear predictor */
     const double want = bl_fit_transform (j.f)->kind != BL_TRANSFORM_NONE
                         ? bl_fit_backtransform (j.f, eta[i], 1) : mu[i];
-    ck_assert_msg (rel (p->mean[i], want) <= 1e-12, "%s: mean[%zu] %.17g, fit %.17g (rel %g)",
-                   name, i, p->mean[i], want, rel (p->mean[i], want));
+    ck_assert_msg (test_rel_abs0 (p->mean[i], want) <= 1e-12,
+                   "%s: mean[%zu] %.17g, fit %.17g (rel %g)", name, i, p->mean[i], want,
+                   test_rel_abs0 (p->mean[i], want));
     ck_assert_msg (p->mean_lo[i] <= p->mean[i] && p->mean[i] <= p->mean_hi[i],
                    "%s: mean interval [%zu]", name, i);
     ck_assert_msg (p->pred_lo[i] <= p->mean_lo[i] + 1e-9 * fabs (p->mean[i])
@@ -218,7 +189,7 @@ check_roundtrip (const char *resp, const char *terms, const char *offset, const 
   for (size_t i = 0; i < n; i++)
     sse += (long double) (y[i] - p->mean[i]) * (y[i] - p->mean[i]);
   ck_assert_msg (p->has_response && p->n_scored == n, "%s: scores", name);
-  ck_assert_msg (rel (p->rmse, sqrt ((double) (sse / n))) <= 1e-12, "%s: rmse", name);
+  ck_assert_msg (test_rel_abs0 (p->rmse, sqrt ((double) (sse / n))) <= 1e-12, "%s: rmse", name);
   bl_prediction_free (p);
   job_free (&j);
   free (csv);
@@ -378,16 +349,16 @@ START_TEST (model_gaussian_textbook_intervals)
         for (size_t c = 0; c < P; c++)
           h += x[r] * gsl_matrix_get (xtx, r, c) * x[c];
       }
-      ck_assert_msg (rel (p->mean[i], xb) <= 1e-10, "gaussian %g mean[%zu]", level, i);
-      ck_assert_msg (rel (p->mean_lo[i], xb - t * s * sqrt (h)) <= 1e-10,
+      ck_assert_msg (test_rel_abs0 (p->mean[i], xb) <= 1e-10, "gaussian %g mean[%zu]", level, i);
+      ck_assert_msg (test_rel_abs0 (p->mean_lo[i], xb - t * s * sqrt (h)) <= 1e-10,
                      "gaussian %g mean_lo[%zu] %.17g want %.17g", level, i, p->mean_lo[i],
                      xb - t * s * sqrt (h));
-      ck_assert_msg (rel (p->mean_hi[i], xb + t * s * sqrt (h)) <= 1e-10,
+      ck_assert_msg (test_rel_abs0 (p->mean_hi[i], xb + t * s * sqrt (h)) <= 1e-10,
                      "gaussian %g mean_hi[%zu]", level, i);
-      ck_assert_msg (rel (p->pred_lo[i], xb - t * s * sqrt (1.0 + h)) <= 1e-10,
+      ck_assert_msg (test_rel_abs0 (p->pred_lo[i], xb - t * s * sqrt (1.0 + h)) <= 1e-10,
                      "gaussian %g pred_lo[%zu] %.17g want %.17g", level, i, p->pred_lo[i],
                      xb - t * s * sqrt (1.0 + h));
-      ck_assert_msg (rel (p->pred_hi[i], xb + t * s * sqrt (1.0 + h)) <= 1e-10,
+      ck_assert_msg (test_rel_abs0 (p->pred_hi[i], xb + t * s * sqrt (1.0 + h)) <= 1e-10,
                      "gaussian %g pred_hi[%zu]", level, i);
     }
     /* row 3 has no amount: scored over the other 5 */
@@ -458,11 +429,11 @@ START_TEST (model_wls_column_intervals)
       for (size_t c = 0; c < P; c++)
         h += x[r] * gsl_matrix_get (xtx, r, c) * x[c];
     }
-    ck_assert_msg (rel (p->pred_lo[i], xb - t * s * sqrt (v + h)) <= 1e-9,
+    ck_assert_msg (test_rel_abs0 (p->pred_lo[i], xb - t * s * sqrt (v + h)) <= 1e-9,
                    "wls pred_lo[%zu] %.17g want %.17g", i, p->pred_lo[i],
                    xb - t * s * sqrt (v + h));
-    ck_assert_msg (rel (p->pred_hi[i], xb + t * s * sqrt (v + h)) <= 1e-9, "wls pred_hi[%zu]",
-                   i);
+    ck_assert_msg (test_rel_abs0 (p->pred_hi[i], xb + t * s * sqrt (v + h)) <= 1e-9,
+                   "wls pred_hi[%zu]", i);
   }
   bl_prediction_free (p);
   bl_table_free (tn);
@@ -497,7 +468,7 @@ START_TEST (model_poisson_quantiles)
     x_row (tn, i, x);
     for (size_t r = 0; r < P; r++)
       eta += x[r] * b[r];
-    ck_assert_msg (rel (p->mean[i], exp (eta)) <= 1e-12, "poisson mean[%zu]", i);
+    ck_assert_msg (test_rel_abs0 (p->mean[i], exp (eta)) <= 1e-12, "poisson mean[%zu]", i);
     ck_assert_msg (lo == floor (lo) && hi == floor (hi) && lo <= hi, "poisson ends [%zu]", i);
     ck_assert_msg (gsl_cdf_poisson_P ((unsigned) lo, p->mean[i]) >= 0.025
                    && (lo == 0.0 || gsl_cdf_poisson_P ((unsigned) lo - 1, p->mean[i]) < 0.025),
@@ -942,10 +913,5 @@ model_suite (void)
 int
 main (void)
 {
-  SRunner *sr = srunner_create (model_suite ());
-  int nf;
-  srunner_run_all (sr, CK_NORMAL);
-  nf = srunner_ntests_failed (sr);
-  srunner_free (sr);
-  return nf == 0 ? EXIT_SUCCESS : EXIT_FAILURE;
+  return test_run_suite (model_suite (), 0);
 }

@@ -13,39 +13,6 @@
 
 /* ------------------------------------------------------------------ helpers */
 
-/* Gzip LEN bytes of DATA in one member with zlib's deflate (RFC 1952 wrapper via
-   windowBits 16 + MAX_WBITS, zlib.h).  Returns malloc'ed bytes and their count. */
-static unsigned char *
-gzip_bytes (const void *data, size_t len, size_t *out_len)
-{
-  z_stream zs;
-  unsigned char *out;
-  size_t cap;
-  memset (&zs, 0, sizeof zs);
-  ck_assert_int_eq (deflateInit2 (&zs, 6, Z_DEFLATED, 16 + MAX_WBITS, 8, Z_DEFAULT_STRATEGY),
-                    Z_OK);
-  cap = deflateBound (&zs, (uLong) len) + 64;
-  out = malloc (cap);
-  ck_assert_ptr_nonnull (out);
-  zs.next_in = (Bytef *) data;
-  zs.avail_in = (uInt) len;
-  zs.next_out = out;
-  zs.avail_out = (uInt) cap;
-  ck_assert_int_eq (deflate (&zs, Z_FINISH), Z_STREAM_END);
-  *out_len = zs.total_out;
-  deflateEnd (&zs);
-  return out;
-}
-
-static void
-write_file (const char *path, const void *data, size_t len)
-{
-  FILE *f = fopen (path, "wb");
-  ck_assert_msg (f != NULL, "cannot create %s", path);
-  ck_assert_uint_eq (fwrite (data, 1, len, f), len);
-  ck_assert_int_eq (fclose (f), 0);
-}
-
 /* Read everything from SRC in pieces of CAP bytes; returns malloc'ed bytes, *LEN, *STATUS. */
 static unsigned char *
 read_all (bl_source *src, size_t cap, size_t *len, int *status, bl_err *err)
@@ -147,7 +114,7 @@ START_TEST (source_file_plain)
   bl_source *src;
   test_tmpdir (dir, sizeof dir);
   snprintf (path, sizeof path, "%s/plain.csv", dir);
-  write_file (path, text, 300000);
+  test_write_file (path, text, 300000);
   src = bl_source_open (path, &err);
   ck_assert_msg (src != NULL, "source_file_plain: %s", err.msg);
   ck_assert_str_eq (bl_source_name (src), path);
@@ -173,7 +140,7 @@ START_TEST (source_file_empty)
   bl_source *src;
   test_tmpdir (dir, sizeof dir);
   snprintf (path, sizeof path, "%s/empty.csv", dir);
-  write_file (path, "", 0);
+  test_write_file (path, "", 0);
   src = bl_source_open (path, &err);
   ck_assert_ptr_nonnull (src);
   ck_assert_uint_eq (bl_source_read (src, out, sizeof out, &st, &err), 0);
@@ -191,12 +158,12 @@ START_TEST (source_stdin)
   char dir[512], path[600];
   bl_err err = { 0 };
   size_t zlen, len;
-  unsigned char *z = gzip_bytes (text, strlen (text), &zlen), *got;
+  unsigned char *z = test_gzip_bytes (text, strlen (text), &zlen), *got;
   int st, fd, saved;
   bl_source *src;
   test_tmpdir (dir, sizeof dir);
   snprintf (path, sizeof path, "%s/in.gz", dir);
-  write_file (path, z, zlen);
+  test_write_file (path, z, zlen);
   fd = open (path, O_RDONLY);
   ck_assert_int_ge (fd, 0);
   saved = dup (0);
@@ -230,13 +197,13 @@ START_TEST (source_gzip_file)
   bl_err err = { 0 };
   char *text = make_text (n);
   size_t zlen, len;
-  unsigned char *z = gzip_bytes (text, n, &zlen), *got;
+  unsigned char *z = test_gzip_bytes (text, n, &zlen), *got;
   int st;
   bl_source *src;
   ck_assert_msg (zlen > 256u * 1024u, "source_gzip_file: compressed only %zu bytes", zlen);
   test_tmpdir (dir, sizeof dir);
   snprintf (path, sizeof path, "%s/log.csv.gz", dir);
-  write_file (path, z, zlen);
+  test_write_file (path, z, zlen);
   src = bl_source_open (path, &err);
   ck_assert_msg (src != NULL, "source_gzip_file: %s", err.msg);
   ck_assert_int_eq (bl_source_is_gzip (src), 1);
@@ -261,7 +228,8 @@ START_TEST (source_gzip_concat)
   char dir[512], path[600];
   bl_err err = { 0 };
   size_t la, lb, len;
-  unsigned char *za = gzip_bytes (a, strlen (a), &la), *zb = gzip_bytes (b, strlen (b), &lb);
+  unsigned char *za = test_gzip_bytes (a, strlen (a), &la);
+  unsigned char *zb = test_gzip_bytes (b, strlen (b), &lb);
   unsigned char *both = malloc (la + lb), *got;
   int st;
   bl_source *src;
@@ -279,7 +247,7 @@ START_TEST (source_gzip_concat)
 
   test_tmpdir (dir, sizeof dir);
   snprintf (path, sizeof path, "%s/two.gz", dir);
-  write_file (path, both, la + lb);
+  test_write_file (path, both, la + lb);
   src = bl_source_open (path, &err);
   ck_assert_ptr_nonnull (src);
   got = read_all (src, 1 << 16, &len, &st, &err);
@@ -300,7 +268,7 @@ START_TEST (source_gzip_empty_member)
   /* A gzip member holding zero bytes inflates to nothing, without error. */
   bl_err err = { 0 };
   size_t zlen;
-  unsigned char *z = gzip_bytes ("", 0, &zlen), out[8];
+  unsigned char *z = test_gzip_bytes ("", 0, &zlen), out[8];
   int st;
   bl_source *src = bl_source_open_mem (z, zlen, "empty.gz", &err);
   ck_assert_ptr_nonnull (src);
@@ -367,7 +335,7 @@ START_TEST (source_gzip_truncated)
   const size_t n = 50000;
   char *text = make_text (n);
   size_t zlen;
-  unsigned char *z = gzip_bytes (text, n, &zlen);
+  unsigned char *z = test_gzip_bytes (text, n, &zlen);
   expect_gzip_error (z, zlen / 2, "truncated gzip stream", "truncated middle");
   expect_gzip_error (z, zlen - 3, "truncated gzip stream", "truncated trailer");
   expect_gzip_error (z, 10, "truncated gzip stream", "header only");
@@ -384,12 +352,12 @@ START_TEST (source_gzip_truncated_file)
   char *text = make_text (n);
   bl_err err = { 0 };
   size_t zlen, len;
-  unsigned char *z = gzip_bytes (text, n, &zlen), *got;
+  unsigned char *z = test_gzip_bytes (text, n, &zlen), *got;
   int st;
   bl_source *src;
   test_tmpdir (dir, sizeof dir);
   snprintf (path, sizeof path, "%s/cut.gz", dir);
-  write_file (path, z, zlen - 100);
+  test_write_file (path, z, zlen - 100);
   src = bl_source_open (path, &err);
   ck_assert_ptr_nonnull (src);
   got = read_all (src, 1 << 20, &len, &st, &err);
@@ -411,7 +379,7 @@ START_TEST (source_gzip_corrupt)
   const size_t n = 50000;
   char *text = make_text (n);
   size_t zlen;
-  unsigned char *z = gzip_bytes (text, n, &zlen);
+  unsigned char *z = test_gzip_bytes (text, n, &zlen);
   unsigned char *c = malloc (zlen + 16);
   /* RFC 1952 2.3.1: byte 2 is the compression method, 8 = deflate. */
   memcpy (c, z, zlen);
@@ -454,7 +422,7 @@ START_TEST (source_file_changed)
   bl_source *src;
   test_tmpdir (dir, sizeof dir);
   snprintf (path, sizeof path, "%s/grow.csv", dir);
-  write_file (path, text, 100000);
+  test_write_file (path, text, 100000);
   src = bl_source_open (path, &err);
   ck_assert_ptr_nonnull (src);
   ck_assert_uint_eq (bl_source_read (src, buf, sizeof buf, &st, &err), sizeof buf);
@@ -483,7 +451,7 @@ START_TEST (source_alloc_fail)
   const size_t n = 20000;
   char *text = make_text (n);
   size_t zlen;
-  unsigned char *z = gzip_bytes (text, n, &zlen);
+  unsigned char *z = test_gzip_bytes (text, n, &zlen);
   unsigned char *out = malloc (n + 1);
   unsigned long fail;
   bl_alloc_fail_at (0);
@@ -536,7 +504,7 @@ START_TEST (source_prefetch)
   char *text = make_text (n);
   bl_err err = { 0 };
   size_t zlen, len;
-  unsigned char *z = gzip_bytes (text, n, &zlen), *got, first[1000];
+  unsigned char *z = test_gzip_bytes (text, n, &zlen), *got, first[1000];
   int st;
   bl_source *src = bl_source_open_mem (z, zlen, "p.gz", &err);
   ck_assert_ptr_nonnull (src);
@@ -574,7 +542,7 @@ START_TEST (source_prefetch_errors)
   const size_t n = 400000;
   char *text = make_text (n);
   size_t zlen;
-  unsigned char *z = gzip_bytes (text, n, &zlen);
+  unsigned char *z = test_gzip_bytes (text, n, &zlen);
   const size_t cut[] = { zlen - 3, zlen / 2 };
   for (int k = 0; k < 3; k++) {
     bl_err e1 = { 0 }, e2 = { 0 };
@@ -639,10 +607,5 @@ source_suite (void)
 int
 main (void)
 {
-  SRunner *sr = srunner_create (source_suite ());
-  int failed;
-  srunner_run_all (sr, CK_NORMAL);
-  failed = srunner_ntests_failed (sr);
-  srunner_free (sr);
-  return failed == 0 ? EXIT_SUCCESS : EXIT_FAILURE;
+  return test_run_suite (source_suite (), 0);
 }

@@ -658,10 +658,5 @@ spec_suite (void)
 int
 main (void)
 {
-  SRunner *sr = srunner_create (spec_suite ());
-  int failed;
-  srunner_run_all (sr, CK_NORMAL);
-  failed = srunner_ntests_failed (sr);
-  srunner_free (sr);
-  return failed ? EXIT_FAILURE : EXIT_SUCCESS;
+  return test_run_suite (spec_suite (), 0);
 }

@@ -22,38 +22,6 @@ read_str (const char *text, const bl_table_opts *opt, bl_err *err)
   return bl_table_read_mem (text, strlen (text), "mem.csv", opt, err);
 }
 
-/* Gzip LEN bytes with zlib's deflate in a gzip wrapper (windowBits 16 + MAX_WBITS). */
-static unsigned char *
-gzip_bytes (const void *data, size_t len, size_t *out_len)
-{
-  z_stream zs;
-  unsigned char *out;
-  size_t cap;
-  memset (&zs, 0, sizeof zs);
-  ck_assert_int_eq (deflateInit2 (&zs, 6, Z_DEFLATED, 16 + MAX_WBITS, 8, Z_DEFAULT_STRATEGY),
-                    Z_OK);
-  cap = deflateBound (&zs, (uLong) len) + 64;
-  out = malloc (cap);
-  ck_assert_ptr_nonnull (out);
-  zs.next_in = (Bytef *) data;
-  zs.avail_in = (uInt) len;
-  zs.next_out = out;
-  zs.avail_out = (uInt) cap;
-  ck_assert_int_eq (deflate (&zs, Z_FINISH), Z_STREAM_END);
-  *out_len = zs.total_out;
-  deflateEnd (&zs);
-  return out;
-}
-
-static void
-write_file (const char *path, const void *data, size_t len)
-{
-  FILE *f = fopen (path, "wb");
-  ck_assert_msg (f != NULL, "cannot create %s", path);
-  ck_assert_uint_eq (fwrite (data, 1, len, f), len);
-  ck_assert_int_eq (fclose (f), 0);
-}
-
 /* Expect reading TEXT (as mem.csv) to fail with CODE, WHERE and a message holding FRAG. */
 static void
 expect_fail (const char *label, const char *text, const bl_table_opts *opt, int code,
@@ -646,11 +614,11 @@ START_TEST (table_tsv_by_name)
   char dir[512], path[600];
   bl_err err = { 0 };
   size_t zlen;
-  unsigned char *z = gzip_bytes (text, strlen (text), &zlen);
+  unsigned char *z = test_gzip_bytes (text, strlen (text), &zlen);
   bl_table *t;
   test_tmpdir (dir, sizeof dir);
   snprintf (path, sizeof path, "%s/pumps.tsv", dir);
-  write_file (path, text, strlen (text));
+  test_write_file (path, text, strlen (text));
   t = bl_table_read (path, NULL, &err);
   ck_assert_msg (t != NULL, "tsv: %s: %s", err.where, err.msg);
   ck_assert_uint_eq (bl_table_ncols (t), 2);
@@ -660,7 +628,7 @@ START_TEST (table_tsv_by_name)
   bl_table_free (t);
   unlink (path);
   snprintf (path, sizeof path, "%s/pumps.TSV.gz", dir);
-  write_file (path, z, zlen);
+  test_write_file (path, z, zlen);
   t = bl_table_read (path, NULL, &err);
   ck_assert_msg (t != NULL, "tsv.gz: %s: %s", err.where, err.msg);
   ck_assert_uint_eq (bl_table_ncols (t), 2);
@@ -669,7 +637,7 @@ START_TEST (table_tsv_by_name)
   unlink (path);
   /* The same bytes under a .csv name are one column per line. */
   snprintf (path, sizeof path, "%s/pumps.csv", dir);
-  write_file (path, text, strlen (text));
+  test_write_file (path, text, strlen (text));
   ck_assert_ptr_null (bl_table_read (path, NULL, &err));
   ck_assert_int_eq (err.code, BL_EDATA);
   ck_assert_msg (strstr (err.where, "/pumps.csv:2") != NULL, "tsv as csv: where %s", err.where);
@@ -711,14 +679,15 @@ START_TEST (table_gzip_file)
   char dir[512], path[600];
   bl_err err = { 0 };
   size_t la, lb;
-  unsigned char *za = gzip_bytes (a, strlen (a), &la), *zb = gzip_bytes (b, strlen (b), &lb);
+  unsigned char *za = test_gzip_bytes (a, strlen (a), &la);
+  unsigned char *zb = test_gzip_bytes (b, strlen (b), &lb);
   unsigned char *both = malloc (la + lb);
   bl_table *t;
   memcpy (both, za, la);
   memcpy (both + la, zb, lb);
   test_tmpdir (dir, sizeof dir);
   snprintf (path, sizeof path, "%s/pumps.csv", dir);
-  write_file (path, both, la + lb);
+  test_write_file (path, both, la + lb);
   t = bl_table_read (path, NULL, &err);
   ck_assert_msg (t != NULL, "gzip file: %s: %s", err.where, err.msg);
   ck_assert_uint_eq (bl_table_nrows (t), 3);
@@ -727,7 +696,7 @@ START_TEST (table_gzip_file)
   ck_assert_uint_eq (bl_table_line (t, 2), 4);
   bl_table_free (t);
   /* A truncated file: an error, never the rows read so far. */
-  write_file (path, both, la + lb - 5);
+  test_write_file (path, both, la + lb - 5);
   t = bl_table_read (path, NULL, &err);
   ck_assert_ptr_null (t);
   ck_assert_int_eq (err.code, BL_EDATA);
@@ -736,7 +705,7 @@ START_TEST (table_gzip_file)
                  err.msg);
   /* Corrupt: the first member's CRC32 is wrong (RFC 1952 2.3.1). */
   both[la - 8] ^= 0x11;
-  write_file (path, both, la + lb);
+  test_write_file (path, both, la + lb);
   t = bl_table_read (path, NULL, &err);
   ck_assert_ptr_null (t);
   ck_assert_int_eq (err.code, BL_EDATA);
@@ -764,7 +733,7 @@ START_TEST (table_gzip_mem_big)
   for (size_t i = 0; i < n; i++)
     p += sprintf (p, "%.6f,%u,s%u\n", (double) (next_rand (&seed) % 1000000) / 997.0,
                   (unsigned) (i % 17), (unsigned) (i % 7));
-  z = gzip_bytes (text, (size_t) (p - text), &zlen);
+  z = test_gzip_bytes (text, (size_t) (p - text), &zlen);
   t = bl_table_read_mem (z, zlen, "big.csv.gz", NULL, &err);
   ck_assert_msg (t != NULL, "gzip mem big: %s: %s", err.where, err.msg);
   ck_assert_uint_eq (bl_table_nrows (t), n);
@@ -850,7 +819,7 @@ START_TEST (table_stdin)
   int saved;
   test_tmpdir (dir, sizeof dir);
   snprintf (path, sizeof path, "%s/in.csv", dir);
-  write_file (path, "stops\n4\n", 8);
+  test_write_file (path, "stops\n4\n", 8);
   saved = dup (0);
   f = freopen (path, "rb", stdin);
   ck_assert_ptr_nonnull (f);
@@ -1052,7 +1021,7 @@ START_TEST (table_io_errors)
   bl_err err = { 0 };
   static const char text[] = "a,b\n1,2\n";
   size_t zlen;
-  unsigned char *z = gzip_bytes (text, strlen (text), &zlen);
+  unsigned char *z = test_gzip_bytes (text, strlen (text), &zlen);
   ck_assert_ptr_null (bl_table_read ("/nonexistent/ballast/x.csv", NULL, &err));
   ck_assert_int_eq (err.code, BL_EIO);
   ck_assert_str_eq (err.where, "/nonexistent/ballast/x.csv");
@@ -1082,7 +1051,7 @@ START_TEST (table_alloc_fail)
   p += sprintf (p, "hours,site,stops,none\n");
   for (int i = 0; i < 1500; i++)
     p += sprintf (p, "%d.25,\"s\"\"%d\",%d,\n", i, i % 40, i % 3);
-  z = gzip_bytes (text, (size_t) (p - text), &zlen);
+  z = test_gzip_bytes (text, (size_t) (p - text), &zlen);
   bl_alloc_fail_at (0);
   {
     bl_err err = { 0 };
@@ -1220,7 +1189,7 @@ START_TEST (table_threads_gzip)
      sequential table; a truncated stream fails the same way. */
   size_t len, zlen;
   char *text = random_csv (2024, 20000, 5, 7, &len);
-  unsigned char *z = gzip_bytes (text, len, &zlen);
+  unsigned char *z = test_gzip_bytes (text, len, &zlen);
   char dir[512], path[600];
   bl_table_opts o1, o2;
   bl_err e1 = { 0 }, e2 = { 0 };
@@ -1230,7 +1199,7 @@ START_TEST (table_threads_gzip)
   same_both_ways ("threads gzip mem, cut early", z, zlen / 2, 65536, NULL);
   test_tmpdir (dir, sizeof dir);
   snprintf (path, sizeof path, "%s/fleet.csv.gz", dir);
-  write_file (path, z, zlen);
+  test_write_file (path, z, zlen);
   bl_table_opts_init (&o1);
   o2 = o1;
   o1.threads = 1;
@@ -1242,7 +1211,7 @@ START_TEST (table_threads_gzip)
   bl_table_free (a);
   bl_table_free (b);
   z[zlen / 3] ^= 0x55;                  /* damage: the same message both ways */
-  write_file (path, z, zlen);
+  test_write_file (path, z, zlen);
   a = bl_table_read (path, &o1, &e1);
   b = bl_table_read (path, &o2, &e2);
   ck_assert_msg (!a && !b, "threads gzip corrupt: read succeeded");
@@ -1386,10 +1355,5 @@ table_suite (void)
 int
 main (void)
 {
-  SRunner *sr = srunner_create (table_suite ());
-  int failed;
-  srunner_run_all (sr, CK_NORMAL);
-  failed = srunner_ntests_failed (sr);
-  srunner_free (sr);
-  return failed == 0 ? EXIT_SUCCESS : EXIT_FAILURE;
+  return test_run_suite (table_suite (), 0);
 }

@@ -8,6 +8,7 @@
 #include <string.h>
 #include "alloc.h"
 #include "terms.h"
+#include "testutil.h"
 
 /* Parse TEXT and require success; the failure message names the case. */
 static bl_terms *
@@ -379,10 +380,5 @@ terms_suite (void)
 int
 main (void)
 {
-  SRunner *sr = srunner_create (terms_suite ());
-  int failed;
-  srunner_run_all (sr, CK_NORMAL);
-  failed = srunner_ntests_failed (sr);
-  srunner_free (sr);
-  return failed ? EXIT_FAILURE : EXIT_SUCCESS;
+  return test_run_suite (terms_suite (), 0);
 }

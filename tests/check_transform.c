@@ -15,7 +15,6 @@
    - basics: names, the shift undone by the back-transform. */
 #include <check.h>
 #include <math.h>
-#include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -33,211 +32,6 @@
 
 /* ---------------------------------------------------------------- helpers */
 
-/* Everything one fit needs, freed together by job_free. */
-typedef struct job {
-  bl_table *t;
-  bl_terms *terms, *off;
-  bl_design *d;
-  bl_fit *f;
-} job;
-
-static void
-job_free (job *j)
-{
-  bl_fit_free (j->f);
-  bl_design_free (j->d);
-  bl_terms_free (j->terms);
-  bl_terms_free (j->off);
-  bl_table_free (j->t);
-  memset (j, 0, sizeof *j);
-}
-
-static bl_table *
-table_mem (const char *csv, size_t len, const char *name)
-{
-  bl_err err = { 0 };
-  bl_table_opts to;
-  bl_table *t;
-  bl_table_opts_init (&to);
-  t = bl_table_read_mem (csv, len, name, &to, &err);
-  ck_assert_msg (t != NULL, "read %s: %s: %s", name, err.where, err.msg);
-  return t;
-}
-
-static bl_table *
-table_file (const char *file)
-{
-  char path[1024];
-  bl_err err = { 0 };
-  bl_table_opts to;
-  bl_table *t;
-  bl_table_opts_init (&to);
-  t = bl_table_read (test_data_path (file, path, sizeof path), &to, &err);
-  ck_assert_msg (t != NULL, "read %s: %s: %s", path, err.where, err.msg);
-  return t;
-}
-
-static bl_terms *
-terms_of (const char *text, const char *where)
-{
-  bl_err err = { 0 };
-  bl_terms *t;
-  if (!text)
-    return NULL;
-  t = bl_terms_parse (text, where, &err);
-  ck_assert_msg (t != NULL, "parse '%s': %s", text, err.msg);
-  return t;
-}
-
-/* Design options of one test design. */
-typedef struct dspec {
-  const char *weights, *offset, *variance;
-  int no_intercept;
-} dspec;
-
-/* Build J's design on J->t (TERMS NULL: intercept only); NULL with ERR filled on failure. */
-static bl_design *
-job_design_try (job *j, const char *resp, const char *terms, const dspec *ds, bl_err *err)
-{
-  bl_design_opts dopt;
-  bl_design_opts_init (&dopt);
-  j->terms = terms_of (terms, "--terms");
-  if (ds) {
-    j->off = terms_of (ds->offset, "--offset");
-    dopt.weights = ds->weights;
-    dopt.offset = j->off;
-    dopt.variance = ds->variance;
-    dopt.intercept = !ds->no_intercept;
-  }
-  j->d = bl_design_new (j->t, resp, j->terms, &dopt, err);
-  return j->d;
-}
-
-static void
-job_design (job *j, const char *resp, const char *terms, const dspec *ds)
-{
-  bl_err err = { 0 };
-  ck_assert_msg (job_design_try (j, resp, terms, ds, &err) != NULL, "design '%s': %s: %s",
-                 terms ? terms : "(intercept)", err.where, err.msg);
-}
-
-/* Fit J's design with FO; require a converged fit.  WHAT names the case. */
-static const bl_fit *
-job_fit (job *j, const bl_fit_opts *fo, const char *what)
-{
-  bl_err err = { 0 };
-  j->f = bl_fit_glm (j->d, fo, &err);
-  ck_assert_msg (j->f != NULL, "%s: fit: %s: %s", what, err.where, err.msg);
-  ck_assert_msg (bl_fit_stats_get (j->f)->converged, "%s: did not converge: %s", what,
-                 bl_fit_status (j->f)->msg);
-  return j->f;
-}
-
-/* Column index of LABEL in D. */
-static size_t
-col_of (const bl_design *d, const char *label)
-{
-  for (size_t j = 0; j < bl_design_p (d); j++)
-    if (strcmp (bl_design_label (d, j), label) == 0)
-      return j;
-  ck_abort_msg ("no column '%s' in the design", label);
-  return 0;
-}
-
-/* Nonzero when some warning of F contains FRAG. */
-static int
-has_warning (const bl_fit *f, const char *frag)
-{
-  const bl_warnings *w = bl_fit_warnings (f);
-  for (size_t i = 0; i < w->n; i++)
-    if (strstr (w->msg[i], frag))
-      return 1;
-  return 0;
-}
-
-/* A growable text buffer for CSV built in memory. */
-typedef struct sbuf { char *s; size_t len, cap; } sbuf;
-
-static void
-sb_printf (sbuf *b, const char *fmt, ...)
-{
-  va_list ap;
-  int k;
-  if (b->cap - b->len < 256) {
-    b->cap = b->cap ? 2 * b->cap : 1 << 16;
-    b->s = realloc (b->s, b->cap);
-    ck_assert_msg (b->s != NULL, "sbuf: out of memory");
-  }
-  va_start (ap, fmt);
-  k = vsnprintf (b->s + b->len, b->cap - b->len, fmt, ap);
-  va_end (ap);
-  ck_assert_msg (k >= 0 && (size_t) k < b->cap - b->len, "sbuf: line too long");
-  b->len += (size_t) k;
-}
-
-/* A failed call: F is NULL, ERR has CODE, where starts with WHERE (NULL: not checked), and
-   the message holds FRAG1 and FRAG2 (either may be NULL).  WHAT names the case. */
-static void
-expect_fail (const void *f, const bl_err *err, int code, const char *where, const char *frag1,
-             const char *frag2, const char *what)
-{
-  ck_assert_msg (f == NULL, "%s: the call succeeded", what);
-  ck_assert_msg (err->code == code, "%s: code %d, expected %d (%s: %s)", what, err->code, code,
-                 err->where, err->msg);
-  ck_assert_msg (!where || strncmp (err->where, where, strlen (where)) == 0,
-                 "%s: where '%s', expected '%s'", what, err->where, where);
-  ck_assert_msg (!frag1 || strstr (err->msg, frag1) != NULL, "%s: msg '%s' lacks '%s'", what,
-                 err->msg, frag1);
-  ck_assert_msg (!frag2 || strstr (err->msg, frag2) != NULL, "%s: msg '%s' lacks '%s'", what,
-                 err->msg, frag2);
-}
-
-static double
-rel (double x, double r)
-{
-  return fabs (x - r) / fabs (r);
-}
-
-/* Values of KEY in case CAS of tests/reference/remedies_mle.txt (written by
-   tests/reference/remedies_mle.py): up to CAP numbers into V ('nan' reads as NAN); returns
-   how many.  A missing case or key fails the test. */
-static size_t
-ref_get (const char *cas, const char *key, double *v, size_t cap)
-{
-  char path[1024], line[1024];
-  FILE *fp = fopen (test_data_path ("../reference/remedies_mle.txt", path, sizeof path), "r");
-  int in = 0;
-  size_t nv = 0, klen = strlen (key);
-  ck_assert_msg (fp != NULL, "open %s", path);
-  while (fgets (line, sizeof line, fp)) {
-    line[strcspn (line, "\n")] = '\0';
-    if (strncmp (line, "case ", 5) == 0) {
-      in = strcmp (line + 5, cas) == 0;
-    } else if (in && strncmp (line, key, klen) == 0 && line[klen] == ' ') {
-      char *s = line + klen, *e;
-      while (nv < cap) {
-        const double x = strtod (s, &e);
-        if (e == s)
-          break;
-        v[nv++] = x;
-        s = e;
-      }
-      break;
-    }
-  }
-  fclose (fp);
-  ck_assert_msg (nv > 0, "remedies_mle.txt: no '%s' in case '%s'", key, cas);
-  return nv;
-}
-
-static double
-ref1 (const char *cas, const char *key)
-{
-  double v;
-  ref_get (cas, key, &v, 1);
-  return v;
-}
-
 /* OLS of a transform: TR, lambda L (estimated when EST). */
 static void
 tr_opts (bl_fit_opts *fo, bl_transform tr, double L, int est)
@@ -249,14 +43,6 @@ tr_opts (bl_fit_opts *fo, bl_transform tr, double L, int est)
   fo->lambda_est = est;
 }
 
-static const double *
-tcol (const bl_table *t, const char *name)
-{
-  const long j = bl_table_find (t, name);
-  ck_assert_msg (j >= 0, "no column '%s'", name);
-  return bl_table_num (t, (size_t) j);
-}
-
 /* Compare the Box-Cox estimate of F with case CAS of remedies_mle.txt: lambda to 1e-6, the
    interval ends to 1e-4 (both open, NAN, when the reference's are), the practical power
    exactly and never -0 (NAN when the reference has none), the log-likelihood at lambda-hat to 1e-8
@@ -265,13 +51,15 @@ static void
 check_boxcox_ref (const bl_fit *f, const char *cas)
 {
   const bl_fit_transform_info *t = bl_fit_transform (f);
-  const double rl = ref1 (cas, "lambda"), rlo = ref1 (cas, "lambda_lo");
-  const double rhi = ref1 (cas, "lambda_hi"), rp = ref1 (cas, "lambda_practical");
-  const double rll = ref1 (cas, "loglik"), ll = bl_fit_stats_get (f)->loglik;
+  const double rl = test_remedies_ref1 (cas, "lambda");
+  const double rlo = test_remedies_ref1 (cas, "lambda_lo");
+  const double rhi = test_remedies_ref1 (cas, "lambda_hi");
+  const double rp = test_remedies_ref1 (cas, "lambda_practical");
+  const double rll = test_remedies_ref1 (cas, "loglik"), ll = bl_fit_stats_get (f)->loglik;
   fprintf (stderr, "boxcox %s: lambda %.10f (ref %.10f, diff %.2e), lo %.8f (ref %.8f, diff "
            "%.2e), hi %.8f (ref %.8f, diff %.2e), practical %g (ref %g), loglik rel %.2e\n",
            cas, t->lambda, rl, t->lambda - rl, t->lambda_lo, rlo, t->lambda_lo - rlo,
-           t->lambda_hi, rhi, t->lambda_hi - rhi, t->lambda_practical, rp, rel (ll, rll));
+           t->lambda_hi, rhi, t->lambda_hi - rhi, t->lambda_practical, rp, test_rel (ll, rll));
   ck_assert_int_eq (t->lambda_estimated, 1);
   ck_assert_msg (fabs (t->lambda - rl) <= 1e-6, "%s lambda %.17g, ref %.17g", cas, t->lambda,
                  rl);
@@ -291,7 +79,7 @@ check_boxcox_ref (const bl_fit *f, const char *cas)
   else
     ck_assert_msg (t->lambda_practical == rp && !signbit (t->lambda_practical),
                    "%s practical %g, ref %g", cas, t->lambda_practical, rp);
-  ck_assert_msg (rel (ll, rll) <= 1e-8, "%s loglik %.17g, ref %.17g", cas, ll, rll);
+  ck_assert_msg (test_rel (ll, rll) <= 1e-8, "%s loglik %.17g, ref %.17g", cas, ll, rll);
 }
 
 /* ---------------------------------------------------------------- reference */
@@ -302,14 +90,14 @@ check_boxcox_ref (const bl_fit *f, const char *cas)
    [0.108, 0.322] holds no multiple of 0.5, so there is no practical power. */
 START_TEST (transform_boxcox_scipy)
 {
-  job j = { 0 };
+  test_job j = { 0 };
   bl_fit_opts fo;
-  j.t = table_file ("remedies.csv");
-  job_design (&j, "flow", NULL, NULL);
+  j.t = test_table_file ("remedies.csv", NULL, 0);
+  test_job_design_spec (&j, "flow", NULL, NULL);
   tr_opts (&fo, BL_TRANSFORM_BOXCOX, 1.0, 1);
-  job_fit (&j, &fo, "boxcox flow");
+  test_job_fit (&j, &fo, "boxcox flow");
   check_boxcox_ref (j.f, "boxcox_flow");
-  job_free (&j);
+  test_job_free (&j);
 }
 END_TEST
 
@@ -319,15 +107,15 @@ END_TEST
    the multiple of 0.5 inside [-0.162, 0.629] nearest lambda-hat = 0.232. */
 START_TEST (transform_boxcox_profile)
 {
-  job j = { 0 };
+  test_job j = { 0 };
   bl_fit_opts fo;
-  j.t = table_file ("remedies.csv");
-  job_design (&j, "hours", "load", NULL);
+  j.t = test_table_file ("remedies.csv", NULL, 0);
+  test_job_design_spec (&j, "hours", "load", NULL);
   tr_opts (&fo, BL_TRANSFORM_BOXCOX, 1.0, 1);
-  job_fit (&j, &fo, "boxcox hours");
+  test_job_fit (&j, &fo, "boxcox hours");
   check_boxcox_ref (j.f, "boxcox_reg");
   ck_assert_uint_eq (bl_fit_transform (j.f)->nprofile, 61);
-  job_free (&j);
+  test_job_free (&j);
 }
 END_TEST
 
@@ -338,14 +126,14 @@ END_TEST
 START_TEST (transform_boxcox_open)
 {
   static const char csv[] = "y\n2.385\n3.71\n2.94\n4.417\n";
-  job j = { 0 };
+  test_job j = { 0 };
   bl_fit_opts fo;
-  j.t = table_mem (csv, strlen (csv), "open.csv");
-  job_design (&j, "y", NULL, NULL);
+  j.t = test_table_mem (csv, strlen (csv), "open.csv", NULL, 0);
+  test_job_design_spec (&j, "y", NULL, NULL);
   tr_opts (&fo, BL_TRANSFORM_BOXCOX, 1.0, 1);
-  job_fit (&j, &fo, "boxcox open");
+  test_job_fit (&j, &fo, "boxcox open");
   check_boxcox_ref (j.f, "boxcox_open");
-  job_free (&j);
+  test_job_free (&j);
 }
 END_TEST
 
@@ -365,7 +153,7 @@ START_TEST (transform_loglik_jacobian)
     { BL_TRANSFORM_BOXCOX, 1.0, 1, "boxcox" }
   };
   for (size_t c = 0; c < sizeof cs / sizeof cs[0]; c++) {
-    job j = { 0 };
+    test_job j = { 0 };
     bl_fit_opts fo;
     const bl_fit_stats *st;
     const double *y, *x;
@@ -375,15 +163,15 @@ START_TEST (transform_loglik_jacobian)
     gsl_multifit_linear_workspace *ws;
     double rss, L, lz, jac, l;
     long double sl = 0.0L;
-    j.t = table_file ("remedies.csv");
-    job_design (&j, "hours", "load", NULL);
+    j.t = test_table_file ("remedies.csv", NULL, 0);
+    test_job_design_spec (&j, "hours", "load", NULL);
     tr_opts (&fo, cs[c].tr, cs[c].L, cs[c].est);
-    job_fit (&j, &fo, cs[c].name);
+    test_job_fit (&j, &fo, cs[c].name);
     st = bl_fit_stats_get (j.f);
     L = bl_fit_transform (j.f)->lambda;
     n = bl_table_nrows (j.t);
-    y = tcol (j.t, "hours");
-    x = tcol (j.t, "load");
+    y = test_table_col (j.t, "hours");
+    x = test_table_col (j.t, "load");
     X = gsl_matrix_alloc (n, 2);
     C = gsl_matrix_alloc (2, 2);
     z = gsl_vector_alloc (n);
@@ -411,21 +199,21 @@ START_TEST (transform_loglik_jacobian)
     }
     l = lz + jac;
     fprintf (stderr, "transform %s%s L=%g: loglik rel %.2e, loglik_transformed rel %.2e\n",
-             cs[c].name, cs[c].est ? " (est)" : "", L, rel (st->loglik, l),
-             rel (st->loglik_transformed, lz));
-    ck_assert_msg (rel (st->loglik_transformed, lz) <= 1e-10, "%s L=%g loglik_transformed "
+             cs[c].name, cs[c].est ? " (est)" : "", L, test_rel (st->loglik, l),
+             test_rel (st->loglik_transformed, lz));
+    ck_assert_msg (test_rel (st->loglik_transformed, lz) <= 1e-10, "%s L=%g loglik_transformed "
                    "%.17g, direct %.17g", cs[c].name, L, st->loglik_transformed, lz);
-    ck_assert_msg (rel (st->loglik, l) <= 1e-10, "%s L=%g loglik %.17g, direct %.17g",
+    ck_assert_msg (test_rel (st->loglik, l) <= 1e-10, "%s L=%g loglik %.17g, direct %.17g",
                    cs[c].name, L, st->loglik, l);
     ck_assert_msg (st->k == st->rank + 1 + (cs[c].est ? 1u : 0u), "%s: k %zu, rank %zu",
                    cs[c].name, st->k, st->rank);
-    ck_assert_msg (rel (st->aic, -2.0 * l + 2.0 * (double) st->k) <= 1e-12, "%s: aic %.17g",
+    ck_assert_msg (test_rel (st->aic, -2.0 * l + 2.0 * (double) st->k) <= 1e-12, "%s: aic %.17g",
                    cs[c].name, st->aic);
-    ck_assert_msg (rel (st->bic, -2.0 * l + (double) st->k * log ((double) n)) <= 1e-12,
+    ck_assert_msg (test_rel (st->bic, -2.0 * l + (double) st->k * log ((double) n)) <= 1e-12,
                    "%s: bic %.17g", cs[c].name, st->bic);
     for (size_t k = 0; k < 2; k++) {
-      const double bk = bl_fit_beta (j.f)[col_of (j.d, k ? "load" : "intercept")];
-      ck_assert_msg (rel (bk, gsl_vector_get (b, k)) <= 1e-10, "%s: b%zu %.17g, gsl %.17g",
+      const double bk = bl_fit_beta (j.f)[test_design_col (j.d, k ? "load" : "intercept")];
+      ck_assert_msg (test_rel (bk, gsl_vector_get (b, k)) <= 1e-10, "%s: b%zu %.17g, gsl %.17g",
                      cs[c].name, k, bk, gsl_vector_get (b, k));
     }
     ck_assert_str_eq (bl_fit_transform (j.f)->name, cs[c].name);
@@ -436,7 +224,7 @@ START_TEST (transform_loglik_jacobian)
     gsl_vector_free (z);
     gsl_matrix_free (C);
     gsl_matrix_free (X);
-    job_free (&j);
+    test_job_free (&j);
   }
 }
 END_TEST
@@ -452,20 +240,20 @@ START_TEST (transform_smearing_lognormal)
   const size_t n = 100000;
   const double mu = 1.3;
   gsl_rng *r = gsl_rng_alloc (gsl_rng_mt19937);
-  sbuf c = { 0 };
-  job j = { 0 };
+  test_buf c = { 0 };
+  test_job j = { 0 };
   bl_fit_opts fo;
   double b0, sm, nv, truth = exp (mu + 0.5);
   ck_assert_msg (r != NULL, "smearing: no rng");
   gsl_rng_set (r, 20261217);
-  sb_printf (&c, "y\n");
+  test_buf_printf (&c, "y\n");
   for (size_t i = 0; i < n; i++)
-    sb_printf (&c, "%.17g\n", exp (mu + gsl_ran_gaussian (r, 1.0)));
+    test_buf_printf (&c, "%.17g\n", exp (mu + gsl_ran_gaussian (r, 1.0)));
   gsl_rng_free (r);
-  j.t = table_mem (c.s, c.len, "lognormal.csv");
-  job_design (&j, "y", NULL, NULL);
+  j.t = test_table_mem (c.s, c.len, "lognormal.csv", NULL, 0);
+  test_job_design_spec (&j, "y", NULL, NULL);
   tr_opts (&fo, BL_TRANSFORM_LOG, NAN, 0);
-  job_fit (&j, &fo, "smearing");
+  test_job_fit (&j, &fo, "smearing");
   b0 = bl_fit_beta (j.f)[0];
   sm = bl_fit_backtransform (j.f, b0, 1);
   nv = bl_fit_backtransform (j.f, b0, 0);
@@ -476,8 +264,8 @@ START_TEST (transform_smearing_lognormal)
   ck_assert_msg (1.0 - nv / truth >= 0.35 && 1.0 - nv / truth <= 0.43,
                  "naive mean %.6f is %.1f%% low, expected 35-43%%", nv,
                  100.0 * (1.0 - nv / truth));
-  ck_assert_msg (rel (nv, exp (b0)) <= 1e-15, "naive %.17g, exp(b0) %.17g", nv, exp (b0));
-  job_free (&j);
+  ck_assert_msg (test_rel (nv, exp (b0)) <= 1e-15, "naive %.17g, exp(b0) %.17g", nv, exp (b0));
+  test_job_free (&j);
   free (c.s);
 }
 END_TEST
@@ -496,17 +284,17 @@ START_TEST (transform_error_nonpositive)
     { BL_TRANSFORM_BOXCOX, 1, "boxcox" }, { BL_TRANSFORM_BOXCOX, 0, "boxcox" }
   };
   for (size_t c = 0; c < sizeof cs / sizeof cs[0]; c++) {
-    job j = { 0 };
+    test_job j = { 0 };
     bl_fit_opts fo;
     bl_err err = { 0 };
     bl_fit *f;
     char what[64];
     snprintf (what, sizeof what, "%s%s y <= 0", cs[c].name, cs[c].est ? " est" : "");
-    j.t = table_mem (csv, strlen (csv), "neg.csv");
-    job_design (&j, "y", "x", NULL);
+    j.t = test_table_mem (csv, strlen (csv), "neg.csv", NULL, 0);
+    test_job_design_spec (&j, "y", "x", NULL);
     tr_opts (&fo, cs[c].tr, 0.5, cs[c].est);
     f = bl_fit_glm (j.d, &fo, &err);
-    expect_fail (f, &err, BL_EDATA, "neg.csv:4", "y > 0", "2 values", what);
+    test_expect_fail (f, &err, BL_EDATA, "neg.csv:4", "y > 0", "2 values", what);
     ck_assert_str_eq (err.where, "neg.csv:4");
     ck_assert_msg (strstr (err.msg, cs[c].name) && strstr (err.msg, "--shift"),
                    "%s: msg '%s'", what, err.msg);
@@ -515,7 +303,8 @@ START_TEST (transform_error_nonpositive)
     fo.shift = 2.5;
     j.f = bl_fit_glm (j.d, &fo, &err);
     ck_assert_msg (j.f != NULL, "%s shifted: %s", what, err.msg);
-    ck_assert_msg (has_warning (j.f, "depends on that choice"), "%s shifted: no warning", what);
+    ck_assert_msg (test_fit_has_warning (j.f, "depends on that choice"),
+                   "%s shifted: no warning", what);
     ck_assert_msg (bl_fit_transform (j.f)->shift == 2.5 && bl_fit_transform (j.f)->shift_given,
                    "%s shifted: shift not recorded", what);
     bl_fit_free (j.f);
@@ -523,8 +312,8 @@ START_TEST (transform_error_nonpositive)
     /* shift 2: -2 + 2 = 0 is still not > 0 */
     fo.shift = 2.0;
     f = bl_fit_glm (j.d, &fo, &err);
-    expect_fail (f, &err, BL_EDATA, "neg.csv:6", "y + shift > 0", "1 value", what);
-    job_free (&j);
+    test_expect_fail (f, &err, BL_EDATA, "neg.csv:6", "y + shift > 0", "1 value", what);
+    test_job_free (&j);
   }
 }
 END_TEST
@@ -534,41 +323,41 @@ END_TEST
    power outside [-3, 3]. */
 START_TEST (transform_error_options)
 {
-  job j = { 0 };
+  test_job j = { 0 };
   bl_fit_opts fo;
   bl_err err = { 0 };
-  dspec ds = { NULL, "log(load)", NULL, 0 };
+  test_design_spec ds = { NULL, "log(load)", NULL, 0 };
   bl_fit *f;
-  j.t = table_file ("remedies.csv");
-  job_design (&j, "hours", "load", NULL);
+  j.t = test_table_file ("remedies.csv", NULL, 0);
+  test_job_design_spec (&j, "hours", "load", NULL);
   tr_opts (&fo, BL_TRANSFORM_LOG, NAN, 0);
   fo.method = BL_METHOD_GLM;
   fo.fam = &bl_family_gamma;
   f = bl_fit_glm (j.d, &fo, &err);
-  expect_fail (f, &err, BL_ESPEC, "--transform", "least squares", "--family", "log + gamma");
+  test_expect_fail (f, &err, BL_ESPEC, "--transform", "least squares", "--family", "log + gamma");
   tr_opts (&fo, BL_TRANSFORM_SQRT, NAN, 0);
   fo.method = BL_METHOD_GLM;
   fo.fam = &bl_family_poisson;
   f = bl_fit_glm (j.d, &fo, &err);
-  expect_fail (f, &err, BL_ESPEC, "--transform", "--family", NULL, "sqrt + poisson");
+  test_expect_fail (f, &err, BL_ESPEC, "--transform", "--family", NULL, "sqrt + poisson");
   tr_opts (&fo, BL_TRANSFORM_LOG, NAN, 0);
   fo.link = &bl_link_log;
   f = bl_fit_glm (j.d, &fo, &err);
-  expect_fail (f, &err, BL_ESPEC, "--transform", "--link", NULL, "log + log link");
+  test_expect_fail (f, &err, BL_ESPEC, "--transform", "--link", NULL, "log + log link");
   tr_opts (&fo, BL_TRANSFORM_LOG, NAN, 0);
   fo.method = BL_METHOD_WLS;
   f = bl_fit_glm (j.d, &fo, &err);
-  expect_fail (f, &err, BL_ESPEC, "--transform", "wls", NULL, "log + wls");
+  test_expect_fail (f, &err, BL_ESPEC, "--transform", "wls", NULL, "log + wls");
   tr_opts (&fo, BL_TRANSFORM_BOXCOX, 3.5, 0);
   f = bl_fit_glm (j.d, &fo, &err);
-  expect_fail (f, &err, BL_ESPEC, "--transform", "[-3, 3]", "3.5", "boxcox=3.5");
-  job_free (&j);
-  j.t = table_file ("remedies.csv");
-  job_design (&j, "hours", "load", &ds);
+  test_expect_fail (f, &err, BL_ESPEC, "--transform", "[-3, 3]", "3.5", "boxcox=3.5");
+  test_job_free (&j);
+  j.t = test_table_file ("remedies.csv", NULL, 0);
+  test_job_design_spec (&j, "hours", "load", &ds);
   tr_opts (&fo, BL_TRANSFORM_LOG, NAN, 0);
   f = bl_fit_glm (j.d, &fo, &err);
-  expect_fail (f, &err, BL_ESPEC, "--offset", "offset", NULL, "log + offset");
-  job_free (&j);
+  test_expect_fail (f, &err, BL_ESPEC, "--offset", "offset", NULL, "log + offset");
+  test_job_free (&j);
 }
 END_TEST
 
@@ -578,38 +367,38 @@ END_TEST
    on the transformed scale, and no change for an untransformed fit. */
 START_TEST (transform_backtransform_basics)
 {
-  job j = { 0 };
+  test_job j = { 0 };
   bl_fit_opts fo;
   const double xb = 1.234;
-  j.t = table_file ("remedies.csv");
-  job_design (&j, "hours", "load", NULL);
+  j.t = test_table_file ("remedies.csv", NULL, 0);
+  test_job_design_spec (&j, "hours", "load", NULL);
   tr_opts (&fo, BL_TRANSFORM_LOG, NAN, 0);
   fo.shift_given = 1;
   fo.shift = 0.75;
-  job_fit (&j, &fo, "log shift");
-  ck_assert_msg (rel (bl_fit_backtransform (j.f, xb, 0), exp (xb) - 0.75) <= 1e-15,
+  test_job_fit (&j, &fo, "log shift");
+  ck_assert_msg (test_rel (bl_fit_backtransform (j.f, xb, 0), exp (xb) - 0.75) <= 1e-15,
                  "log shift naive");
-  ck_assert_msg (rel (bl_fit_y (j.f)[0], log (tcol (j.t, "hours")[0] + 0.75)) <= 1e-15,
-                 "log shift: fitted response");
+  ck_assert_msg (test_rel (bl_fit_y (j.f)[0], log (test_table_col (j.t, "hours")[0] + 0.75))
+                 <= 1e-15, "log shift: fitted response");
   bl_fit_free (j.f);
   tr_opts (&fo, BL_TRANSFORM_SQRT, NAN, 0);
-  job_fit (&j, &fo, "sqrt");
-  ck_assert_msg (rel (bl_fit_backtransform (j.f, xb, 0), xb * xb) <= 1e-15, "sqrt naive");
+  test_job_fit (&j, &fo, "sqrt");
+  ck_assert_msg (test_rel (bl_fit_backtransform (j.f, xb, 0), xb * xb) <= 1e-15, "sqrt naive");
   bl_fit_free (j.f);
   tr_opts (&fo, BL_TRANSFORM_BOXCOX, 0.37, 0);
-  job_fit (&j, &fo, "boxcox 0.37");
-  ck_assert_msg (rel (bl_fit_backtransform (j.f, xb, 0), pow (1.0 + 0.37 * xb, 1.0 / 0.37))
+  test_job_fit (&j, &fo, "boxcox 0.37");
+  ck_assert_msg (test_rel (bl_fit_backtransform (j.f, xb, 0), pow (1.0 + 0.37 * xb, 1.0 / 0.37))
                  <= 1e-14, "boxcox naive");
   ck_assert_msg (isnan (bl_fit_transform (j.f)->lambda_lo), "boxcox fixed: lambda_lo");
   ck_assert_int_eq (bl_fit_transform (j.f)->lambda_estimated, 0);
   bl_fit_free (j.f);
   bl_fit_opts_init (&fo);
   fo.method = BL_METHOD_OLS;
-  job_fit (&j, &fo, "none");
+  test_job_fit (&j, &fo, "none");
   ck_assert_msg (bl_fit_backtransform (j.f, xb, 1) == xb, "none: back-transform");
   ck_assert_msg (bl_fit_transform (j.f)->name == NULL, "none: name");
   ck_assert_msg (isnan (bl_fit_stats_get (j.f)->loglik_transformed), "none: loglik_transformed");
-  job_free (&j);
+  test_job_free (&j);
 }
 END_TEST
 
@@ -643,12 +432,5 @@ transform_suite (void)
 int
 main (void)
 {
-  SRunner *sr;
-  int failed;
-  gsl_set_error_handler_off ();
-  sr = srunner_create (transform_suite ());
-  srunner_run_all (sr, CK_NORMAL);
-  failed = srunner_ntests_failed (sr);
-  srunner_free (sr);
-  return failed ? EXIT_FAILURE : EXIT_SUCCESS;
+  return test_run_suite (transform_suite (), 1);
 }

@@ -15,7 +15,6 @@
    - basics: the se_kind names. */
 #include <check.h>
 #include <math.h>
-#include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -32,148 +31,6 @@
 
 /* ---------------------------------------------------------------- helpers */
 
-/* Everything one fit needs, freed together by job_free. */
-typedef struct job {
-  bl_table *t;
-  bl_terms *terms, *off;
-  bl_design *d;
-  bl_fit *f;
-} job;
-
-static void
-job_free (job *j)
-{
-  bl_fit_free (j->f);
-  bl_design_free (j->d);
-  bl_terms_free (j->terms);
-  bl_terms_free (j->off);
-  bl_table_free (j->t);
-  memset (j, 0, sizeof *j);
-}
-
-static bl_table *
-table_mem (const char *csv, size_t len, const char *name)
-{
-  bl_err err = { 0 };
-  bl_table_opts to;
-  bl_table *t;
-  bl_table_opts_init (&to);
-  t = bl_table_read_mem (csv, len, name, &to, &err);
-  ck_assert_msg (t != NULL, "read %s: %s: %s", name, err.where, err.msg);
-  return t;
-}
-
-static bl_table *
-table_file (const char *file)
-{
-  char path[1024];
-  bl_err err = { 0 };
-  bl_table_opts to;
-  bl_table *t;
-  bl_table_opts_init (&to);
-  t = bl_table_read (test_data_path (file, path, sizeof path), &to, &err);
-  ck_assert_msg (t != NULL, "read %s: %s: %s", path, err.where, err.msg);
-  return t;
-}
-
-static bl_terms *
-terms_of (const char *text, const char *where)
-{
-  bl_err err = { 0 };
-  bl_terms *t;
-  if (!text)
-    return NULL;
-  t = bl_terms_parse (text, where, &err);
-  ck_assert_msg (t != NULL, "parse '%s': %s", text, err.msg);
-  return t;
-}
-
-/* Design options of one test design. */
-typedef struct dspec {
-  const char *weights, *offset, *variance;
-  int no_intercept;
-} dspec;
-
-/* Build J's design on J->t (TERMS NULL: intercept only); NULL with ERR filled on failure. */
-static bl_design *
-job_design_try (job *j, const char *resp, const char *terms, const dspec *ds, bl_err *err)
-{
-  bl_design_opts dopt;
-  bl_design_opts_init (&dopt);
-  j->terms = terms_of (terms, "--terms");
-  if (ds) {
-    j->off = terms_of (ds->offset, "--offset");
-    dopt.weights = ds->weights;
-    dopt.offset = j->off;
-    dopt.variance = ds->variance;
-    dopt.intercept = !ds->no_intercept;
-  }
-  j->d = bl_design_new (j->t, resp, j->terms, &dopt, err);
-  return j->d;
-}
-
-static void
-job_design (job *j, const char *resp, const char *terms, const dspec *ds)
-{
-  bl_err err = { 0 };
-  ck_assert_msg (job_design_try (j, resp, terms, ds, &err) != NULL, "design '%s': %s: %s",
-                 terms ? terms : "(intercept)", err.where, err.msg);
-}
-
-/* Fit J's design with FO; require a converged fit.  WHAT names the case. */
-static const bl_fit *
-job_fit (job *j, const bl_fit_opts *fo, const char *what)
-{
-  bl_err err = { 0 };
-  j->f = bl_fit_glm (j->d, fo, &err);
-  ck_assert_msg (j->f != NULL, "%s: fit: %s: %s", what, err.where, err.msg);
-  ck_assert_msg (bl_fit_stats_get (j->f)->converged, "%s: did not converge: %s", what,
-                 bl_fit_status (j->f)->msg);
-  return j->f;
-}
-
-/* Column index of LABEL in D. */
-static size_t
-col_of (const bl_design *d, const char *label)
-{
-  for (size_t j = 0; j < bl_design_p (d); j++)
-    if (strcmp (bl_design_label (d, j), label) == 0)
-      return j;
-  ck_abort_msg ("no column '%s' in the design", label);
-  return 0;
-}
-
-/* A failed call: F is NULL, ERR has CODE, where starts with WHERE (NULL: not checked), and
-   the message holds FRAG1 and FRAG2 (either may be NULL).  WHAT names the case. */
-static void
-expect_fail (const void *f, const bl_err *err, int code, const char *where, const char *frag1,
-             const char *frag2, const char *what)
-{
-  ck_assert_msg (f == NULL, "%s: the call succeeded", what);
-  ck_assert_msg (err->code == code, "%s: code %d, expected %d (%s: %s)", what, err->code, code,
-                 err->where, err->msg);
-  ck_assert_msg (!where || strncmp (err->where, where, strlen (where)) == 0,
-                 "%s: where '%s', expected '%s'", what, err->where, where);
-  ck_assert_msg (!frag1 || strstr (err->msg, frag1) != NULL, "%s: msg '%s' lacks '%s'", what,
-                 err->msg, frag1);
-  ck_assert_msg (!frag2 || strstr (err->msg, frag2) != NULL, "%s: msg '%s' lacks '%s'", what,
-                 err->msg, frag2);
-}
-
-static double
-rel (double x, double r)
-{
-  return fabs (x - r) / fabs (r);
-}
-
-
-static const double *
-tcol (const bl_table *t, const char *name)
-{
-  const long j = bl_table_find (t, name);
-  ck_assert_msg (j >= 0, "no column '%s'", name);
-  return bl_table_num (t, (size_t) j);
-}
 
 /* The sandwich of kind K (1..4 = HC0..HC3) by direct matrix algebra: X is n x p (from the
    table, not the design), W the working weights, E the working residuals; the result goes to
@@ -243,7 +100,8 @@ cov_compare (const bl_fit *f, const double *direct, size_t p, double tol, const 
                      cv[j + k * p], want, d);
     }
   for (size_t j = 0; j < p; j++)
-    ck_assert_msg (rel (bl_fit_se (f)[j], sqrt (direct[j * p + j])) <= tol, "%s se%zu", what, j);
+    ck_assert_msg (test_rel (bl_fit_se (f)[j], sqrt (direct[j * p + j])) <= tol, "%s se%zu",
+                   what, j);
   return worst;
 }
 
@@ -264,29 +122,29 @@ START_TEST (vcov_ols_direct)
   };
   for (size_t c = 0; c < sizeof cs / sizeof cs[0]; c++)
     for (int K = 1; K <= 4; K++) {
-      job j = { 0 };
+      test_job j = { 0 };
       bl_fit_opts fo;
-      dspec ds = { cs[c].weights, NULL, cs[c].variance, 0 };
+      test_design_spec ds = { cs[c].weights, NULL, cs[c].variance, 0 };
       const double *y, *x, *a, *b;
       size_t n;
       gsl_matrix *X;
       double *W, *E, direct[4], worst;
       char what[64];
       snprintf (what, sizeof what, "%s %s", cs[c].name, kind_name[K]);
-      j.t = table_file ("remedies.csv");
-      job_design (&j, "hours", "load", &ds);
+      j.t = test_table_file ("remedies.csv", NULL, 0);
+      test_job_design_spec (&j, "hours", "load", &ds);
       bl_fit_opts_init (&fo);
       fo.method = cs[c].variance ? BL_METHOD_WLS : BL_METHOD_OLS;
       fo.variance = cs[c].variance ? BL_VARIANCE_COLUMN : BL_VARIANCE_NONE;
       fo.variance_col = cs[c].variance;
       fo.power = cs[c].K;
       fo.se = (bl_se_kind) K;
-      job_fit (&j, &fo, what);
+      test_job_fit (&j, &fo, what);
       ck_assert_str_eq (bl_fit_stats_get (j.f)->se_kind, kind_name[K]);
       n = bl_table_nrows (j.t);
-      y = tcol (j.t, "hours");
-      x = tcol (j.t, "load");
-      a = tcol (j.t, "w");
+      y = test_table_col (j.t, "hours");
+      x = test_table_col (j.t, "load");
+      a = test_table_col (j.t, "w");
       b = bl_fit_beta (j.f);
       X = gsl_matrix_alloc (n, 2);
       W = malloc (n * sizeof *W);
@@ -304,7 +162,7 @@ START_TEST (vcov_ols_direct)
       free (W);
       free (E);
       gsl_matrix_free (X);
-      job_free (&j);
+      test_job_free (&j);
     }
 }
 END_TEST
@@ -317,31 +175,31 @@ END_TEST
 START_TEST (vcov_poisson_direct)
 {
   for (int K = 1; K <= 4; K++) {
-    job j = { 0 };
+    test_job j = { 0 };
     bl_fit_opts fo;
-    dspec ds = { "w", NULL, NULL, 0 };
+    test_design_spec ds = { "w", NULL, NULL, 0 };
     const double *y, *x1, *x2, *a, *b;
     size_t n, i0, i1, i2;
     gsl_matrix *X;
     double *W, *E, direct[9], worst;
     char what[64];
     snprintf (what, sizeof what, "poisson log %s", kind_name[K]);
-    j.t = table_file ("mle_counts.csv");
-    job_design (&j, "y", "x1, x2", &ds);
+    j.t = test_table_file ("mle_counts.csv", NULL, 0);
+    test_job_design_spec (&j, "y", "x1, x2", &ds);
     bl_fit_opts_init (&fo);
     fo.fam = &bl_family_poisson;
     fo.link = &bl_link_log;
     fo.se = (bl_se_kind) K;
-    job_fit (&j, &fo, what);
+    test_job_fit (&j, &fo, what);
     n = bl_table_nrows (j.t);
-    y = tcol (j.t, "y");
-    x1 = tcol (j.t, "x1");
-    x2 = tcol (j.t, "x2");
-    a = tcol (j.t, "w");
+    y = test_table_col (j.t, "y");
+    x1 = test_table_col (j.t, "x1");
+    x2 = test_table_col (j.t, "x2");
+    a = test_table_col (j.t, "w");
     b = bl_fit_beta (j.f);
-    i0 = col_of (j.d, "intercept");
-    i1 = col_of (j.d, "x1");
-    i2 = col_of (j.d, "x2");
+    i0 = test_design_col (j.d, "intercept");
+    i1 = test_design_col (j.d, "x1");
+    i2 = test_design_col (j.d, "x2");
     ck_assert_msg (i0 == 0 && i1 == 1 && i2 == 2, "%s: column order", what);
     X = gsl_matrix_alloc (n, 3);
     W = malloc (n * sizeof *W);
@@ -362,7 +220,7 @@ START_TEST (vcov_poisson_direct)
     free (W);
     free (E);
     gsl_matrix_free (X);
-    job_free (&j);
+    test_job_free (&j);
   }
 }
 END_TEST
@@ -400,25 +258,25 @@ START_TEST (vcov_hc2_two_groups)
   want2 = sqrt ((double) (ss1 / 6.0L / 7.0L + ss0 / 10.0L / 11.0L));
   want0 = sqrt ((double) (ss1 / 49.0L + ss0 / 121.0L));
   for (int K = 1; K <= 3; K += 2) {
-    job j = { 0 };
+    test_job j = { 0 };
     bl_fit_opts fo;
     size_t id;
     double se, want = K == 3 ? want2 : want0;
-    j.t = table_mem (csv, len, "groups.csv");
-    job_design (&j, "y", "d", NULL);
+    j.t = test_table_mem (csv, len, "groups.csv", NULL, 0);
+    test_job_design_spec (&j, "y", "d", NULL);
     bl_fit_opts_init (&fo);
     fo.method = BL_METHOD_OLS;
     fo.se = (bl_se_kind) K;
-    job_fit (&j, &fo, kind_name[K]);
-    id = col_of (j.d, "d");
+    test_job_fit (&j, &fo, kind_name[K]);
+    id = test_design_col (j.d, "d");
     se = bl_fit_se (j.f)[id];
     fprintf (stderr, "vcov two groups %s: se %.17g, closed form %.17g (rel %.2e)\n",
-             kind_name[K], se, want, rel (se, want));
-    ck_assert_msg (rel (bl_fit_beta (j.f)[id], (double) (m1 - m0)) <= 1e-12,
+             kind_name[K], se, want, test_rel (se, want));
+    ck_assert_msg (test_rel (bl_fit_beta (j.f)[id], (double) (m1 - m0)) <= 1e-12,
                    "two groups %s: beta %.17g", kind_name[K], bl_fit_beta (j.f)[id]);
-    ck_assert_msg (rel (se, want) <= 1e-10, "two groups %s: se %.17g, closed form %.17g",
+    ck_assert_msg (test_rel (se, want) <= 1e-10, "two groups %s: se %.17g, closed form %.17g",
                    kind_name[K], se, want);
-    job_free (&j);
+    test_job_free (&j);
   }
 }
 END_TEST
@@ -443,18 +301,18 @@ START_TEST (vcov_intercept_only)
   want[3] = want[0];
   want[4] = sqrt ((double) ss) / (n - 1.0);
   for (int K = 0; K <= 4; K++) {
-    job j = { 0 };
+    test_job j = { 0 };
     bl_fit_opts fo;
-    j.t = table_mem (csv, strlen (csv), "one.csv");
-    job_design (&j, "y", NULL, NULL);
+    j.t = test_table_mem (csv, strlen (csv), "one.csv", NULL, 0);
+    test_job_design_spec (&j, "y", NULL, NULL);
     bl_fit_opts_init (&fo);
     fo.method = BL_METHOD_OLS;
     fo.se = (bl_se_kind) K;
-    job_fit (&j, &fo, kind_name[K]);
-    ck_assert_msg (rel (bl_fit_se (j.f)[0], want[K]) <= 1e-10, "intercept only %s: se %.17g, "
+    test_job_fit (&j, &fo, kind_name[K]);
+    ck_assert_msg (test_rel (bl_fit_se (j.f)[0], want[K]) <= 1e-10, "intercept only %s: se %.17g, "
                    "closed form %.17g", kind_name[K], bl_fit_se (j.f)[0], want[K]);
     ck_assert_str_eq (bl_fit_stats_get (j.f)->se_kind, kind_name[K]);
-    job_free (&j);
+    test_job_free (&j);
   }
 }
 END_TEST
@@ -469,18 +327,18 @@ START_TEST (vcov_error_leverage_one)
   static const char csv[] = "y,x,d\n3.1,1.2,0\n4.4,2.3,0\n5.2,2.9,0\n5.9,3.1,1\n6.2,3.8,0\n"
                             "7.3,4.6,0\n";
   for (int K = 1; K <= 4; K++) {
-    job j = { 0 };
+    test_job j = { 0 };
     bl_fit_opts fo;
     bl_err err = { 0 };
     bl_fit *f;
-    j.t = table_mem (csv, strlen (csv), "lev.csv");
-    job_design (&j, "y", "x, d", NULL);
+    j.t = test_table_mem (csv, strlen (csv), "lev.csv", NULL, 0);
+    test_job_design_spec (&j, "y", "x, d", NULL);
     bl_fit_opts_init (&fo);
     fo.method = BL_METHOD_OLS;
     fo.se = (bl_se_kind) K;
     f = bl_fit_glm (j.d, &fo, &err);
     if (K >= 3) {
-      expect_fail (f, &err, BL_EDATA, "lev.csv:5", "leverage 1", kind_name[K], kind_name[K]);
+      test_expect_fail (f, &err, BL_EDATA, "lev.csv:5", "leverage 1", kind_name[K], kind_name[K]);
       ck_assert_str_eq (err.where, "lev.csv:5");
     } else {
       ck_assert_msg (f != NULL, "leverage 1 %s: %s", kind_name[K], err.msg);
@@ -489,7 +347,7 @@ START_TEST (vcov_error_leverage_one)
                        bl_fit_se (f)[k]);
       bl_fit_free (f);
     }
-    job_free (&j);
+    test_job_free (&j);
   }
 }
 END_TEST
@@ -532,12 +390,5 @@ vcov_suite (void)
 int
 main (void)
 {
-  SRunner *sr;
-  int failed;
-  gsl_set_error_handler_off ();
-  sr = srunner_create (vcov_suite ());
-  srunner_run_all (sr, CK_NORMAL);
-  failed = srunner_ntests_failed (sr);
-  srunner_free (sr);
-  return failed ? EXIT_FAILURE : EXIT_SUCCESS;
+  return test_run_suite (vcov_suite (), 1);
 }

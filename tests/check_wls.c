@@ -12,7 +12,6 @@
    - basics: the resolved variance expression and the parameter count. */
 #include <check.h>
 #include <math.h>
-#include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -28,211 +27,6 @@
 
 /* ---------------------------------------------------------------- helpers */
 
-/* Everything one fit needs, freed together by job_free. */
-typedef struct job {
-  bl_table *t;
-  bl_terms *terms, *off;
-  bl_design *d;
-  bl_fit *f;
-} job;
-
-static void
-job_free (job *j)
-{
-  bl_fit_free (j->f);
-  bl_design_free (j->d);
-  bl_terms_free (j->terms);
-  bl_terms_free (j->off);
-  bl_table_free (j->t);
-  memset (j, 0, sizeof *j);
-}
-
-static bl_table *
-table_mem (const char *csv, size_t len, const char *name)
-{
-  bl_err err = { 0 };
-  bl_table_opts to;
-  bl_table *t;
-  bl_table_opts_init (&to);
-  t = bl_table_read_mem (csv, len, name, &to, &err);
-  ck_assert_msg (t != NULL, "read %s: %s: %s", name, err.where, err.msg);
-  return t;
-}
-
-static bl_table *
-table_file (const char *file)
-{
-  char path[1024];
-  bl_err err = { 0 };
-  bl_table_opts to;
-  bl_table *t;
-  bl_table_opts_init (&to);
-  t = bl_table_read (test_data_path (file, path, sizeof path), &to, &err);
-  ck_assert_msg (t != NULL, "read %s: %s: %s", path, err.where, err.msg);
-  return t;
-}
-
-static bl_terms *
-terms_of (const char *text, const char *where)
-{
-  bl_err err = { 0 };
-  bl_terms *t;
-  if (!text)
-    return NULL;
-  t = bl_terms_parse (text, where, &err);
-  ck_assert_msg (t != NULL, "parse '%s': %s", text, err.msg);
-  return t;
-}
-
-/* Design options of one test design. */
-typedef struct dspec {
-  const char *weights, *offset, *variance;
-  int no_intercept;
-} dspec;
-
-/* Build J's design on J->t (TERMS NULL: intercept only); NULL with ERR filled on failure. */
-static bl_design *
-job_design_try (job *j, const char *resp, const char *terms, const dspec *ds, bl_err *err)
-{
-  bl_design_opts dopt;
-  bl_design_opts_init (&dopt);
-  j->terms = terms_of (terms, "--terms");
-  if (ds) {
-    j->off = terms_of (ds->offset, "--offset");
-    dopt.weights = ds->weights;
-    dopt.offset = j->off;
-    dopt.variance = ds->variance;
-    dopt.intercept = !ds->no_intercept;
-  }
-  j->d = bl_design_new (j->t, resp, j->terms, &dopt, err);
-  return j->d;
-}
-
-static void
-job_design (job *j, const char *resp, const char *terms, const dspec *ds)
-{
-  bl_err err = { 0 };
-  ck_assert_msg (job_design_try (j, resp, terms, ds, &err) != NULL, "design '%s': %s: %s",
-                 terms ? terms : "(intercept)", err.where, err.msg);
-}
-
-/* Fit J's design with FO; require a converged fit.  WHAT names the case. */
-static const bl_fit *
-job_fit (job *j, const bl_fit_opts *fo, const char *what)
-{
-  bl_err err = { 0 };
-  j->f = bl_fit_glm (j->d, fo, &err);
-  ck_assert_msg (j->f != NULL, "%s: fit: %s: %s", what, err.where, err.msg);
-  ck_assert_msg (bl_fit_stats_get (j->f)->converged, "%s: did not converge: %s", what,
-                 bl_fit_status (j->f)->msg);
-  return j->f;
-}
-
-/* Column index of LABEL in D. */
-static size_t
-col_of (const bl_design *d, const char *label)
-{
-  for (size_t j = 0; j < bl_design_p (d); j++)
-    if (strcmp (bl_design_label (d, j), label) == 0)
-      return j;
-  ck_abort_msg ("no column '%s' in the design", label);
-  return 0;
-}
-
-/* Nonzero when some warning of F contains FRAG. */
-static int
-has_warning (const bl_fit *f, const char *frag)
-{
-  const bl_warnings *w = bl_fit_warnings (f);
-  for (size_t i = 0; i < w->n; i++)
-    if (strstr (w->msg[i], frag))
-      return 1;
-  return 0;
-}
-
-/* A growable text buffer for CSV built in memory. */
-typedef struct sbuf { char *s; size_t len, cap; } sbuf;
-
-static void
-sb_printf (sbuf *b, const char *fmt, ...)
-{
-  va_list ap;
-  int k;
-  if (b->cap - b->len < 256) {
-    b->cap = b->cap ? 2 * b->cap : 1 << 16;
-    b->s = realloc (b->s, b->cap);
-    ck_assert_msg (b->s != NULL, "sbuf: out of memory");
-  }
-  va_start (ap, fmt);
-  k = vsnprintf (b->s + b->len, b->cap - b->len, fmt, ap);
-  va_end (ap);
-  ck_assert_msg (k >= 0 && (size_t) k < b->cap - b->len, "sbuf: line too long");
-  b->len += (size_t) k;
-}
-
-/* A failed call: F is NULL, ERR has CODE, where starts with WHERE (NULL: not checked), and
-   the message holds FRAG1 and FRAG2 (either may be NULL).  WHAT names the case. */
-static void
-expect_fail (const void *f, const bl_err *err, int code, const char *where, const char *frag1,
-             const char *frag2, const char *what)
-{
-  ck_assert_msg (f == NULL, "%s: the call succeeded", what);
-  ck_assert_msg (err->code == code, "%s: code %d, expected %d (%s: %s)", what, err->code, code,
-                 err->where, err->msg);
-  ck_assert_msg (!where || strncmp (err->where, where, strlen (where)) == 0,
-                 "%s: where '%s', expected '%s'", what, err->where, where);
-  ck_assert_msg (!frag1 || strstr (err->msg, frag1) != NULL, "%s: msg '%s' lacks '%s'", what,
-                 err->msg, frag1);
-  ck_assert_msg (!frag2 || strstr (err->msg, frag2) != NULL, "%s: msg '%s' lacks '%s'", what,
-                 err->msg, frag2);
-}
-
-static double
-rel (double x, double r)
-{
-  return fabs (x - r) / fabs (r);
-}
-
-/* Values of KEY in case CAS of tests/reference/remedies_mle.txt (written by
-   tests/reference/remedies_mle.py): up to CAP numbers into V ('nan' reads as NAN); returns
-   how many.  A missing case or key fails the test. */
-static size_t
-ref_get (const char *cas, const char *key, double *v, size_t cap)
-{
-  char path[1024], line[1024];
-  FILE *fp = fopen (test_data_path ("../reference/remedies_mle.txt", path, sizeof path), "r");
-  int in = 0;
-  size_t nv = 0, klen = strlen (key);
-  ck_assert_msg (fp != NULL, "open %s", path);
-  while (fgets (line, sizeof line, fp)) {
-    line[strcspn (line, "\n")] = '\0';
-    if (strncmp (line, "case ", 5) == 0) {
-      in = strcmp (line + 5, cas) == 0;
-    } else if (in && strncmp (line, key, klen) == 0 && line[klen] == ' ') {
-      char *s = line + klen, *e;
-      while (nv < cap) {
-        const double x = strtod (s, &e);
-        if (e == s)
-          break;
-        v[nv++] = x;
-        s = e;
-      }
-      break;
-    }
-  }
-  fclose (fp);
-  ck_assert_msg (nv > 0, "remedies_mle.txt: no '%s' in case '%s'", key, cas);
-  return nv;
-}
-
-static double
-ref1 (const char *cas, const char *key)
-{
-  double v;
-  ref_get (cas, key, &v, 1);
-  return v;
-}
-
 /* WLS options: method wls, variance KIND on column COL (NULL for fitted), power K or est. */
 static void
 wls_opts (bl_fit_opts *fo, bl_variance kind, const char *col, double K, int est)
@@ -245,15 +39,6 @@ wls_opts (bl_fit_opts *fo, bl_variance kind, const char *col, double K, int est)
   fo->power_est = est;
 }
 
-/* Column COL of table T (every row), asserting it exists. */
-static const double *
-tcol (const bl_table *t, const char *name)
-{
-  const long j = bl_table_find (t, name);
-  ck_assert_msg (j >= 0, "no column '%s'", name);
-  return bl_table_num (t, (size_t) j);
-}
-
 /* ---------------------------------------------------------------- reference */
 
 /* GSL gsl_multifit_wlinear (an independent implementation of weighted least squares; its
@@ -264,24 +49,24 @@ tcol (const bl_table *t, const char *name)
 START_TEST (wls_gsl_wlinear)
 {
   const double K = 1.7;
-  job j = { 0 };
+  test_job j = { 0 };
   bl_fit_opts fo;
-  dspec ds = { "w", NULL, "load", 0 };
+  test_design_spec ds = { "w", NULL, "load", 0 };
   const double *y, *x, *a, *b, *se, *cov;
   size_t n;
   gsl_matrix *X, *C;
   gsl_vector *wv, *yv, *c;
   gsl_multifit_linear_workspace *ws;
   double chisq, s2, worst = 0.0;
-  j.t = table_file ("remedies.csv");
-  job_design (&j, "hours", "load", &ds);
+  j.t = test_table_file ("remedies.csv", NULL, 0);
+  test_job_design_spec (&j, "hours", "load", &ds);
   wls_opts (&fo, BL_VARIANCE_COLUMN, "load", K, 0);
-  job_fit (&j, &fo, "gsl wlinear");
+  test_job_fit (&j, &fo, "gsl wlinear");
   n = bl_design_n (j.d);
   ck_assert_uint_eq (n, bl_table_nrows (j.t));
-  y = tcol (j.t, "hours");
-  x = tcol (j.t, "load");
-  a = tcol (j.t, "w");
+  y = test_table_col (j.t, "hours");
+  x = test_table_col (j.t, "load");
+  a = test_table_col (j.t, "w");
   X = gsl_matrix_alloc (n, 2);
   C = gsl_matrix_alloc (2, 2);
   wv = gsl_vector_alloc (n);
@@ -302,10 +87,10 @@ START_TEST (wls_gsl_wlinear)
   cov = bl_fit_cov (j.f);
   for (size_t k = 0; k < 2; k++) {
     const double sek = sqrt (s2 * gsl_matrix_get (C, k, k));
-    worst = fmax (worst, fmax (rel (b[k], gsl_vector_get (c, k)), rel (se[k], sek)));
-    ck_assert_msg (rel (b[k], gsl_vector_get (c, k)) <= 1e-10, "gsl wlinear b%zu %.17g, gsl "
+    worst = fmax (worst, fmax (test_rel (b[k], gsl_vector_get (c, k)), test_rel (se[k], sek)));
+    ck_assert_msg (test_rel (b[k], gsl_vector_get (c, k)) <= 1e-10, "gsl wlinear b%zu %.17g, gsl "
                    "%.17g", k, b[k], gsl_vector_get (c, k));
-    ck_assert_msg (rel (se[k], sek) <= 1e-10, "gsl wlinear se%zu %.17g, gsl %.17g", k, se[k],
+    ck_assert_msg (test_rel (se[k], sek) <= 1e-10, "gsl wlinear se%zu %.17g, gsl %.17g", k, se[k],
                    sek);
     for (size_t l = 0; l < 2; l++) {
       const double g = s2 * gsl_matrix_get (C, k, l);
@@ -316,7 +101,7 @@ START_TEST (wls_gsl_wlinear)
     }
   }
   /* the deviance of a WLS fit is chisq = sum w r^2 */
-  ck_assert_msg (rel (bl_fit_stats_get (j.f)->deviance, chisq) <= 1e-10,
+  ck_assert_msg (test_rel (bl_fit_stats_get (j.f)->deviance, chisq) <= 1e-10,
                  "gsl wlinear deviance %.17g, chisq %.17g", bl_fit_stats_get (j.f)->deviance,
                  chisq);
   fprintf (stderr, "wls gsl wlinear: worst relative difference %.2e\n", worst);
@@ -326,7 +111,7 @@ START_TEST (wls_gsl_wlinear)
   gsl_vector_free (wv);
   gsl_matrix_free (C);
   gsl_matrix_free (X);
-  job_free (&j);
+  test_job_free (&j);
 }
 END_TEST
 
@@ -339,49 +124,50 @@ END_TEST
    Hessian by finite differences of the analytic gradient). */
 START_TEST (wls_scipy_fitted_est)
 {
-  job j = { 0 };
+  test_job j = { 0 };
   bl_fit_opts fo;
-  dspec ds = { "w", NULL, NULL, 0 };
+  test_design_spec ds = { "w", NULL, NULL, 0 };
   double rb[2], rse[2];
-  const double rK = ref1 ("fitted_est", "K"), rKse = ref1 ("fitted_est", "K_se");
-  const double rl = ref1 ("fitted_est", "loglik");
+  const double rK = test_remedies_ref1 ("fitted_est", "K");
+  const double rKse = test_remedies_ref1 ("fitted_est", "K_se");
+  const double rl = test_remedies_ref1 ("fitted_est", "loglik");
   const bl_fit_variance_info *v;
   const bl_fit_stats *st;
   const double *b, *se;
-  ref_get ("fitted_est", "beta", rb, 2);
-  ref_get ("fitted_est", "se_observed", rse, 2);
-  j.t = table_file ("remedies.csv");
-  job_design (&j, "hours", "load", &ds);
+  test_remedies_ref ("fitted_est", "beta", rb, 2);
+  test_remedies_ref ("fitted_est", "se_observed", rse, 2);
+  j.t = test_table_file ("remedies.csv", NULL, 0);
+  test_job_design_spec (&j, "hours", "load", &ds);
   wls_opts (&fo, BL_VARIANCE_FITTED, NULL, 0.0, 1);
-  job_fit (&j, &fo, "fitted^est");
+  test_job_fit (&j, &fo, "fitted^est");
   v = bl_fit_variance (j.f);
   st = bl_fit_stats_get (j.f);
   b = bl_fit_beta (j.f);
   se = bl_fit_se (j.f);
   fprintf (stderr, "wls fitted^est: K %.10f (ref %.10f, diff %.2e), loglik rel %.2e, b0 %.2e, "
            "b1 %.2e (in |ref| + se), power_se rel %.2e, se rel %.2e %.2e\n", v->power, rK,
-           v->power - rK, rel (st->loglik, rl), fabs (b[0] - rb[0]) / (fabs (rb[0]) + se[0]),
-           fabs (b[1] - rb[1]) / (fabs (rb[1]) + se[1]), rel (v->power_se, rKse),
-           rel (se[0], rse[0]), rel (se[1], rse[1]));
-  ck_assert_msg (rel (st->loglik, rl) <= 1e-8, "fitted^est loglik %.17g, ref %.17g",
+           v->power - rK, test_rel (st->loglik, rl), fabs (b[0] - rb[0]) / (fabs (rb[0]) + se[0]),
+           fabs (b[1] - rb[1]) / (fabs (rb[1]) + se[1]), test_rel (v->power_se, rKse),
+           test_rel (se[0], rse[0]), test_rel (se[1], rse[1]));
+  ck_assert_msg (test_rel (st->loglik, rl) <= 1e-8, "fitted^est loglik %.17g, ref %.17g",
                  st->loglik, rl);
   ck_assert_msg (fabs (v->power - rK) <= 1e-5, "fitted^est K %.17g, ref %.17g", v->power, rK);
   for (size_t k = 0; k < 2; k++) {
     ck_assert_msg (fabs (b[k] - rb[k]) <= 1e-6 * (fabs (rb[k]) + se[k]),
                    "fitted^est b%zu %.17g, ref %.17g", k, b[k], rb[k]);
-    ck_assert_msg (rel (se[k], rse[k]) <= 1e-3, "fitted^est se%zu %.17g, ref %.17g", k, se[k],
+    ck_assert_msg (test_rel (se[k], rse[k]) <= 1e-3, "fitted^est se%zu %.17g, ref %.17g", k, se[k],
                    rse[k]);
   }
-  ck_assert_msg (rel (v->power_se, rKse) <= 1e-3, "fitted^est power_se %.17g, ref %.17g",
+  ck_assert_msg (test_rel (v->power_se, rKse) <= 1e-3, "fitted^est power_se %.17g, ref %.17g",
                  v->power_se, rKse);
   ck_assert_int_eq (v->power_estimated, 1);
   ck_assert_int_eq (v->kind, BL_VARIANCE_FITTED);
-  ck_assert_msg (!has_warning (j.f, "did not settle"), "fitted^est: feasible WLS did not "
+  ck_assert_msg (!test_fit_has_warning (j.f, "did not settle"), "fitted^est: feasible WLS did not "
                  "settle");
   /* k = rank + 1 (sigma) + 1 (K) */
   ck_assert_uint_eq (st->k, 4);
-  ck_assert_msg (rel (st->aic, -2.0 * rl + 8.0) <= 1e-8, "fitted^est aic %.17g", st->aic);
-  job_free (&j);
+  ck_assert_msg (test_rel (st->aic, -2.0 * rl + 8.0) <= 1e-8, "fitted^est aic %.17g", st->aic);
+  test_job_free (&j);
 }
 END_TEST
 
@@ -391,39 +177,40 @@ END_TEST
    1e-8 relative, beta to 1e-6 (|ref| + se), power_se to 1e-3 relative. */
 START_TEST (wls_scipy_col_est)
 {
-  job j = { 0 };
+  test_job j = { 0 };
   bl_fit_opts fo;
-  dspec ds = { "w", NULL, "load", 0 };
+  test_design_spec ds = { "w", NULL, "load", 0 };
   double rb[2];
-  const double rK = ref1 ("col_est", "K"), rKse = ref1 ("col_est", "K_se");
-  const double rl = ref1 ("col_est", "loglik");
+  const double rK = test_remedies_ref1 ("col_est", "K");
+  const double rKse = test_remedies_ref1 ("col_est", "K_se");
+  const double rl = test_remedies_ref1 ("col_est", "loglik");
   const bl_fit_variance_info *v;
   const bl_fit_stats *st;
   const double *b, *se;
-  ref_get ("col_est", "beta", rb, 2);
-  j.t = table_file ("remedies.csv");
-  job_design (&j, "hours", "load", &ds);
+  test_remedies_ref ("col_est", "beta", rb, 2);
+  j.t = test_table_file ("remedies.csv", NULL, 0);
+  test_job_design_spec (&j, "hours", "load", &ds);
   wls_opts (&fo, BL_VARIANCE_COLUMN, "load", 0.0, 1);
-  job_fit (&j, &fo, "load^est");
+  test_job_fit (&j, &fo, "load^est");
   v = bl_fit_variance (j.f);
   st = bl_fit_stats_get (j.f);
   b = bl_fit_beta (j.f);
   se = bl_fit_se (j.f);
   fprintf (stderr, "wls load^est: K %.10f (ref %.10f, diff %.2e), loglik rel %.2e, b0 %.2e, "
            "b1 %.2e (in |ref| + se), power_se rel %.2e\n", v->power, rK, v->power - rK,
-           rel (st->loglik, rl), fabs (b[0] - rb[0]) / (fabs (rb[0]) + se[0]),
-           fabs (b[1] - rb[1]) / (fabs (rb[1]) + se[1]), rel (v->power_se, rKse));
+           test_rel (st->loglik, rl), fabs (b[0] - rb[0]) / (fabs (rb[0]) + se[0]),
+           fabs (b[1] - rb[1]) / (fabs (rb[1]) + se[1]), test_rel (v->power_se, rKse));
   ck_assert_msg (fabs (v->power - rK) <= 1e-5, "load^est K %.17g, ref %.17g", v->power, rK);
-  ck_assert_msg (rel (st->loglik, rl) <= 1e-8, "load^est loglik %.17g, ref %.17g", st->loglik,
+  ck_assert_msg (test_rel (st->loglik, rl) <= 1e-8, "load^est loglik %.17g, ref %.17g", st->loglik,
                  rl);
   for (size_t k = 0; k < 2; k++)
     ck_assert_msg (fabs (b[k] - rb[k]) <= 1e-6 * (fabs (rb[k]) + se[k]),
                    "load^est b%zu %.17g, ref %.17g", k, b[k], rb[k]);
-  ck_assert_msg (rel (v->power_se, rKse) <= 1e-3, "load^est power_se %.17g, ref %.17g",
+  ck_assert_msg (test_rel (v->power_se, rKse) <= 1e-3, "load^est power_se %.17g, ref %.17g",
                  v->power_se, rKse);
   ck_assert_uint_eq (st->k, 4);
   ck_assert_int_eq (v->kind, BL_VARIANCE_COLUMN);
-  job_free (&j);
+  test_job_free (&j);
 }
 END_TEST
 
@@ -438,64 +225,65 @@ END_TEST
 START_TEST (wls_equals_scaled_ols)
 {
   const size_t n = 37;
-  sbuf c1 = { 0 }, c2 = { 0 };
-  job j1 = { 0 }, j2 = { 0 };
+  test_buf c1 = { 0 }, c2 = { 0 };
+  test_job j1 = { 0 }, j2 = { 0 };
   bl_fit_opts fo, fo2;
-  dspec ds1 = { NULL, NULL, "x", 0 }, ds2 = { NULL, NULL, NULL, 1 };
+  test_design_spec ds1 = { NULL, NULL, "x", 0 }, ds2 = { NULL, NULL, NULL, 1 };
   const double *x, *y, *b1, *b2, *s1, *s2;
   long double slx = 0.0L;
   double worst = 0.0;
   size_t iu, iv;
-  sb_printf (&c1, "y,x\n");
+  test_buf_printf (&c1, "y,x\n");
   for (size_t i = 0; i < n; i++) {
     const double xi = 0.55 + 0.371 * (double) i + 0.05 * sin (3.1 * (double) i);
     const double yi = 2.385 + 1.73 * xi + 0.61 * sqrt (xi) * sin (1.7 * (double) i + 0.3);
-    sb_printf (&c1, "%.17g,%.17g\n", yi, xi);
+    test_buf_printf (&c1, "%.17g,%.17g\n", yi, xi);
   }
-  j1.t = table_mem (c1.s, c1.len, "wls.csv");
-  y = tcol (j1.t, "y");
-  x = tcol (j1.t, "x");
-  sb_printf (&c2, "ys,u,v\n");
+  j1.t = test_table_mem (c1.s, c1.len, "wls.csv", NULL, 0);
+  y = test_table_col (j1.t, "y");
+  x = test_table_col (j1.t, "x");
+  test_buf_printf (&c2, "ys,u,v\n");
   for (size_t i = 0; i < n; i++) {
-    sb_printf (&c2, "%.17g,%.17g,%.17g\n", y[i] / sqrt (x[i]), 1.0 / sqrt (x[i]), sqrt (x[i]));
+    test_buf_printf (&c2, "%.17g,%.17g,%.17g\n", y[i] / sqrt (x[i]), 1.0 / sqrt (x[i]),
+                     sqrt (x[i]));
     slx += log (x[i]);
   }
-  j2.t = table_mem (c2.s, c2.len, "scaled.csv");
-  job_design (&j1, "y", "x", &ds1);
-  job_design (&j2, "ys", "u, v", &ds2);
+  j2.t = test_table_mem (c2.s, c2.len, "scaled.csv", NULL, 0);
+  test_job_design_spec (&j1, "y", "x", &ds1);
+  test_job_design_spec (&j2, "ys", "u, v", &ds2);
   wls_opts (&fo, BL_VARIANCE_COLUMN, "x", 1.0, 0);
-  job_fit (&j1, &fo, "wls x^1");
+  test_job_fit (&j1, &fo, "wls x^1");
   bl_fit_opts_init (&fo2);
   fo2.method = BL_METHOD_OLS;
-  job_fit (&j2, &fo2, "scaled ols");
+  test_job_fit (&j2, &fo2, "scaled ols");
   b1 = bl_fit_beta (j1.f);
   s1 = bl_fit_se (j1.f);
   b2 = bl_fit_beta (j2.f);
   s2 = bl_fit_se (j2.f);
-  iu = col_of (j2.d, "u");
-  iv = col_of (j2.d, "v");
+  iu = test_design_col (j2.d, "u");
+  iv = test_design_col (j2.d, "v");
   {
-    const size_t i0 = col_of (j1.d, "intercept"), i1 = col_of (j1.d, "x");
+    const size_t i0 = test_design_col (j1.d, "intercept"), i1 = test_design_col (j1.d, "x");
     const double pairs[4][2] = { { b1[i0], b2[iu] }, { b1[i1], b2[iv] }, { s1[i0], s2[iu] },
                                  { s1[i1], s2[iv] } };
     static const char *const name[4] = { "b0", "b1", "se0", "se1" };
     for (size_t k = 0; k < 4; k++) {
-      worst = fmax (worst, rel (pairs[k][0], pairs[k][1]));
-      ck_assert_msg (rel (pairs[k][0], pairs[k][1]) <= 1e-10, "wls x^1 %s %.17g, scaled ols "
+      worst = fmax (worst, test_rel (pairs[k][0], pairs[k][1]));
+      ck_assert_msg (test_rel (pairs[k][0], pairs[k][1]) <= 1e-10, "wls x^1 %s %.17g, scaled ols "
                      "%.17g", name[k], pairs[k][0], pairs[k][1]);
     }
   }
   {
     const double l1 = bl_fit_stats_get (j1.f)->loglik, l2 = bl_fit_stats_get (j2.f)->loglik;
     const double want = l2 - 0.5 * (double) slx;
-    ck_assert_msg (rel (l1, want) <= 1e-10, "wls x^1 loglik %.17g, scaled ols - 1/2 sum log x "
-                   "%.17g", l1, want);
+    ck_assert_msg (test_rel (l1, want) <= 1e-10,
+                   "wls x^1 loglik %.17g, scaled ols - 1/2 sum log x %.17g", l1, want);
   }
   fprintf (stderr, "wls x^1 = scaled ols: worst relative difference %.2e\n", worst);
   ck_assert_str_eq (bl_fit_variance (j1.f)->expr, "x^1");
   ck_assert_int_eq (bl_fit_method (j1.f), BL_METHOD_WLS);
-  job_free (&j1);
-  job_free (&j2);
+  test_job_free (&j1);
+  test_job_free (&j2);
   free (c1.s);
   free (c2.s);
 }
@@ -505,27 +293,27 @@ END_TEST
    (both minimize sum a_i r_i^2; common practice, no source), bit for bit in b and se. */
 START_TEST (wls_known_weights)
 {
-  job j1 = { 0 }, j2 = { 0 };
+  test_job j1 = { 0 }, j2 = { 0 };
   bl_fit_opts fo, fg;
-  dspec ds = { "w", NULL, NULL, 0 };
-  j1.t = table_file ("remedies.csv");
-  j2.t = table_file ("remedies.csv");
-  job_design (&j1, "hours", "load", &ds);
-  job_design (&j2, "hours", "load", &ds);
+  test_design_spec ds = { "w", NULL, NULL, 0 };
+  j1.t = test_table_file ("remedies.csv", NULL, 0);
+  j2.t = test_table_file ("remedies.csv", NULL, 0);
+  test_job_design_spec (&j1, "hours", "load", &ds);
+  test_job_design_spec (&j2, "hours", "load", &ds);
   wls_opts (&fo, BL_VARIANCE_NONE, NULL, 0.0, 0);
-  job_fit (&j1, &fo, "wls weights");
+  test_job_fit (&j1, &fo, "wls weights");
   bl_fit_opts_init (&fg);
-  job_fit (&j2, &fg, "glm weights");
+  test_job_fit (&j2, &fg, "glm weights");
   for (size_t k = 0; k < 2; k++) {
-    ck_assert_msg (rel (bl_fit_beta (j1.f)[k], bl_fit_beta (j2.f)[k]) <= 1e-13,
+    ck_assert_msg (test_rel (bl_fit_beta (j1.f)[k], bl_fit_beta (j2.f)[k]) <= 1e-13,
                    "wls weights b%zu", k);
-    ck_assert_msg (rel (bl_fit_se (j1.f)[k], bl_fit_se (j2.f)[k]) <= 1e-13,
+    ck_assert_msg (test_rel (bl_fit_se (j1.f)[k], bl_fit_se (j2.f)[k]) <= 1e-13,
                    "wls weights se%zu", k);
   }
   ck_assert_int_eq (bl_fit_method (j1.f), BL_METHOD_WLS);
   ck_assert_str_eq (bl_fit_variance (j1.f)->expr, "");
-  job_free (&j1);
-  job_free (&j2);
+  test_job_free (&j1);
+  test_job_free (&j2);
 }
 END_TEST
 
@@ -536,26 +324,26 @@ END_TEST
    message says "fitted". */
 START_TEST (wls_error_fitted_nonpositive)
 {
-  sbuf c = { 0 };
-  job j = { 0 }, o = { 0 };
+  test_buf c = { 0 };
+  test_job j = { 0 }, o = { 0 };
   bl_fit_opts fo, fols;
   bl_err err = { 0 };
   bl_fit *f;
   char where[64];
   size_t first = 0;
   const double *mu;
-  sb_printf (&c, "y,x\n");
+  test_buf_printf (&c, "y,x\n");
   for (size_t i = 0; i < 20; i++) {
     const double xi = 0.5 + 0.4 * (double) i;
-    sb_printf (&c, "%.6f,%.4f\n", 5.2 - 1.1 * xi + 0.3 * sin (2.3 * (double) i), xi);
+    test_buf_printf (&c, "%.6f,%.4f\n", 5.2 - 1.1 * xi + 0.3 * sin (2.3 * (double) i), xi);
   }
-  j.t = table_mem (c.s, c.len, "falling.csv");
-  o.t = table_mem (c.s, c.len, "falling.csv");
-  job_design (&j, "y", "x", NULL);
-  job_design (&o, "y", "x", NULL);
+  j.t = test_table_mem (c.s, c.len, "falling.csv", NULL, 0);
+  o.t = test_table_mem (c.s, c.len, "falling.csv", NULL, 0);
+  test_job_design_spec (&j, "y", "x", NULL);
+  test_job_design_spec (&o, "y", "x", NULL);
   bl_fit_opts_init (&fols);
   fols.method = BL_METHOD_OLS;
-  job_fit (&o, &fols, "falling ols");
+  test_job_fit (&o, &fols, "falling ols");
   mu = bl_fit_mu (o.f);
   while (first < 20 && mu[first] > 0.0)
     first++;
@@ -563,13 +351,13 @@ START_TEST (wls_error_fitted_nonpositive)
   snprintf (where, sizeof where, "falling.csv:%zu", first + 2);
   wls_opts (&fo, BL_VARIANCE_FITTED, NULL, 1.0, 0);
   f = bl_fit_glm (j.d, &fo, &err);
-  expect_fail (f, &err, BL_EDATA, where, "fitted", "<= 0", "fitted^1 with mu <= 0");
+  test_expect_fail (f, &err, BL_EDATA, where, "fitted", "<= 0", "fitted^1 with mu <= 0");
   ck_assert_str_eq (err.where, where);
   wls_opts (&fo, BL_VARIANCE_FITTED, NULL, 0.0, 1);
   f = bl_fit_glm (j.d, &fo, &err);
-  expect_fail (f, &err, BL_EDATA, where, "fitted", NULL, "fitted^est with mu <= 0");
-  job_free (&j);
-  job_free (&o);
+  test_expect_fail (f, &err, BL_EDATA, where, "fitted", NULL, "fitted^est with mu <= 0");
+  test_job_free (&j);
+  test_job_free (&o);
   free (c.s);
 }
 END_TEST
@@ -580,21 +368,21 @@ START_TEST (wls_error_varcol_nonpositive)
 {
   static const char csv[] = "y,x,v\n3.1,1.2,0.8\n4.4,2.3,1.7\nNA,2.9,-4\n5.9,3.1,0\n"
                             "6.2,3.8,-1.5\n";
-  job j = { 0 };
+  test_job j = { 0 };
   bl_err err = { 0 };
-  dspec ds = { NULL, NULL, "v", 0 };
-  j.t = table_mem (csv, strlen (csv), "var.csv");
-  expect_fail (job_design_try (&j, "y", "x", &ds, &err), &err, BL_EDATA, "var.csv:5", "'v'",
-               "not > 0", "variance column 0");
+  test_design_spec ds = { NULL, NULL, "v", 0 };
+  j.t = test_table_mem (csv, strlen (csv), "var.csv", NULL, 0);
+  test_expect_fail (test_job_design_spec_try (&j, "y", "x", &ds, &err), &err, BL_EDATA,
+                    "var.csv:5", "'v'", "not > 0", "variance column 0");
   ck_assert_msg (strncmp (err.where, "var.csv:5", 9) == 0, "variance column: where '%s'",
                  err.where);
-  job_free (&j);
+  test_job_free (&j);
   /* a variance column that is not in the table */
-  j.t = table_mem (csv, strlen (csv), "var.csv");
+  j.t = test_table_mem (csv, strlen (csv), "var.csv", NULL, 0);
   ds.variance = "load";
-  expect_fail (job_design_try (&j, "y", "x", &ds, &err), &err, BL_ESPEC, "--variance",
-               "'load'", NULL, "variance column absent");
-  job_free (&j);
+  test_expect_fail (test_job_design_spec_try (&j, "y", "x", &ds, &err), &err, BL_ESPEC,
+                    "--variance", "'load'", NULL, "variance column absent");
+  test_job_free (&j);
 }
 END_TEST
 
@@ -604,37 +392,37 @@ START_TEST (wls_error_options)
 {
   bl_fit_opts fo;
   bl_err err = { 0 };
-  job j = { 0 };
-  dspec ds = { "w", "log(load)", "load", 0 };
+  test_job j = { 0 };
+  test_design_spec ds = { "w", "log(load)", "load", 0 };
   bl_fit *f;
-  j.t = table_file ("remedies.csv");
-  job_design (&j, "hours", "load", &ds);
+  j.t = test_table_file ("remedies.csv", NULL, 0);
+  test_job_design_spec (&j, "hours", "load", &ds);
   wls_opts (&fo, BL_VARIANCE_COLUMN, "load", 1.0, 0);
   f = bl_fit_glm (j.d, &fo, &err);
-  expect_fail (f, &err, BL_ESPEC, "--offset", "offset", "wls", "wls with an offset");
-  job_free (&j);
+  test_expect_fail (f, &err, BL_ESPEC, "--offset", "offset", "wls", "wls with an offset");
+  test_job_free (&j);
 
-  j.t = table_file ("remedies.csv");
+  j.t = test_table_file ("remedies.csv", NULL, 0);
   ds.offset = NULL;
-  job_design (&j, "hours", "load", &ds);
+  test_job_design_spec (&j, "hours", "load", &ds);
   wls_opts (&fo, BL_VARIANCE_COLUMN, "load", 1.0, 0);
   fo.fam = &bl_family_gamma;
   f = bl_fit_glm (j.d, &fo, &err);
-  expect_fail (f, &err, BL_ESPEC, "--method", "wls", "--family", "wls with gamma");
+  test_expect_fail (f, &err, BL_ESPEC, "--method", "wls", "--family", "wls with gamma");
   wls_opts (&fo, BL_VARIANCE_COLUMN, "load", 1.0, 0);
   fo.link = &bl_link_log;
   f = bl_fit_glm (j.d, &fo, &err);
-  expect_fail (f, &err, BL_ESPEC, "--method", "identity", NULL, "wls with a log link");
-  job_free (&j);
+  test_expect_fail (f, &err, BL_ESPEC, "--method", "identity", NULL, "wls with a log link");
+  test_job_free (&j);
 
-  j.t = table_file ("remedies.csv");
+  j.t = test_table_file ("remedies.csv", NULL, 0);
   ds.variance = NULL;
-  job_design (&j, "hours", "load", &ds);
+  test_job_design_spec (&j, "hours", "load", &ds);
   wls_opts (&fo, BL_VARIANCE_COLUMN, "load", 1.0, 0);
   f = bl_fit_glm (j.d, &fo, &err);
-  expect_fail (f, &err, BL_ESPEC, "--variance", "no variance column", NULL,
-               "COL^K without a column");
-  job_free (&j);
+  test_expect_fail (f, &err, BL_ESPEC, "--variance", "no variance column", NULL,
+                    "COL^K without a column");
+  test_job_free (&j);
 }
 END_TEST
 
@@ -643,25 +431,25 @@ END_TEST
    upper end and K is refused as not identified (BL_ENOCONV, where "--variance"). */
 START_TEST (wls_error_power_not_identified)
 {
-  sbuf c = { 0 };
-  job j = { 0 };
+  test_buf c = { 0 };
+  test_job j = { 0 };
   bl_fit_opts fo;
   bl_err err = { 0 };
-  dspec ds = { NULL, NULL, "x", 0 };
+  test_design_spec ds = { NULL, NULL, "x", 0 };
   bl_fit *f;
-  sb_printf (&c, "y,x\n");
+  test_buf_printf (&c, "y,x\n");
   for (size_t i = 0; i < 40; i++) {
     const double xi = 1.0 + 0.23 * (double) i;
-    sb_printf (&c, "%.17g,%.17g\n", 1.3 + xi + 1e-3 * pow (xi, 5.0) * sin (2.1 * (double) i),
-               xi);
+    test_buf_printf (&c, "%.17g,%.17g\n", 1.3 + xi + 1e-3 * pow (xi, 5.0) * sin (2.1 * (double) i),
+                     xi);
   }
-  j.t = table_mem (c.s, c.len, "wide.csv");
-  job_design (&j, "y", "x", &ds);
+  j.t = test_table_mem (c.s, c.len, "wide.csv", NULL, 0);
+  test_job_design_spec (&j, "y", "x", &ds);
   wls_opts (&fo, BL_VARIANCE_COLUMN, "x", 0.0, 1);
   f = bl_fit_glm (j.d, &fo, &err);
-  expect_fail (f, &err, BL_ENOCONV, "--variance", "not identified", "range",
-               "x^est not identified");
-  job_free (&j);
+  test_expect_fail (f, &err, BL_ENOCONV, "--variance", "not identified", "range",
+                    "x^est not identified");
+  test_job_free (&j);
   free (c.s);
 }
 END_TEST
@@ -672,31 +460,31 @@ END_TEST
    counts k = rank + 1; the power_se of a fixed power is NAN. */
 START_TEST (wls_expr_and_k)
 {
-  job j = { 0 };
+  test_job j = { 0 };
   bl_fit_opts fo;
-  dspec ds = { "w", NULL, "load", 0 };
+  test_design_spec ds = { "w", NULL, "load", 0 };
   const bl_fit_variance_info *v;
-  j.t = table_file ("remedies.csv");
-  job_design (&j, "hours", "load", &ds);
+  j.t = test_table_file ("remedies.csv", NULL, 0);
+  test_job_design_spec (&j, "hours", "load", &ds);
   wls_opts (&fo, BL_VARIANCE_COLUMN, "load", 1.7, 0);
-  job_fit (&j, &fo, "load^1.7");
+  test_job_fit (&j, &fo, "load^1.7");
   v = bl_fit_variance (j.f);
   ck_assert_str_eq (v->expr, "load^1.7");
   ck_assert_msg (isnan (v->power_se), "load^1.7: power_se %g", v->power_se);
   ck_assert_int_eq (v->power_estimated, 0);
   ck_assert_uint_eq (bl_fit_stats_get (j.f)->k, 3);
   ck_assert_str_eq (bl_method_name (bl_fit_method (j.f)), "wls");
-  job_free (&j);
-  j.t = table_file ("remedies.csv");
+  test_job_free (&j);
+  j.t = test_table_file ("remedies.csv", NULL, 0);
   ds.variance = NULL;
-  job_design (&j, "hours", "load", &ds);
+  test_job_design_spec (&j, "hours", "load", &ds);
   wls_opts (&fo, BL_VARIANCE_FITTED, NULL, 2.0, 0);
-  job_fit (&j, &fo, "fitted^2");
+  test_job_fit (&j, &fo, "fitted^2");
   v = bl_fit_variance (j.f);
   ck_assert_str_eq (v->expr, "fitted^2");
   ck_assert_uint_eq (bl_fit_stats_get (j.f)->k, 3);
   ck_assert_msg (isnan (v->power_se), "fitted^2: power_se %g", v->power_se);
-  job_free (&j);
+  test_job_free (&j);
 }
 END_TEST
 
@@ -732,12 +520,5 @@ wls_suite (void)
 int
 main (void)
 {
-  SRunner *sr;
-  int failed;
-  gsl_set_error_handler_off ();
-  sr = srunner_create (wls_suite ());
-  srunner_run_all (sr, CK_NORMAL);
-  failed = srunner_ntests_failed (sr);
-  srunner_free (sr);
-  return failed ? EXIT_FAILURE : EXIT_SUCCESS;
+  return test_run_suite (wls_suite (), 1);
 }
