@@ -676,6 +676,10 @@ bl_compare_run (const bl_design *d, const bl_compare_opts *opt, bl_err *err)
         wst = bl_warnings_add (&c->advice, "the negative binomial beats poisson by %.3g AIC "
                                "(theta %.3g): the counts are overdispersed, and poisson's "
                                "standard errors are too small", gain, nb->theta);
+      else if (gain > BL_COMPARE_DELTA)
+        wst = bl_warnings_add (&c->advice, "the negative binomial is better than poisson by "
+                               "%.3g AIC (theta %.3g): some overdispersion, not a clear "
+                               "margin; check with new data", gain, nb->theta);
       else if (gain > -BL_COMPARE_DELTA)
         wst = bl_warnings_add (&c->advice, "the negative binomial and poisson tie (AIC "
                                "difference %.3g): no clear overdispersion; the simpler "

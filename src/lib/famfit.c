@@ -37,16 +37,38 @@
 
 /* ---------------------------------------------------------------- negative binomial */
 
+/* h(x) = psi(x) - log x.  For large x by its asymptotic series
+     h(x) = -1/(2x) - 1/(12x^2) + 1/(120x^4) - 1/(252x^6) + 1/(240x^8) - ...
+   (Abramowitz & Stegun 1964, 6.3.18), whose next term is below 1e-22 at x >= 100; below
+   that, from GSL's psi (h is then at least 5e-3 in size, so the subtraction loses little). */
+static double
+psi_minus_log (double x)
+{
+  if (x >= 100.0) {
+    const double r = 1.0 / x, r2 = r * r;
+    return -0.5 * r - r2 * (1.0 / 12.0 - r2 * (1.0 / 120.0 - r2 * (1.0 / 252.0
+                                                                 - r2 / 240.0)));
+  }
+  return gsl_sf_psi (x) - log (x);
+}
+
+/* The score is summed as
+     psi(y + theta) - psi(theta) + log theta + 1 - log(theta + mu) - (y + theta)/(theta + mu)
+       = h(y + theta) - h(theta) + log1p(u) - u,   u = (y - mu) / (theta + mu),
+   an identity (log(y + theta) - log theta cancels against log((y + theta)/(theta + mu)) +
+   log(theta + mu) - log theta).  At large theta each row's score is O(1/theta^2) while the
+   left form subtracts numbers of size log theta: at theta = 1e8 its rounding error is ten
+   times the score, and the sign test for theta -> infinity became noise (common practice,
+   no source). */
 static void
 nb_score (const double *y, const double *mu, const double *a, size_t n, double th,
           double *s, double *h)
 {
   long double ss = 0.0L, hh = 0.0L;
-  const double psith = gsl_sf_psi (th), psi1th = gsl_sf_psi_1 (th);
+  const double hth = psi_minus_log (th), psi1th = gsl_sf_psi_1 (th);
   for (size_t i = 0; i < n; i++) {
-    const double ai = a ? a[i] : 1.0, tm = th + mu[i];
-    ss += ai * (gsl_sf_psi (y[i] + th) - psith + log (th) + 1.0 - log (tm)
-                - (y[i] + th) / tm);
+    const double ai = a ? a[i] : 1.0, tm = th + mu[i], u = (y[i] - mu[i]) / tm;
+    ss += ai * (psi_minus_log (y[i] + th) - hth + (log1p (u) - u));
     hh += ai * (gsl_sf_psi_1 (y[i] + th) - psi1th + 1.0 / th - 2.0 / tm
                 + (y[i] + th) / (tm * tm));
   }

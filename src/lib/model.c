@@ -939,7 +939,12 @@ smeared (const bl_model *m, double xb, double *mean, double *deriv)
 static double
 poisson_quantile (double p, double mu)
 {
-  double k = floor (mu + gsl_cdf_ugaussian_Pinv (p) * sqrt (mu));
+  double k;
+  if (!(p < 1.0))
+    return HUGE_VAL;          /* the level rounds 1 - alpha/2 to 1: no finite quantile */
+  k = floor (mu + gsl_cdf_ugaussian_Pinv (p) * sqrt (mu));
+  if (!(k < (double) UINT_MAX / 2.0))
+    return k;
   if (!(k >= 0.0))
     k = 0.0;
   if (gsl_cdf_poisson_P ((unsigned) k, mu) >= p) {
@@ -957,7 +962,12 @@ static double
 negbin_quantile (double p, double mu, double th)
 {
   const double pr = th / (th + mu);
-  double k = floor (mu + gsl_cdf_ugaussian_Pinv (p) * sqrt (mu + mu * mu / th));
+  double k;
+  if (!(p < 1.0))
+    return HUGE_VAL;
+  k = floor (mu + gsl_cdf_ugaussian_Pinv (p) * sqrt (mu + mu * mu / th));
+  if (!(k < (double) UINT_MAX / 2.0))
+    return k;
   if (!(k >= 0.0))
     k = 0.0;
   if (gsl_cdf_negative_binomial_P ((unsigned) k, pr, th) >= p) {
@@ -1079,9 +1089,10 @@ new_design (const bl_model *m, const bl_table *t, bl_err *err)
     return NULL;
   }
   if (bl_design_p (d) != m->p || bl_design_n (d) != bl_table_nrows (t)) {
+    const size_t pd = bl_design_p (d);
     bl_design_free (d);
     bl_fail (err, BL_EDATA, m->path, "inconsistent model: its terms give %zu columns, but "
-             "'columns' lists %zu", bl_design_p (d), m->p);
+             "'columns' lists %zu", pd, m->p);
     return NULL;
   }
   for (size_t j = 0; j < m->p; j++)

@@ -23,8 +23,12 @@ bl_nested_test (const bl_fit *big, const bl_table *t, const bl_terms *small,
   bl_terms_text (small, out->terms, sizeof out->terms);
   if (!sb->converged)
     return bl_fail (err, BL_ENOCONV, "--against", "the larger model did not converge");
-  if (!(ds = bl_design_new (t, bl_design_response (db), small, dopt, err)))
+  if (!(ds = bl_design_new (t, bl_design_response (db), small, dopt, err))) {
+    /* the design names its terms "--terms"; here they came from --against */
+    if (err && strcmp (err->where, "--terms") == 0)
+      snprintf (err->where, sizeof err->where, "--against");
     return err ? err->code : BL_EDATA;
+  }
   /* every column of the smaller model must be a column of the larger (a sufficient
      condition for nesting that needs no arithmetic) */
   for (size_t j = 0; j < bl_design_p (ds); j++) {
@@ -80,7 +84,17 @@ bl_nested_test (const bl_fit *big, const bl_table *t, const bl_terms *small,
     out->dof = sb->rank - ss->rank;
     out->deviance_small = ss->deviance;
     out->deviance_big = sb->deviance;
-    if (!bl_fit_family (big)->phi_free && !fo->dispersion_pearson) {
+    if (bl_fit_family (big)->par_name && fo->fam_par_est) {
+      /* The family's parameter (negative binomial theta, the Tweedie power) is estimated in
+         each model separately, so the two deviances are measured at different parameters and
+         do not subtract: the likelihood ratio 2 (l_big - l_small), both maximized over the
+         parameter, is chi-square on the rank difference (Wilks 1938, Ann. Math. Statist. 9,
+         60-62; the parameter is common to both models and cancels from the dof). */
+      const double lr = 2.0 * (sb->loglik - ss->loglik);
+      out->form = "chisq";
+      out->stat = lr;
+      out->p = isfinite (lr) ? gsl_cdf_chisq_Q (lr > 0.0 ? lr : 0.0, (double) out->dof) : NAN;
+    } else if (!bl_fit_family (big)->phi_free && !fo->dispersion_pearson) {
       out->form = "chisq";
       out->stat = dd;
       out->p = gsl_cdf_chisq_Q (dd > 0.0 ? dd : 0.0, (double) out->dof);

@@ -25,7 +25,10 @@ typedef struct bl_nested {
    (McCullagh & Nelder 1989, section 4.4.3): with the dispersion fixed (poisson),
    D_small - D_big is chi-square on rank_big - rank_small degrees of freedom; with it
    estimated, F = ((D_small - D_big) / dof) / phi_big, phi_big the larger model's Pearson
-   dispersion, on (dof, n - rank_big).
+   dispersion, on (dof, n - rank_big).  When the family's parameter (negative binomial theta,
+   Tweedie power) is estimated in each model, the deviances are at different parameter
+   values, so the statistic is the likelihood ratio 2 (l_big - l_small), chi-square on the
+   rank difference.
    Errors: BL_ESPEC when the smaller model is not nested (a column of it is not a column of
    BIG, or its rank is not smaller), BL_EDATA when it cannot be fitted on BIG's rows,
    BL_ENOCONV, BL_ENOMEM. */

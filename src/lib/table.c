@@ -1058,8 +1058,9 @@ parse_avail (reader *rd, bl_table *t, const bl_table_opts *opt, pstate *ps, int 
 
 typedef struct spec {
   reader rd;                  /* the worker's reader over the second part */
-  const char *first;          /* the first part, whose line feeds the worker counts */
-  size_t first_len;
+  size_t first_nl;            /* line feeds of the first part, counted before the worker
+                                 starts: the caller parses that part in place (writing NULs
+                                 over cell ends for strtod), so the worker must not read it */
   size_t ncols;
   int *type;                  /* column types when the worker started */
   double **num;               /* per column: the table's array (NUM), or NULL */
@@ -1154,8 +1155,7 @@ spec_run (void *arg)
   char tmp[SPEC_NUM_MAX];
   bl_err scratch;             /* parse_record's messages, never shown */
   w->ok = 0;
-  for (size_t i = 0; i < w->first_len; i++)
-    nl += w->first[i] == '\n';
+  nl = w->first_nl;
   w->off = r = w->base + nl;
   if (r > w->cap || w->cap - r < w->rows_cap)
     return NULL;
@@ -1257,8 +1257,10 @@ par_step (reader *rd, bl_table *t, const bl_table_opts *opt, pstate *ps, spec *w
     return fail_nomem (rd, err);
   w->rd.buf = buf + split;
   w->rd.len = end - split;
-  w->first = buf + ps->pos;
-  w->first_len = split - ps->pos;
+  w->first_nl = 0;
+  for (const char *q = buf + ps->pos, *const qe = buf + split;
+       (q = memchr (q, '\n', (size_t) (qe - q))) != NULL; q++)
+    w->first_nl++;
   started = pthread_create (&tid, NULL, spec_run, w) == 0;
   t->frozen = started;
   /* The first part, stopping at the split as if the input paused there. */

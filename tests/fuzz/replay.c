@@ -4,17 +4,39 @@
    regular file of each directory named on the command line (and each file named directly) to
    LLVMFuzzerTestOneInput, in sorted order, after LLVMFuzzerInitialize when the harness has
    one.  `make check` uses it to replay the seed corpora and the saved regressions under
-   AddressSanitizer and UBSan.  Exit status: 0 when every input ran (a harness that finds a
-   bug aborts, which fails the run), 1 when a file could not be read, 2 for a usage error. */
+   AddressSanitizer and UBSan.  Each input has REPLAY_TIMEOUT seconds (default 60, 0 for no
+   limit), as libFuzzer's -timeout: an input that runs longer is reported with its name and
+   ends the run with status 1 (gcc's -fsanitize=undefined leaves out float-cast-overflow, so
+   an endless loop behind such a cast shows up only as a timeout).  Exit status: 0 when every
+   input ran (a harness that finds a bug aborts, which fails the run), 1 when a file could not
+   be read or an input timed out, 2 for a usage error. */
 #include <dirent.h>
 #include <stdint.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <signal.h>
 #include <sys/stat.h>
+#include <unistd.h>
 
 int LLVMFuzzerTestOneInput (const uint8_t *data, size_t size);
 int LLVMFuzzerInitialize (int *argc, char ***argv) __attribute__ ((weak));
+
+static const char *volatile current;     /* the input running, for the timeout message */
+
+static void
+on_alarm (int sig)
+{
+  static const char head[] = "replay: timeout: ";
+  const char *c = current ? current : "?";
+  (void) sig;
+  (void) !write (2, head, sizeof head - 1);
+  (void) !write (2, c, strlen (c));
+  (void) !write (2, "\n", 1);
+  _exit (1);
+}
+
+static unsigned timeout_s = 60;
 
 static int
 run_file (const char *path, size_t *count)
@@ -55,7 +77,10 @@ run_file (const char *path, size_t *count)
   }
   memcpy (grown, buf, len);
   free (buf);
+  current = path;
+  alarm (timeout_s);
   LLVMFuzzerTestOneInput (grown, len);
+  alarm (0);
   free (grown);
   (*count)++;
   return 0;
@@ -121,6 +146,9 @@ main (int argc, char **argv)
     fprintf (stderr, "usage: %s DIR_OR_FILE...\n", argv[0]);
     return 2;
   }
+  if (getenv ("REPLAY_TIMEOUT"))
+    timeout_s = (unsigned) strtoul (getenv ("REPLAY_TIMEOUT"), NULL, 10);
+  signal (SIGALRM, on_alarm);
   if (LLVMFuzzerInitialize)
     LLVMFuzzerInitialize (&argc, &argv);
   for (int i = 1; i < argc; i++) {

@@ -32,21 +32,25 @@ if [ -z "${CC:-}" ]; then
 fi
 out=$bld/fuzz
 mkdir -p "$out/obj" || exit 2
-cflags="-g -O1 -fno-omit-frame-pointer -fsanitize=address,undefined -I$bld -I$top/src/lib"
+cflags="-g -O1 -fno-omit-frame-pointer -fsanitize=address,undefined -fno-sanitize-recover=all"
+cflags="$cflags -I$bld -I$top/src/lib"
 cflags="$cflags $(pkg-config --cflags gsl zlib jansson)"
 libs="$(pkg-config --libs gsl zlib jansson) -lpthread -lm"
 
 # The library's sources as Makefile.am lists them, and model.c (predict's reader).
 srcs=$(sed -n '/^libballast_la_SOURCES/,/^[^	 ]/p' "$top/Makefile.am" \
-       | tr ' \\\t=' '\n\n\n\n' | grep '^src/lib/.*\.c$')
+       | tr ' \\\t=' '\n\n\n\n' | grep '^src/lib/.*\.c$' | sort -u)
 case " $(echo $srcs) " in
   *" src/lib/model.c "*) ;;
   *) [ -f "$top/src/lib/model.c" ] && srcs="$srcs src/lib/model.c" ;;
 esac
+# An object is rebuilt when its source or any library header is newer (headers change
+# structures that other files' objects lay out).
+newest_h=$(ls -t "$top"/src/lib/*.h "$bld/config.h" | head -n 1)
 objs=
 for s in $srcs; do
   o=$out/obj/$(basename "$s" .c).o
-  if [ ! -f "$o" ] || [ "$top/$s" -nt "$o" ]; then
+  if [ ! -f "$o" ] || [ "$top/$s" -nt "$o" ] || [ "$newest_h" -nt "$o" ]; then
     $CC $cflags -fsanitize=fuzzer-no-link -c "$top/$s" -o "$o" || exit 2
   fi
   objs="$objs $o"
@@ -58,12 +62,13 @@ for h in $harnesses; do
   $CC $cflags -fsanitize=fuzzer "$here/fuzz_$h.c" $objs $libs -o "$bin" || exit 2
   [ "$secs" -gt 0 ] || continue
   mkdir -p "$out/corpus/$h" "$out/artifacts/$h"
+  : >"$out/$h.regression.log"
   cp -p "$here/corpus/$h"/* "$out/corpus/$h/" 2>/dev/null
   # The saved regressions run first, one by one (a bug not yet fixed fails here, and is
   # reported, but does not stop the fuzzing of the rest).
   for r in "$here/regressions/$h"/*; do
     [ -f "$r" ] || continue
-    if ! "$bin" "$r" >"$out/$h.regression.log" 2>&1; then
+    if ! "$bin" -timeout=10 "$r" >>"$out/$h.regression.log" 2>&1; then
       echo "fuzz_$h: regression still fails: $r (see $out/$h.regression.log)" >&2
       status=1
     fi
