@@ -27,17 +27,21 @@ static const char usage[] =
   "  -o, --output FILE       write the CSV to FILE (atomically) instead of stdout\n"
   "  --keep COL,...          copy these NEWDATA columns into the output (repeatable)\n"
   "  --level X               level of both intervals, in (0, 1) (default: the fit's)\n"
+  "  --median                transformed models: also a column 'median', the naive\n"
+  "                          back-transform h^-1(x'b) (the mean column is Duan's smeared\n"
+  "                          mean)\n"
   "  -q, --quiet             no scores\n"
   "  -h, --help              this help\n"
   "\n"
   "exit status: 0 done; 1 data or model problem (nothing is written then); 2 usage.\n";
 
-enum { OPT_KEEP = 400, OPT_LEVEL_P };
+enum { OPT_KEEP = 400, OPT_LEVEL_P, OPT_MEDIAN };
 
 static const struct option long_opts[] = {
   { "output", required_argument, NULL, 'o' },
   { "keep", required_argument, NULL, OPT_KEEP },
   { "level", required_argument, NULL, OPT_LEVEL_P },
+  { "median", no_argument, NULL, OPT_MEDIAN },
   { "quiet", no_argument, NULL, 'q' },
   { "help", no_argument, NULL, 'h' },
   { NULL, 0, NULL, 0 }
@@ -67,7 +71,7 @@ cmd_predict (int argc, char **argv)
   char *keepbuf[MAX_KEEP];
   size_t nkeep = 0, nbuf = 0;
   double level = 0.0;
-  int quiet = 0, c, rc = EXIT_DATA;
+  int quiet = 0, c, rc = EXIT_DATA, median = 0;
   bl_model *m = NULL;
   bl_table *t = NULL;
   bl_prediction *pr = NULL;
@@ -82,6 +86,7 @@ cmd_predict (int argc, char **argv)
     switch (c) {
     case 'o': output = optarg; break;
     case 'q': quiet = 1; break;
+    case OPT_MEDIAN: median = 1; break;
     case OPT_KEEP:
       if (nbuf == MAX_KEEP) {
         rc = cli_usage_error ("predict", "--keep", "more than %d --keep options", MAX_KEEP);
@@ -134,7 +139,7 @@ cmd_predict (int argc, char **argv)
   }
   if (cli_out_open (&out, output) != 0)
     goto done;
-  if (bl_prediction_write_csv (out.f, pr, t, keep, nkeep, &err) != BL_OK) {
+  if (bl_prediction_write_csv2 (out.f, pr, t, keep, nkeep, median, &err) != BL_OK) {
     cli_out_abort (&out);
     rc = cli_lib_error ("predict", &err);
     goto done;

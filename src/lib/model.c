@@ -766,6 +766,7 @@ bl_prediction_free (bl_prediction *p)
   bl_free (p->mean_hi);
   bl_free (p->pred_lo);
   bl_free (p->pred_hi);
+  bl_free (p->median);
   bl_free (p);
 }
 
@@ -1057,7 +1058,8 @@ prediction_new (size_t n)
   p->mean_hi = bl_mallocn (n ? n : 1, sizeof (double));
   p->pred_lo = bl_mallocn (n ? n : 1, sizeof (double));
   p->pred_hi = bl_mallocn (n ? n : 1, sizeof (double));
-  if (!p->mean || !p->mean_lo || !p->mean_hi || !p->pred_lo || !p->pred_hi) {
+  p->median = bl_mallocn (n ? n : 1, sizeof (double));
+  if (!p->mean || !p->mean_lo || !p->mean_hi || !p->pred_lo || !p->pred_hi || !p->median) {
     bl_prediction_free (p);
     return NULL;
   }
@@ -1175,7 +1177,9 @@ bl_model_predict (const bl_model *m, const bl_table *t, double level, bl_err *er
         pr->mean_hi[row] = mu + q * fabs (deriv) * se;
         pr->pred_lo[row] = inverse_transform (m, eta - q * sp) - m->shift;
         pr->pred_hi[row] = inverse_transform (m, eta + q * sp) - m->shift;
+        pr->median[row] = inverse_transform (m, eta) - m->shift;
       } else {
+        pr->median[row] = NAN;
         const double lo = eta - q * se, hi = eta + q * se;
         double e1 = m->link->ginv (lo), e2 = m->link->ginv (hi);
         if (m->link == &bl_link_inverse && !(lo * hi > 0.0)) {
@@ -1296,9 +1300,16 @@ int
 bl_prediction_write_csv (FILE *out, const bl_prediction *p, const bl_table *t,
                          const char *const *keep, size_t nkeep, bl_err *err)
 {
+  return bl_prediction_write_csv2 (out, p, t, keep, nkeep, 0, err);
+}
+
+int
+bl_prediction_write_csv2 (FILE *out, const bl_prediction *p, const bl_table *t,
+                          const char *const *keep, size_t nkeep, int median, bl_err *err)
+{
   static const char *const head[] = { "row", "mean", "mean_lo", "mean_hi", "pred_lo",
-                                      "pred_hi" };
-  const size_t nh = sizeof head / sizeof head[0];
+                                      "pred_hi", "median" };
+  const size_t nh = sizeof head / sizeof head[0] - (median ? 0 : 1);
   char w[1100];
   snprintf (w, sizeof w, "%s:1", bl_table_source (t));
   for (size_t k = 0; k < nkeep; k++) {
@@ -1318,9 +1329,9 @@ bl_prediction_write_csv (FILE *out, const bl_prediction *p, const bl_table *t,
   fputc ('\n', out);
   for (size_t i = 0; i < p->n; i++) {
     const double v[] = { p->mean[i], p->mean_lo[i], p->mean_hi[i], p->pred_lo[i],
-                         p->pred_hi[i] };
+                         p->pred_hi[i], p->median[i] };
     fprintf (out, "%zu", i + 1);
-    for (size_t c = 0; c < sizeof v / sizeof v[0]; c++) {
+    for (size_t c = 0; c < nh - 1; c++) {
       fputc (',', out);
       put_num (out, v[c]);
     }

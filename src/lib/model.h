@@ -33,6 +33,9 @@ void bl_model_free (bl_model *m);
 typedef struct bl_prediction {
   size_t n;
   double *mean, *mean_lo, *mean_hi, *pred_lo, *pred_hi;
+  double *median;                     /* transformed models: the naive back-transform
+                                         h^-1(x'b) - shift, the median of y when the
+                                         transformed errors are symmetric; else NAN */
   int has_response;                   /* T holds the response: scores below exist */
   double deviance, rmse, mae;         /* out-of-sample, on y's scale */
   size_t n_scored;                    /* rows with the response, over which they are taken */
@@ -58,6 +61,9 @@ void bl_prediction_free (bl_prediction *p);
    written.  BL_OK, or BL_EIO when a write failed. */
 int bl_prediction_write_csv (FILE *out, const bl_prediction *p, const bl_table *t,
                              const char *const *keep, size_t nkeep, bl_err *err);
+/* The same with a `median` column after pred_hi when MEDIAN is nonzero (predict --median). */
+int bl_prediction_write_csv2 (FILE *out, const bl_prediction *p, const bl_table *t,
+                              const char *const *keep, size_t nkeep, int median, bl_err *err);
 
 /* Table options for reading new data for M: its categorical columns forced categorical.
    The pointers stay valid until bl_model_free. */

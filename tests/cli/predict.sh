@@ -279,4 +279,24 @@ bl predict repair.json level.csv
 expect_rc "unseen level to stdout exit" 1
 expect_out_empty "unseen level to stdout: nothing written"
 
+
+# --median: the naive back-transform beside the smeared mean.  For the log transform the
+# smeared mean is exp(x'b) mean(exp(e_i)) (Duan 1983), so mean / median is one constant > 1.
+zcat "$top_srcdir/data/pumps.csv.gz" | head -n 301 > med.csv
+bl fit med.csv --response repair_hours --terms age_years --transform log --save med.json -q
+expect_rc "median: fit --save" 0
+bl predict med.json med.csv --median -q
+expect_rc "median: predict --median" 0
+expect_line1 "median: header" "row,mean,mean_lo,mean_hi,pred_lo,pred_hi,median"
+save_out med-out.csv
+run python3 -c '
+import csv, sys
+rows = list(csv.DictReader(open(sys.argv[1])))
+r = [float(x["mean"]) / float(x["median"]) for x in rows]
+assert len(rows) == 300 and min(r) > 1.0 and max(r) - min(r) < 1e-12 * max(r), (min(r), max(r))
+' "$tmp/.out"
+expect_rc "median: mean / median is the smearing factor on every row" 0
+bl predict med.json med.csv -q
+expect_line1 "median: absent without --median" "row,mean,mean_lo,mean_hi,pred_lo,pred_hi"
+
 finish
