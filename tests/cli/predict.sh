@@ -294,7 +294,7 @@ import csv, sys
 rows = list(csv.DictReader(open(sys.argv[1])))
 r = [float(x["mean"]) / float(x["median"]) for x in rows]
 assert len(rows) == 300 and min(r) > 1.0 and max(r) - min(r) < 1e-12 * max(r), (min(r), max(r))
-' "$tmp/.out"
+' med-out.csv
 expect_rc "median: mean / median is the smearing factor on every row" 0
 bl predict med.json med.csv -q
 expect_line1 "median: absent without --median" "row,mean,mean_lo,mean_hi,pred_lo,pred_hi"
