@@ -92,18 +92,8 @@ cmd_diagnose (int argc, char **argv)
       break;
     case 'o': output = optarg; break;
     case 'q': quiet = 1; break;
-    case 'h':
-      cli_model_free (&m);
-      fputs (usage_head, stdout);
-      fputs (cli_model_help, stdout);
-      fputs (usage_tail, stdout);
-      return EXIT_DONE;
-    case ':':
-      cli_model_free (&m);
-      return cli_usage_error ("diagnose", argv[optind - 1], "this option needs a value");
     default:
-      cli_model_free (&m);
-      return cli_usage_error ("diagnose", argv[optind - 1], "unknown option");
+      return cli_model_option_end (&m, c, "diagnose", argv, usage_head, usage_tail);
     }
   }
   if (!method_set)

@@ -93,18 +93,8 @@ cmd_fit (int argc, char **argv)
       break;
     case 'o': output = optarg; break;
     case 'q': quiet = 1; break;
-    case 'h':
-      cli_model_free (&m);
-      fputs (usage_head, stdout);
-      fputs (cli_model_help, stdout);
-      fputs (usage_tail, stdout);
-      return EXIT_DONE;
-    case ':':
-      cli_model_free (&m);
-      return cli_usage_error ("fit", argv[optind - 1], "this option needs a value");
     default:
-      cli_model_free (&m);
-      return cli_usage_error ("fit", argv[optind - 1], "unknown option");
+      return cli_model_option_end (&m, c, "fit", argv, usage_head, usage_tail);
     }
   }
   if ((rc = cli_model_finish (&m, argc, argv, optind, "fit")) != 0) {

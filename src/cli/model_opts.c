@@ -128,6 +128,24 @@ cli_model_load (cli_model *m, const char *cmd)
   return 0;
 }
 
+int
+cli_model_option_end (cli_model *m, int c, const char *cmd, char **argv, const char *head,
+                      const char *tail)
+{
+  cli_model_free (m);
+  switch (c) {
+  case 'h':
+    fputs (head, stdout);
+    fputs (cli_model_help, stdout);
+    fputs (tail, stdout);
+    return EXIT_DONE;
+  case ':':
+    return cli_usage_error (cmd, argv[optind - 1], "this option needs a value");
+  default:
+    return cli_usage_error (cmd, argv[optind - 1], "unknown option");
+  }
+}
+
 void
 cli_model_warn_drops (const cli_model *m)
 {

@@ -65,6 +65,12 @@ int cli_model_finish (cli_model *m, int argc, char **argv, int optind_, const ch
 /* Parse the terms (syntax first), read the table, build the design.  0, or an exit code with
    the library's message printed. */
 int cli_model_load (cli_model *m, const char *cmd);
+/* The options every modelling subcommand ends its option switch with: -h (HEAD, the shared
+   help and TAIL on stdout, EXIT_DONE), a missing value and an unknown option (EXIT_USAGE).
+   Frees M and returns the exit code. */
+int cli_model_option_end (cli_model *m, int c, const char *cmd, char **argv, const char *head,
+                          const char *tail);
+
 /* Print the design's drop counts and the given warnings as warnings on stderr. */
 void cli_model_warn_drops (const cli_model *m);
 

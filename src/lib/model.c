@@ -935,7 +935,7 @@ smeared (const bl_model *m, double xb, double *mean, double *deriv)
   *deriv = (double) (ds / (long double) m->nres);
 }
 
-/* Smallest k with P(X <= k) >= P for X ~ Poisson(MU): a start from the normal approximation,
+/* Smallest k with P(X <= k) >= P for X Poisson(MU): a start from the normal approximation,
    then unit steps (the quantile's definition; the CDF from GSL). */
 static double
 poisson_quantile (double p, double mu)
