@@ -71,5 +71,35 @@ step "gamma/log fit, small set (linearity), threads 2" 2 fit "$OUT/lin.csv" 2 li
 step "gamma/log fit, p = 50, threads 2" 2 fit "$OUT/p50.csv" 2 p50_t2 "$OUT"
 
 "$BENCH" report "$RES" "$OUT" || failed=1
+
+# compare on the big set parses the data once; with --folds 0 it should take at most 1.5x the
+# sum of its candidates' single fits in memory (each 'ballast fit' below less one read of the
+# file, timed as a fit with no terms).  BENCH_COMPARE=0 skips this part (about 4 minutes).
+if [ "${BENCH_COMPARE:-1}" != 0 ]; then
+  echo "== compare --folds 0 against its candidates' fits (big set)" >&2
+  BL="$B/ballast"
+  T="x1, x2, x3, x4, x5, x6, x7, x8, x9, x10"
+  secs () {
+    s0=$(date +%s.%N)
+    "$@" > /dev/null 2>&1
+    s1=$(date +%s.%N)
+    awk -v a="$s0" -v b="$s1" 'BEGIN { printf "%.3f", b - a }'
+  }
+  read_s=$(secs "$BL" fit "$OUT/big.csv" --response y --json -q)
+  cmp_s=$(secs "$BL" compare "$OUT/big.csv" --response y --terms "$T" --folds 0 --json -q)
+  sum=0
+  for a in "--method ols" "--transform log" "--transform sqrt" "--transform boxcox" \
+           "--variance fitted^est" "--family gaussian --link log" "--family gamma --link log" \
+           "--family gamma --link inverse" "--family gamma --link identity" \
+           "--family inverse-gaussian --link log"; do
+    # shellcheck disable=SC2086  # the options are separate words
+    t=$(secs "$BL" fit "$OUT/big.csv" --response y --terms "$T" $a --json -q)
+    sum=$(awk -v s="$sum" -v t="$t" -v r="$read_s" 'BEGIN { print s + t - r }')
+  done
+  awk -v c="$cmp_s" -v s="$sum" -v r="$read_s" 'BEGIN {
+    printf "%-40s %-14s %-28s %-8.3g %-14s %s\n", "compare --folds 0, 2M x 10 (s)",
+           c - r, sprintf ("%.2f s sum of fits", s), (c - r) / s, "<= 1.5",
+           (c - r) / s <= 1.5 ? "PASS" : "MISS" }'
+fi
 echo "whole run: $(( $(date +%s) - start )) s" >&2
 exit $failed
