@@ -185,6 +185,25 @@ START_TEST (family_variance)
 }
 END_TEST
 
+/* The sqrt link (for counts): the same identities, and its range eta > 0. */
+START_TEST (link_sqrt)
+{
+  const double eta[4] = { 0.083, 1.7, 12.5, 3.61 };
+  const bl_link *k = &bl_link_sqrt;
+  ck_assert_ptr_eq (bl_link_find ("sqrt"), &bl_link_sqrt);
+  for (size_t i = 0; i < 4; i++) {
+    const double e = eta[i], h = 1e-5 * e;
+    const double fd = (k->ginv (e + h) - k->ginv (e - h)) / (2.0 * h);
+    ck_assert_msg (fabs (k->g (k->ginv (e)) - e) <= 1e-15 * e, "sqrt g(ginv(%g))", e);
+    ck_assert_msg (fabs (k->dmu_deta (e) - fd) <= 1e-8 * fabs (fd), "sqrt dmu/deta(%g)", e);
+    ck_assert (k->valid_eta (e));
+  }
+  ck_assert (!k->valid_eta (0.0));
+  ck_assert (!k->valid_eta (-0.5));
+  ck_assert (!k->valid_eta (NAN));
+}
+END_TEST
+
 /* g(g^-1(eta)) = eta and g^-1(g(mu)) = mu; dmu/deta against a central difference of g^-1
    with step h = 1e-5 |eta| (relative error O(h^2 / eta^2); common practice, no source). */
 START_TEST (link_inverse_and_derivative)
@@ -421,6 +440,7 @@ family_suite (void)
   tcase_add_test (ref, family_unit_dev_likelihood_ratio);
   tcase_add_test (idt, family_variance);
   tcase_add_test (idt, link_inverse_and_derivative);
+  tcase_add_test (idt, link_sqrt);
   tcase_add_test (idt, family_gamma_phi_ml);
   tcase_add_test (idt, family_phi_ml_closed_forms);
   tcase_add_test (idt, family_loglik_sum);

@@ -271,7 +271,7 @@ bl_job_set (bl_job *j, const char *key, const char *value, const char *where, bl
   if (!strcmp (key, "link")) {
     j->model_keys = 1;
     if (!(fo->link = bl_link_find (v)))
-      BAD ("unknown link '%s' (expected identity, log or inverse)", v);
+      BAD ("unknown link '%s' (expected identity, log, inverse or sqrt)", v);
     return BL_OK;
   }
   if (!strcmp (key, "variance")) {

@@ -27,14 +27,24 @@ static int inv_valid (double eta)
   return isfinite (eta) && fabs (eta) > 1e-150;   /* 1/eta^2 stays finite */
 }
 
+/* sqrt: eta = sqrt(mu), mu = eta^2, dmu/deta = 2 eta; eta > 0 keeps the map one to one (a
+   count model's variance-stabilizing link; McCullagh & Nelder 1989, section 6.2.1, from
+   memory). */
+static double sqrt_g (double mu) { return sqrt (mu); }
+static double sqrt_ginv (double eta) { return eta * eta; }
+static double sqrt_dmu (double eta) { return 2.0 * eta; }
+static int sqrt_valid (double eta) { return isfinite (eta) && eta > 0.0 && eta < 1e150; }
+
 const bl_link bl_link_identity = { "identity", id_g, id_ginv, id_dmu, id_valid };
 const bl_link bl_link_log = { "log", log_g, log_ginv, log_dmu, log_valid };
 const bl_link bl_link_inverse = { "inverse", inv_g, inv_ginv, inv_dmu, inv_valid };
+const bl_link bl_link_sqrt = { "sqrt", sqrt_g, sqrt_ginv, sqrt_dmu, sqrt_valid };
 
 const bl_link *
 bl_link_find (const char *name)
 {
-  static const bl_link *const all[] = { &bl_link_identity, &bl_link_log, &bl_link_inverse };
+  static const bl_link *const all[] = { &bl_link_identity, &bl_link_log, &bl_link_inverse,
+                                        &bl_link_sqrt };
   for (size_t i = 0; i < sizeof all / sizeof all[0]; i++)
     if (strcmp (all[i]->name, name) == 0)
       return all[i];

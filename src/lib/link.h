@@ -1,4 +1,4 @@
-/* link.h -- link functions: identity, log, inverse.  Each is one static const descriptor. */
+/* link.h -- link functions: identity, log, inverse, sqrt.  Each is one static const descriptor. */
 #ifndef BALLAST_LINK_H
 #define BALLAST_LINK_H
 #ifdef __cplusplus
@@ -16,6 +16,7 @@ typedef struct bl_link {
 extern const bl_link bl_link_identity;
 extern const bl_link bl_link_log;
 extern const bl_link bl_link_inverse;
+extern const bl_link bl_link_sqrt;      /* for counts: poisson, negative binomial */
 
 /* The link named NAME, or NULL. */
 const bl_link *bl_link_find (const char *name);

@@ -189,4 +189,16 @@ bl diagnose nbg.csv --response y --terms x1,x2 --family poisson --by zz
 expect_rc "diagnose --by missing exit" 2
 expect_err "diagnose --by missing message" "ballast: --by: no column 'zz' in nbg.csv"
 
+
+# The sqrt link for counts: the negative binomial and poisson with eta = sqrt(mu).
+bl fit "$top_srcdir/tests/data/nb_counts.csv" --response y --terms "x1, x2" \
+  --family negative-binomial --link sqrt --json -q
+expect_rc "negative binomial, sqrt link: exit 0" 0
+expect_json "negative binomial, sqrt link: converged" status.converged true
+expect_json "negative binomial, sqrt link: link" model.link '"sqrt"'
+expect_py "negative binomial, sqrt link: theta estimated" 'd["fit"]["theta"] > 0'
+bl fit "$top_srcdir/tests/data/nb_counts.csv" --response y --terms "x1, x2" \
+  --family poisson --link sqrt --json -q
+expect_rc "poisson, sqrt link: exit 0" 0
+
 finish
