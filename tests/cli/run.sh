@@ -63,6 +63,31 @@ for f in summary.json summary.csv index.html repair-hours/result.json \
 done
 if [ "$same" = 1 ]; then pass "-j 1 and -j 2 byte-identical"; else fail "-j 1 and -j 2 byte-identical" "see above"; fi
 
+# The same with the BLAS on one and on two threads (ballast's own kernels do the fitting; this
+# checks that nothing linked through GSL's CBLAS changes a byte).
+OPENBLAS_NUM_THREADS=1 bl run "$data/demo.spec" -o blas1 -q
+OPENBLAS_NUM_THREADS=2 bl run "$data/demo.spec" -o blas2 -q
+same=1
+for f in summary.json summary.csv index.html repair-hours/result.json parts-cost/result.json \
+         unplanned-stops/result.json repair-gamma/residuals.csv; do
+  cmp -s "blas1/$f" "blas2/$f" || { same=0; echo "differs: $f"; }
+  cmp -s "blas1/$f" "seq/$f" || { same=0; echo "differs from -j 1: $f"; }
+done
+if [ "$same" = 1 ]; then pass "OpenBLAS on 1 and 2 threads byte-identical"; else fail "OpenBLAS on 1 and 2 threads byte-identical" "see above"; fi
+
+# Progress on stderr only when it is a terminal: quiet under make (above), "job i of N" on a
+# pseudo-terminal (util-linux 'script').
+if command -v script >/dev/null 2>&1 && [ -z "$VALGRIND" ]; then
+  script -qec "'$BALLAST' run '$data/demo.spec' -o tty-out" "$tmp/tty.txt" > /dev/null 2>&1
+  if grep -q "job 1 of 4 done" "$tmp/tty.txt" && grep -q "job 4 of 4 done" "$tmp/tty.txt"; then
+    pass "progress on a terminal"
+  else
+    fail "progress on a terminal" "no 'job i of 4' lines"
+  fi
+fi
+bl run "$data/demo.spec" -o notty
+if grep -q "job 1 of" "$tmp/.err"; then fail "no progress when stderr is not a terminal" "progress printed"; else pass "no progress when stderr is not a terminal"; fi
+
 # The default folder is NAME-report in the current folder.
 cp "$data/demo.spec" mydemo.spec
 sed -i "s|^data *= *|data = $data/|" mydemo.spec 2>/dev/null || true
