@@ -398,12 +398,7 @@ write_summaries (run_ctx *rc, bl_err *err)
   /* summary.json */
   if (mem_open (&mb) != 0)
     return bl_fail (err, BL_ENOMEM, "run", "out of memory");
-  jw_init (&w, mb.f);
-  jw_obj (&w, NULL);
-  jw_obj (&w, "tool");
-  jw_str (&w, "name", "ballast");
-  jw_str (&w, "version", bl_version ());
-  jw_obj_end (&w);
+  bl_report_head_json (&w, mb.f, bl_version (), NULL, NULL);
   jw_str (&w, "spec", bl_spec_stem (rc->spec));
   jw_arr (&w, "jobs");
   for (size_t i = 0; i < nj; i++) {

@@ -34,5 +34,9 @@ int jw_finish (bl_jsonw *w);
 /* The "data" object shared by every document (report_json.c). */
 struct bl_design;
 void bl_report_data_json (bl_jsonw *w, const struct bl_design *d, const char *source);
+/* The head of every document: jw_init on OUT, the top object opened, "tool" with VERSION,
+   then "data" when D is not NULL (report_json.c). */
+void bl_report_head_json (bl_jsonw *w, FILE *out, const char *version,
+                          const struct bl_design *d, const char *source);
 
 #endif

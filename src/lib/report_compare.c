@@ -11,13 +11,7 @@ bl_report_compare_json (FILE *out, const bl_compare *c, const bl_design *d,
   const long win = bl_compare_winner (c);
   const bl_warnings *adv = bl_compare_advice (c);
   bl_jsonw w;
-  jw_init (&w, out);
-  jw_obj (&w, NULL);
-  jw_obj (&w, "tool");
-  jw_str (&w, "name", "ballast");
-  jw_str (&w, "version", info->tool_version);
-  jw_obj_end (&w);
-  bl_report_data_json (&w, d, info->source);
+  bl_report_head_json (&w, out, info->tool_version, d, info->source);
   jw_str (&w, "response", bl_design_response (d));
   jw_bool (&w, "integer_y", bl_compare_integer_y (c));
   jw_str (&w, "rank_by", bl_compare_rank_by (c));

@@ -29,13 +29,7 @@ bl_report_diag_json (FILE *out, const bl_fit *fit, const bl_diag *dg,
   const bl_diag_result *r = bl_diag_get (dg);
   const bl_design *d = bl_fit_design (fit);
   bl_jsonw w;
-  jw_init (&w, out);
-  jw_obj (&w, NULL);
-  jw_obj (&w, "tool");
-  jw_str (&w, "name", "ballast");
-  jw_str (&w, "version", info->tool_version);
-  jw_obj_end (&w);
-  bl_report_data_json (&w, d, info->source);
+  bl_report_head_json (&w, out, info->tool_version, d, info->source);
   jw_obj (&w, "model");
   jw_str (&w, "method", bl_method_name (bl_fit_method (fit)));
   jw_str (&w, "family", bl_fit_family (fit)->name);

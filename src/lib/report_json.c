@@ -36,6 +36,20 @@ bl_report_data_json (bl_jsonw *w, const bl_design *d, const char *source)
   jw_obj_end (w);
 }
 
+void
+bl_report_head_json (bl_jsonw *w, FILE *out, const char *version, const bl_design *d,
+                     const char *source)
+{
+  jw_init (w, out);
+  jw_obj (w, NULL);
+  jw_obj (w, "tool");
+  jw_str (w, "name", "ballast");
+  jw_str (w, "version", version);
+  jw_obj_end (w);
+  if (d)
+    bl_report_data_json (w, d, source);
+}
+
 int
 bl_report_fit_json (FILE *out, const bl_fit *fit, const bl_report_info *info, bl_err *err)
 {
@@ -46,14 +60,7 @@ bl_report_fit_json (FILE *out, const bl_fit *fit, const bl_report_info *info, bl
   const size_t p = bl_design_p (d);
   bl_jsonw w;
 
-  jw_init (&w, out);
-  jw_obj (&w, NULL);
-  jw_obj (&w, "tool");
-  jw_str (&w, "name", "ballast");
-  jw_str (&w, "version", info->tool_version);
-  jw_obj_end (&w);
-
-  bl_report_data_json (&w, d, info->source);
+  bl_report_head_json (&w, out, info->tool_version, d, info->source);
 
   jw_obj (&w, "model");
   jw_str (&w, "method", bl_method_name (bl_fit_method (fit)));
