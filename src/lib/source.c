@@ -13,12 +13,14 @@
 #include <fcntl.h>
 #include <limits.h>
 #include <pthread.h>
+#include <stdint.h>
 #include <string.h>
 #include <sys/stat.h>
 #include <unistd.h>
 #include <zlib.h>
 #include "alloc.h"
 #include "source.h"
+#include "thread.h"
 
 /* Input buffer for inflating a file: large enough that read(2) calls are few. */
 #define IN_CAP (256u * 1024u)
@@ -276,6 +278,19 @@ bl_source_open_mem (const void *buf, size_t len, const char *name, bl_err *err)
   return src_start (src, err);
 }
 
+/* A damaged gzip stream after GOT good bytes: those bytes are returned first and the failure
+   is kept in SRC for the next call, so that errors come in the order of the inflated bytes
+   (a parse error in an early line wins over damage further on) whatever the read sizes are:
+   the same error for one thread or two, small steps or large. */
+static size_t
+stream_fail (bl_source *src, size_t got, int *status, bl_err *err, const char *msg,
+             const char *detail)
+{
+  src_fail (src, BL_EDATA, got ? NULL : err, msg, detail);
+  *status = got ? BL_OK : BL_EDATA;
+  return got;
+}
+
 /* Inflate into OUT.  A member's end is followed either by the end of the input (done) or by
    another member; anything else (trailing garbage) fails in inflate's header check. */
 static size_t
@@ -283,6 +298,12 @@ gz_read (bl_source *src, unsigned char *out, size_t cap, int *status, bl_err *er
 {
   z_stream *zs = &src->zs;
   const size_t want = cap < UINT_MAX ? cap : UINT_MAX;
+  if (src->status != BL_OK) {   /* a failure kept back by the call before (see stream_fail) */
+    *status = src->status;
+    if (err)
+      *err = src->saved;
+    return 0;
+  }
   *status = BL_OK;
   zs->next_out = out;
   zs->avail_out = (uInt) want;
@@ -327,21 +348,19 @@ gz_read (bl_source *src, unsigned char *out, size_t cap, int *status, bl_err *er
       break;
     case Z_BUF_ERROR:               /* no progress possible: input exhausted mid-member */
       if (zs->avail_in == 0 && src->raw_eof) {
-        *status = src_fail (src, BL_EDATA, err, "truncated gzip stream", NULL);
-        return 0;
+        return stream_fail (src, want - zs->avail_out, status, err, "truncated gzip stream",
+                            NULL);
       }
       break;
     case Z_MEM_ERROR:
       *status = src_fail (src, BL_ENOMEM, err, "out of memory inflating gzip data", NULL);
       return 0;
     case Z_NEED_DICT:
-      *status = src_fail (src, BL_EDATA, err, "corrupt gzip stream",
+      return stream_fail (src, want - zs->avail_out, status, err, "corrupt gzip stream",
                           "a preset dictionary is required");
-      return 0;
     case Z_DATA_ERROR:
-      *status = src_fail (src, BL_EDATA, err, "corrupt gzip stream",
+      return stream_fail (src, want - zs->avail_out, status, err, "corrupt gzip stream",
                           zs->msg ? zs->msg : "invalid data");
-      return 0;
     default:
       *status = src_fail (src, BL_EINTERNAL, err, "inflate failed", zs->msg);
       return 0;
@@ -475,7 +494,7 @@ bl_source_prefetch (bl_source *src, size_t nbuf, size_t size, bl_err *err)
     return BL_OK;
   }
   src->ring = r;
-  if (pthread_create (&r->tid, NULL, producer, src) != 0) {
+  if (bl_thread_start (&r->tid, producer, src) != 0) {
     src->ring = NULL;
     pthread_cond_destroy (&r->freed);
     pthread_cond_destroy (&r->filled);
@@ -509,6 +528,22 @@ bl_source_read (bl_source *src, void *buf, size_t cap, int *status, bl_err *err)
   if (got == 0)
     src->done = 1;
   return got;
+}
+
+size_t
+bl_source_size_hint (const bl_source *src)
+{
+  size_t raw = 0;
+  if (src->fd < 0)
+    raw = src->mem_len;
+  else if (src->regular && src->size0 > 0)
+    raw = (size_t) src->size0;
+  if (!src->gzip || raw == 0)
+    return raw;
+  /* Deflate expands at most about 1032:1 (a run of one byte: 258 bytes per 2-bit code
+     pair; the zlib authors' figure, from memory), so this bounds the inflated size of small
+     inputs; a larger one only makes the buffers grow. */
+  return raw > SIZE_MAX / 1032 - 64 ? 0 : 1032 * raw + 64;
 }
 
 const char *

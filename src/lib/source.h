@@ -38,6 +38,10 @@ int bl_source_prefetch (bl_source *src, size_t nbuf, size_t size, bl_err *err);
 
 /* The name given at open ("-" shows as "<stdin>"); valid until bl_source_free. */
 const char *bl_source_name (const bl_source *src);
+/* A size for read buffers: the number of bytes bl_source_read will deliver when it is known
+   in advance (a plain regular file or a memory source), an upper bound for a gzip one, else
+   0.  A hint, not a limit: a file that grows is caught by the change check. */
+size_t bl_source_size_hint (const bl_source *src);
 /* Nonzero when the stream is gzip-compressed. */
 int bl_source_is_gzip (const bl_source *src);
 

@@ -23,6 +23,7 @@
 #include "alloc.h"
 #include "source.h"
 #include "table.h"
+#include "thread.h"
 
 /* Bytes asked of the source per read; also the initial buffer size. */
 #define READ_CHUNK ((size_t) 1 << 20)
@@ -924,14 +925,18 @@ refill (reader *rd, size_t pos, bl_err *err)
     rd->buf = b;
     rd->cap *= 2;
   }
+  const size_t len0 = rd->len;
   while (!rd->eof && rd->len < rd->cap) {
     size_t want = rd->cap - rd->len;
     size_t got;
     if (want > READ_CHUNK)
       want = READ_CHUNK;
     got = bl_source_read (rd->src, rd->buf + rd->len, want, &st, err);
+    /* A failure after some new bytes waits: the bytes are parsed first and the source
+       repeats its failure on the next read, so errors come in the order of the bytes,
+       whatever the step sizes (the same error on one thread and on two). */
     if (st != BL_OK)
-      return st;
+      return rd->len > len0 ? BL_OK : st;
     if (got == 0)
       rd->eof = 1;
     rd->len += got;
@@ -1261,7 +1266,7 @@ par_step (reader *rd, bl_table *t, const bl_table_opts *opt, pstate *ps, spec *w
   for (const char *q = buf + ps->pos, *const qe = buf + split;
        (q = memchr (q, '\n', (size_t) (qe - q))) != NULL; q++)
     w->first_nl++;
-  started = pthread_create (&tid, NULL, spec_run, w) == 0;
+  started = bl_thread_start (&tid, spec_run, w) == 0;
   t->frozen = started;
   /* The first part, stopping at the split as if the input paused there. */
   save_len = rd->len;
@@ -1297,7 +1302,7 @@ read_source (bl_source *src, const bl_table_opts *opt_in, bl_err *err)
   bl_table *t;
   pstate ps;
   spec w;
-  size_t chunk, min_part;
+  size_t chunk, min_part, hint;
   int par, st;
 
   if (!opt) {
@@ -1342,6 +1347,10 @@ read_source (bl_source *src, const bl_table_opts *opt_in, bl_err *err)
     return NULL;
   }
   rd.cap = par ? chunk : READ_CHUNK;
+  /* A small input needs no large buffer (the size is a hint: a longer one grows it). */
+  hint = bl_source_size_hint (src);
+  if (hint > 0 && hint < rd.cap)
+    rd.cap = hint < 64 ? 64 : hint;
   rd.buf = bl_malloc (rd.cap + 1);
   if (!rd.buf) {
     fail_nomem (&rd, err);
@@ -1350,7 +1359,8 @@ read_source (bl_source *src, const bl_table_opts *opt_in, bl_err *err)
   if (refill (&rd, 0, err) != BL_OK)
     goto fail;
   if (par && !rd.eof && bl_source_is_gzip (src)
-      && bl_source_prefetch (src, SOURCE_RING, READ_CHUNK, err) != BL_OK)
+      && bl_source_prefetch (src, SOURCE_RING, hint > 0 && hint < READ_CHUNK ? hint : READ_CHUNK,
+                             err) != BL_OK)
     goto fail;
   ps.line = 1;
   if (rd.len >= 3 && memcmp (rd.buf, "\xef\xbb\xbf", 3) == 0)
