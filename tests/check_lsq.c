@@ -199,36 +199,73 @@ START_TEST (lsq_nist_streamed)
 }
 END_TEST
 
-/* Identity: folding rows block by block gives R with R'R = A'A (checked on a random 300 x 5
-   matrix against the directly accumulated cross products; Golub & Van Loan 2013, 6.5.3). */
+/* Identity: folding rows block by block gives R with R'R = A'A (Golub & Van Loan 2013,
+   6.5.3), checked against the directly accumulated cross products of a random N x Q matrix,
+   for Q = 5 (the plain fold) and Q = 40 and 61 (from BL_LSQ_WY_MIN columns on the blocked WY
+   fold when the build has an optimized BLAS), in blocks of 64 and of 2048 rows.  One column is
+   zero in the first blocks (a reflection with nothing to annihilate).  Then the last column
+   is made X b for known b (computed in long double): bl_lsq_solve_tri must return b within
+   1e-11 relative (the problem is well conditioned, so only rounding separates them). */
+static const size_t fold_q[] = { 5, 40, 61 };
+
 START_TEST (lsq_fold_crossproduct)
 {
-  enum { N = 300, Q = 5 };
-  static double A[N * Q], B[N * Q], R[Q * Q];
+  enum { N = 3000, QMAX = 61 };
+  const size_t Q = fold_q[_i / 2], NB = _i % 2 ? 2048 : 64;
+  double *A = malloc (sizeof (double) * N * QMAX), *blk = malloc (sizeof (double) * 2048 * QMAX);
+  double R[QMAX * QMAX], b[QMAX];
   unsigned long s = 12345;
+  bl_lsq_work *ws = bl_lsq_work_new (Q - 1);
+  bl_lsq_sol *sol = bl_lsq_sol_new (Q - 1);
+  bl_err err;
+  ck_assert (A && blk && ws && sol);
   for (size_t i = 0; i < N * Q; i++) {
     s = s * 6364136223846793005UL + 1442695040888963407UL;
     A[i] = (double) (s >> 11) / 9007199254740992.0 - 0.37;
   }
-  memcpy (B, A, sizeof A);
-  memset (R, 0, sizeof R);
-  for (size_t r0 = 0; r0 < N; r0 += 64) {
-    const size_t nb = N - r0 < 64 ? N - r0 : 64;
-    double blk[64 * Q];
-    for (size_t j = 0; j < Q; j++)
-      memcpy (blk + j * 64, B + j * N + r0, nb * sizeof (double));
-    bl_lsq_fold (R, Q, blk, nb, 64);
-  }
-  for (size_t j = 0; j < Q; j++)
-    for (size_t k = 0; k < Q; k++) {
-      double c = 0.0, r = 0.0;
-      for (size_t i = 0; i < N; i++)
-        c += A[i + j * N] * A[i + k * N];
-      for (size_t i = 0; i < Q; i++)
-        r += R[i + j * Q] * R[i + k * Q];
-      ck_assert_msg (fabs (c - r) <= 1e-12 * (fabs (c) + 1.0), "R'R[%zu,%zu] %g vs %g", j, k,
-                     r, c);
+  for (size_t i = 0; i < 100; i++)
+    A[i + 2 * N] = 0.0;
+  for (size_t pass = 0; pass < 2; pass++) {
+    memset (R, 0, sizeof R);
+    for (size_t r0 = 0; r0 < N; r0 += NB) {
+      const size_t nb = N - r0 < NB ? N - r0 : NB;
+      for (size_t j = 0; j < Q; j++)
+        memcpy (blk + j * NB, A + j * N + r0, nb * sizeof (double));
+      bl_lsq_fold (R, Q, blk, nb, NB);
     }
+    if (pass == 1)
+      break;
+    for (size_t j = 0; j < Q; j++)
+      for (size_t k = j; k < Q; k++) {
+        double c = 0.0, r = 0.0, scale = 0.0;
+        for (size_t i = 0; i < N; i++) {
+          c += A[i + j * N] * A[i + k * N];
+          scale += fabs (A[i + j * N] * A[i + k * N]);
+        }
+        for (size_t i = 0; i < Q; i++)
+          r += R[i + j * Q] * R[i + k * Q];
+        ck_assert_msg (fabs (c - r) <= 1e-13 * scale, "Q %zu: R'R[%zu,%zu] %.17g vs %.17g", Q,
+                       j, k, r, c);
+      }
+    /* pass 2: y = X b exactly (up to one rounding) in the last column */
+    for (size_t j = 0; j + 1 < Q; j++)
+      b[j] = 1.0 + 0.5 * (double) j - 0.01 * (double) (j * j);
+    for (size_t i = 0; i < N; i++) {
+      long double y = 0.0L;
+      for (size_t j = 0; j + 1 < Q; j++)
+        y += (long double) A[i + j * N] * b[j];
+      A[i + (Q - 1) * N] = (double) y;
+    }
+  }
+  ck_assert_int_eq (bl_lsq_solve_tri (ws, R, BL_LSQ_RANK_TOL, sol, &err), BL_OK);
+  ck_assert_uint_eq (sol->rank, Q - 1);
+  for (size_t j = 0; j + 1 < Q; j++)
+    ck_assert_msg (fabs (sol->beta[j] - b[j]) <= 1e-11 * fabs (b[j]), "Q %zu: beta[%zu] %.17g vs %.17g",
+                   Q, j, sol->beta[j], b[j]);
+  bl_lsq_sol_free (sol);
+  bl_lsq_work_free (ws);
+  free (blk);
+  free (A);
 }
 END_TEST
 
@@ -278,7 +315,7 @@ lsq_suite (void)
   TCase *ref = tcase_create ("reference"), *id = tcase_create ("identities");
   tcase_add_loop_test (ref, lsq_nist_extended, 0, (int) NSETS);
   tcase_add_loop_test (ref, lsq_nist_streamed, 0, (int) NSETS);
-  tcase_add_test (id, lsq_fold_crossproduct);
+  tcase_add_loop_test (id, lsq_fold_crossproduct, 0, 6);
   tcase_add_test (id, lsq_rank_deficient);
   suite_add_tcase (s, ref);
   suite_add_tcase (s, id);

@@ -22,6 +22,8 @@ extern "C" {
 
 #define BL_LSQ_RANK_TOL 1e-11     /* |r_kk| of the unit-norm-scaled R below this: aliased */
 #define BL_LSQ_SMALL_NQ2 4.0e6    /* n q^2 at most this: the extended-precision kernel */
+#define BL_LSQ_WY_MIN 24          /* q at least this: the streamed fold is blocked (WY) when
+                                     the library is built on an optimized BLAS */
 
 typedef enum bl_solver {
   BL_SOLVER_AUTO = 0,   /* extended when n q^2 <= BL_LSQ_SMALL_NQ2, else streamed */
@@ -34,7 +36,10 @@ const char *bl_solver_name (bl_solver s);
 
 /* Fold NB rows of the column-major block A (leading dimension LDA, Q columns) into the
    upper-triangular Q x Q matrix R (column-major, leading dimension Q).  A is overwritten.
-   Allocates nothing.  On return R' R = R_old' R_old + A' A (in exact arithmetic). */
+   Allocates nothing.  On return R' R = R_old' R_old + A' A (in exact arithmetic).  From
+   BL_LSQ_WY_MIN columns on, with an optimized BLAS, the reflections are applied in blocks
+   through cblas_dgemm (same reflections, other rounding; the result still depends only on
+   the input, not on threads). */
 void bl_lsq_fold (double *R, size_t q, double *A, size_t nb, size_t lda);
 
 /* The result of a solve, in the caller's column order (not pivoted). */
