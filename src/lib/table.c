@@ -67,6 +67,8 @@ struct bl_table {
   size_t *line;               /* cap entries: physical start line of each record */
   int frozen;                 /* a worker writes into the arrays: they must not move */
   size_t ndecided;            /* columns whose type is known (the fast record path needs all) */
+  size_t est_rows;            /* rows the whole input probably holds (0: unknown): the next
+                                 growth goes straight there instead of doubling */
 };
 
 /* One located field of the current record.  S points into the reader's buffer, after an
@@ -90,6 +92,8 @@ typedef struct reader {
   size_t fcap, fmax;          /* fields stored: at most fmax (ncols once the header is read) */
   field spare;                /* fields past fmax are parsed into this and only counted */
   size_t max_levels;
+  size_t total;               /* bytes read from the source so far */
+  size_t size_hint;           /* exact input size when known in advance (plain files), else 0 */
 } reader;
 
 /* ------------------------------------------------------------------ strings and dict */
@@ -717,10 +721,10 @@ advise_huge (void *ptr, size_t bytes)
 #endif
 }
 
+/* Make room for CAP rows in every array of T. */
 static int
-grow_rows (bl_table *t)
+grow_to (bl_table *t, size_t cap)
 {
-  const size_t cap = t->cap ? 2 * t->cap : ROWS_INIT;
   size_t *line;
   if (cap > SIZE_MAX / sizeof (double))
     return BL_ENOMEM;
@@ -747,6 +751,21 @@ grow_rows (bl_table *t)
   }
   t->cap = cap;
   return BL_OK;
+}
+
+/* Room for more rows: to the estimate of the whole input's rows when there is one (and
+   memory allows), else twice as many. */
+static int
+grow_rows (bl_table *t)
+{
+  const size_t cap = t->cap ? 2 * t->cap : ROWS_INIT;
+  if (t->est_rows > cap) {
+    const size_t est = t->est_rows;
+    t->est_rows = 0;            /* used once: later growths double */
+    if (grow_to (t, est) == BL_OK)
+      return BL_OK;
+  }
+  return grow_to (t, cap);
 }
 
 /* Give column C its type, with the first NROWS cells missing. */
@@ -1029,7 +1048,10 @@ take_header (reader *rd, bl_table *t, size_t nf, const bl_table_opts *opt, bl_er
     if (j < 0)
       return bl_fail (err, BL_ESPEC, rd->name,
                       "no column named '%s' (declared categorical)", opt->categorical[k]);
-    t->cols[j].type = COL_CAT;
+    if (t->cols[j].type != COL_CAT) {   /* declared: decided (counted once) */
+      t->cols[j].type = COL_CAT;
+      t->ndecided++;
+    }
   }
   rd->fmax = nf;
   return BL_OK;
@@ -1122,11 +1144,19 @@ finish (reader *rd, bl_table *t, bl_err *err)
 }
 
 /* Move the unparsed tail [POS, len) to the front of the buffer, grow the buffer when the
-   tail fills it, and read more. */
+   tail fills it, and read more.  When the input's size is known, the rows of table T so far
+   over the bytes they took, scaled to the whole input, tell where the next growth of the row
+   arrays should go (one or two growths instead of a doubling every time: no copies, no
+   slack). */
 static int
-refill (reader *rd, size_t pos, bl_err *err)
+refill (reader *rd, bl_table *t, size_t pos, bl_err *err)
 {
   int st;
+  if (t && rd->size_hint > 0 && t->nrows >= 256 && rd->total > rd->len - pos) {
+    const double est = (double) t->nrows * (double) rd->size_hint
+                       / (double) (rd->total - (rd->len - pos));
+    t->est_rows = est < 1e15 ? (size_t) (est * 1.02) + 1024 : 0;
+  }
   if (pos > 0) {
     memmove (rd->buf, rd->buf + pos, rd->len - pos);
     rd->len -= pos;
@@ -1156,6 +1186,7 @@ refill (reader *rd, size_t pos, bl_err *err)
     if (got == 0)
       rd->eof = 1;
     rd->len += got;
+    rd->total += got;
   }
   return BL_OK;
 }
@@ -1339,9 +1370,6 @@ spec_prepare (spec *w, const reader *rd, bl_table *t, size_t len1, size_t len2)
   if (rows > SIZE_MAX / sizeof (field) || rows1 > SIZE_MAX / 4 - rows
       || t->nrows > SIZE_MAX / 4 - rows - rows1)
     return BL_ENOMEM;
-  while (t->cap < t->nrows + rows1 + rows)
-    if (grow_rows (t) != BL_OK)
-      return BL_ENOMEM;
   if (rows > w->rows_cap) {
     for (size_t j = 0; j < nc; j++)
       if (w->raw[j]) {
@@ -1352,6 +1380,12 @@ spec_prepare (spec *w, const reader *rd, bl_table *t, size_t len1, size_t len2)
       }
     w->rows_cap = rows;
   }
+  /* the worker may fill rows_cap rows (its arrays' size, from the largest step so far) */
+  if (w->rows_cap > SIZE_MAX / 4 - rows1 - t->nrows)
+    return BL_ENOMEM;
+  while (t->cap < t->nrows + rows1 + w->rows_cap)
+    if (grow_rows (t) != BL_OK)
+      return BL_ENOMEM;
   for (size_t j = 0; j < nc; j++) {
     w->type[j] = t->cols[j].type;
     w->num[j] = w->type[j] == COL_NUM ? t->cols[j].num : NULL;
@@ -1608,12 +1642,14 @@ read_source (bl_source *src, const bl_table_opts *opt_in, bl_err *err)
   hint = bl_source_size_hint (src);
   if (hint > 0 && hint < rd.cap)
     rd.cap = hint < 64 ? 64 : hint;
+  if (!bl_source_is_gzip (src))
+    rd.size_hint = hint;        /* exact for plain input (for gzip only a bound) */
   rd.buf = bl_malloc (rd.cap + 1);
   if (!rd.buf) {
     fail_nomem (&rd, err);
     goto fail;
   }
-  if (refill (&rd, 0, err) != BL_OK)
+  if (refill (&rd, t, 0, err) != BL_OK)
     goto fail;
   if (par && !rd.eof && bl_source_is_gzip (src)
       && bl_source_prefetch (src, SOURCE_RING, hint > 0 && hint < READ_CHUNK ? hint : READ_CHUNK,
@@ -1638,7 +1674,7 @@ read_source (bl_source *src, const bl_table_opts *opt_in, bl_err *err)
       goto fail;
     if (rd.eof)
       break;
-    if (refill (&rd, ps.pos, err) != BL_OK)
+    if (refill (&rd, t, ps.pos, err) != BL_OK)
       goto fail;
     ps.pos = 0;
   }
