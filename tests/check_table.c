@@ -1298,6 +1298,61 @@ START_TEST (table_threads_alloc_fail)
 }
 END_TEST
 
+/* bl_table_opts.keep (table.h): columns not asked for are read past, not stored and not
+   checked, while the record structure (field counts, quotes) still is; the kept columns are
+   the same as in a full reading, on one thread and on two (documented behaviour). */
+START_TEST (table_keep_columns)
+{
+  const char *const keep[] = { "y", "x3", "nowhere" };
+  const size_t nrows = 30000;
+  char *text = malloc (nrows * 80 + 64), *p;
+  bl_table_opts o;
+  bl_err err = { 0 };
+  bl_table *full, *part;
+  strcpy (text, "a,y,junk,x3,\"q\"\n");
+  p = text + strlen (text);
+  for (size_t i = 0; i < nrows; i++)
+    p += sprintf (p, "%zu,%.4f,%s,%s,\"%zu,%zu\"\n", i, 0.25 * (double) i,
+                  i % 7 ? "12.5kg" : "", i % 11 ? "lv" : "NA", i, i + 1);
+  bl_table_opts_init (&o);
+  o.categorical = (const char *const[]) { "junk" };
+  o.n_categorical = 1;
+  full = read_str (text, &o, &err);
+  ck_assert_msg (full != NULL, "full: %s: %s", err.where, err.msg);
+  for (unsigned th = 1; th <= 2; th++) {
+    bl_table_opts_init (&o);
+    o.threads = th;
+    o.chunk = 4096;
+    o.keep = keep;
+    o.n_keep = 3;
+    part = read_str (text, &o, &err);   /* "12.5kg" in a numeric-looking column: skipped */
+    ck_assert_msg (part != NULL, "threads %u: %s: %s", th, err.where, err.msg);
+    ck_assert_uint_eq (bl_table_nrows (part), nrows);
+    ck_assert_uint_eq (bl_table_ncols (part), 5);
+    ck_assert_int_eq (bl_table_find (part, "a"), -1);
+    ck_assert_int_eq (bl_table_find (part, "junk"), -1);
+    ck_assert_int_eq (bl_table_find (part, "q"), -1);
+    ck_assert_int_eq (bl_table_find (part, "y"), 1);
+    ck_assert_int_eq (bl_table_find (part, "x3"), 3);
+    ck_assert (bl_table_num (part, 0) == NULL && bl_table_codes (part, 2) == NULL);
+    for (size_t i = 0; i < nrows; i++) {
+      ck_assert (bl_table_num (part, 1)[i] == 0.25 * (double) i);
+      ck_assert_int_eq (bl_table_codes (part, 3)[i], bl_table_codes (full, 3)[i]);
+      ck_assert_uint_eq (bl_table_line (part, i), bl_table_line (full, i));
+    }
+    bl_table_free (part);
+  }
+  bl_table_free (full);
+  /* a record with a wrong field count is still an error, named by its line */
+  bl_table_opts_init (&o);
+  o.keep = keep;
+  o.n_keep = 1;
+  expect_fail ("keep: field count", "y,z\n1,2\n3\n", &o, BL_EDATA, "mem.csv:3",
+               "record has 1 field, header has 2");
+  free (text);
+}
+END_TEST
+
 static Suite *
 table_suite (void)
 {
@@ -1328,6 +1383,7 @@ table_suite (void)
   tcase_add_test (basics, table_long_field);
   tcase_add_test (basics, table_many_columns);
   tcase_add_test (basics, table_stdin);
+  tcase_add_test (basics, table_keep_columns);
   tcase_add_test (basics, table_threads_identical);
   tcase_add_test (basics, table_threads_options);
   tcase_add_test (basics, table_threads_gzip);

@@ -99,7 +99,7 @@ cmd_diagnose (int argc, char **argv)
   if (!method_set)
     m.job.fit.method = BL_METHOD_OLS;
   if ((rc = cli_model_finish (&m, argc, argv, optind, "diagnose")) != 0
-      || (rc = cli_model_load (&m, "diagnose")) != 0) {
+      || (rc = cli_model_load_with (&m, "diagnose", by)) != 0) {
     cli_model_free (&m);
     return rc;
   }

@@ -121,10 +121,17 @@ cli_model_finish (cli_model *m, int argc, char **argv, int optind_, const char *
 int
 cli_model_load (cli_model *m, const char *cmd)
 {
+  return cli_model_load_with (m, cmd, NULL);
+}
+
+int
+cli_model_load_with (cli_model *m, const char *cmd, const char *also)
+{
   bl_err err;
   bl_err_clear (&err);
   if (bl_job_parse_terms (&m->job, NULL, &m->terms, &m->offset, &err) != BL_OK
-      || bl_job_load (&m->job, m->terms, m->offset, &m->table, &m->design, &err) != BL_OK)
+      || bl_job_load_with (&m->job, m->terms, m->offset, also, &m->table, &m->design, &err)
+         != BL_OK)
     return cli_lib_error (cmd, &err);
   return 0;
 }

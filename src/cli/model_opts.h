@@ -65,6 +65,8 @@ int cli_model_finish (cli_model *m, int argc, char **argv, int optind_, const ch
 /* Parse the terms (syntax first), read the table, build the design.  0, or an exit code with
    the library's message printed. */
 int cli_model_load (cli_model *m, const char *cmd);
+/* The same, keeping column ALSO of the data as well (see bl_job_load_with). */
+int cli_model_load_with (cli_model *m, const char *cmd, const char *also);
 /* The options every modelling subcommand ends its option switch with: -h (HEAD, the shared
    help and TAIL on stdout, EXIT_DONE), a missing value and an unknown option (EXIT_USAGE).
    Frees M and returns the exit code. */

@@ -527,17 +527,127 @@ bl_job_design_opts (const bl_job *j, const bl_terms *offset, bl_design_opts *dop
   dopt->variance = j->fit.variance == BL_VARIANCE_COLUMN ? j->varcol : NULL;
 }
 
+/* The list of column names being gathered for bl_table_opts.keep (borrowed strings). */
+typedef struct names {
+  const char **v;
+  size_t n, cap;
+  int nomem;
+  char *own[BL_JOB_MAX_LIST];   /* copies made for the reference entries */
+  size_t nown;
+} names;
+
+static void
+names_add (names *l, const char *name)
+{
+  if (!name || l->nomem)
+    return;
+  for (size_t i = 0; i < l->n; i++)
+    if (strcmp (l->v[i], name) == 0)
+      return;
+  if (l->n == l->cap) {
+    const size_t cap = l->cap ? 2 * l->cap : 16;
+    const char **v = bl_realloc (l->v, cap * sizeof *v);
+    if (!v) {
+      l->nomem = 1;
+      return;
+    }
+    l->v = v;
+    l->cap = cap;
+  }
+  l->v[l->n++] = name;
+}
+
+/* A reference entry COL=LEVEL names its column by the first prefix ending at an '=' that is
+   a column (design.c), so every such prefix is kept. */
+static void
+names_of_reference (names *l, const char *ent)
+{
+  char *copy;
+  if (l->nomem || l->nown == BL_JOB_MAX_LIST || !strchr (ent, '='))
+    return;
+  if (!(copy = bl_strdup (ent))) {
+    l->nomem = 1;
+    return;
+  }
+  l->own[l->nown++] = copy;
+  for (char *p = strchr (copy, '='); p; p = strchr (p + 1, '=')) {
+    /* the prefix before this '=' as a string of its own: a copy per '=' beyond the first */
+    const size_t len = (size_t) (p - copy);
+    char *name = l->nown < BL_JOB_MAX_LIST ? bl_malloc (len + 1) : NULL;
+    if (!name) {
+      l->nomem = 1;
+      return;
+    }
+    memcpy (name, copy, len);
+    name[len] = '\0';
+    l->own[l->nown++] = name;
+    names_add (l, name);
+  }
+}
+
+static void
+names_of_term (names *l, const bl_term *t)
+{
+  if (!t)
+    return;
+  if (t->kind == BL_TERM_COL)
+    names_add (l, t->name);
+  names_of_term (l, t->a);
+  names_of_term (l, t->b);
+}
+
+static void
+names_of_terms (names *l, const bl_terms *ts)
+{
+  for (size_t i = 0; ts && i < bl_terms_count (ts); i++)
+    names_of_term (l, bl_terms_get (ts, i));
+}
+
 int
 bl_job_load (const bl_job *j, const bl_terms *terms, const bl_terms *offset,
              bl_table **table, bl_design **design, bl_err *err)
 {
+  return bl_job_load_with (j, terms, offset, NULL, table, design, err);
+}
+
+int
+bl_job_load_with (const bl_job *j, const bl_terms *terms, const bl_terms *offset,
+                  const char *also, bl_table **table, bl_design **design, bl_err *err)
+{
   bl_table_opts to = j->table;
   bl_design_opts dopt;
+  names keep;
+  bl_terms *against = NULL;
   *table = NULL;
   *design = NULL;
+  memset (&keep, 0, sizeof keep);
   to.categorical = (const char *const *) j->categorical;
   to.n_categorical = j->ncat;
-  if (!(*table = bl_table_read (j->data, &to, err)))
+  /* Only the columns the job uses are kept (memory follows the model, not the file's
+     width): the response, weights, variance and cluster columns, those of the terms, the
+     offset and the nested model, and ALSO.  When the list cannot be made, all are kept. */
+  names_add (&keep, j->response);
+  names_add (&keep, j->weights);
+  names_add (&keep, j->varcol);
+  names_add (&keep, j->cluster);
+  names_add (&keep, also);
+  names_of_terms (&keep, terms);
+  names_of_terms (&keep, offset);
+  if (j->against && (against = bl_terms_parse (j->against, "against", NULL)) == NULL)
+    keep.nomem = 1;
+  names_of_terms (&keep, against);
+  for (size_t k = 0; k < j->nref; k++)
+    names_of_reference (&keep, j->reference[k]);
+  if (!keep.nomem && keep.n > 0) {
+    to.keep = keep.v;
+    to.n_keep = keep.n;
+  }
+  *table = bl_table_read (j->data, &to, err);
+  bl_free (keep.v);
+  for (size_t k = 0; k < keep.nown; k++)
+    bl_free (keep.own[k]);
+  bl_terms_free (against);
+  if (!*table)
     return err ? err->code : BL_EIO;
   bl_job_design_opts (j, offset, &dopt);
   if (!(*design = bl_design_new (*table, j->response, terms, &dopt, err))) {

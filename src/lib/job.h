@@ -73,7 +73,11 @@ int bl_job_parse_terms (const bl_job *j, const char *where_spec, bl_terms **term
 /* The design options the job implies (OFFSET parsed as above). */
 void bl_job_design_opts (const bl_job *j, const bl_terms *offset, bl_design_opts *dopt);
 
-/* Read the table and build the design (terms parsed as above). */
+/* Read the table and build the design (terms parsed as above).  Only the columns the job
+   names are kept (see bl_table_opts.keep); bl_job_load_with keeps column ALSO too (may be
+   NULL), for a caller that needs one more (diagnose --by). */
+int bl_job_load_with (const bl_job *j, const bl_terms *terms, const bl_terms *offset,
+                      const char *also, bl_table **table, bl_design **design, bl_err *err);
 int bl_job_load (const bl_job *j, const bl_terms *terms, const bl_terms *offset,
                  bl_table **table, bl_design **design, bl_err *err);
 

@@ -38,7 +38,7 @@
 /* Longest excerpt of a bad cell quoted in a message. */
 #define CELL_QUOTE_MAX 60
 
-enum { COL_UNDECIDED, COL_NUM, COL_CAT };
+enum { COL_UNDECIDED, COL_NUM, COL_CAT, COL_SKIP };   /* SKIP: not kept (bl_table_opts.keep) */
 enum { REC_DONE, REC_MORE, REC_ERR };
 
 /* A set of distinct strings in insertion order, with an open-addressing index (linear
@@ -854,6 +854,8 @@ put_cell (reader *rd, bl_table *t, size_t j, const field *f, bl_err *err)
   size_t m;
   double x;
   int st;
+  if (c->type == COL_SKIP)
+    return BL_OK;               /* not kept: neither stored nor checked */
   /* Blanks around a cell are ignored for numbers and missing markers; a categorical
      level keeps its exact text. */
   v = s;
@@ -1053,6 +1055,17 @@ take_header (reader *rd, bl_table *t, size_t nf, const bl_table_opts *opt, bl_er
       t->ndecided++;
     }
   }
+  if (opt->keep)                /* the columns not asked for are skipped */
+    for (size_t j = 0; j < nf; j++) {
+      size_t k;
+      for (k = 0; k < opt->n_keep && strcmp (opt->keep[k], t->names.str[j]) != 0; k++)
+        ;
+      if (k == opt->n_keep) {
+        if (t->cols[j].type == COL_UNDECIDED)
+          t->ndecided++;
+        t->cols[j].type = COL_SKIP;
+      }
+    }
   rd->fmax = nf;
   return BL_OK;
 }
@@ -1137,7 +1150,7 @@ finish (reader *rd, bl_table *t, bl_err *err)
         return fail_nomem (rd, err);
       if (sort_levels (t, c) != BL_OK)
         return fail_nomem (rd, err);
-    } else if (!c->num && decide (t, c, COL_NUM) != BL_OK)
+    } else if (c->type == COL_NUM && !c->num && decide (t, c, COL_NUM) != BL_OK)
       return fail_nomem (rd, err);
   }
   return BL_OK;
@@ -1389,7 +1402,7 @@ spec_prepare (spec *w, const reader *rd, bl_table *t, size_t len1, size_t len2)
   for (size_t j = 0; j < nc; j++) {
     w->type[j] = t->cols[j].type;
     w->num[j] = w->type[j] == COL_NUM ? t->cols[j].num : NULL;
-    if (w->type[j] != COL_NUM && !w->raw[j]
+    if (w->type[j] != COL_NUM && w->type[j] != COL_SKIP && !w->raw[j]
         && !(w->raw[j] = bl_mallocn (w->rows_cap, sizeof *w->raw[j])))
       return BL_ENOMEM;
   }
@@ -1441,15 +1454,18 @@ spec_run (void *arg)
             break;
           w->num[j][r] = x;
         } else {
-          field *const f = &w->raw[j][r - w->off];
+          const char *const s0 = q;
           if (q < end && *q == '"')
             break;
-          f->s = (char *) q;
           while (q < end && !rd->stop[(unsigned char) *q])
             q++;
-          f->n = (size_t) (q - f->s);
-          f->line = line;
-          f->dquote = 0;
+          if (w->type[j] != COL_SKIP) {
+            field *const f = &w->raw[j][r - w->off];
+            f->s = (char *) s0;
+            f->n = (size_t) (q - s0);
+            f->line = line;
+            f->dquote = 0;
+          }
           if (!cell_end (&q, end, rd->delim, j, w->ncols))
             break;
         }
@@ -1467,6 +1483,8 @@ spec_run (void *arg)
       const char *v = f->s;
       size_t m = f->n;
       double x;
+      if (w->type[j] == COL_SKIP)
+        continue;
       if (w->type[j] != COL_NUM) {
         w->raw[j][r - w->off] = *f;
         continue;
@@ -1505,7 +1523,7 @@ spec_merge (reader *rd, bl_table *t, const spec *w, size_t base_line, bl_err *er
     memmove (t->line + base, t->line + w->off, m * sizeof *t->line);
   }
   for (size_t j = 0; j < w->ncols; j++)
-    if (w->type[j] != COL_NUM)
+    if (w->type[j] != COL_NUM && w->type[j] != COL_SKIP)
       any_raw = 1;
   for (size_t i = 0; i < m; i++) {
     if (any_raw) {
@@ -1513,7 +1531,7 @@ spec_merge (reader *rd, bl_table *t, const spec *w, size_t base_line, bl_err *er
       for (size_t j = 0; j < w->ncols; j++) {
         field f;
         int st;
-        if (w->type[j] == COL_NUM)
+        if (w->type[j] == COL_NUM || w->type[j] == COL_SKIP)
           continue;
         f = w->raw[j][i];
         f.line += base_line;
@@ -1710,6 +1728,8 @@ bl_table_opts_init (bl_table_opts *opt)
   opt->threads = BL_TABLE_THREADS;
   opt->cancel = NULL;
   opt->chunk = BL_TABLE_CHUNK;
+  opt->keep = NULL;
+  opt->n_keep = 0;
 }
 
 bl_table *
@@ -1774,7 +1794,7 @@ bl_table_find (const bl_table *t, const char *name)
   for (k = h & mask; d->slot[k]; k = (k + 1) & mask) {
     const size_t i = d->slot[k] - 1;
     if (d->hash[i] == h && d->len[i] == n && memcmp (d->str[i], name, n) == 0)
-      return (long) i;
+      return t->cols[i].type == COL_SKIP ? -1 : (long) i;
   }
   return -1;
 }

@@ -35,6 +35,13 @@ typedef struct bl_table_opts {
   /* Bytes per parallel step (threads >= 2); 0 for the default.  For gzip input at most
      4 MiB are used, the size of the inflating thread's buffers. */
   size_t chunk;
+  /* When non-NULL, only these N_KEEP columns (by name) are kept: the others are read past
+     (their cells count for the record's field count and quoting, nothing else: not stored,
+     not converted, not checked), so memory follows the columns used, not the file's width.
+     bl_table_find does not find a column that was not kept; the header's names are all
+     checked as usual.  Names not in the header are ignored here (the caller reports them). */
+  const char *const *keep;
+  size_t n_keep;
 } bl_table_opts;
 
 /* Fill OPT with the defaults (delimiter 0, decimal_comma 0, no categorical, max_levels
