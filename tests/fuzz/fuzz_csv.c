@@ -10,7 +10,9 @@
       at a point taken from the input), which must read exactly as A (the source inflates
       gzip transparently), on one thread and on two;
    D. ';' as delimiter with decimal commas, and the name "fuzz.tsv" (tab delimiter);
-   E. when A succeeds, the same read with the first column forced categorical.
+   E. when A succeeds, the same read with the first column forced categorical;
+   F. when A succeeds, only its last column kept (bl_table_opts.keep), on one thread and two:
+      the same rows, lines and values.
    Any difference is reported on stderr and abort()ed, so libFuzzer keeps the input.
    With FUZZ_CSV_SEQUENTIAL set in the environment the two-thread readings are skipped (to
    look for other bugs while one in the parallel path is open).
@@ -268,6 +270,45 @@ LLVMFuzzerTestOneInput (const uint8_t *data, size_t size)
         fail ("E", "forcing a column changed the row count");
     }
     bl_table_free (b);
+  }
+
+  /* F: only the last column kept (bl_table_opts.keep), on one thread and on two: the same
+     rows and the same values as in A (other columns are read past unchecked, so F may also
+     succeed where A failed; that is not compared) */
+  if (a && bl_table_ncols (a) > 0) {
+    const size_t jk = bl_table_ncols (a) - 1;
+    const char *names[1];
+    names[0] = bl_table_colname (a, jk);
+    for (unsigned th = 1; th <= (par ? 2u : 1u); th++) {
+      bl_table_opts_init (&o);
+      o.threads = th;
+      o.chunk = 64;
+      o.keep = names;
+      o.n_keep = 1;
+      b = read_with (data, size, "fuzz.csv", &o, &eb);
+      if (!b)
+        fail ("F (keep)", eb.msg);
+      if (bl_table_nrows (b) != bl_table_nrows (a) || bl_table_find (b, names[0]) != (long) jk
+          || (jk > 0 && bl_table_find (b, bl_table_colname (a, 0)) != -1)
+          || bl_table_is_numeric (a, jk) != bl_table_is_numeric (b, jk))
+        fail ("F (keep)", "rows, columns or types differ from A");
+      for (size_t i = 0; i < bl_table_nrows (a); i++) {
+        if (bl_table_line (a, i) != bl_table_line (b, i))
+          fail ("F (keep)", "line numbers differ from A");
+        if (bl_table_is_numeric (a, jk)) {
+          const double x = bl_table_num (a, jk)[i], y = bl_table_num (b, jk)[i];
+          if (memcmp (&x, &y, sizeof x) != 0)
+            fail ("F (keep)", "a kept value differs from A");
+        } else {
+          const int32_t ca = bl_table_codes (a, jk)[i], cb = bl_table_codes (b, jk)[i];
+          if ((ca < 0) != (cb < 0)
+              || (ca >= 0 && strcmp (bl_table_level (a, jk, (size_t) ca),
+                                     bl_table_level (b, jk, (size_t) cb)) != 0))
+            fail ("F (keep)", "a kept level differs from A");
+        }
+      }
+      bl_table_free (b);
+    }
   }
   bl_table_free (a);
   return 0;
