@@ -37,6 +37,7 @@ struct bl_irls_work {
   bl_irls_model m;
   bl_irls_opts opt;
   size_t n, p, q;
+  size_t ld;                 /* rows of a block buffer: BL_IRLS_BLOCK, or n when smaller */
   bl_solver solver;
   double *beta, *beta_prev, *beta_next;   /* length p */
   double *scale;             /* power-of-two column scales: X_j * scale_j has max |.| < 1 */
@@ -157,6 +158,7 @@ bl_irls_work_new (const bl_irls_model *model, const bl_irls_opts *opt, bl_err *e
   ws->n = n;
   ws->p = p;
   ws->q = q;
+  ws->ld = n < BL_IRLS_BLOCK ? (n ? n : 1) : BL_IRLS_BLOCK;   /* small fits: small buffers */
   ws->solver = opt->solver;
   if (ws->solver == BL_SOLVER_AUTO)
     ws->solver = ((double) n * (double) q * (double) q <= BL_LSQ_SMALL_NQ2)
@@ -170,8 +172,8 @@ bl_irls_work_new (const bl_irls_model *model, const bl_irls_opts *opt, bl_err *e
   ws->scale = bl_calloc (p, sizeof (double));
   ws->eta = bl_mallocn (n, sizeof (double));
   ws->mu = bl_mallocn (n, sizeof (double));
-  ws->buf[0] = bl_mallocn ((size_t) BL_IRLS_BLOCK * (q + 1), sizeof (double));
-  ws->buf[1] = bl_mallocn ((size_t) BL_IRLS_BLOCK * (q + 1), sizeof (double));
+  ws->buf[0] = bl_mallocn (ws->ld * (q + 1), sizeof (double));
+  ws->buf[1] = bl_mallocn (ws->ld * (q + 1), sizeof (double));
   ws->R = bl_mallocn (q * q, sizeof (double));
   ws->parts = bl_calloc (ws->nparts, sizeof *ws->parts);
   ws->lw = bl_lsq_work_new (p);
@@ -209,8 +211,8 @@ bl_irls_work_new (const bl_irls_model *model, const bl_irls_opts *opt, bl_err *e
   }
   if (ws->solver == BL_SOLVER_EXTENDED) {
     ws->A = bl_mallocn (n * q, sizeof (long double));
-    ws->lbuf[0] = bl_mallocn ((size_t) BL_IRLS_BLOCK * q, sizeof (long double));
-    ws->lbuf[1] = bl_mallocn ((size_t) BL_IRLS_BLOCK * q, sizeof (long double));
+    ws->lbuf[0] = bl_mallocn (ws->ld * q, sizeof (long double));
+    ws->lbuf[1] = bl_mallocn (ws->ld * q, sizeof (long double));
     if (!ws->A || !ws->lbuf[0] || !ws->lbuf[1])
       goto nomem;
   }
@@ -235,7 +237,7 @@ pass_part (bl_irls_work *ws, part *pt, const double *beta, int accumulate, doubl
   const bl_irls_model *m = &ws->m;
   const bl_family *fam = m->fam;
   const bl_link *lnk = m->link;
-  const size_t p = ws->p, q = ws->q, ld = BL_IRLS_BLOCK;
+  const size_t p = ws->p, q = ws->q, ld = ws->ld;
   pt->dev = 0.0L;
   pt->bad = 0;
   if (pt->R)
@@ -431,10 +433,10 @@ bl_irls_init (bl_irls_work *ws, bl_err *err)
     ws->scale[j] = 0.0;
   for (size_t r0 = 0; r0 < n; r0 += BL_IRLS_BLOCK) {
     const size_t nb = (n - r0 < BL_IRLS_BLOCK) ? n - r0 : BL_IRLS_BLOCK;
-    m->fill (m->ctx, r0, nb, ws->buf[0], BL_IRLS_BLOCK);
+    m->fill (m->ctx, r0, nb, ws->buf[0], ws->ld);
     for (size_t j = 0; j < p; j++)
       for (size_t i = 0; i < nb; i++) {
-        const double v = fabs (ws->buf[0][i + j * BL_IRLS_BLOCK]);
+        const double v = fabs (ws->buf[0][i + j * ws->ld]);
         if (v > ws->scale[j])
           ws->scale[j] = v;
       }
