@@ -935,8 +935,66 @@ smeared (const bl_model *m, double xb, double *mean, double *deriv)
   *deriv = (double) (ds / (long double) m->nres);
 }
 
-/* Smallest k with P(X <= k) >= P for X Poisson(MU): a start from the normal approximation,
-   then unit steps (the quantile's definition; the CDF from GSL). */
+/* Smallest integer k >= 0 with CDF(k) >= P, from the start K0 (a normal approximation):
+   doubling steps away from it until the answer is bracketed, then bisection over the
+   integers, so that an extreme level or a large mean costs some 2 log2(k) evaluations
+   rather than one per unit (the quantile's definition; common practice, no source).  The
+   CDF is nondecreasing in k.  Returns HUGE_VAL when no k below UINT_MAX/2 reaches P. */
+static double
+discrete_quantile (double p, double k0, double (*cdf) (unsigned k, const double *par),
+                   const double *par)
+{
+  const double kmax = (double) UINT_MAX / 2.0;
+  double lo, hi, step = 1.0;   /* invariant: CDF(lo) < p <= CDF(hi), or lo = -1 */
+  if (!(k0 >= 0.0))
+    k0 = 0.0;
+  if (k0 > kmax)
+    k0 = kmax;
+  k0 = floor (k0);
+  if (cdf ((unsigned) k0, par) >= p) {
+    hi = k0;
+    lo = k0 - step;
+    while (lo >= 0.0 && cdf ((unsigned) lo, par) >= p) {
+      hi = lo;
+      step *= 2.0;
+      lo = hi - step;
+    }
+    if (lo < 0.0)
+      lo = -1.0;
+  } else {
+    lo = k0;
+    hi = k0 + step;
+    while (cdf ((unsigned) hi, par) < p) {
+      if (hi >= kmax)
+        return HUGE_VAL;
+      lo = hi;
+      step *= 2.0;
+      hi = lo + step < kmax ? lo + step : kmax;
+    }
+  }
+  while (hi - lo > 1.0) {
+    const double mid = floor (lo + (hi - lo) / 2.0);
+    if (mid >= 0.0 && cdf ((unsigned) mid, par) >= p)
+      hi = mid;
+    else
+      lo = mid;
+  }
+  return hi;
+}
+
+static double
+poisson_cdf (unsigned k, const double *par)
+{
+  return gsl_cdf_poisson_P (k, par[0]);
+}
+
+static double
+negbin_cdf (unsigned k, const double *par)
+{
+  return gsl_cdf_negative_binomial_P (k, par[0], par[1]);
+}
+
+/* Smallest k with P(X <= k) >= P for X Poisson(MU) (the CDF from GSL). */
 static double
 poisson_quantile (double p, double mu)
 {
@@ -946,39 +1004,21 @@ poisson_quantile (double p, double mu)
   k = floor (mu + gsl_cdf_ugaussian_Pinv (p) * sqrt (mu));
   if (!(k < (double) UINT_MAX / 2.0))
     return k;
-  if (!(k >= 0.0))
-    k = 0.0;
-  if (gsl_cdf_poisson_P ((unsigned) k, mu) >= p) {
-    while (k > 0.0 && gsl_cdf_poisson_P ((unsigned) (k - 1.0), mu) >= p)
-      k -= 1.0;
-  } else {
-    while (gsl_cdf_poisson_P ((unsigned) k, mu) < p)
-      k += 1.0;
-  }
-  return k;
+  return discrete_quantile (p, k, poisson_cdf, &mu);
 }
 
 /* The same for the negative binomial NB(theta, theta / (theta + mu)) (GSL's CDF). */
 static double
 negbin_quantile (double p, double mu, double th)
 {
-  const double pr = th / (th + mu);
+  const double par[2] = { th / (th + mu), th };
   double k;
   if (!(p < 1.0))
     return HUGE_VAL;
   k = floor (mu + gsl_cdf_ugaussian_Pinv (p) * sqrt (mu + mu * mu / th));
   if (!(k < (double) UINT_MAX / 2.0))
     return k;
-  if (!(k >= 0.0))
-    k = 0.0;
-  if (gsl_cdf_negative_binomial_P ((unsigned) k, pr, th) >= p) {
-    while (k > 0.0 && gsl_cdf_negative_binomial_P ((unsigned) (k - 1.0), pr, th) >= p)
-      k -= 1.0;
-  } else {
-    while (gsl_cdf_negative_binomial_P ((unsigned) k, pr, th) < p)
-      k += 1.0;
-  }
-  return k;
+  return discrete_quantile (p, k, negbin_cdf, par);
 }
 
 /*
