@@ -33,18 +33,25 @@ fail (const char *what, const char *detail)
 int
 LLVMFuzzerInitialize (int *argc, char ***argv)
 {
-  char name[] = "/tmp/fuzz_model.XXXXXX";
+  /* in memory where the system has a tmpfs: rewriting a disk file for every input made the
+     harness wait on the disk (measured: about 600 inputs per second instead of 3000) */
+  char name[] = "/dev/shm/fuzz_model.XXXXXX", disk[] = "/tmp/fuzz_model.XXXXXX";
+  char *used = name;
   (void) argc;
   (void) argv;
   gsl_set_error_handler_off ();       /* as the ballast program does */
   tmp_fd = mkstemp (name);
+  if (tmp_fd < 0) {
+    used = disk;
+    tmp_fd = mkstemp (disk);
+  }
   if (tmp_fd < 0)
     fail ("init", "cannot create a temporary file");
   snprintf (tmp_path, sizeof tmp_path, "/proc/self/fd/%d", tmp_fd);
   if (access (tmp_path, R_OK) == 0)
-    unlink (name);
+    unlink (used);
   else
-    snprintf (tmp_path, sizeof tmp_path, "%s", name);   /* left behind: no /proc */
+    snprintf (tmp_path, sizeof tmp_path, "%s", used);   /* left behind: no /proc */
   return 0;
 }
 

@@ -208,7 +208,9 @@ free_models (void)
 int
 LLVMFuzzerInitialize (int *argc, char ***argv)
 {
-  char name[] = "/tmp/fuzz_predict.XXXXXX";
+  /* in memory where the system has a tmpfs (see fuzz_model.c) */
+  char name[] = "/dev/shm/fuzz_predict.XXXXXX", disk[] = "/tmp/fuzz_predict.XXXXXX";
+  char *used = name;
   bl_err err = { 0 };
   bl_table *t;
   char *csv;
@@ -217,13 +219,13 @@ LLVMFuzzerInitialize (int *argc, char ***argv)
   if (tmp_fd >= 0)
     return 0;
   gsl_set_error_handler_off ();       /* as the ballast program does */
-  if ((tmp_fd = mkstemp (name)) < 0)
+  if ((tmp_fd = mkstemp (name)) < 0 && (tmp_fd = mkstemp (used = disk)) < 0)
     fail ("init", "cannot create a temporary file");
   snprintf (tmp_path, sizeof tmp_path, "/proc/self/fd/%d", tmp_fd);
   if (access (tmp_path, R_OK) == 0)
-    unlink (name);
+    unlink (used);
   else
-    snprintf (tmp_path, sizeof tmp_path, "%s", name);
+    snprintf (tmp_path, sizeof tmp_path, "%s", used);
   csv = train_csv ();
   if (!(t = bl_table_read_mem (csv, strlen (csv), "train.csv", NULL, &err)))
     fail ("init", err.msg);
