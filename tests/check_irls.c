@@ -266,6 +266,7 @@ engine_fixed_point (const bl_design *d, const bl_family *fam, const bl_link *lnk
   double prev[8];
   size_t it;
   ck_assert (p <= 8);
+  memset (&m, 0, sizeof m);
   m.fam = fam;
   m.link = lnk;
   m.n = bl_design_n (d);

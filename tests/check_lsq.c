@@ -137,7 +137,7 @@ static double
 fit_lre (const nist *s, bl_solver solver, double *min_b, double *min_se)
 {
   bl_irls_model m = { &bl_family_gaussian, &bl_link_identity, s->n, s->p, s->y, NULL, NULL,
-                      mat_fill, mat_fill_ld, s, s->intercept, 0.0 };
+                      mat_fill, mat_fill_ld, s, s->intercept, 0.0, NULL, NULL };
   bl_irls_opts o;
   bl_err err;
   bl_irls_work *ws;
@@ -292,7 +292,7 @@ START_TEST (lsq_rank_deficient)
     s.y[i] = 1.5 + 0.25 * x1 - 2.0 * x2 + 0.01 * cos (3.1 * (double) i);
   }
   m = (bl_irls_model) { &bl_family_gaussian, &bl_link_identity, N, 4, s.y, NULL, NULL,
-                        mat_fill, NULL, &s, 1, 0.0 };
+                        mat_fill, NULL, &s, 1, 0.0, NULL, NULL };
   bl_irls_opts_init (&o);
   for (int solver = BL_SOLVER_EXTENDED; solver <= BL_SOLVER_STREAMED; solver++) {
     o.solver = (bl_solver) solver;

@@ -11,13 +11,15 @@
      (computed here with GSL's gsl_multifit_linear) plus the log-Jacobian (Box & Cox 1964,
      J. R. Statist. Soc. B 26, 211-252); AIC = -2 l + 2 k with k = rank + 1 (+1 for an
      estimated lambda); the lognormal mean exp(mu + sigma^2/2) against smearing;
-   - errors: every refusal of the transform engine;
+   - errors: every refusal of the transform engine, and out of memory at every allocation of
+     a fit and of a smeared prediction;
    - basics: names, the shift undone by the back-transform. */
 #include <check.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <unistd.h>
 #include <gsl/gsl_errno.h>
 #include <gsl/gsl_matrix.h>
 #include <gsl/gsl_multifit.h>
@@ -26,6 +28,7 @@
 #include <gsl/gsl_vector.h>
 #include "design.h"
 #include "fit.h"
+#include "model.h"
 #include "table.h"
 #include "terms.h"
 #include "testutil.h"
@@ -361,6 +364,153 @@ START_TEST (transform_error_options)
 }
 END_TEST
 
+/* Allocation failures (DEVELOPERS.md, "Tests"; SQLite's malloc tests), a no-op without
+   --enable-alloc-fail.  On tests/data/remedies.csv (80 rows), hours on (1, load):
+   - the fit: for N = 1, 2, ... the N-th allocation fails until bl_fit_glm succeeds; every
+     failure is NULL with BL_ENOMEM and a message about memory, nothing leaks (the sanitizer
+     build's leak check at exit), and the first success is the fit made without injection,
+     bit for bit (test_alloc_fail_fit);
+   - the smeared prediction: the fit (made without injection) saved as a model file, read
+     back and used to predict on the same rows, N-th allocation failing, with the same
+     assertions; the first success gives the predictions made without injection to the bit,
+     and those means are Duan's smeared back-transform of the fit at each row's linear
+     predictor (bl_fit_backtransform; model.h: the same sums), to 1e-12 relative (the model
+     file carries the coefficients and the smearing sums in %.17g, which read back exactly,
+     but x'b is summed again).
+   log and sqrt take the closed-form smearing sums; Box-Cox (lambda estimated: the profile
+   search, interval and practical power) the residual sum. */
+static const struct {
+  const char *what;
+  bl_transform tr;
+  double L;
+  int est;
+} tr_nomem_case[] = {
+  { "transform nomem: log", BL_TRANSFORM_LOG, NAN, 0 },
+  { "transform nomem: sqrt", BL_TRANSFORM_SQRT, NAN, 0 },
+  { "transform nomem: boxcox est", BL_TRANSFORM_BOXCOX, 1.0, 1 }
+};
+
+typedef struct tr_predict {
+  const bl_fit *fit;
+  const bl_terms *terms;
+  const bl_table *t;
+  const char *path;
+  const bl_prediction *ref;
+  bl_prediction *p;
+  const char *what;
+} tr_predict;
+
+/* Save C->fit as a model file, read it back and predict on C->t. */
+static int
+tr_predict_run (void *ctx, bl_err *err)
+{
+  tr_predict *c = ctx;
+  FILE *f = fopen (c->path, "w");
+  bl_model *m;
+  int st;
+  ck_assert_msg (f != NULL, "%s: cannot create %s", c->what, c->path);
+  st = bl_model_write (f, c->fit, c->terms, NULL, NULL, err);
+  ck_assert_int_eq (fclose (f), 0);
+  if (st != BL_OK)
+    return st;
+  m = bl_model_read (c->path, err);
+  if (!m)
+    return err->code;
+  c->p = bl_model_predict (m, c->t, 0.0, err);
+  bl_model_free (m);
+  return c->p ? BL_OK : err->code;
+}
+
+static void
+tr_predict_after (void *ctx, int st, unsigned long n)
+{
+  tr_predict *c = ctx;
+  const bl_prediction *p = c->p, *r = c->ref;
+  ck_assert_msg ((st == BL_OK) == (p != NULL), "%s: status %d with a prediction %p", c->what,
+                 st, (void *) p);
+  if (p) {
+    const double *const a[] = { p->mean, p->mean_lo, p->mean_hi, p->pred_lo, p->pred_hi,
+                                p->median };
+    const double *const b[] = { r->mean, r->mean_lo, r->mean_hi, r->pred_lo, r->pred_hi,
+                                r->median };
+    ck_assert_uint_eq (p->n, r->n);
+    for (size_t k = 0; k < 6; k++)
+      for (size_t i = 0; i < p->n; i++)
+        ck_assert_msg (memcmp (&a[k][i], &b[k][i], sizeof (double)) == 0, "%s, allocation "
+                       "%lu made to fail: column %zu row %zu %.17g, reference %.17g", c->what,
+                       n, k, i, a[k][i], b[k][i]);
+    ck_assert_msg (memcmp (&p->deviance, &r->deviance, sizeof (double)) == 0
+                   && memcmp (&p->rmse, &r->rmse, sizeof (double)) == 0
+                   && p->n_scored == r->n_scored, "%s, allocation %lu made to fail: scores",
+                   c->what, n);
+  }
+  bl_prediction_free (c->p);
+  c->p = NULL;
+}
+
+START_TEST (transform_error_alloc_failure)
+{
+  test_job j = { 0 };
+  bl_fit_opts fo;
+  bl_table_opts to;
+  bl_table *nt;
+  bl_model *m;
+  bl_prediction *ref;
+  bl_err err = { 0 };
+  char dir[512], path[600], data[1024], what[128];
+  tr_predict c;
+  unsigned long n;
+  FILE *f;
+  j.t = test_table_file ("remedies.csv", NULL, 0);
+  test_job_design_spec (&j, "hours", "load", NULL);
+  tr_opts (&fo, tr_nomem_case[_i].tr, tr_nomem_case[_i].L, tr_nomem_case[_i].est);
+  n = test_alloc_fail_fit (tr_nomem_case[_i].what, j.d, &fo, 1000000);
+  /* at least the fit's own tables (fit.c alloc_tables: 12 arrays) */
+  ck_assert_msg (n == 0 || n > 12, "%s: the loop ended at N = %lu", tr_nomem_case[_i].what, n);
+
+  /* The reference prediction, without injection, against the smeared back-transform. */
+  test_job_fit (&j, &fo, tr_nomem_case[_i].what);
+  test_tmpdir (dir, sizeof dir);
+  snprintf (path, sizeof path, "%s/model.json", dir);
+  snprintf (what, sizeof what, "%s, predict", tr_nomem_case[_i].what);
+  f = fopen (path, "w");
+  ck_assert_ptr_nonnull (f);
+  ck_assert_int_eq (bl_model_write (f, j.f, j.terms, NULL, NULL, &err), BL_OK);
+  ck_assert_int_eq (fclose (f), 0);
+  m = bl_model_read (path, &err);
+  ck_assert_msg (m != NULL, "%s: read back: %s: %s", what, err.where, err.msg);
+  bl_table_opts_init (&to);
+  bl_model_table_opts (m, &to);
+  nt = bl_table_read (test_data_path ("remedies.csv", data, sizeof data), &to, &err);
+  ck_assert_msg (nt != NULL, "%s: new data: %s", what, err.msg);
+  ref = bl_model_predict (m, nt, 0.0, &err);
+  ck_assert_msg (ref != NULL, "%s: %s: %s", what, err.where, err.msg);
+  bl_model_free (m);
+  ck_assert_uint_eq (ref->n, bl_design_n (j.d));
+  for (size_t i = 0; i < ref->n; i++) {
+    const double sm = bl_fit_backtransform (j.f, bl_fit_eta (j.f)[i], 1);
+    ck_assert_msg (test_rel (ref->mean[i], sm) <= 1e-12, "%s: row %zu mean %.17g, smeared "
+                   "back-transform %.17g", what, i, ref->mean[i], sm);
+  }
+
+  /* The prediction loop. */
+  c.fit = j.f;
+  c.terms = j.terms;
+  c.t = nt;
+  c.path = path;
+  c.ref = ref;
+  c.p = NULL;
+  c.what = what;
+  n = test_alloc_fail_loop (what, tr_predict_run, tr_predict_after, &c, 100000, NULL);
+  ck_assert_msg (n == 0 || n > 6, "%s: the loop ended at N = %lu", what, n);
+  bl_prediction_free (ref);
+  bl_table_free (nt);
+  unlink (path);
+  rmdir (dir);
+  test_job_free (&j);
+}
+END_TEST
+
 /* ---------------------------------------------------------------- basics */
 
 /* Back-transforms (transform.c): naive h^-1(xb) - shift for log, sqrt and Box-Cox, the means
@@ -417,6 +567,8 @@ transform_suite (void)
   tcase_add_test (idt, transform_smearing_lognormal);
   tcase_add_test (err, transform_error_nonpositive);
   tcase_add_test (err, transform_error_options);
+  tcase_add_loop_test (err, transform_error_alloc_failure, 0,
+                       (int) (sizeof tr_nomem_case / sizeof tr_nomem_case[0]));
   tcase_add_test (bas, transform_backtransform_basics);
   tcase_set_timeout (ref, 120);
   tcase_set_timeout (idt, 300);

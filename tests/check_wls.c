@@ -8,7 +8,8 @@
      tests/reference/remedies_mle.txt; data tests/data/remedies.csv, invented);
    - identities: WLS with Var y proportional to x equals OLS of y/sqrt(x) on 1/sqrt(x) and
      sqrt(x) without intercept (an algebraic identity: both minimize the same sum of squares);
-   - errors: every refusal of the WLS engine and of the design's variance column;
+   - errors: every refusal of the WLS engine and of the design's variance column, and out of
+     memory at every allocation of each engine;
    - basics: the resolved variance expression and the parameter count. */
 #include <check.h>
 #include <math.h>
@@ -454,6 +455,43 @@ START_TEST (wls_error_power_not_identified)
 }
 END_TEST
 
+/* Allocation failures (DEVELOPERS.md, "Tests"; SQLite's malloc tests): on
+   tests/data/remedies.csv (80 rows), hours on (1, load) with prior weights w, the N-th
+   allocation fails for N = 1, 2, ... until the fit succeeds: every failure is NULL with
+   BL_ENOMEM and a message about memory (never a crash or another code), nothing leaks (the
+   sanitizer build's leak check at exit), and the first success is the fit made without
+   injection, bit for bit (test_alloc_fail_fit).  One case per WLS engine: known weights,
+   COL^K with K estimated (the profile search), fitted^K with K fixed and estimated (feasible
+   WLS and the joint Newton maximization).  A no-op without --enable-alloc-fail. */
+static const struct {
+  const char *what, *varcol;
+  bl_variance kind;
+  double K;
+  int est;
+} wls_nomem_case[] = {
+  { "wls nomem: known weights", NULL, BL_VARIANCE_NONE, 0.0, 0 },
+  { "wls nomem: load^est", "load", BL_VARIANCE_COLUMN, 0.0, 1 },
+  { "wls nomem: fitted^2", NULL, BL_VARIANCE_FITTED, 2.0, 0 },
+  { "wls nomem: fitted^est", NULL, BL_VARIANCE_FITTED, 0.0, 1 }
+};
+
+START_TEST (wls_error_alloc_failure)
+{
+  test_job j = { 0 };
+  bl_fit_opts fo;
+  test_design_spec ds = { "w", NULL, wls_nomem_case[_i].varcol, 0 };
+  unsigned long n;
+  j.t = test_table_file ("remedies.csv", NULL, 0);
+  test_job_design_spec (&j, "hours", "load", &ds);
+  wls_opts (&fo, wls_nomem_case[_i].kind, wls_nomem_case[_i].varcol, wls_nomem_case[_i].K,
+            wls_nomem_case[_i].est);
+  n = test_alloc_fail_fit (wls_nomem_case[_i].what, j.d, &fo, 1000000);
+  /* every engine allocates at least the fit's own tables (fit.c alloc_tables: 12 arrays) */
+  ck_assert_msg (n == 0 || n > 12, "%s: the loop ended at N = %lu", wls_nomem_case[_i].what, n);
+  test_job_free (&j);
+}
+END_TEST
+
 /* ---------------------------------------------------------------- basics */
 
 /* The resolved expression and the parameter count: a fixed power prints as given and
@@ -505,6 +543,8 @@ wls_suite (void)
   tcase_add_test (err, wls_error_varcol_nonpositive);
   tcase_add_test (err, wls_error_options);
   tcase_add_test (err, wls_error_power_not_identified);
+  tcase_add_loop_test (err, wls_error_alloc_failure, 0,
+                       (int) (sizeof wls_nomem_case / sizeof wls_nomem_case[0]));
   tcase_add_test (bas, wls_expr_and_k);
   tcase_set_timeout (ref, 120);
   tcase_set_timeout (idt, 120);

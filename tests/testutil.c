@@ -4,8 +4,10 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <time.h>
 #include <zlib.h>
 #include <gsl/gsl_errno.h>
+#include "alloc.h"
 #include "testutil.h"
 
 #ifndef BL_TEST_SRCDIR
@@ -340,6 +342,170 @@ test_remedies_ref1 (const char *cas, const char *key)
   double v;
   test_remedies_ref (cas, key, &v, 1);
   return v;
+}
+
+/* ---------------------------------------------------------------- allocation failures */
+
+int
+test_alloc_fail_active (void)
+{
+  void *p;
+  int active;
+  bl_alloc_fail_at (1);
+  p = bl_malloc (8);
+  bl_alloc_fail_at (0);
+  active = p == NULL;
+  bl_free (p);
+  return active;
+}
+
+unsigned long
+test_alloc_fail_loop (const char *what, test_alloc_run_fn run, test_alloc_after_fn after,
+                      void *ctx, unsigned long max_n, unsigned long *recovered)
+{
+  struct timespec t0, t1;
+  unsigned long n, rec = 0;
+  if (recovered)
+    *recovered = 0;
+  if (!test_alloc_fail_active ())
+    return 0;
+  clock_gettime (CLOCK_MONOTONIC, &t0);
+  for (n = 1; n <= max_n; n++) {
+    bl_err err;
+    unsigned long used;
+    int st;
+    memset (&err, 0, sizeof err);
+    bl_alloc_fail_at (n);
+    st = run (ctx, &err);
+    used = bl_alloc_count ();
+    bl_alloc_fail_at (0);
+    if (st != BL_OK) {
+      ck_assert_msg (st == BL_ENOMEM && err.code == BL_ENOMEM, "%s: allocation %lu made to "
+                     "fail: status %d, code %d (%s: %s), expected BL_ENOMEM", what, n, st,
+                     err.code, err.where, err.msg);
+      ck_assert_msg (strstr (err.msg, "memory") != NULL, "%s: allocation %lu made to fail: "
+                     "message '%s' (where '%s') does not say 'memory'", what, n, err.msg,
+                     err.where);
+      ck_assert_msg (used >= n, "%s: out of memory after %lu allocations, before the %lu-th "
+                     "(the one made to fail)", what, used, n);
+    }
+    if (after)
+      after (ctx, st, n);
+    if (st == BL_OK) {
+      if (used < n)
+        break;
+      if (rec++ < 5)
+        fprintf (stderr, "%s: allocation %lu made to fail, and the operation succeeded "
+                 "(with the same result)\n", what, n);
+    }
+  }
+  clock_gettime (CLOCK_MONOTONIC, &t1);
+  ck_assert_msg (n <= max_n, "%s: still failing with allocation %lu made to fail", what, max_n);
+  fprintf (stderr, "%s: allocation N = 1..%lu made to fail: %lu BL_ENOMEM, %lu recovered "
+           "from; success from N = %lu on; %.1f s\n", what, n - 1, n - 1 - rec, rec, n,
+           (double) (t1.tv_sec - t0.tv_sec) + 1e-9 * (double) (t1.tv_nsec - t0.tv_nsec));
+  if (recovered)
+    *recovered = rec;
+  return n;
+}
+
+/* Bitwise equality of two doubles, NAN matching NAN (a repeated deterministic computation
+   gives the same bits; common practice, no source). */
+static int
+same_double (double x, double y)
+{
+  return (isnan (x) && isnan (y)) || memcmp (&x, &y, sizeof x) == 0;
+}
+
+static void
+same_array (const double *x, const double *y, size_t n, const char *name, const char *what)
+{
+  for (size_t i = 0; i < n; i++)
+    ck_assert_msg (same_double (x[i], y[i]), "%s: %s[%zu] %.17g, reference %.17g", what, name,
+                   i, x[i], y[i]);
+}
+
+void
+test_fit_same (const bl_fit *a, const bl_fit *b, const char *what)
+{
+  const bl_fit_stats *sa = bl_fit_stats_get (a), *sb = bl_fit_stats_get (b);
+  const bl_fit_variance_info *va = bl_fit_variance (a), *vb = bl_fit_variance (b);
+  const bl_fit_transform_info *ta = bl_fit_transform (a), *tb = bl_fit_transform (b);
+  const bl_warnings *wa = bl_fit_warnings (a), *wb = bl_fit_warnings (b);
+  const size_t n = sa->n, p = sa->p;
+  const double xa[] = { sa->deviance, sa->deviance_null, sa->pearson, sa->phi_used, sa->loglik,
+                        sa->aic, sa->bic, sa->loglik_transformed, va->power, va->power_se,
+                        ta->lambda, ta->lambda_lo, ta->lambda_hi, ta->lambda_practical };
+  const double xb[] = { sb->deviance, sb->deviance_null, sb->pearson, sb->phi_used, sb->loglik,
+                        sb->aic, sb->bic, sb->loglik_transformed, vb->power, vb->power_se,
+                        tb->lambda, tb->lambda_lo, tb->lambda_hi, tb->lambda_practical };
+  ck_assert_msg (sa->converged == sb->converged && n == sb->n && p == sb->p
+                 && sa->rank == sb->rank && sa->k == sb->k && sa->iterations == sb->iterations,
+                 "%s: converged %d, n %zu, p %zu, rank %zu, k %zu, iterations %zu; reference "
+                 "%d, %zu, %zu, %zu, %zu, %zu", what, sa->converged, n, p, sa->rank, sa->k,
+                 sa->iterations, sb->converged, sb->n, sb->p, sb->rank, sb->k, sb->iterations);
+  same_array (bl_fit_beta (a), bl_fit_beta (b), p, "beta", what);
+  same_array (bl_fit_se (a), bl_fit_se (b), p, "se", what);
+  same_array (bl_fit_cov (a), bl_fit_cov (b), p * p, "cov", what);
+  same_array (bl_fit_mu (a), bl_fit_mu (b), n, "mu", what);
+  same_array (xa, xb, sizeof xa / sizeof xa[0], "figure", what);
+  ck_assert_msg (strcmp (va->expr, vb->expr) == 0 && ta->nprofile == tb->nprofile,
+                 "%s: variance '%s', %zu profile points; reference '%s', %zu", what, va->expr,
+                 ta->nprofile, vb->expr, tb->nprofile);
+  if (ta->nprofile) {
+    same_array (ta->profile_lambda, tb->profile_lambda, ta->nprofile, "profile_lambda", what);
+    same_array (ta->profile_loglik, tb->profile_loglik, ta->nprofile, "profile_loglik", what);
+  }
+  ck_assert_msg (wa->n == wb->n, "%s: %zu warnings, reference %zu", what, wa->n, wb->n);
+  for (size_t i = 0; i < wa->n; i++)
+    ck_assert_msg (strcmp (wa->msg[i], wb->msg[i]) == 0, "%s: warning '%s', reference '%s'",
+                   what, wa->msg[i], wb->msg[i]);
+}
+
+typedef struct fit_loop {
+  const char *what;
+  const bl_design *d;
+  const bl_fit_opts *fo;
+  const bl_fit *ref;
+  bl_fit *f;
+} fit_loop;
+
+static int
+fit_loop_run (void *ctx, bl_err *err)
+{
+  fit_loop *c = ctx;
+  c->f = bl_fit_glm (c->d, c->fo, err);
+  return c->f ? BL_OK : err->code;
+}
+
+static void
+fit_loop_after (void *ctx, int st, unsigned long n)
+{
+  fit_loop *c = ctx;
+  char what[256];
+  snprintf (what, sizeof what, "%s, allocation %lu made to fail", c->what, n);
+  ck_assert_msg ((st == BL_OK) == (c->f != NULL), "%s: status %d with a fit %p", what, st,
+                 (void *) c->f);
+  if (c->f)
+    test_fit_same (c->f, c->ref, what);
+  bl_fit_free (c->f);
+  c->f = NULL;
+}
+
+unsigned long
+test_alloc_fail_fit (const char *what, const bl_design *d, const bl_fit_opts *fo,
+                     unsigned long max_n)
+{
+  bl_err err = { 0 };
+  bl_fit *ref = bl_fit_glm (d, fo, &err);
+  fit_loop c = { what, d, fo, ref, NULL };
+  unsigned long n;
+  ck_assert_msg (ref != NULL, "%s: reference fit: %s: %s", what, err.where, err.msg);
+  ck_assert_msg (bl_fit_stats_get (ref)->converged, "%s: reference fit did not converge: %s",
+                 what, bl_fit_status (ref)->msg);
+  n = test_alloc_fail_loop (what, fit_loop_run, fit_loop_after, &c, max_n, NULL);
+  bl_fit_free (ref);
+  return n;
 }
 
 /* ---------------------------------------------------------------- running */

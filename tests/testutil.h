@@ -149,6 +149,49 @@ size_t test_remedies_ref (const char *cas, const char *key, double *v, size_t ca
 /* The first value of KEY in case CAS of remedies_mle.txt (test_remedies_ref). */
 double test_remedies_ref1 (const char *cas, const char *key);
 
+/* ---------------------------------------------------------------- allocation failures */
+
+/* Nonzero when the library was built with --enable-alloc-fail, i.e. bl_alloc_fail_at (1)
+   really makes the next allocation fail (probed with one bl_malloc). */
+int test_alloc_fail_active (void);
+
+/* One attempt of an allocation-failure loop: run the operation on CTX and keep its result in
+   CTX; return BL_OK, or the failure's code with ERR filled. */
+typedef int (*test_alloc_run_fn) (void *ctx, bl_err *err);
+
+/* Called after every attempt, with fault injection off again: ST is the attempt's status and
+   N the allocation that was made to fail.  It checks the result (ST == BL_OK) or what the
+   failure left behind, and frees what the attempt made. */
+typedef void (*test_alloc_after_fn) (void *ctx, int st, unsigned long n);
+
+/* The allocation-failure loop (SQLite's malloc tests; DEVELOPERS.md, "Tests"): for
+   N = 1, 2, ... the N-th allocation fails and RUN is called.  A failed attempt must return
+   BL_ENOMEM with ERR->code BL_ENOMEM and a message that says "memory", and must have reached
+   its N-th allocation (an out-of-memory error without one is a bug).  AFTER (may be NULL) runs
+   after each attempt.  The loop ends at the first attempt that succeeds without reaching its
+   N-th allocation, and returns that N (one more than the operation's allocations); an
+   attempt that succeeds although its N-th allocation failed (the failure was recovered from)
+   goes on, counted in *RECOVERED (may be NULL), and AFTER must check its result like any
+   other.  More than MAX_N attempts fail the test.  Without --enable-alloc-fail nothing runs
+   and 0 is returned.  WHAT names the operation in the messages; one line on stderr gives N,
+   the recovered count and the time taken.  Leaks are left to AddressSanitizer's leak check
+   at exit (--enable-sanitizers) or valgrind. */
+unsigned long test_alloc_fail_loop (const char *what, test_alloc_run_fn run,
+                                    test_alloc_after_fn after, void *ctx, unsigned long max_n,
+                                    unsigned long *recovered);
+
+/* Assert that fits A and B are the same to the last bit (NAN matching NAN): convergence,
+   coefficients, standard errors, covariance, fitted means, the summary figures, the variance
+   power and the transform's lambda with its interval, and the warnings.  For a fit made
+   again from the same design and options (the computation is deterministic). */
+void test_fit_same (const bl_fit *a, const bl_fit *b, const char *what);
+
+/* The allocation-failure loop of bl_fit_glm (D, FO): a reference fit without injection
+   (asserted converged), then test_alloc_fail_loop with every successful attempt asserted
+   test_fit_same as the reference.  Returns the loop's N (0 without --enable-alloc-fail). */
+unsigned long test_alloc_fail_fit (const char *what, const bl_design *d, const bl_fit_opts *fo,
+                                   unsigned long max_n);
+
 /* ---------------------------------------------------------------- running */
 
 /* Nonzero when running under valgrind (long double is computed as double there, so accuracy

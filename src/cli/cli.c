@@ -13,6 +13,7 @@
 #include "cli.h"
 
 volatile sig_atomic_t cli_cancel = 0;
+static int interrupt_reported = 0;   /* "interrupted" printed already */
 
 static void
 vmsg (const char *kind, const char *where, const char *fmt, va_list ap)
@@ -59,8 +60,21 @@ cli_usage_error (const char *cmd, const char *where, const char *fmt, ...)
 }
 
 int
+cli_interrupted (const char *cmd)
+{
+  if (!interrupt_reported)
+    cli_error (cmd, "interrupted");
+  interrupt_reported = 1;
+  return EXIT_INTERRUPTED;
+}
+
+int
 cli_lib_error (const char *cmd, const bl_err *err)
 {
+  /* after SIGINT, a failure (a cancelled read or fit, or a read that saw EINTR) is the
+     interrupt's doing: report that, not its symptom */
+  if (err->code == BL_ECANCEL || cli_cancel)
+    return cli_interrupted (cmd);
   cli_error (err->where, "%s", err->msg[0] ? err->msg : bl_strerror (err->code));
   if (err->code == BL_ESPEC) {
     fprintf (stderr, "see 'ballast %s --help'\n", cmd);
@@ -72,6 +86,7 @@ cli_lib_error (const char *cmd, const bl_err *err)
 int
 cli_out_open (cli_out *o, const char *path)
 {
+  struct stat sb;
   int fd;
   memset (o, 0, sizeof *o);
   if (!path || strcmp (path, "-") == 0) {
@@ -80,6 +95,17 @@ cli_out_open (cli_out *o, const char *path)
     return 0;
   }
   snprintf (o->path, sizeof o->path, "%s", path);
+  if (stat (path, &sb) == 0 && !S_ISREG (sb.st_mode) && !S_ISDIR (sb.st_mode)) {
+    /* a device or a pipe (-o /dev/null, a FIFO): a temporary renamed over it would replace
+       it by a regular file (for root, even /dev/null), so it is written in place */
+    o->f = fopen (path, "w");
+    if (!o->f) {
+      cli_error (path, "cannot open: %s", strerror (errno));
+      return -1;
+    }
+    o->is_direct = 1;
+    return 0;
+  }
   snprintf (o->tmp, sizeof o->tmp, "%s.tmp-XXXXXX", path);
   fd = mkstemp (o->tmp);
   if (fd < 0) {
@@ -101,6 +127,19 @@ cli_out_commit (cli_out *o)
 {
   if (o->is_stdout)
     return fflush (stdout) == 0 ? 0 : -1;
+  if (o->is_direct) {
+    const int bad = fflush (o->f) != 0 || ferror (o->f);
+    if (fclose (o->f) != 0 || bad) {
+      cli_error (o->path, "write failed: %s", strerror (errno));
+      return -1;
+    }
+    return cli_cancel ? -1 : 0;
+  }
+  if (cli_cancel) {           /* interrupted: the caller reports it (cli_interrupted) */
+    fclose (o->f);
+    unlink (o->tmp);
+    return -1;
+  }
   if (fflush (o->f) != 0 || fsync (fileno (o->f)) != 0 || ferror (o->f)) {
     cli_error (o->path, "write failed: %s", strerror (errno));
     fclose (o->f);
@@ -126,7 +165,8 @@ cli_out_abort (cli_out *o)
   if (o->is_stdout || !o->f)
     return;
   fclose (o->f);
-  unlink (o->tmp);
+  if (!o->is_direct)
+    unlink (o->tmp);
 }
 
 int

@@ -30,7 +30,8 @@ static const char usage_tail[] =
   "  -q, --quiet             no warnings on stderr\n"
   "  -h, --help              this help\n"
   "\n"
-  "exit status: 0 done; 1 data or model problem; 2 usage, option or term-syntax error.\n";
+  "exit status: 0 done; 1 data or model problem; 2 usage, option or term-syntax error;\n"
+  "130 interrupted (nothing written).\n";
 
 enum { OPT_JSON = OPT_FIRST_OWN, OPT_RESIDUALS, OPT_SEED, OPT_BY };
 
@@ -104,10 +105,13 @@ cmd_diagnose (int argc, char **argv)
     return rc;
   }
   dopt.seed = (unsigned long) seed;
+  dopt.cancel = &cli_cancel;
   rc = EXIT_DATA;
   if (!(fit = bl_fit_glm (m.design, &m.job.fit, &err))
       || !(dg = bl_diag_new (fit, &dopt, &err))) {
-    if (fit && !bl_fit_stats_get (fit)->converged)
+    if (cli_cancel)                /* a cancelled fit or diagnosis: no report of it */
+      rc = cli_interrupted ("diagnose");
+    else if (fit && !bl_fit_stats_get (fit)->converged)
       cli_error ("diagnose", "%s", bl_fit_status (fit)->msg);
     else
       rc = cli_lib_error ("diagnose", &err);
@@ -129,8 +133,9 @@ cmd_diagnose (int argc, char **argv)
     gsl_rng_set (rng, (unsigned long) seed);
     t = bl_resid_table_new (fit, rng, &err);
     gsl_rng_free (rng);
-    if (!t) {
-      rc = cli_lib_error ("diagnose", &err);
+    if (!t || cli_cancel) {
+      bl_resid_table_free (t);
+      rc = t ? cli_interrupted ("diagnose") : cli_lib_error ("diagnose", &err);
       goto done;
     }
     if (cli_out_open (&rout, residuals) != 0) {

@@ -23,7 +23,7 @@ static const char usage_tail[] =
   "  -h, --help              this help\n"
   "\n"
   "exit status: 0 done; 1 data or model problem (including no convergence);\n"
-  "2 usage, option or term-syntax error.\n";
+  "2 usage, option or term-syntax error; 130 interrupted (nothing written).\n";
 
 enum { OPT_JSON = OPT_FIRST_OWN, OPT_SAVE };
 
@@ -112,8 +112,11 @@ cmd_fit (int argc, char **argv)
     cli_model_free (&m);
     return rc;
   }
-  if (!(fit = bl_fit_glm (m.design, &m.job.fit, &err))) {
-    rc = cli_lib_error ("fit", &err);
+  fit = bl_fit_glm (m.design, &m.job.fit, &err);
+  if (!fit || cli_cancel) {
+    /* a cancelled fit comes back unconverged (BL_ECANCEL in its status): no report of it */
+    rc = fit ? cli_interrupted ("fit") : cli_lib_error ("fit", &err);
+    bl_fit_free (fit);
     bl_terms_free (small);
     cli_model_free (&m);
     return rc;
@@ -138,6 +141,11 @@ cmd_fit (int argc, char **argv)
       return rc;
     }
     have_nested = 1;
+  }
+  if (cli_cancel) {
+    bl_fit_free (fit);
+    cli_model_free (&m);
+    return cli_interrupted ("fit");
   }
   rc = EXIT_DATA;
   if (cli_out_open (&out, output) == 0) {

@@ -24,7 +24,7 @@ static const char usage[] =
   "\n"
   "The whole spec is checked before any job runs.  exit status: 0 every job done; 1 some job\n"
   "failed (its reason is in the summary and the report) or OUTDIR unusable; 2 a usage or\n"
-  "spec error (file and line named).\n";
+  "spec error (file and line named); 130 interrupted (finished files stay, complete).\n";
 
 static const struct option long_opts[] = {
   { "output", required_argument, NULL, 'o' },
@@ -100,8 +100,12 @@ cmd_run (int argc, char **argv)
     bo.progress = progress;
   rc = EXIT_DONE;
   if (bl_batch_run (spec, outdir, &bo, rows, &err) != BL_OK) {
-    cli_error (err.where, "%s", err.msg);
-    rc = EXIT_DATA;
+    if (err.code == BL_ECANCEL) {
+      rc = cli_interrupted ("run");
+    } else {
+      cli_error (err.where, "%s", err.msg);
+      rc = EXIT_DATA;
+    }
   } else {
     for (size_t i = 0; i < bl_spec_njobs (spec); i++)
       if (!rows[i].ok) {

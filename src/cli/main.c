@@ -1,5 +1,6 @@
 /* main.c -- the ballast program: the command table, --help and --version, the GSL error
-   handler switched off, SIGINT wired to the library's cancel flag, and the exit status. */
+   handler switched off, SIGINT wired to the library's cancel flag, and the exit status
+   (EXIT_INTERRUPTED, 130, whenever SIGINT arrived while a command ran). */
 #include <signal.h>
 #include <stdio.h>
 #include <string.h>
@@ -48,7 +49,8 @@ help (FILE *o)
   for (size_t i = 0; i < NCOMMANDS; i++)
     fprintf (o, "  %-10s %s\n", commands[i].name, commands[i].summary);
   fputs ("\n'ballast COMMAND --help' describes one command.\n"
-         "exit status: 0 done; 1 data or model problem; 2 usage or syntax error.\n", o);
+         "exit status: 0 done; 1 data or model problem; 2 usage or syntax error;\n"
+         "130 interrupted (SIGINT).\n", o);
 }
 
 static void
@@ -90,6 +92,10 @@ main (int argc, char **argv)
     if (!c)
       return cli_usage_error (NULL, NULL, "unknown command '%s'", argv[1]);
     status = c->run (argc - 1, argv + 1);
+    /* a SIGINT seen at any point of the command: it stopped (or its result was not
+       committed), whatever path it left by; usage errors are found before any work */
+    if (cli_cancel && status != EXIT_USAGE)
+      status = cli_interrupted (c->name);
   }
   if (fclose (stdout) != 0 && status == EXIT_DONE) {
     cli_error ("stdout", "write failed");

@@ -4,10 +4,12 @@
    index and the summary, the report and all file contents depend only on the spec and the
    data, never on the number of threads or the order in which jobs finish. */
 #define _GNU_SOURCE 1            /* open_memstream, O_DIRECTORY, O_NOFOLLOW, mkdirat */
+#include <dirent.h>
 #include <errno.h>
 #include <fcntl.h>
 #include <math.h>
 #include <pthread.h>
+#include <signal.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -60,6 +62,66 @@ bl_batch_seed (const char *job, unsigned long base)
     h = (h ^ *s) * 1099511628211ULL;
   h = (h ^ (unsigned long long) base) * 1099511628211ULL;
   return (unsigned long) (h ^ (h >> 29)) & 0xffffffffUL;
+}
+
+/* Whether the caller's cancel flag is set. */
+static int
+cancelled (const run_ctx *rc)
+{
+  return rc->opt->cancel && *rc->opt->cancel;
+}
+
+/* The files a run writes; write_atomic names its temporaries ".NAME.tmp-PID-K-HEX". */
+static const char *const owned[] = { "result.json", "residuals.csv", "summary.json",
+                                     "summary.csv", "index.html" };
+
+/* Whether the folder entry ENT is a temporary of write_atomic whose writer is gone: a process
+   that no longer exists (killed outright, it could not remove it; kill (PID, 0) fails with
+   ESRCH), or this one (the run has not started writing yet).  A live run's are left alone. */
+static int
+stale_tmp (const char *ent)
+{
+  for (size_t i = 0; i < sizeof owned / sizeof owned[0]; i++) {
+    const size_t L = strlen (owned[i]);
+    const char *s = ent + 1 + L + 5;
+    char *e;
+    long pid;
+    if (ent[0] != '.' || strncmp (ent + 1, owned[i], L) != 0
+        || strncmp (ent + 1 + L, ".tmp-", 5) != 0)
+      continue;
+    pid = strtol (s, &e, 10);
+    if (e == s || *e != '-' || pid <= 0)
+      return 0;
+    s = e + 1;
+    (void) strtoul (s, &e, 10);
+    if (e == s || *e != '-')
+      return 0;
+    s = e + 1;
+    (void) strtoul (s, &e, 16);
+    if (e == s || *e != '\0')
+      return 0;
+    return (pid_t) pid == getpid () || (kill ((pid_t) pid, 0) != 0 && errno == ESRCH);
+  }
+  return 0;
+}
+
+/* Remove the stale temporaries (stale_tmp) in the folder DIRFD; best effort, nothing else is
+   touched (unlinkat removes a link itself, never what it points to). */
+static void
+remove_stale (int dirfd)
+{
+  const int fd = openat (dirfd, ".", O_RDONLY | O_DIRECTORY | O_CLOEXEC);
+  DIR *dir = fd >= 0 ? fdopendir (fd) : NULL;
+  struct dirent *de;
+  if (!dir) {
+    if (fd >= 0)
+      close (fd);
+    return;
+  }
+  while ((de = readdir (dir)))
+    if (stale_tmp (de->d_name))
+      unlinkat (dirfd, de->d_name, 0);
+  closedir (dir);
 }
 
 /* Write LEN bytes of BUF to DIRFD/NAME atomically: a temporary name in the same folder
@@ -152,7 +214,46 @@ row_fail (bl_batch_row *row, const bl_err *e)
     snprintf (row->message, sizeof row->message, "%s", e->msg);
 }
 
-/* Run job I: fit or compare, write its files, render its section. */
+/* Out of memory in job NAME: the whole run stops (no job can be trusted to finish, and a
+   job that failed for want of memory must not look like a data problem in the summary).
+   The first such error is kept, with the job named; the workers take no more jobs, and
+   bl_batch_run returns it without writing the summaries.  Returns BL_ENOMEM. */
+static int
+run_nomem (run_ctx *rc, const char *name, const bl_err *e)
+{
+  pthread_mutex_lock (&rc->lock);
+  if (!rc->fatal) {
+    char jw[BL_SPEC_NAME_MAX + 16];
+    int own;
+    snprintf (jw, sizeof jw, "job '%s'", name);
+    own = !e->where[0] || strcmp (e->where, jw) == 0;   /* the place is the job itself */
+    rc->fatal = BL_ENOMEM;
+    bl_fail (&rc->fatal_err, BL_ENOMEM, jw, "%s%s%s; the run stopped: finished files are "
+             "complete, the rest were not written", own ? "" : e->where, own ? "" : ": ",
+             e->msg[0] ? e->msg : "out of memory");
+  }
+  pthread_mutex_unlock (&rc->lock);
+  return BL_ENOMEM;
+}
+
+/* Close M, into which a writer rendered FILE with status ST: BL_OK; BL_ENOMEM when the
+   memory stream could not grow (a write error on it, or on closing it, can only be that:
+   E filled here) or when the writer ran out of memory itself (E filled by it); else the
+   writer's own error, in E. */
+static int
+render_status (membuf *m, int st, const char *where, const char *file, bl_err *e)
+{
+  const int closed = mem_close (m);
+  if (st == BL_OK && closed == 0)
+    return BL_OK;
+  if (st == BL_OK || st == BL_EIO)
+    return bl_fail (e, BL_ENOMEM, where, "out of memory rendering '%s'", file);
+  return st;
+}
+
+/* Run job I: fit or compare, render its files and write them, render its section.  Out of
+   memory anywhere stops the run (run_nomem): nothing more is written for this job, and the
+   files it already wrote are complete. */
 static void
 run_job (run_ctx *rc, size_t i)
 {
@@ -165,12 +266,14 @@ run_job (run_ctx *rc, size_t i)
   bl_compare *cmp = NULL;
   bl_fit *fit = NULL;
   const bl_fit *resfit = NULL;
-  membuf mb = { NULL, 0, NULL };
+  membuf mb = { NULL, 0, NULL }, mr = { NULL, 0, NULL };
+  int have_result = 0, have_resid = 0;
   bl_err e;
   int jobfd = -1;
   const unsigned long seed = bl_batch_seed (sj->name, j->seed);
   char where[BL_SPEC_NAME_MAX + 16];
   bl_report_info info;
+  bl_job jl;                  /* J with the cancel flag for its table read (a shallow copy) */
 
   memset (row, 0, sizeof *row);
   snprintf (row->job, sizeof row->job, "%s", sj->name);
@@ -189,8 +292,12 @@ run_job (run_ctx *rc, size_t i)
     row_fail (row, &e);
     goto section;
   }
+  jl = *j;
+  jl.table.cancel = rc->opt->cancel;
   if (bl_job_parse_terms (j, NULL, &terms, &offset, &e) != BL_OK
-      || bl_job_load (j, terms, offset, &table, &design, &e) != BL_OK) {
+      || bl_job_load (&jl, terms, offset, &table, &design, &e) != BL_OK) {
+    if (e.code == BL_ENOMEM)
+      goto nomem;
     row_fail (row, &e);
     goto result;
   }
@@ -200,31 +307,45 @@ run_job (run_ctx *rc, size_t i)
     fo.irls.cancel = rc->opt->cancel;
     fit = bl_fit_glm (design, &fo, &e);
     if (!fit) {
+      if (e.code == BL_ENOMEM)
+        goto nomem;
       row_fail (row, &e);
       goto result;
     }
     if (!bl_fit_stats_get (fit)->converged) {
+      if (bl_fit_status (fit)->code == BL_ENOMEM) {
+        e = *bl_fit_status (fit);
+        goto nomem;
+      }
       row_fail (row, bl_fit_status (fit));
     } else {
       const bl_fit_stats *st = bl_fit_stats_get (fit);
       gsl_rng *rng = gsl_rng_alloc (gsl_rng_mt19937);
       double *r = bl_mallocn (st->n ? st->n : 1, sizeof *r);
       bl_spread sp;
+      int sst;
       snprintf (row->winner, sizeof row->winner, "%s/%s", bl_fit_family (fit)->name,
                 bl_fit_link (fit)->name);
       row->aic = st->aic;
-      if (rng && r) {
-        gsl_rng_set (rng, seed);
-        bl_pearson_residuals (fit, r);
-        if (bl_spread_compute (bl_fit_mu (fit), r, st->n, rng, BL_DIAG_NULL_REPS, &sp, &e)
-            == BL_OK) {
-          row->spread_ratio = sp.ratio;
-          bl_spread_clear (&sp);
-        }
+      if (!rng || !r) {
+        bl_free (r);
+        if (rng)
+          gsl_rng_free (rng);
+        bl_fail (&e, BL_ENOMEM, where, "out of memory for the spread ratio");
+        goto nomem;
+      }
+      gsl_rng_set (rng, seed);
+      bl_pearson_residuals (fit, r);
+      /* a spread ratio that does not exist (too few rows) is NAN; out of memory is not */
+      sst = bl_spread_compute (bl_fit_mu (fit), r, st->n, rng, BL_DIAG_NULL_REPS, &sp, &e);
+      if (sst == BL_OK) {
+        row->spread_ratio = sp.ratio;
+        bl_spread_clear (&sp);
       }
       bl_free (r);
-      if (rng)
-        gsl_rng_free (rng);
+      gsl_rng_free (rng);
+      if (sst == BL_ENOMEM)
+        goto nomem;
       resfit = fit;
     }
   } else {
@@ -238,6 +359,8 @@ run_job (run_ctx *rc, size_t i)
     co.fit.irls.cancel = rc->opt->cancel;
     cmp = bl_compare_run (design, &co, &e);
     if (!cmp) {
+      if (e.code == BL_ENOMEM)
+        goto nomem;
       row_fail (row, &e);
       goto result;
     }
@@ -262,8 +385,20 @@ run_job (run_ctx *rc, size_t i)
   }
 
 result:
-  /* result.json: the compare or fit document, or the failure */
-  if (jobfd >= 0 && mem_open (&mb) == 0) {
+  /* A job cut short by the cancel flag writes nothing: its result would describe the
+     interruption (a cancelled read or fit), not the data; bl_batch_run reports BL_ECANCEL. */
+  if (cancelled (rc))
+    goto done;
+  /* Render result.json (the compare or fit document, or the failure) and residuals.csv (of
+     the winner or the single model) in memory first, then write them: out of memory while
+     rendering leaves neither file. */
+  if (jobfd < 0)
+    goto section;
+  if (mem_open (&mb) != 0) {
+    bl_fail (&e, BL_ENOMEM, where, "out of memory rendering 'result.json'");
+    goto nomem;
+  }
+  {
     int st = BL_OK;
     info.source = j->data;
     info.terms = terms;
@@ -284,45 +419,72 @@ result:
       jw_str (&w, "status", "failed");
       jw_str (&w, "error", row->message);
       jw_obj_end (&w);
-      jw_finish (&w);
+      st = jw_finish (&w) ? BL_EIO : BL_OK;
     }
-    if (mem_close (&mb) == 0 && st == BL_OK) {
-      if (write_atomic (jobfd, "result.json", mb.buf, mb.len, where, &e) != BL_OK)
-        row_fail (row, &e);
-    } else {
-      bl_fail (&e, BL_ENOMEM, where, "could not render result.json");
+    st = render_status (&mb, st, where, "result.json", &e);
+    if (st == BL_ENOMEM)
+      goto nomem;
+    if (st != BL_OK)
       row_fail (row, &e);
-    }
-    mem_free (&mb);
+    have_result = st == BL_OK;
   }
-  /* residuals.csv of the winner or the single model */
-  if (jobfd >= 0 && resfit && mem_open (&mb) == 0) {
+  if (resfit) {
     gsl_rng *rng = gsl_rng_alloc (gsl_rng_mt19937);
     bl_resid_table *t = NULL;
-    if (rng) {
-      gsl_rng_set (rng, seed);
-      t = bl_resid_table_new (resfit, rng, &e);
-      gsl_rng_free (rng);
+    int st;
+    if (!rng || mem_open (&mr) != 0) {
+      if (rng)
+        gsl_rng_free (rng);
+      bl_fail (&e, BL_ENOMEM, where, "out of memory rendering 'residuals.csv'");
+      goto nomem;
     }
-    if (t && bl_report_residuals_csv (mb.f, resfit, t, &e) == BL_OK && mem_close (&mb) == 0) {
-      if (write_atomic (jobfd, "residuals.csv", mb.buf, mb.len, where, &e) != BL_OK)
-        row_fail (row, &e);
-    } else {
-      row_fail (row, &e);
-    }
+    gsl_rng_set (rng, seed);
+    t = bl_resid_table_new (resfit, rng, &e);
+    gsl_rng_free (rng);
+    st = t ? bl_report_residuals_csv (mr.f, resfit, t, &e) : e.code;
     bl_resid_table_free (t);
-    mem_free (&mb);
+    st = render_status (&mr, st, where, "residuals.csv", &e);
+    if (st == BL_ENOMEM)
+      goto nomem;
+    if (st != BL_OK)
+      row_fail (row, &e);
+    have_resid = st == BL_OK;
   }
+  if (cancelled (rc))          /* while rendering (the residual table is long for many rows) */
+    goto done;
+  if (have_result && write_atomic (jobfd, "result.json", mb.buf, mb.len, where, &e) != BL_OK)
+    row_fail (row, &e);
+  if (have_resid && write_atomic (jobfd, "residuals.csv", mr.buf, mr.len, where, &e) != BL_OK)
+    row_fail (row, &e);
+  mem_free (&mb);
+  mem_free (&mr);
 section:
-  if (mem_open (&mb) == 0) {
-    if (bl_report_job_html (mb.f, row, cmp, cmp ? NULL : (row->ok ? fit : NULL), design, seed,
-                            &e) == BL_OK && mem_close (&mb) == 0) {
+  if (cancelled (rc))
+    goto done;
+  if (mem_open (&mb) != 0) {
+    bl_fail (&e, BL_ENOMEM, where, "out of memory rendering the report section");
+    goto nomem;
+  }
+  {
+    int st = bl_report_job_html (mb.f, row, cmp, cmp ? NULL : (row->ok ? fit : NULL), design,
+                                 seed, &e);
+    st = render_status (&mb, st, where, "index.html", &e);
+    if (st == BL_ENOMEM)
+      goto nomem;
+    if (st == BL_OK) {
       rc->outs[i].section = mb.buf;
       rc->outs[i].section_len = mb.len;
       mb.buf = NULL;
+    } else {
+      row_fail (row, &e);
     }
-    mem_free (&mb);
   }
+  goto done;
+nomem:
+  run_nomem (rc, sj->name, &e);
+done:
+  mem_free (&mb);
+  mem_free (&mr);
   if (jobfd >= 0)
     close (jobfd);
   bl_compare_free (cmp);
@@ -341,7 +503,8 @@ worker (void *arg)
     size_t i, done;
     struct timespec t;
     pthread_mutex_lock (&rc->lock);
-    if (rc->next >= bl_spec_njobs (rc->spec) || (rc->opt->cancel && *rc->opt->cancel)) {
+    if (rc->next >= bl_spec_njobs (rc->spec) || rc->fatal
+        || (rc->opt->cancel && *rc->opt->cancel)) {
       pthread_mutex_unlock (&rc->lock);
       return NULL;
     }
@@ -351,7 +514,7 @@ worker (void *arg)
     pthread_mutex_lock (&rc->lock);
     done = ++rc->done;
     clock_gettime (CLOCK_MONOTONIC, &t);
-    if (rc->opt->progress)
+    if (rc->opt->progress && !rc->fatal)
       rc->opt->progress (rc->opt->progress_ctx, done, bl_spec_njobs (rc->spec),
                          bl_spec_get (rc->spec, i)->name,
                          (double) (t.tv_sec - rc->t0.tv_sec)
@@ -386,19 +549,24 @@ csv_num (FILE *f, double v)
     fputc (',', f);
 }
 
+/* summary.json, summary.csv and index.html: all three rendered in memory first, then
+   written, so that running out of memory leaves none of them (a write error can still stop
+   after the first). */
 static int
 write_summaries (run_ctx *rc, bl_err *err)
 {
   const size_t nj = bl_spec_njobs (rc->spec);
-  membuf mb;
+  membuf mj = { NULL, 0, NULL }, mc = { NULL, 0, NULL }, mh = { NULL, 0, NULL };
   bl_jsonw w;
   size_t failed = 0;
-  int st;
-  const char **sections;
+  int st = BL_OK;
+  const char **sections = NULL;
+  if (mem_open (&mj) != 0 || mem_open (&mc) != 0 || mem_open (&mh) != 0) {
+    st = bl_fail (err, BL_ENOMEM, "run", "out of memory rendering the summaries");
+    goto out;
+  }
   /* summary.json */
-  if (mem_open (&mb) != 0)
-    return bl_fail (err, BL_ENOMEM, "run", "out of memory");
-  bl_report_head_json (&w, mb.f, bl_version (), NULL, NULL);
+  bl_report_head_json (&w, mj.f, bl_version (), NULL, NULL);
   jw_str (&w, "spec", bl_spec_stem (rc->spec));
   jw_arr (&w, "jobs");
   for (size_t i = 0; i < nj; i++) {
@@ -419,57 +587,54 @@ write_summaries (run_ctx *rc, bl_err *err)
   jw_arr_end (&w);
   jw_size (&w, "failed", failed);
   jw_obj_end (&w);
-  jw_finish (&w);
-  if (mem_close (&mb) != 0) {
-    mem_free (&mb);
-    return bl_fail (err, BL_ENOMEM, "run", "out of memory");
+  if (jw_finish (&w) != 0 || mem_close (&mj) != 0) {
+    st = bl_fail (err, BL_ENOMEM, "run", "out of memory rendering 'summary.json'");
+    goto out;
   }
-  st = write_atomic (rc->outfd, "summary.json", mb.buf, mb.len, "run", err);
-  mem_free (&mb);
-  if (st != BL_OK)
-    return st;
   /* summary.csv */
-  if (mem_open (&mb) != 0)
-    return bl_fail (err, BL_ENOMEM, "run", "out of memory");
-  fputs ("job,status,method,winner,aic,delta,spread_ratio,n,message\n", mb.f);
+  fputs ("job,status,method,winner,aic,delta,spread_ratio,n,message\n", mc.f);
   for (size_t i = 0; i < nj; i++) {
     const bl_batch_row *r = &rc->rows[i];
-    csv_field (mb.f, r->job);
-    fprintf (mb.f, ",%s,", r->ok ? "done" : "failed");
-    csv_field (mb.f, r->method);
-    fputc (',', mb.f);
-    csv_field (mb.f, r->winner);
-    csv_num (mb.f, r->aic);
-    csv_num (mb.f, r->delta);
-    csv_num (mb.f, r->spread_ratio);
-    fprintf (mb.f, ",%zu,", r->n);
-    csv_field (mb.f, r->message);
-    fputc ('\n', mb.f);
+    csv_field (mc.f, r->job);
+    fprintf (mc.f, ",%s,", r->ok ? "done" : "failed");
+    csv_field (mc.f, r->method);
+    fputc (',', mc.f);
+    csv_field (mc.f, r->winner);
+    csv_num (mc.f, r->aic);
+    csv_num (mc.f, r->delta);
+    csv_num (mc.f, r->spread_ratio);
+    fprintf (mc.f, ",%zu,", r->n);
+    csv_field (mc.f, r->message);
+    fputc ('\n', mc.f);
   }
-  if (mem_close (&mb) != 0) {
-    mem_free (&mb);
-    return bl_fail (err, BL_ENOMEM, "run", "out of memory");
+  if (ferror (mc.f) || mem_close (&mc) != 0) {
+    st = bl_fail (err, BL_ENOMEM, "run", "out of memory rendering 'summary.csv'");
+    goto out;
   }
-  st = write_atomic (rc->outfd, "summary.csv", mb.buf, mb.len, "run", err);
-  mem_free (&mb);
-  if (st != BL_OK)
-    return st;
   /* index.html */
   sections = bl_calloc (nj ? nj : 1, sizeof *sections);
-  if (!sections || mem_open (&mb) != 0) {
-    bl_free (sections);
-    return bl_fail (err, BL_ENOMEM, "run", "out of memory");
+  if (!sections) {
+    st = bl_fail (err, BL_ENOMEM, "run", "out of memory rendering 'index.html'");
+    goto out;
   }
   for (size_t i = 0; i < nj; i++)
     sections[i] = rc->outs[i].section ? rc->outs[i].section : "";
-  st = bl_report_html_page (mb.f, bl_spec_stem (rc->spec), rc->rows, sections, nj, err);
-  bl_free (sections);
-  if (mem_close (&mb) != 0 || st != BL_OK) {
-    mem_free (&mb);
-    return st != BL_OK ? st : bl_fail (err, BL_ENOMEM, "run", "out of memory");
+  st = bl_report_html_page (mh.f, bl_spec_stem (rc->spec), rc->rows, sections, nj, err);
+  if (st != BL_OK || mem_close (&mh) != 0) {
+    if (st == BL_OK || st == BL_EIO)
+      st = bl_fail (err, BL_ENOMEM, "run", "out of memory rendering 'index.html'");
+    goto out;
   }
-  st = write_atomic (rc->outfd, "index.html", mb.buf, mb.len, "run", err);
-  mem_free (&mb);
+  st = write_atomic (rc->outfd, "summary.json", mj.buf, mj.len, "run", err);
+  if (st == BL_OK)
+    st = write_atomic (rc->outfd, "summary.csv", mc.buf, mc.len, "run", err);
+  if (st == BL_OK)
+    st = write_atomic (rc->outfd, "index.html", mh.buf, mh.len, "run", err);
+out:
+  bl_free (sections);
+  mem_free (&mj);
+  mem_free (&mc);
+  mem_free (&mh);
   return st;
 }
 
@@ -498,6 +663,17 @@ bl_batch_run (const bl_spec *spec, const char *outdir, const bl_batch_opts *opt,
   if (rc.outfd < 0)
     return bl_fail (err, BL_EIO, outdir, "cannot open the output folder: %s",
                     strerror (errno));
+  /* a run killed outright (SIGKILL, a crash) may have left temporaries beside the final
+     names; they never hold a final name, and this run removes them (stale_tmp) */
+  remove_stale (rc.outfd);
+  for (size_t i = 0; i < nj; i++) {
+    const int jfd = openat (rc.outfd, bl_spec_get (spec, i)->name,
+                            O_RDONLY | O_DIRECTORY | O_NOFOLLOW | O_CLOEXEC);
+    if (jfd >= 0) {
+      remove_stale (jfd);
+      close (jfd);
+    }
+  }
   rc.rows = rows;
   rc.outs = bl_calloc (nj ? nj : 1, sizeof *rc.outs);
   if (!rc.outs) {
@@ -519,7 +695,11 @@ bl_batch_run (const bl_spec *spec, const char *outdir, const bl_batch_opts *opt,
   for (unsigned t = 1; t <= started; t++)
     pthread_join (th[t], NULL);
   pthread_mutex_destroy (&rc.lock);
-  if (opt->cancel && *opt->cancel)
+  if (rc.fatal) {
+    st = rc.fatal;
+    if (err)
+      *err = rc.fatal_err;
+  } else if (opt->cancel && *opt->cancel)
     st = bl_fail (err, BL_ECANCEL, "run", "the run was cancelled; finished files are "
                   "complete, the rest were not written");
   else

@@ -5,7 +5,10 @@
    Every file is written under a temporary name in its folder (openat relative to the folder,
    O_CREAT | O_EXCL | O_NOFOLLOW), flushed, fsync'd and renamed (renameat), so an interrupted
    run never leaves a file that looks complete, and no write follows a symbolic link planted
-   inside OUTDIR.  Files ballast does not own are left alone. */
+   inside OUTDIR.  Files ballast does not own are left alone.  The temporaries are named
+   ".NAME.tmp-PID-K-HEX"; a run killed outright can leave some, and bl_batch_run removes those
+   of processes that no longer exist (in OUTDIR and the spec's job folders) before it starts.
+   With opts.cancel set, a job cut short writes nothing and no further job starts. */
 #ifndef BALLAST_BATCH_H
 #define BALLAST_BATCH_H
 #include <signal.h>
@@ -49,7 +52,10 @@ void bl_batch_opts_init (bl_batch_opts *opt);
 /* Run every job of SPEC into OUTDIR (created when missing).  ROWS (length njobs) receives the
    summary lines in spec order.  Returns BL_OK when every job ran (some may have failed: see
    ROWS), BL_EIO when OUTDIR cannot be used (not a folder, a symbolic link, not writable),
-   BL_ECANCEL, BL_ENOMEM. */
+   BL_ECANCEL, BL_ENOMEM.  Out of memory anywhere stops the whole run (no job is marked
+   failed for it): ERR->where names the job ("job 'NAME'", or "run" for the summaries), no
+   more jobs start, and the summaries are not written; every file already written is
+   complete, and a job's result.json and residuals.csv are both written or neither. */
 int bl_batch_run (const bl_spec *spec, const char *outdir, const bl_batch_opts *opt,
                   bl_batch_row *rows, bl_err *err);
 

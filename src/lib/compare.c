@@ -281,6 +281,15 @@ predict_mean (const bl_fit *f, double eta)
   return eta;
 }
 
+/* Whether the caller's cancel flag (the one the fits poll, opt->fit.irls.cancel) is set: a
+   cancelled fit comes back unconverged, and the loops below must not take it for a candidate
+   that failed, so they poll the flag too and stop with BL_ECANCEL. */
+static int
+cancel_set (const bl_compare_opts *opt)
+{
+  return opt->fit.irls.cancel && *opt->fit.irls.cancel;
+}
+
 /* K-fold cross-validated RMSE and MAE of candidate K (spec SP) on D. */
 static int
 cross_validate (const bl_design *d, const bl_compare_opts *opt, const spec *sp, double lam,
@@ -308,6 +317,10 @@ cross_validate (const bl_design *d, const bl_compare_opts *opt, const spec *sp, 
     bl_design *sub;
     bl_fit *ft;
     bl_err e;
+    if (cancel_set (opt)) {
+      st = bl_fail (err, BL_ECANCEL, "compare", "the comparison was cancelled");
+      goto done;
+    }
     for (size_t i = 0; i < n; i++)
       if (fold[i] != g)
         sel[m++] = i;
@@ -395,8 +408,17 @@ score (bl_candidate *k, const bl_compare_opts *opt, bl_err *err)
   k->spread_null95 = sp.null95;
   k->spread_flag = sp.flag;
   bl_spread_clear (&sp);
+  /* each of these three passes takes about a second on a million rows: poll between them */
+  if (cancel_set (opt)) {
+    st = bl_fail (err, BL_ECANCEL, "compare", "the comparison was cancelled");
+    goto done;
+  }
   if ((st = bl_quantile_residuals (f, rng, r, err)) != BL_OK)
     goto done;
+  if (cancel_set (opt)) {
+    st = bl_fail (err, BL_ECANCEL, "compare", "the comparison was cancelled");
+    goto done;
+  }
   bl_ks_normal (r, n, &k->normality_stat, &k->normality_p);
 done:
   bl_free (r);
@@ -506,6 +528,10 @@ bl_compare_run (const bl_design *d, const bl_compare_opts *opt, bl_err *err)
   }
   c->zero_groups = any_zero && nonneg_y && !c->integer_y;
   for (size_t i = 0; i < c->nc && st == BL_OK; i++) {
+    if (cancel_set (opt)) {
+      st = bl_fail (err, BL_ECANCEL, "compare", "the comparison was cancelled");
+      break;
+    }
     st = fit_candidate (c, i, d, opt, pos_y, c->integer_y, nonneg_y, err);
     /* the practical Box-Cox power, when it is not a transform already in the table */
     if (st == BL_OK && c->sp[i].tr == BL_TRANSFORM_BOXCOX && c->sp[i].lambda_est
@@ -530,6 +556,8 @@ bl_compare_run (const bl_design *d, const bl_compare_opts *opt, bl_err *err)
       }
     }
   }
+  if (st == BL_OK && cancel_set (opt))        /* the last candidate's fit was cut short */
+    st = bl_fail (err, BL_ECANCEL, "compare", "the comparison was cancelled");
   if (st != BL_OK)
     goto fail;
 
@@ -604,6 +632,10 @@ bl_compare_run (const bl_design *d, const bl_compare_opts *opt, bl_err *err)
   } else {
     c->folds = 0;
   }
+  if (cancel_set (opt)) {             /* a fold's fit was cut short */
+    bl_fail (err, BL_ECANCEL, "compare", "the comparison was cancelled");
+    goto fail;
+  }
 
   /* advice */
   if (c->winner >= 0) {
@@ -632,6 +664,7 @@ bl_compare_run (const bl_design *d, const bl_compare_opts *opt, bl_err *err)
       bl_diag_opts_init (&dopt);
       dopt.seed = opt->seed;
       dopt.null_reps = 0;
+      dopt.cancel = opt->fit.irls.cancel;
       dg = bl_diag_new (w->fit, &dopt, err);
       if (!dg)
         goto fail;

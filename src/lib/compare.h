@@ -75,8 +75,9 @@ typedef struct bl_candidate {
 typedef struct bl_compare bl_compare;
 
 /* Fit every candidate to D's rows (none are dropped: a candidate whose support the data break
-   is left out with a note), score and rank them.  NULL with ERR only for BL_ENOMEM or a bad
-   list (BL_ESPEC); a candidate that fails stays in the table with its reason. */
+   is left out with a note), score and rank them.  NULL with ERR only for BL_ENOMEM, a bad
+   list (BL_ESPEC) or BL_ECANCEL (opt->fit.irls.cancel set: polled between candidates and
+   folds and inside each fit); a candidate that fails stays in the table with its reason. */
 bl_compare *bl_compare_run (const bl_design *d, const bl_compare_opts *opt, bl_err *err);
 void bl_compare_free (bl_compare *c);
 

@@ -896,8 +896,8 @@ build_design (build *b, const char *response, const bl_terms *terms, const bl_de
         char w[1100], s[32];
         row_where (t, d->rows[i], w, sizeof w);
         bl_format_shortest (wv[d->rows[i]], s);
-        return bl_fail (b->err, BL_EDATA, w, "weight %s is not %s", s,
-                        isfinite (wv[d->rows[i]]) ? "> 0" : "finite");
+        return bl_fail (b->err, BL_EDATA, w, "weight %s is not %s (column '%s')", s,
+                        isfinite (wv[d->rows[i]]) ? "> 0" : "finite", opt->weights);
       }
       all_one &= wv[d->rows[i]] == 1.0;
     }

@@ -21,6 +21,7 @@ bl_diag_opts_init (bl_diag_opts *opt)
   opt->seed = BL_DIAG_SEED;
   opt->null_reps = BL_DIAG_NULL_REPS;
   opt->white_max_p = BL_DIAG_WHITE_MAX_P;
+  opt->cancel = NULL;
 }
 
 void
@@ -155,6 +156,7 @@ typedef struct aux_ctx {
   size_t nx, *xcols;        /* the non-intercept design columns */
   int white;                /* add squares and cross products */
   double *tmp;              /* BL_IRLS_BLOCK x p */
+  volatile sig_atomic_t *cancel;   /* the caller's cancel flag, for the IRLS runs */
 } aux_ctx;
 
 static void
@@ -184,13 +186,14 @@ aux_regress (aux_ctx *c, const double *t, size_t n, double *rss, double *tss, si
 {
   const size_t q = 1 + c->nx + (c->white ? c->nx * (c->nx + 1) / 2 : 0);
   bl_irls_model m = { &bl_family_gaussian, &bl_link_identity, n, q, t, NULL, NULL, aux_fill,
-                      NULL, c, 1, 0.0 };
+                      NULL, c, 1, 0.0, NULL, NULL };
   bl_irls_opts o;
   bl_irls_work *ws;
   long double s = 0.0L, ss = 0.0L;
   int st;
   bl_irls_opts_init (&o);
   o.threads = 1;                 /* aux_fill shares one scratch block */
+  o.cancel = c->cancel;          /* polled once per block: BL_ECANCEL */
   ws = bl_irls_work_new (&m, &o, err);
   if (!ws)
     return BL_ENOMEM;
@@ -228,6 +231,7 @@ variance_tests (const bl_fit *f, const double *e, const bl_diag_opts *opt, bl_di
   memset (&c, 0, sizeof c);
   c.d = f->d;
   c.p = p;
+  c.cancel = opt->cancel;
   c.xcols = bl_mallocn (p ? p : 1, sizeof *c.xcols);
   c.tmp = bl_mallocn ((size_t) BL_IRLS_BLOCK * (p ? p : 1), sizeof *c.tmp);
   if (!u || !c.xcols || !c.tmp) {
@@ -383,7 +387,8 @@ variance_power (const bl_fit *f, int integer_y, bl_power *pw, bl_err *err)
    (not the intercept, not 0/1 indicators); a bin mean beyond 3 standard errors of zero is
    flagged (common practice, no source). */
 static int
-lack_of_fit (const bl_fit *f, const double *e, bl_lof *lof, bl_err *err)
+lack_of_fit (const bl_fit *f, const double *e, volatile sig_atomic_t *cancel, bl_lof *lof,
+             bl_err *err)
 {
   const size_t n = f->n, p = f->p;
   size_t G = BL_DIAG_LOF_GROUPS, nagainst = 1, cap;
@@ -406,6 +411,10 @@ lack_of_fit (const bl_fit *f, const double *e, bl_lof *lof, bl_err *err)
   }
   for (size_t a = 0; a <= p; a++) {
     const char *label = "fitted";
+    if (cancel && *cancel) {           /* one sort of n rows per column: poll between them */
+      st = bl_fail (err, BL_ECANCEL, "diagnose", "the diagnosis was cancelled");
+      goto done;
+    }
     if (a == 0) {
       memcpy (x, f->mu, n * sizeof *x);
     } else {
@@ -457,6 +466,14 @@ done:
   return st;
 }
 
+/* BL_ECANCEL (ERR filled) when the caller's cancel flag is set, else BL_OK. */
+static int
+cancelled (const bl_diag_opts *opt, bl_err *err)
+{
+  return opt->cancel && *opt->cancel
+         ? bl_fail (err, BL_ECANCEL, "diagnose", "the diagnosis was cancelled") : BL_OK;
+}
+
 bl_diag *
 bl_diag_new (const bl_fit *f, const bl_diag_opts *opt, bl_err *err)
 {
@@ -483,13 +500,16 @@ bl_diag_new (const bl_fit *f, const bl_diag_opts *opt, bl_err *err)
   bl_pearson_residuals (f, e);
   for (size_t i = 0; i < f->n && integer_y; i++)
     integer_y = f->y[i] >= 0.0 && f->y[i] == floor (f->y[i]);
+  /* the caller's cancel flag is polled inside the auxiliary regressions and between checks */
   st = variance_tests (f, e, opt, &d->r, err);
-  if (st == BL_OK)
+  if (st == BL_OK && (st = cancelled (opt, err)) == BL_OK)
     st = bl_spread_compute (f->mu, e, f->n, rng, opt->null_reps, &d->r.spread, err);
-  if (st == BL_OK)
+  if (st == BL_OK && (st = cancelled (opt, err)) == BL_OK)
     st = variance_power (f, integer_y, &d->r.power, err);
+  if (st == BL_OK && (st = cancelled (opt, err)) == BL_OK)
+    st = lack_of_fit (f, e, opt->cancel, &d->r.lof, err);
   if (st == BL_OK)
-    st = lack_of_fit (f, e, &d->r.lof, err);
+    st = cancelled (opt, err);
   bl_free (e);
   gsl_rng_free (rng);
   if (st != BL_OK) {

@@ -3,6 +3,7 @@
    variance power, a lack-of-fit check, and the residual table. */
 #ifndef BALLAST_DIAG_H
 #define BALLAST_DIAG_H
+#include <signal.h>
 #include <stddef.h>
 #include <gsl/gsl_rng.h>
 #include "error.h"
@@ -27,6 +28,8 @@ typedef struct bl_diag_opts {
   unsigned long seed;               /* BL_DIAG_SEED; the null quantile's simulation */
   size_t null_reps;                 /* BL_DIAG_NULL_REPS */
   size_t white_max_p;               /* BL_DIAG_WHITE_MAX_P */
+  volatile sig_atomic_t *cancel;    /* polled by the auxiliary regressions and between the
+                                       checks (BL_ECANCEL); NULL (default) for none */
 } bl_diag_opts;
 
 void bl_diag_opts_init (bl_diag_opts *opt);

@@ -225,8 +225,11 @@ static double
 tw_negll_logphi (double t, void *arg)
 {
   const tw_ctx *c = arg;
-  const double l = bl_family_loglik_p (&bl_family_tweedie, c->y, c->mu, c->a, c->n, exp (t),
-                                       c->p);
+  double l;
+  /* cancelled (the fits' flag): no value, so that the search for phi ends at once */
+  if (c->o.irls.cancel && *c->o.irls.cancel)
+    return HUGE_VAL;
+  l = bl_family_loglik_p (&bl_family_tweedie, c->y, c->mu, c->a, c->n, exp (t), c->p);
   return isfinite (l) ? -l : HUGE_VAL;
 }
 
@@ -306,8 +309,16 @@ tw_profile (double p, void *arg)
 {
   tw_ctx *c = arg;
   double ll;
-  bl_fit *f = tw_fit_at (c, p, 1, &ll);
-  const int ok = f && f->st.converged;
+  bl_fit *f;
+  int ok;
+  /* cancelled: no more profile fits; bl_fit_tweedie_run fails with BL_ECANCEL */
+  if (c->o.irls.cancel && *c->o.irls.cancel) {
+    if (c->status == BL_OK)
+      c->status = bl_fail (c->err, BL_ECANCEL, "tweedie", "the fit was cancelled");
+    return -HUGE_VAL;
+  }
+  f = tw_fit_at (c, p, 1, &ll);
+  ok = f && f->st.converged;
   bl_fit_free (f);
   return ok ? ll : -HUGE_VAL;
 }
@@ -420,6 +431,12 @@ bl_fit_tweedie_run (const bl_design *d, const bl_fit_opts *opt, bl_err *err)
       return NULL;
   }
   f = tw_fit_at (&c, p, 0, &ll);
+  if (f && c.o.irls.cancel && *c.o.irls.cancel) {
+    /* cancelled during the final fit or its phi: not a result (its phi search was cut) */
+    bl_fit_free (f);
+    bl_fail (err, BL_ECANCEL, "tweedie", "the fit was cancelled");
+    return NULL;
+  }
   if (!f || !f->st.converged)
     return f;
   f->st.fam_par = p;

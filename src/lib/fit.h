@@ -61,6 +61,9 @@ typedef struct bl_fit_variance_info {
 
 #define BL_FIT_LEVEL 0.95
 #define BL_FIT_OVERDISPERSION 1.5   /* Pearson chi2 / dof above this: warn (common practice) */
+/* A row with y = 0 whose fitted mean is below this times the mean of y (poisson, negative
+   binomial, Tweedie): warn that some coefficients may be running off to infinity. */
+#define BL_FIT_MU_VANISH 1e-12
 
 typedef struct bl_fit_opts {
   bl_method method;               /* BL_METHOD_GLM */

@@ -14,6 +14,7 @@
 #include <float.h>
 #include <math.h>
 #include <pthread.h>
+#include <stdio.h>
 #include <string.h>
 #include "alloc.h"
 #include "irls.h"
@@ -408,12 +409,18 @@ solve (bl_irls_work *ws, bl_err *err)
 static int
 pass_error (bl_irls_work *ws, int code, size_t row, bl_err *err)
 {
+  char where[1100];
   if (code == 3)
     return bl_fail (err, BL_ECANCEL, "irls", "the fit was cancelled");
-  return bl_fail (err, BL_ENOCONV, "irls",
-                  "%s at row %zu: the linear predictor left the %s link's range or the mean "
-                  "left the %s family's mean space, and step halving could not recover",
-                  code == 1 ? "invalid linear predictor" : "invalid mean", row + 1,
+  /* the place in the message itself: callers show the message of a failed fit's status */
+  if (ws->m.source && ws->m.line)
+    snprintf (where, sizeof where, "%s:%zu", ws->m.source, ws->m.line (ws->m.ctx, row));
+  else
+    snprintf (where, sizeof where, "row %zu", row + 1);
+  return bl_fail (err, BL_ENOCONV, ws->m.source ? ws->m.source : "irls",
+                  "%s at %s: the linear predictor left the %s link's range or the mean left "
+                  "the %s family's mean space, and step halving could not recover",
+                  code == 1 ? "invalid linear predictor" : "invalid mean", where,
                   ws->m.link->name, ws->m.fam->name);
 }
 

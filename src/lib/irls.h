@@ -49,6 +49,10 @@ typedef struct bl_irls_model {
   const void *ctx;
   int intercept;             /* nonzero: column 0 is the constant 1 */
   double fam_par;            /* the family's parameter (negative binomial theta, Tweedie p) */
+  /* For messages, may be NULL: the data's name, and the source line of row I (so that a
+     failure names "FILE:LINE" rather than a row index). */
+  const char *source;
+  size_t (*line) (const void *ctx, size_t i);
 } bl_irls_model;
 
 typedef struct bl_irls_opts {

@@ -51,6 +51,13 @@ profile (double lambda, void *arg)
   bl_fit *f;
   bl_err e;
   double l;
+  /* the caller's cancel flag (polled inside each fit too): no more profile fits, and the
+     run fails with BL_ECANCEL rather than go on through a grid of cancelled fits */
+  if (c->opt->irls.cancel && *c->opt->irls.cancel) {
+    if (c->status == BL_OK)
+      c->status = bl_fail (c->err, BL_ECANCEL, "transform", "the fit was cancelled");
+    return -HUGE_VAL;
+  }
   boxcox (c->ys, n, lambda, c->z);
   f = bl_fit_core (c->d, c->z, NULL, c->opt, 1, &e);
   if (!f) {
@@ -64,6 +71,14 @@ profile (double lambda, void *arg)
   l = f->st.loglik + (lambda - 1.0) * c->sumlog;
   bl_fit_free (f);
   return isfinite (l) ? l : -HUGE_VAL;
+}
+
+/* Record that GSL could not allocate a solver (its own malloc, outside alloc.h). */
+static void
+nomem (prof_ctx *c)
+{
+  if (c->status == BL_OK)
+    c->status = bl_fail (c->err, BL_ENOMEM, "transform", "out of memory");
 }
 
 static double neg_profile (double lambda, void *arg) { return -profile (lambda, arg); }
@@ -82,7 +97,7 @@ interval_end (prof_ctx *c, double a, double b)
   gsl_root_fsolver *s = gsl_root_fsolver_alloc (gsl_root_fsolver_brent);
   double r = NAN;
   if (!s)
-    return NAN;
+    return nomem (c), NAN;       /* not an open interval: the run fails */
   if (gsl_root_fsolver_set (s, &F, a < b ? a : b, a < b ? b : a) == GSL_SUCCESS) {
     for (int it = 0; it < 200; it++) {
       if (gsl_root_fsolver_iterate (s) != GSL_SUCCESS)
@@ -110,15 +125,21 @@ refine_max (prof_ctx *c, const double *grid, const double *val, size_t ng, size_
     return x;
   s = gsl_min_fminimizer_alloc (gsl_min_fminimizer_brent);
   if (!s)
-    return x;
+    return nomem (c), x;         /* not the grid point as if refined: the run fails */
   if (gsl_min_fminimizer_set_with_values (s, &F, grid[m], -val[m], grid[m - 1], -val[m - 1],
                                           grid[m + 1], -val[m + 1]) == GSL_SUCCESS) {
     for (int it = 0; it < 200; it++) {
+      const double lo0 = gsl_min_fminimizer_x_lower (s), hi0 = gsl_min_fminimizer_x_upper (s);
       if (gsl_min_fminimizer_iterate (s) != GSL_SUCCESS)
         break;
       x = gsl_min_fminimizer_x_minimum (s);
       if (gsl_min_test_interval (gsl_min_fminimizer_x_lower (s), gsl_min_fminimizer_x_upper (s),
                                  1e-10, 0.0) == GSL_SUCCESS)
+        break;
+      /* Brent's steps are at least sqrt(DBL_EPSILON) |x| (GSL), so the bracket of a lambda
+         above about 0.01 never gets within 1e-10: stop once an iteration leaves both ends
+         where they were (no more progress; x no longer changes) */
+      if (gsl_min_fminimizer_x_lower (s) == lo0 && gsl_min_fminimizer_x_upper (s) == hi0)
         break;
     }
   }

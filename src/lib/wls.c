@@ -59,6 +59,12 @@ colk_loglik (double K, void *arg)
   bl_fit *f;
   bl_err e;
   double l;
+  /* the caller's cancel flag: no more profile fits (the estimate fails with BL_ECANCEL) */
+  if (c->o->irls.cancel && *c->o->irls.cancel) {
+    if (c->status == BL_OK)
+      c->status = bl_fail (c->err, BL_ECANCEL, "wls", "the fit was cancelled");
+    return -HUGE_VAL;
+  }
   colk_weights (c, K);
   f = bl_fit_core (c->d, NULL, c->w, c->o, 1, &e);
   if (!f) {
@@ -115,11 +121,18 @@ colk_estimate (colk *c, double *K_out, double *se_out)
         && gsl_min_fminimizer_set_with_values (s, &F, Kb, -vals[m], lo, -vals[m - 1], hi,
                                                -vals[m + 1]) == GSL_SUCCESS) {
       for (int it = 0; it < 200; it++) {
+        const double lo0 = gsl_min_fminimizer_x_lower (s), hi0 = gsl_min_fminimizer_x_upper (s);
         if (gsl_min_fminimizer_iterate (s) != GSL_SUCCESS)
           break;
         K = gsl_min_fminimizer_x_minimum (s);
         if (gsl_min_test_interval (gsl_min_fminimizer_x_lower (s),
                                    gsl_min_fminimizer_x_upper (s), 1e-10, 0.0) == GSL_SUCCESS)
+          break;
+        /* GSL's Brent steps are at least sqrt(DBL_EPSILON) |K| long, so for |K| above about
+           0.01 the bracket never gets within 1e-10; once an iteration leaves both ends where
+           they were it makes no more progress (and K no longer changes): stop there rather
+           than spend the rest of the 200 profile fits */
+        if (gsl_min_fminimizer_x_lower (s) == lo0 && gsl_min_fminimizer_x_upper (s) == hi0)
           break;
       }
     }
@@ -150,6 +163,7 @@ typedef struct mlk {
   double *X;                 /* one block, BLOCK x p */
   double *beta;              /* full-length coefficients, work */
   double *mu;                /* length n: the means at the last evaluation */
+  volatile sig_atomic_t *cancel;   /* the fits' cancel flag (irls.h); NULL for none */
 } mlk;
 
 /* Parameters from theta: beta (length p; aliased 0) and K. */
@@ -171,6 +185,10 @@ mlk_eval (mlk *m, const double *th, double *G, size_t *bad_row)
   const double K = mlk_params (m, th);
   long double S = 0.0L, slw = 0.0L;
   double lik;
+  /* cancelled: no value, so that every loop below ends at once (bl_fit_wls_run reports
+     BL_ECANCEL) */
+  if (m->cancel && *m->cancel)
+    return HUGE_VAL;
   /* first pass: means, S and sum log w */
   for (size_t r0 = 0; r0 < n; r0 += BLOCK) {
     const size_t nb = n - r0 < BLOCK ? n - r0 : BLOCK;
@@ -269,6 +287,7 @@ fit_fitted_power (const bl_design *d, const bl_fit_opts *opt, const bl_fit_opts 
   gsl_vector_view sv;
 
   memset (&m, 0, sizeof m);
+  m.cancel = o->irls.cancel;
   if (!w)
     goto nomem;
   /* Feasible WLS: OLS, then weights a / mu^K from the fitted means, refit until b settles.
@@ -303,7 +322,7 @@ fit_fitted_power (const bl_design *d, const bl_fit_opts *opt, const bl_fit_opts 
       w[i] = (a ? a[i] : 1.0) * exp (-K * log (f->mu[i]));
     }
     g = bl_fit_core (d, NULL, w, o, 1, err);
-    if (!g)
+    if (!g || (m.cancel && *m.cancel))       /* cancelled: reported by bl_fit_wls_run */
       goto fail;
     for (size_t j = 0; j < p; j++)
       if (!g->aliased[j] && !f->aliased[j]) {
@@ -574,6 +593,13 @@ bl_fit_wls_run (const bl_design *d, const bl_fit_opts *opt, bl_err *err)
   case BL_VARIANCE_FITTED:
     f = fit_fitted_power (d, opt, &o, a, err);
     break;
+  }
+  /* cancelled (the flag the fits poll): whatever the profile or the maximization made of
+     the fits cut short, the answer is BL_ECANCEL */
+  if (opt->irls.cancel && *opt->irls.cancel && opt->variance != BL_VARIANCE_NONE) {
+    bl_fit_free (f);
+    bl_fail (err, BL_ECANCEL, "wls", "the fit was cancelled");
+    return NULL;
   }
   if (!f)
     return NULL;
