@@ -1353,6 +1353,45 @@ START_TEST (table_keep_columns)
 }
 END_TEST
 
+/* The documented limits (table.h, doc/limits.md): a record longer than max_record bytes is
+   refused at its first line, before the buffer grows past the limit, on one thread and two;
+   a header of more than BL_TABLE_MAX_COLS fields is refused. */
+START_TEST (table_limits)
+{
+  const size_t lim = (size_t) 1 << 16;
+  char *text = malloc (4 * lim + 64), *p;
+  bl_table_opts o;
+  size_t n;
+  strcpy (text, "y,note\n1,a\n2,b\n3,");
+  p = text + strlen (text);
+  memset (p, 'z', 2 * lim);
+  strcpy (p + 2 * lim, "\n4,c\n");
+  for (unsigned th = 1; th <= 2; th++) {
+    bl_table_opts_init (&o);
+    o.threads = th;
+    o.chunk = 4096;
+    o.max_record = lim;
+    expect_fail ("record limit", text, &o, BL_EDATA, "mem.csv:4",
+                 "a record longer than 65536 bytes starts here");
+  }
+  /* cut in two: the first part (half the limit) is read, the rest (1.5 times) refused */
+  text[strlen ("y,note\n1,a\n2,b\n3,") + lim / 2] = '\n';
+  bl_table_opts_init (&o);
+  o.max_record = lim;
+  expect_fail ("record limit, second part", text, &o, BL_EDATA, "mem.csv:5",
+               "a record longer than 65536 bytes starts here");
+  free (text);
+  /* BL_TABLE_MAX_COLS + 1 header names */
+  text = malloc ((size_t) (BL_TABLE_MAX_COLS + 1) * 9 + 16);
+  for (n = 0, p = text; n <= BL_TABLE_MAX_COLS; n++)
+    p += sprintf (p, "%sc%zu", n ? "," : "", n);
+  strcpy (p, "\n");
+  expect_fail ("column limit", text, NULL, BL_EDATA, "mem.csv:1",
+               "the header has more than 1000000 columns");
+  free (text);
+}
+END_TEST
+
 static Suite *
 table_suite (void)
 {
@@ -1384,6 +1423,7 @@ table_suite (void)
   tcase_add_test (basics, table_many_columns);
   tcase_add_test (basics, table_stdin);
   tcase_add_test (basics, table_keep_columns);
+  tcase_add_test (errors, table_limits);
   tcase_add_test (basics, table_threads_identical);
   tcase_add_test (basics, table_threads_options);
   tcase_add_test (basics, table_threads_gzip);

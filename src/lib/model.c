@@ -35,6 +35,7 @@
 #include <stdint.h>
 #include <stdio.h>
 #include <string.h>
+#include <sys/stat.h>
 #include <gsl/gsl_cdf.h>
 #include "tweedie.h"
 #include <gsl/gsl_sf_erf.h>
@@ -623,6 +624,12 @@ read_coef (reader *r, bl_model *m, const json_t *root)
   m->p = json_array_size (cols);
   if (m->p == 0)
     return bad (r, "columns", "the model has no columns"), r->status;
+  if (m->p > BL_MODEL_MAX_COLUMNS) {    /* before the p x p covariance is allocated */
+    char what[96];
+    snprintf (what, sizeof what, "%zu columns, more than the limit of %d", m->p,
+              BL_MODEL_MAX_COLUMNS);
+    return bad (r, "columns", what), r->status;
+  }
   m->labels = bl_calloc (m->p, sizeof *m->labels);
   m->beta = bl_mallocn (m->p, sizeof *m->beta);
   m->cov = bl_mallocn (m->p * m->p, sizeof *m->cov);
@@ -662,8 +669,17 @@ bl_model_read (const char *path, bl_err *err)
   json_t *root, *v;
   bl_model *m;
   FILE *f = fopen (path, "rb");
+  struct stat st;
   if (!f) {
     bl_fail (err, BL_EIO, path, "cannot open: %s", strerror (errno));
+    return NULL;
+  }
+  /* the whole document is parsed into memory: a regular file larger than the limit is
+     refused first (a stream is not sized here; its parse fails cleanly when memory does) */
+  if (fstat (fileno (f), &st) == 0 && S_ISREG (st.st_mode) && st.st_size > BL_MODEL_MAX_BYTES) {
+    fclose (f);
+    bl_fail (err, BL_EDATA, path, "the model file is larger than %ld MiB (the limit)",
+             BL_MODEL_MAX_BYTES >> 20);
     return NULL;
   }
   root = json_loadf (f, JSON_REJECT_DUPLICATES, &je);

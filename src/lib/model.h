@@ -11,6 +11,9 @@ extern "C" {
 #endif
 
 #define BL_MODEL_FORMAT 1               /* "format_version" */
+#define BL_MODEL_MAX_BYTES ((long) 256 << 20)   /* a larger model file is refused */
+#define BL_MODEL_MAX_COLUMNS 20000      /* more model columns are refused (the covariance
+                                           alone would take 3.2 GB) */
 #define BL_MODEL_RESIDUALS_MAX 5000     /* residuals kept for smearing; above, a documented
                                            deterministic subsample (every k-th row) */
 

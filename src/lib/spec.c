@@ -570,6 +570,11 @@ read_all (const char *path, size_t *len, bl_err *err)
   for (;;) {
     size_t got;
     int status;
+    if (n > BL_SPEC_MAX_BYTES) {
+      bl_fail (err, BL_ESPEC, path, "the spec file is larger than %zu MiB (the limit)",
+               BL_SPEC_MAX_BYTES >> 20);
+      goto fail;
+    }
     if (cap - n < 4096) {
       const size_t ncap = cap ? 2 * cap : 65536;
       char *b = ncap > cap ? bl_realloc (buf, ncap) : NULL;

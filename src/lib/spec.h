@@ -28,6 +28,7 @@ extern "C" {
 #define BL_SPEC_NAME_MAX 64          /* job names: at most this many bytes */
 #define BL_SPEC_MAX_JOBS 10000
 #define BL_SPEC_MAX_LINE 65536       /* a longer line is an error */
+#define BL_SPEC_MAX_BYTES ((size_t) 16 << 20)   /* a larger spec file (inflated) is an error */
 
 typedef struct bl_spec_job {
   char name[BL_SPEC_NAME_MAX + 1];

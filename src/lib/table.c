@@ -88,6 +88,7 @@ typedef struct reader {
   size_t fcap, fmax;          /* fields stored: at most fmax (ncols once the header is read) */
   field spare;                /* fields past fmax are parsed into this and only counted */
   size_t max_levels;
+  size_t max_record;          /* bl_table_opts.max_record */
   size_t total;               /* bytes read from the source so far */
   size_t size_hint;           /* exact input size when known in advance (plain files), else 0 */
 } reader;
@@ -565,6 +566,13 @@ parse_record (reader *rd, char **pp, size_t *line, size_t *nf_out, bl_err *err)
     field *f;
     int c, r;
     if (nf < rd->fmax) {
+      if (nf == BL_TABLE_MAX_COLS) {    /* only the header is read with fmax unbounded */
+        char msg[96];
+        snprintf (msg, sizeof msg, "the header has more than %d columns (the limit)",
+                  BL_TABLE_MAX_COLS);
+        fail_at (rd, err, ln, 0, msg);
+        return REC_ERR;
+      }
       if (nf == rd->fcap) {
         const size_t cap = rd->fcap ? 2 * rd->fcap : 64;
         field *nfs = bl_realloc (rd->f, cap * sizeof *nfs);
@@ -958,6 +966,8 @@ fast_record (reader *rd, bl_table *t, char **pp, const char *end, size_t line, i
         return st;
     }
   }
+  if ((size_t) (p - *pp) > rd->max_record)
+    return BL_OK;               /* the general path refuses it */
   t->line[r] = line;
   t->nrows++;
   *pp = (char *) p;
@@ -1136,7 +1146,7 @@ finish (reader *rd, bl_table *t, bl_err *err)
    arrays should go (one or two growths instead of a doubling every time: no copies, no
    slack). */
 static int
-refill (reader *rd, bl_table *t, size_t pos, bl_err *err)
+refill (reader *rd, bl_table *t, size_t pos, size_t line, bl_err *err)
 {
   int st;
   if (t && rd->size_hint > 0 && t->nrows >= 256 && rd->total > rd->len - pos) {
@@ -1150,6 +1160,13 @@ refill (reader *rd, bl_table *t, size_t pos, bl_err *err)
   }
   if (rd->len == rd->cap) {
     char *b;
+    /* the unread record fills the buffer: it may grow to the limit, no further */
+    if (rd->cap >= rd->max_record) {
+      char msg[160];
+      snprintf (msg, sizeof msg, "a record longer than %zu bytes starts here (the limit on "
+                "one record)", rd->max_record);
+      return fail_at (rd, err, line, 0, msg);
+    }
     if (rd->cap > (SIZE_MAX - 1) / 2)
       return fail_nomem (rd, err);
     b = bl_realloc (rd->buf, 2 * rd->cap + 1);
@@ -1263,6 +1280,12 @@ parse_avail (reader *rd, bl_table *t, const bl_table_opts *opt, pstate *ps, int 
       return BL_EDATA;
     if (st == REC_MORE)
       return BL_CONTINUE;
+    if ((size_t) (p - (rd->buf + ps->pos)) > rd->max_record) {
+      char msg[160];
+      snprintf (msg, sizeof msg, "a record longer than %zu bytes starts here (the limit on "
+                "one record)", rd->max_record);
+      return fail_at (rd, err, ps->line, 0, msg);
+    }
     if (!ps->have_header) {
       if ((st = take_header (rd, t, nf, opt, err)) != BL_OK)
         return st;
@@ -1391,6 +1414,7 @@ spec_prepare (spec *w, const reader *rd, bl_table *t, size_t len1, size_t len2)
   memcpy (w->rd.stop, rd->stop, sizeof rd->stop);
   w->rd.fmax = nc;
   w->rd.max_levels = rd->max_levels;
+  w->rd.max_record = rd->max_record;
   w->rd.eof = 1;              /* the part ends at a line end or at the end of the input */
   w->rd.src = NULL;
   return BL_OK;
@@ -1444,14 +1468,18 @@ spec_run (void *arg)
             break;
         }
       }
-      if (j == w->ncols) {
+      if (j == w->ncols && (size_t) (q - p) <= rd->max_record) {
         w->line[r++] = line++;
         p = (char *) q;
         continue;
       }
     }
-    if (parse_record (rd, &p, &next, &nf, &scratch) != REC_DONE || nf != w->ncols)
-      return NULL;
+    {
+      const char *const rec = p;
+      if (parse_record (rd, &p, &next, &nf, &scratch) != REC_DONE || nf != w->ncols
+          || (size_t) (p - rec) > rd->max_record)
+        return NULL;            /* the sequential parse gives the error */
+    }
     for (size_t j = 0; j < nf; j++) {
       const field *f = &rd->f[j];
       const char *v = f->s;
@@ -1600,6 +1628,7 @@ read_source (bl_source *src, const bl_table_opts *opt_in, bl_err *err)
   rd.delim = opt->delimiter ? opt->delimiter : ends_with_tsv (rd.name) ? '\t' : ',';
   rd.mark = opt->decimal_comma ? ',' : '.';
   rd.max_levels = opt->max_levels < INT32_MAX ? opt->max_levels : INT32_MAX;
+  rd.max_record = opt->max_record ? opt->max_record : BL_TABLE_MAX_RECORD;
   rd.fmax = SIZE_MAX;
   if (rd.delim == '"' || rd.delim == '\n' || rd.delim == '\r' || rd.delim == '\0') {
     bl_fail (err, BL_ESPEC, rd.name, "delimiter 0x%02x cannot separate fields",
@@ -1641,7 +1670,7 @@ read_source (bl_source *src, const bl_table_opts *opt_in, bl_err *err)
     fail_nomem (&rd, err);
     goto fail;
   }
-  if (refill (&rd, t, 0, err) != BL_OK)
+  if (refill (&rd, t, 0, 1, err) != BL_OK)
     goto fail;
   if (par && !rd.eof && bl_source_is_gzip (src)
       && bl_source_prefetch (src, SOURCE_RING, hint > 0 && hint < READ_CHUNK ? hint : READ_CHUNK,
@@ -1666,7 +1695,7 @@ read_source (bl_source *src, const bl_table_opts *opt_in, bl_err *err)
       goto fail;
     if (rd.eof)
       break;
-    if (refill (&rd, t, ps.pos, err) != BL_OK)
+    if (refill (&rd, t, ps.pos, ps.line, err) != BL_OK)
       goto fail;
     ps.pos = 0;
   }
@@ -1704,6 +1733,7 @@ bl_table_opts_init (bl_table_opts *opt)
   opt->chunk = BL_TABLE_CHUNK;
   opt->keep = NULL;
   opt->n_keep = 0;
+  opt->max_record = BL_TABLE_MAX_RECORD;
 }
 
 bl_table *

@@ -13,6 +13,11 @@ typedef struct bl_table bl_table;     /* opaque; defined in table.c */
 
 /* Default limit on distinct levels of one categorical column (BL_TABLE_MAX_LEVELS). */
 #define BL_TABLE_MAX_LEVELS 100000
+/* Default limit on the bytes of one record (bl_table_opts.max_record): 1 GiB.  The reader
+   holds a whole record in its buffer, which doubles to fit it. */
+#define BL_TABLE_MAX_RECORD ((size_t) 1 << 30)
+/* Limit on the columns of a file (fields of the header): 1000000. */
+#define BL_TABLE_MAX_COLS 1000000
 /* Default number of threads that parse (BL_TABLE_THREADS) and default bytes parsed per
    parallel step (BL_TABLE_CHUNK, 8 MiB). */
 #define BL_TABLE_THREADS 2
@@ -42,6 +47,9 @@ typedef struct bl_table_opts {
      checked as usual.  Names not in the header are ignored here (the caller reports them). */
   const char *const *keep;
   size_t n_keep;
+  /* A record (a line, or several when quoted cells hold line breaks) longer than this many
+     bytes is BL_EDATA, refused before the buffer grows past it (BL_TABLE_MAX_RECORD). */
+  size_t max_record;
 } bl_table_opts;
 
 /* Fill OPT with the defaults (delimiter 0, decimal_comma 0, no categorical, max_levels

@@ -708,4 +708,35 @@ expect_rc "offset 1e300 under the log link: exit 1" 1
 expect_err "offset 1e300 under the log link: reason" "beyond the log link's range"
 expect_err "offset 1e300: names the line" "offset-huge.csv:7:"
 
+# Limits with a refusal (doc/limits.md).  A spec file over BL_SPEC_MAX_BYTES (16 MiB) is
+# refused before it is parsed: exit 2, nothing written.
+python3 -c 'open("big.spec", "w").write("# padding\n" * (17 * 1024 * 1024 // 10))'
+blt run big.spec -o big-out
+expect_rc "spec over 16 MiB: exit 2" 2
+expect_err "spec over 16 MiB: reason" "the spec file is larger than 16 MiB"
+if [ -e big-out ]; then fail "spec over 16 MiB: no output folder" "big-out exists"; else
+  pass "spec over 16 MiB: no output folder"; fi
+rm -f big.spec
+# A model file over BL_MODEL_MAX_BYTES (256 MiB; a sparse file costs no disk) is refused
+# before it is parsed, and one of more than BL_MODEL_MAX_COLUMNS (20000) columns before its
+# p x p covariance is allocated: exit 1 with the reason.
+printf 'y,x\n1,1\n2,2\n4,3\n3,4\n' >lim.csv
+blt fit lim.csv --response y --terms x --save lim.json -o lim.out
+expect_rc "limits: model saved" 0
+truncate -s 300M huge-model.json
+blt predict huge-model.json lim.csv
+expect_rc "model over 256 MiB: exit 1" 1
+expect_err "model over 256 MiB: reason" "the model file is larger than 256 MiB"
+rm -f huge-model.json
+python3 -c '
+import json
+m = json.load(open("lim.json"))
+m["columns"] = ["c%d" % i for i in range(20001)]
+json.dump(m, open("wide-model.json", "w"))
+'
+blt predict wide-model.json lim.csv
+expect_rc "model of 20001 columns: exit 1" 1
+expect_err "model of 20001 columns: reason" "20001 columns, more than the limit of 20000"
+rm -f wide-model.json lim.json lim.out lim.csv
+
 finish
