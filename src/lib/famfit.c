@@ -262,11 +262,18 @@ tw_phi_ml (tw_ctx *c, double phi0, double *ll)
   if (fx < flo && fx < fhi
       && gsl_min_fminimizer_set_with_values (s, &F, x, fx, lo, flo, hi, fhi) == GSL_SUCCESS) {
     for (int it = 0; it < 200; it++) {
+      const double lo0 = gsl_min_fminimizer_x_lower (s), hi0 = gsl_min_fminimizer_x_upper (s);
       if (gsl_min_fminimizer_iterate (s) != GSL_SUCCESS)
         break;
       x = gsl_min_fminimizer_x_minimum (s);
+      /* GSL's Brent steps are at least sqrt(DBL_EPSILON) |x| long, so an absolute 1e-9 alone
+         is out of reach once |log phi| passes about 0.07: the relative part (1e-7) ends the
+         search there, and so does an iteration that leaves the bracket as it was (each
+         evaluation is a pass of series densities over every row: measured, 200 of them
+         made a Tweedie fit of 2e5 rows take minutes) */
       if (gsl_min_test_interval (gsl_min_fminimizer_x_lower (s), gsl_min_fminimizer_x_upper (s),
-                                 1e-9, 0.0) == GSL_SUCCESS)
+                                 1e-9, 1e-7) == GSL_SUCCESS
+          || (gsl_min_fminimizer_x_lower (s) == lo0 && gsl_min_fminimizer_x_upper (s) == hi0))
         break;
     }
     fx = tw_negll_logphi (x, c);
