@@ -289,98 +289,6 @@ static const double pow10_exact[23] = {
   1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22
 };
 
-/* Parse the decimal number S (N bytes, no surrounding blanks; S[N] is writable) with decimal
-   mark MARK.  Grammar: [+-]? (D+ (MARK D*)? | MARK D+) ([eE] [+-]? D+)?.
-
-   Clinger's fast path (Clinger 1990, "How to read floating point numbers accurately", Proc.
-   ACM PLDI, 92-101): when the significant digits form an integer w < 10^15 (exact in a
-   double) and the decimal exponent e satisfies |e| <= 22 (10^|e| exact), w * 10^e or
-   w / 10^-e is one correctly rounded IEEE operation on exact operands, hence equal to the
-   correctly rounded value that strtod returns.  Everything else goes to strtod (glibc's is
-   correctly rounded in the C locale).  The fast path needs double arithmetic without excess
-   precision (FLT_EVAL_METHOD 0, as on x86-64 SSE and aarch64).
-
-   With TMP non-NULL, S is left untouched: the strtod path works on a copy in TMP (TMP_CAP
-   bytes), and a cell too long for it is NUM_NOT (the parallel parser then falls back). */
-static int
-parse_number (char *s, size_t n, char mark, double *out, char *tmp, size_t tmp_cap)
-{
-  const char *p = s, *q;
-  const char *const end = s + n;
-  uint64_t w = 0;               /* wraps for more than 19 digits: then unused */
-  size_t nint, nfrac = 0, nzero = 0;
-  int neg = 0, eneg = 0;
-  long e10 = 0, ex = 0;
-  if (p < end && (*p == '+' || *p == '-'))
-    neg = *p++ == '-';
-  for (; p < end && *p == '0'; p++)
-    nzero++;                    /* leading zeros carry no significance */
-  for (q = p; p < end && (unsigned) (*p - '0') < 10; p++)
-    w = 10 * w + (uint64_t) (*p - '0');
-  nint = (size_t) (p - q);
-  if (p < end && *p == mark) {
-    p++;
-    if (nint == 0)
-      for (; p < end && *p == '0'; p++, e10--)
-        nzero++;
-    for (q = p; p < end && (unsigned) (*p - '0') < 10; p++)
-      w = 10 * w + (uint64_t) (*p - '0');
-    nfrac = (size_t) (p - q);
-    e10 -= (long) nfrac;
-  }
-  if (nzero + nint + nfrac == 0)
-    return NUM_NOT;
-  if (p < end && (*p == 'e' || *p == 'E')) {
-    p++;
-    if (p < end && (*p == '+' || *p == '-'))
-      eneg = *p++ == '-';
-    if (p == end || (unsigned) (*p - '0') >= 10)
-      return NUM_NOT;
-    for (; p < end && (unsigned) (*p - '0') < 10; p++)
-      if (ex < 100000)          /* beyond this strtod decides (overflow or zero) */
-        ex = 10 * ex + (*p - '0');
-    e10 += eneg ? -ex : ex;
-  }
-  if (p != end)
-    return NUM_NOT;
-#if defined(FLT_EVAL_METHOD) && FLT_EVAL_METHOD == 0
-  if (nint + nfrac == 0) {      /* every digit is a zero */
-    *out = neg ? -0.0 : 0.0;
-    return NUM_OK;
-  }
-  if (nint + nfrac <= 15 && e10 >= -22 && e10 <= 22) {
-    double v = (double) w;
-    v = e10 < 0 ? v / pow10_exact[-e10] : v * pow10_exact[e10];
-    *out = neg ? -v : v;
-    return NUM_OK;
-  }
-#endif
-  if (tmp) {
-    if (n >= tmp_cap)
-      return NUM_NOT;
-    memcpy (tmp, s, n);
-    s = tmp;
-  }
-  {
-    char *const end2 = s + n;
-    char *stop;
-    double v;
-    if (mark != '.')
-      for (char *r = s; r < end2; r++)
-        if (*r == mark)
-          *r = '.';
-    s[n] = '\0';
-    errno = 0;
-    v = strtod (s, &stop);
-    if (stop != end2)           /* the grammar is a subset of strtod's in the C locale */
-      return NUM_LOCALE;
-    if (errno == ERANGE && fabs (v) == HUGE_VAL)
-      return NUM_OVERFLOW;
-    *out = v;
-    return NUM_OK;
-  }
-}
-
 /* Nonzero when S (N bytes, S[N] writable) is one of the forms that strtod reads as a number
    but the grammar refuses: hex ("0x1A", "0x1p3"), "inf", "infinity", "nan", "nan(...)", with
    an optional sign.  Such a cell is refused outright rather than taken for a label. */
@@ -475,20 +383,28 @@ digit_run (const char **pp, const char *end, uint64_t *w, size_t *n)
   *w = v;
 }
 
-/* The fast path of parse_number fused with finding the cell's end: reads a plain decimal
-   number at *PP (the same grammar, no blanks) up to the first byte that is not part of it,
-   and returns 1 with the value in *OUT and *PP at that byte when the number has at most 15
-   digits (leading zeros included) and a decimal exponent within 10^+-22: parse_number takes
-   such a number by Clinger's fast path, so the value is the same.  Else 0 (the general path
-   decides).  The caller checks that the byte at *PP ends the cell. */
+enum { SCAN_FAST, SCAN_SLOW, SCAN_NOT };
+
+/* Read the decimal number at *PP with decimal mark MARK, up to the first byte that is not
+   part of it (no blanks; END bounds the reading).  Grammar:
+   [+-]? (D+ (MARK D*)? | MARK D+) ([eE] [+-]? D+)?.  Returns SCAN_NOT when no number starts
+   here; else *PP moves past it and the result is SCAN_FAST, with the value in *OUT, or
+   SCAN_SLOW when the value needs strtod.
+
+   Clinger's fast path (Clinger 1990, "How to read floating point numbers accurately", Proc.
+   ACM PLDI, 92-101): when the digits form an integer w < 10^15 (exact in a double; here
+   counted with leading zeros, which only sends a few more numbers to strtod) and the decimal
+   exponent e satisfies |e| <= 22 (10^|e| exact), w * 10^e or w / 10^-e is one correctly
+   rounded IEEE operation on exact operands, hence equal to the correctly rounded value that
+   strtod returns.  It needs double arithmetic without excess precision (FLT_EVAL_METHOD 0,
+   as on x86-64 SSE and aarch64); elsewhere every number is SCAN_SLOW. */
 static inline int
-fast_num (const char **pp, const char *end, char mark, double *out)
+scan_number (const char **pp, const char *end, char mark, double *out)
 {
-#if defined(FLT_EVAL_METHOD) && FLT_EVAL_METHOD == 0
   const char *p = *pp;
   uint64_t w = 0;
   size_t nint = 0, nfrac = 0;
-  int neg = 0;
+  int neg = 0, fast = 1;
   long e10;
   if (p < end) {                /* without a branch: signs come in no predictable order */
     neg = *p == '-';
@@ -499,8 +415,8 @@ fast_num (const char **pp, const char *end, char mark, double *out)
     p++;
     digit_run (&p, end, &w, &nfrac);
   }
-  if (nint + nfrac == 0 || nint + nfrac > 15)
-    return 0;
+  if (nint + nfrac == 0)
+    return SCAN_NOT;
   e10 = -(long) nfrac;
   if (p < end && (*p == 'e' || *p == 'E')) {
     int eneg = 0;
@@ -509,25 +425,69 @@ fast_num (const char **pp, const char *end, char mark, double *out)
     if (p < end && (*p == '+' || *p == '-'))
       eneg = *p++ == '-';
     if (p == end || (unsigned) (*p - '0') >= 10)
-      return 0;
+      return SCAN_NOT;
     for (; p < end && (unsigned) (*p - '0') < 10; p++)
-      if (ex < 100000)
+      if (ex < 100000)          /* beyond this strtod decides (overflow or zero) */
         ex = 10 * ex + (*p - '0');
     e10 += eneg ? -ex : ex;
   }
-  if (w == 0)
+  *pp = p;
+#if defined(FLT_EVAL_METHOD) && FLT_EVAL_METHOD == 0
+  if (nint + nfrac > 15)
+    fast = 0;                   /* w may have wrapped: unused */
+  else if (w == 0)
     *out = neg ? -0.0 : 0.0;
   else if (e10 >= -22 && e10 <= 22) {
     const double v = e10 < 0 ? (double) w / pow10_exact[-e10] : (double) w * pow10_exact[e10];
     *out = copysign (v, neg ? -1.0 : 1.0);
   } else
-    return 0;
-  *pp = p;
-  return 1;
+    fast = 0;
 #else
-  (void) pp, (void) end, (void) mark, (void) out;
-  return 0;
+  fast = 0;
+  (void) neg, (void) out;
 #endif
+  return fast ? SCAN_FAST : SCAN_SLOW;
+}
+
+/* Parse the decimal number S (N bytes, no surrounding blanks; S[N] is writable) with decimal
+   mark MARK: scan_number, then strtod for what its fast path does not take (glibc's strtod
+   is correctly rounded in the C locale).
+
+   With TMP non-NULL, S is left untouched: the strtod path works on a copy in TMP (TMP_CAP
+   bytes), and a cell too long for it is NUM_NOT (the parallel parser then falls back). */
+static int
+parse_number (char *s, size_t n, char mark, double *out, char *tmp, size_t tmp_cap)
+{
+  const char *p = s;
+  const int k = scan_number (&p, s + n, mark, out);
+  if (k == SCAN_NOT || p != s + n)
+    return NUM_NOT;
+  if (k == SCAN_FAST)
+    return NUM_OK;
+  if (tmp) {
+    if (n >= tmp_cap)
+      return NUM_NOT;
+    memcpy (tmp, s, n);
+    s = tmp;
+  }
+  {
+    char *const end2 = s + n;
+    char *stop;
+    double v;
+    if (mark != '.')
+      for (char *r = s; r < end2; r++)
+        if (*r == mark)
+          *r = '.';
+    s[n] = '\0';
+    errno = 0;
+    v = strtod (s, &stop);
+    if (stop != end2)           /* the grammar is a subset of strtod's in the C locale */
+      return NUM_LOCALE;
+    if (errno == ERANGE && fabs (v) == HUGE_VAL)
+      return NUM_OVERFLOW;
+    *out = v;
+    return NUM_OK;
+  }
 }
 
 /* ------------------------------------------------------------------ record parser */
@@ -911,7 +871,7 @@ cell_end (const char **pp, const char *end, char delim, size_t j, size_t nc)
   return 0;
 }
 
-/* The numeric cell at *P in one pass: NaN for an empty cell, else what fast_num takes.  0
+/* The numeric cell at *P in one pass: NaN for an empty cell, else what scan_number converts by its fast path.  0
    when the cell needs the general path. */
 static inline int
 fast_cell (const char **pp, const char *end, const reader *rd, double *x)
@@ -921,7 +881,7 @@ fast_cell (const char **pp, const char *end, const reader *rd, double *x)
     *x = NAN;                   /* empty: missing (is_missing) */
     return 1;
   }
-  return fast_num (pp, end, rd->mark, x);
+  return scan_number (pp, end, rd->mark, x) == SCAN_FAST;
 }
 
 /* The common record in one pass (the general path reads every byte twice: once to find the
