@@ -562,23 +562,14 @@ names_add (names *l, const char *name)
 static void
 names_of_reference (names *l, const char *ent)
 {
-  char *copy;
-  if (l->nomem || l->nown == BL_JOB_MAX_LIST || !strchr (ent, '='))
-    return;
-  if (!(copy = bl_strdup (ent))) {
-    l->nomem = 1;
-    return;
-  }
-  l->own[l->nown++] = copy;
-  for (char *p = strchr (copy, '='); p; p = strchr (p + 1, '=')) {
-    /* the prefix before this '=' as a string of its own: a copy per '=' beyond the first */
-    const size_t len = (size_t) (p - copy);
+  for (const char *p = strchr (ent, '='); p && !l->nomem; p = strchr (p + 1, '=')) {
+    const size_t len = (size_t) (p - ent);   /* the prefix before this '=' */
     char *name = l->nown < BL_JOB_MAX_LIST ? bl_malloc (len + 1) : NULL;
     if (!name) {
-      l->nomem = 1;
+      l->nomem = 1;           /* too many, or no memory: every column is kept */
       return;
     }
-    memcpy (name, copy, len);
+    memcpy (name, ent, len);
     name[len] = '\0';
     l->own[l->nown++] = name;
     names_add (l, name);
