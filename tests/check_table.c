@@ -253,6 +253,17 @@ END_TEST
 /* Hard cases for decimal-to-double conversion, with their IEEE 754 binary64 encodings
    (from memory; each also checked against Python float() and against strtod below). */
 static const struct { const char *s; uint64_t bits; } hard[] = {
+  /* 16 digits whose integer exceeds 2^53: (double) w / 10^k would round twice and differ
+     (found with Python's correctly rounded float(); the bits are its results).  They come
+     first, far from the input's end, so the one-load path (scan16) sees them. */
+  { "93604450.34285249", 0x41965129895f14b9ULL },
+  { "97514212.71140745", 0x41973fcb92d87b32ULL },
+  { "93984085.27485041", 0x4196685555197263ULL },
+  { "90617772.71609283", 0x41959adeb2dd4770ULL },
+  { "9.666131954618309", 0x4023550f3f5fcff9ULL },
+  { "9.440773102487241", 0x4022e1ad03184740ULL },
+  { "-90617772.71609283", 0xc1959adeb2dd4770ULL },
+  { "00000000.00000001", 0x3e45798ee2308c3aULL },
   { "0.1", 0x3fb999999999999aULL },
   { "1e23", 0x44b52d02c7e14af6ULL },                 /* not w * 10^e on the fast path */
   { "9007199254740993", 0x4340000000000000ULL },     /* 2^53 + 1: tie, to even */
@@ -395,6 +406,82 @@ START_TEST (table_rounding_random_comma)
   bl_table_free (t);
   free (want);
   free (text);
+}
+END_TEST
+
+/* A short decimal, the form the one-load path (table.c: scan16) reads: an optional sign,
+   0 to 10 digits, an optional mark with 0 to 10 digits after it (so the limits of 8 digits
+   a side and 15 in all are met and passed), at least one digit in all. */
+static size_t
+short_decimal (uint64_t *s, char *out, char mark)
+{
+  size_t k = 0;
+  const uint64_t r = next_rand (s);
+  const int n1 = (int) (r % 11), n2 = (int) ((r >> 8) % 11), has_mark = (r >> 16) % 4 != 0;
+  if ((r >> 20) % 3 == 0)
+    out[k++] = (r >> 22) & 1 ? '-' : '+';
+  for (int i = 0; i < n1; i++)
+    out[k++] = (char) ('0' + ((r >> 24) % 5 == 0 ? 0 : next_rand (s) % 10));
+  if (has_mark) {
+    out[k++] = mark;
+    for (int i = 0; i < n2; i++)
+      out[k++] = (char) ('0' + next_rand (s) % 10);
+  }
+  if (n1 == 0 && (!has_mark || n2 == 0))
+    out[k++] = (char) ('0' + (r >> 28) % 10);
+  out[k] = '\0';
+  return k;
+}
+
+START_TEST (table_rounding_short_forms)
+{
+  /* Bit-equal to glibc strtod for 299999 short decimals in rows of seven cells, with '.'
+     and ',' delimiters and with ';' and a decimal comma: the 16-byte path and the byte
+     path around its limits (8 digits a side, 15 in all, the last 24 bytes of the input),
+     zeros of either sign, "5." and ".5" (Clinger 1990 for the fast path; strtod as the
+     reference). */
+  const size_t n = 299999, nc = 7;      /* 42857 rows */
+  for (int comma = 0; comma <= 1; comma++) {
+    uint64_t seed = 0x853c49e6748fea9bULL + (uint64_t) comma;
+    char *text = malloc (n * 32 + 64), *p, buf[48];
+    double *want = malloc (n * sizeof *want);
+    bl_err err = { 0 };
+    bl_table_opts opt;
+    bl_table *t;
+    bl_table_opts_init (&opt);
+    if (comma) {
+      opt.delimiter = ';';
+      opt.decimal_comma = 1;
+    }
+    p = text + sprintf (text, comma ? "a;b;c;d;e;f;g\n" : "a,b,c,d,e,f,g\n");
+    for (size_t i = 0; i < n; i++) {
+      const size_t k = short_decimal (&seed, buf, comma ? ',' : '.');
+      char dot[48];
+      memcpy (dot, buf, k + 1);
+      for (size_t c = 0; c < k; c++)
+        if (dot[c] == ',')
+          dot[c] = '.';
+      want[i] = strtod (dot, NULL);
+      memcpy (p, buf, k);
+      p += k;
+      *p++ = (i + 1) % nc == 0 ? '\n' : comma ? ';' : ',';
+    }
+    *p = '\0';
+    for (unsigned th = 1; th <= 2; th++) {
+      opt.threads = th;
+      opt.chunk = 65536;
+      t = read_str (text, &opt, &err);
+      ck_assert_msg (t != NULL, "table_rounding_short_forms: %s: %s", err.where, err.msg);
+      ck_assert_uint_eq (bl_table_nrows (t), n / nc);
+      for (size_t i = 0; i < n; i++)
+        ck_assert_msg (bits (bl_table_num (t, i % nc)[i / nc]) == bits (want[i]),
+                       "table_rounding_short_forms (comma %d, threads %u) value %zu: %a vs "
+                       "strtod %a", comma, th, i, bl_table_num (t, i % nc)[i / nc], want[i]);
+      bl_table_free (t);
+    }
+    free (want);
+    free (text);
+  }
 }
 END_TEST
 
@@ -1109,6 +1196,29 @@ START_TEST (table_threads_identical)
 }
 END_TEST
 
+START_TEST (table_threads_uneven_rows)
+{
+  /* The worker's rows are reserved from the first part's density of line feeds: here long
+     records come first and short ones after them, so a second part holds far more records
+     than that guess and the worker stops at its limit (the rest is then parsed
+     sequentially); the first rows also leave a column missing, so the types are still open
+     when the first steps start.  Either way the table is that of one thread, bit for bit
+     (common practice, no source). */
+  static const size_t chunk[] = { 4096, 20000, 65536, 300000 };
+  const size_t nlong = 2000, nshort = 60000;
+  char *text = malloc ((nlong + nshort) * 120 + 64), *p = text;
+  ck_assert_ptr_nonnull (text);
+  p += sprintf (p, "a,b,c\n");
+  for (size_t i = 0; i < nlong; i++)
+    p += sprintf (p, "%zu.%080zu,%s,%zu\n", i, i, i < 700 ? "" : "2.5", i % 7);
+  for (size_t i = 0; i < nshort; i++)
+    p += sprintf (p, "%zu,%zu,%zu\n", i % 10, i % 3, i % 9);
+  for (size_t k = 0; k < sizeof chunk / sizeof chunk[0]; k++)
+    same_both_ways ("threads uneven rows", text, (size_t) (p - text), chunk[k], NULL);
+  free (text);
+}
+END_TEST
+
 START_TEST (table_threads_errors_identical)
 {
   /* A bad cell, a short record, a lone CR, a categorical limit and an unclosed quote, put at
@@ -1426,6 +1536,8 @@ table_suite (void)
   tcase_add_test (errors, table_limits);
   tcase_add_test (basics, table_threads_identical);
   tcase_add_test (basics, table_threads_options);
+  tcase_add_test (basics, table_threads_uneven_rows);
+  tcase_add_test (basics, table_rounding_short_forms);
   tcase_add_test (basics, table_threads_gzip);
   tcase_add_test (errors, table_not_a_number);
   tcase_add_test (errors, table_refused_numbers);

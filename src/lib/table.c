@@ -20,6 +20,9 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#ifdef __SSE2__
+#include <emmintrin.h>
+#endif
 #include "alloc.h"
 #include "source.h"
 #include "table.h"
@@ -284,6 +287,10 @@ is_missing (const char *s, size_t n)
 enum { NUM_OK, NUM_NOT, NUM_OVERFLOW, NUM_LOCALE };
 
 /* Exact powers of ten 1e0..1e22: every one is a double exactly (5^22 < 2^53). */
+/* 10^k for k = 0..8, as integers. */
+static const uint64_t pow10_u8[9] = { 1, 10, 100, 1000, 10000, 100000, 1000000, 10000000,
+                                      100000000 };
+
 static const double pow10_exact[23] = {
   1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11,
   1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22
@@ -347,8 +354,6 @@ fail_nomem (const reader *rd, bl_err *err)
 static inline void
 digit_run (const char **pp, const char *end, uint64_t *w, size_t *n)
 {
-  static const uint64_t pow10_u[9] = { 1, 10, 100, 1000, 10000, 100000, 1000000, 10000000,
-                                       100000000 };
   const char *p = *pp;
   uint64_t v = *w;
 #if defined(__BYTE_ORDER__) && __BYTE_ORDER__ == __ORDER_LITTLE_ENDIAN__
@@ -366,7 +371,7 @@ digit_run (const char **pp, const char *end, uint64_t *w, size_t *n)
       d = (d * 10) + (d >> 8);
       d = (((d & 0x000000FF000000FFu) * (100 + (1000000ULL << 32)))
            + (((d >> 16) & 0x000000FF000000FFu) * (1 + (10000ULL << 32)))) >> 32;
-      v = v * pow10_u[k] + d;
+      v = v * pow10_u8[k] + d;
       *n += k;
       p += k;
     }
@@ -695,19 +700,29 @@ grow_to (bl_table *t, size_t cap)
   return BL_OK;
 }
 
-/* Room for more rows: to the estimate of the whole input's rows when there is one (and
-   memory allows), else twice as many. */
+/* Room for at least NEED rows (NEED > t->cap): to the estimate of the whole input's rows
+   when it covers NEED and an eighth more than now (and memory allows), else twice as many
+   (or NEED, when larger).  The estimate is used once; the next refill makes a new one. */
 static int
-grow_rows (bl_table *t)
+grow_rows_to (bl_table *t, size_t need)
 {
-  const size_t cap = t->cap ? 2 * t->cap : ROWS_INIT;
-  if (t->est_rows > cap) {
+  size_t cap = t->cap ? 2 * t->cap : ROWS_INIT;
+  if (t->est_rows >= need && t->est_rows - t->cap >= t->cap / 8) {
     const size_t est = t->est_rows;
-    t->est_rows = 0;            /* used once: later growths double */
+    t->est_rows = 0;
     if (grow_to (t, est) == BL_OK)
       return BL_OK;
   }
+  if (cap < need)
+    cap = need;
   return grow_to (t, cap);
+}
+
+/* Room for one more row. */
+static int
+grow_rows (bl_table *t)
+{
+  return grow_rows_to (t, t->cap + 1);
 }
 
 /* Give column C its type, with the first NROWS cells missing. */
@@ -871,8 +886,82 @@ cell_end (const char **pp, const char *end, char delim, size_t j, size_t nc)
   return 0;
 }
 
-/* The numeric cell at *P in one pass: NaN for an empty cell, else what scan_number converts by its fast path.  0
-   when the cell needs the general path. */
+#if defined(__SSE2__) && defined(FLT_EVAL_METHOD) && FLT_EVAL_METHOD == 0
+/* The value of the K digits (1 <= K <= 8) at Q, read as one little-endian word: the
+   multiply form of digit_run. */
+static inline uint64_t
+digits8 (const char *q, unsigned k)
+{
+  uint64_t x;
+  memcpy (&x, q, 8);
+  x = (x ^ 0x3030303030303030u) << (8 * (8 - k));
+  x = (x * 10) + (x >> 8);
+  return (((x & 0x000000FF000000FFu) * (100 + (1000000ULL << 32)))
+          + (((x >> 16) & 0x000000FF000000FFu) * (1 + (10000ULL << 32)))) >> 32;
+}
+
+/* The common number cell, [+-]? D{0,8} (MARK D{0,8})? with at least one digit, ended by
+   the delimiter or a line end within its first 16 bytes (so at most 14 digits in all:
+   w < 10^15, as Clinger's fast path needs), read from one 16-byte load: the digits, the mark
+   and the cell end are found by SSE2 compares at once instead of a byte chain (the position
+   of each cell then no longer waits on the digits before it).  Needs 24 bytes before END
+   (the digit words read up to byte 18).  Returns 0, with nothing read, for anything else; otherwise moves
+   *PP to the cell end and sets *X to what scan_number gives (the same digits, the same one
+   division by the same exact power of ten: Clinger's fast path), so it is only faster. */
+static inline int
+scan16 (const char **pp, const char *end, const reader *rd, double *x)
+{
+  const char *const p = *pp;
+  __m128i v, d;
+  unsigned digit, mark, stop, nd, s, i1, i2, n1, n2;
+  uint64_t w;
+  if (end - p < 24)
+    return 0;
+  v = _mm_loadu_si128 ((const __m128i *) p);
+  d = _mm_sub_epi8 (v, _mm_set1_epi8 ('0'));
+  /* a digit byte d = c - '0' is 0..9, so min (d, 9) == d (unsigned) */
+  digit = (unsigned) _mm_movemask_epi8 (_mm_cmpeq_epi8 (_mm_min_epu8 (d, _mm_set1_epi8 (9)), d));
+  mark = (unsigned) _mm_movemask_epi8 (_mm_cmpeq_epi8 (v, _mm_set1_epi8 (rd->mark)));
+  stop = (unsigned) _mm_movemask_epi8 (
+    _mm_or_si128 (_mm_or_si128 (_mm_cmpeq_epi8 (v, _mm_set1_epi8 (rd->delim)),
+                                _mm_cmpeq_epi8 (v, _mm_set1_epi8 ('\n'))),
+                  _mm_cmpeq_epi8 (v, _mm_set1_epi8 ('\r'))));
+  s = (unsigned) (p[0] == '-') | (unsigned) (p[0] == '+');
+  nd = ~digit & 0xFFFFu & ~((1u << s) - 1);     /* non-digits from the first digit on */
+  i1 = (unsigned) __builtin_ctz (nd | 0x10000u);
+  i2 = i1;
+  n1 = i1 - s;
+  n2 = 0;
+  if (i1 < 16 && ((mark >> i1) & 1)) {
+    i2 = (unsigned) __builtin_ctz ((nd & (nd - 1)) | 0x10000u);
+    n2 = i2 - i1 - 1;
+  }
+  if (i2 >= 16 || !((stop >> i2) & 1) || n1 + n2 == 0 || n1 > 8 || n2 > 8 || n1 + n2 > 15)
+    return 0;
+  w = n1 ? digits8 (p + s, n1) : 0;
+  if (n2)
+    w = w * pow10_u8[n2] + digits8 (p + i1 + 1, n2);
+  if (w == 0)
+    *x = p[0] == '-' ? -0.0 : 0.0;
+  else {
+    const double y = n2 ? (double) w / pow10_exact[n2] : (double) w;
+    *x = copysign (y, p[0] == '-' ? -1.0 : 1.0);
+  }
+  *pp = p + i2;
+  return 1;
+}
+#else
+static inline int
+scan16 (const char **pp, const char *end, const reader *rd, double *x)
+{
+  (void) pp, (void) end, (void) rd, (void) x;
+  return 0;
+}
+#endif
+
+/* The numeric cell at *P in one pass: NaN for an empty cell, else what scan_number converts
+   by its fast path (scan16 first, for the common form).  0 when the cell needs the general
+   path. */
 static inline int
 fast_cell (const char **pp, const char *end, const reader *rd, double *x)
 {
@@ -881,6 +970,8 @@ fast_cell (const char **pp, const char *end, const reader *rd, double *x)
     *x = NAN;                   /* empty: missing (is_missing) */
     return 1;
   }
+  if (scan16 (pp, end, rd, x))
+    return 1;
   return scan_number (pp, end, rd->mark, x) == SCAN_FAST;
 }
 
@@ -1283,8 +1374,38 @@ parse_avail (reader *rd, bl_table *t, const bl_table_opts *opt, pstate *ps, int 
    never writes the shared buffer: the strtod path works on a copy, and "" pairs are left
    for the merge. */
 
+/* The line feeds in [P, P + N).  SSE2 where the compiler offers it (every x86-64): 16
+   bytes compared at once, the matches subtracted from byte counters (a match is -1) for at
+   most 255 blocks, then summed by _mm_sad_epu8; a byte loop elsewhere and for the tail.
+   (memchr called once per line costs a call per line: 4 GB/s on 80-byte lines.) */
+static size_t
+count_lf (const char *p, size_t n)
+{
+  size_t c = 0;
+#ifdef __SSE2__
+  const __m128i lf = _mm_set1_epi8 ('\n'), zero = _mm_setzero_si128 ();
+  while (n >= 16) {
+    size_t blocks = n / 16;
+    __m128i acc = zero, sum;
+    if (blocks > 255)
+      blocks = 255;
+    for (size_t b = 0; b < blocks; b++, p += 16)
+      acc = _mm_sub_epi8 (acc, _mm_cmpeq_epi8 (_mm_loadu_si128 ((const __m128i *) p), lf));
+    sum = _mm_sad_epu8 (acc, zero);
+    c += (size_t) _mm_cvtsi128_si32 (sum) + (size_t) _mm_extract_epi16 (sum, 4);
+    n -= blocks * 16;
+  }
+#endif
+  for (; n; n--)
+    c += *p++ == '\n';
+  return c;
+}
+
 /* Longest numeric cell the worker converts through strtod (longer: sequential). */
 #define SPEC_NUM_MAX 128
+/* While fewer rows than this are read, a step whose columns are not all typed first parses a
+   slice sequentially (par_step). */
+#define SPEC_DECIDE_ROWS 4096
 /* Parts shorter than this are parsed sequentially: a thread costs more than it saves. */
 #define SPEC_MIN ((size_t) 64 << 10)
 
@@ -1300,7 +1421,10 @@ typedef struct spec {
   size_t base, cap;           /* table rows before the step; rows reserved */
   field **raw;                /* per column: located cells (line relative to the split) */
   size_t rows_cap;            /* rows every raw array holds */
+  size_t rows;                /* rows the worker may fill in this step (<= rows_cap) */
   size_t off;                 /* the worker's first row: base + line feeds of the first part */
+  size_t line0;               /* the split's line, as the first part's line feeds predict
+                                 (the worker's lines are absolute from it) */
   size_t nrows, lines;        /* records parsed, lines consumed */
   int ok;                     /* the whole part was taken */
   int all_decided;            /* every type known: the one-pass record form applies */
@@ -1319,14 +1443,14 @@ spec_free (spec *w)
   memset (w, 0, sizeof *w);
 }
 
-/* Make W ready for a first part of LEN1 bytes and a second of LEN2 bytes of table T, and
-   reserve table rows for both: a record has at least ncols bytes (its delimiters and its
-   line end; the first part's last record ends at the split), so LEN / ncols + 2 rows are
-   enough for each part.  Returns BL_OK or BL_ENOMEM. */
+/* Make W ready for a step of table T whose first part holds at most ROWS1 records (its line
+   feeds: every record of it ends at one, as a carriage return must be followed by one) and
+   whose worker may take ROWS2 records, and reserve table rows for both.  Returns BL_OK or
+   BL_ENOMEM. */
 static int
-spec_prepare (spec *w, const reader *rd, bl_table *t, size_t len1, size_t len2)
+spec_prepare (spec *w, const reader *rd, bl_table *t, size_t rows1, size_t rows2)
 {
-  const size_t nc = t->ncols, rows = len2 / nc + 2, rows1 = len1 / nc + 2;
+  const size_t nc = t->ncols, rows = rows2;
   if (!w->type) {
     w->ncols = nc;
     w->type = bl_calloc (nc, sizeof *w->type);
@@ -1350,12 +1474,9 @@ spec_prepare (spec *w, const reader *rd, bl_table *t, size_t len1, size_t len2)
       }
     w->rows_cap = rows;
   }
-  /* the worker may fill rows_cap rows (its arrays' size, from the largest step so far) */
-  if (w->rows_cap > SIZE_MAX / 4 - rows1 - t->nrows)
+  w->rows = rows;
+  if (t->cap < t->nrows + rows1 + rows && grow_rows_to (t, t->nrows + rows1 + rows) != BL_OK)
     return BL_ENOMEM;
-  while (t->cap < t->nrows + rows1 + w->rows_cap)
-    if (grow_rows (t) != BL_OK)
-      return BL_ENOMEM;
   for (size_t j = 0; j < nc; j++) {
     w->type[j] = t->cols[j].type;
     w->num[j] = w->type[j] == COL_NUM ? t->cols[j].num : NULL;
@@ -1395,9 +1516,9 @@ spec_run (void *arg)
   w->ok = 0;
   nl = w->first_nl;
   w->off = r = w->base + nl;
-  if (r > w->cap || w->cap - r < w->rows_cap)
+  if (r > w->cap || w->cap - r < w->rows)
     return NULL;
-  lim = r + w->rows_cap;
+  lim = r + w->rows;
   while (p < end) {
     size_t nf, next = line;
     if (*p == '\n' || *p == '\r' || r == lim)
@@ -1421,7 +1542,7 @@ spec_run (void *arg)
             field *const f = &w->raw[j][r - w->off];
             f->s = (char *) s0;
             f->n = (size_t) (q - s0);
-            f->line = line;
+            f->line = w->line0 + line;
             f->dquote = 0;
           }
           if (!cell_end (&q, end, rd->delim, j, w->ncols))
@@ -1429,7 +1550,7 @@ spec_run (void *arg)
         }
       }
       if (j == w->ncols && (size_t) (q - p) <= rd->max_record) {
-        w->line[r++] = line++;
+        w->line[r++] = w->line0 + line++;
         p = (char *) q;
         continue;
       }
@@ -1449,6 +1570,7 @@ spec_run (void *arg)
         continue;
       if (w->type[j] != COL_NUM) {
         w->raw[j][r - w->off] = *f;
+        w->raw[j][r - w->off].line += w->line0;
         continue;
       }
       if (f->dquote)
@@ -1463,7 +1585,7 @@ spec_run (void *arg)
         return NULL;
       w->num[j][r] = x;
     }
-    w->line[r++] = line;
+    w->line[r++] = w->line0 + line;
     line = next;
   }
   w->nrows = r - w->off;
@@ -1472,11 +1594,13 @@ spec_run (void *arg)
   return NULL;
 }
 
-/* Append the worker's rows to T; BASE_LINE is the line of the split. */
+/* Append the worker's rows to T; BASE_LINE is the line of the split.  The worker's lines
+   count from w->line0, which the first part's line feeds predict; should BASE_LINE differ,
+   the difference is added (modulo 2^64, so either sign). */
 static int
 spec_merge (reader *rd, bl_table *t, const spec *w, size_t base_line, bl_err *err)
 {
-  const size_t base = t->nrows, m = w->nrows;
+  const size_t base = t->nrows, m = w->nrows, delta = base_line - w->line0;
   int any_raw = 0;
   if (w->off != base) {         /* quoted line feeds in the first part: move the rows down */
     for (size_t j = 0; j < w->ncols; j++)
@@ -1487,8 +1611,8 @@ spec_merge (reader *rd, bl_table *t, const spec *w, size_t base_line, bl_err *er
   for (size_t j = 0; j < w->ncols; j++)
     if (w->type[j] != COL_NUM && w->type[j] != COL_SKIP)
       any_raw = 1;
-  for (size_t i = 0; i < m; i++) {
-    if (any_raw) {
+  if (any_raw)
+    for (size_t i = 0; i < m; i++) {
       t->nrows = base + i;
       for (size_t j = 0; j < w->ncols; j++) {
         field f;
@@ -1496,13 +1620,14 @@ spec_merge (reader *rd, bl_table *t, const spec *w, size_t base_line, bl_err *er
         if (w->type[j] == COL_NUM || w->type[j] == COL_SKIP)
           continue;
         f = w->raw[j][i];
-        f.line += base_line;
+        f.line += delta;
         if ((st = put_cell (rd, t, j, &f, err)) != BL_OK)
           return st;
       }
     }
-    t->line[base + i] += base_line;
-  }
+  if (delta != 0)
+    for (size_t i = 0; i < m; i++)
+      t->line[base + i] += delta;
   t->nrows = base + m;
   return BL_OK;
 }
@@ -1525,18 +1650,46 @@ par_step (reader *rd, bl_table *t, const bl_table_opts *opt, pstate *ps, spec *w
   }
   if (end - ps->pos < 2 * min_part)
     return BL_OK;
+  /* Columns whose type is still open make the worker only locate their cells, which the
+     merge then converts on this thread: right after the header (the first step of every
+     input) a first slice goes sequentially, so that the first records decide the types. */
+  if (t->ndecided < t->ncols && t->nrows < SPEC_DECIDE_ROWS) {
+    const char *cut = memchr (buf + ps->pos + min_part / 4, '\n', end - ps->pos - min_part / 4);
+    if (cut) {
+      save_len = rd->len;
+      save_eof = rd->eof;
+      rd->len = (size_t) (cut + 1 - buf);
+      rd->eof = 0;
+      st = parse_avail (rd, t, opt, ps, 0, err);
+      rd->len = save_len;
+      rd->eof = save_eof;
+      if (st != BL_CONTINUE)
+        return st;
+      if (end - ps->pos < 2 * min_part)
+        return BL_OK;
+    }
+  }
   nl = memchr (buf + ps->pos + (end - ps->pos) / 2, '\n', (end - ps->pos) / 2);
   if (!nl || (size_t) (nl + 1 - buf) >= end)
     return BL_OK;
   split = (size_t) (nl + 1 - buf);
-  if (spec_prepare (w, rd, t, split - ps->pos, end - split) != BL_OK)
-    return fail_nomem (rd, err);
+  w->first_nl = count_lf (buf + ps->pos, split - ps->pos);
+  /* every line feed of the first part moves the line count by one: the split's line */
+  w->line0 = ps->line + w->first_nl;
+  /* The worker's rows: the first part's density of line feeds applied to the second part,
+     with an eighth to spare, and never more than one row per NCOLS bytes (a record has its
+     delimiters and a line end).  A second part with more rows than this is parsed again
+     sequentially (the worker stops at its limit), so the reservation follows the input's
+     real rows instead of that worst case (which cost a copy of every array near the end). */
+  {
+    const size_t len1 = split - ps->pos, len2 = end - split, most = len2 / t->ncols + 2;
+    const double guess = (double) w->first_nl * ((double) len2 / (double) len1) * 1.125 + 64.0;
+    const size_t rows2 = guess < (double) most ? (size_t) guess : most;
+    if (spec_prepare (w, rd, t, w->first_nl, rows2) != BL_OK)
+      return fail_nomem (rd, err);
+  }
   w->rd.buf = buf + split;
   w->rd.len = end - split;
-  w->first_nl = 0;
-  for (const char *q = buf + ps->pos, *const qe = buf + split;
-       (q = memchr (q, '\n', (size_t) (qe - q))) != NULL; q++)
-    w->first_nl++;
   started = bl_thread_start (&tid, spec_run, w) == 0;
   t->frozen = started;
   /* The first part, stopping at the split as if the input paused there. */

@@ -19,9 +19,9 @@ typedef struct bl_table bl_table;     /* opaque; defined in table.c */
 /* Limit on the columns of a file (fields of the header): 1000000. */
 #define BL_TABLE_MAX_COLS 1000000
 /* Default number of threads that parse (BL_TABLE_THREADS) and default bytes parsed per
-   parallel step (BL_TABLE_CHUNK, 8 MiB). */
+   parallel step (BL_TABLE_CHUNK, 4 MiB). */
 #define BL_TABLE_THREADS 2
-#define BL_TABLE_CHUNK ((size_t) 8 << 20)
+#define BL_TABLE_CHUNK ((size_t) 4 << 20)
 
 typedef struct bl_table_opts {
   char delimiter;             /* 0: ',' or, for a name ending ".tsv" (or ".tsv.gz"), '\t' */
