@@ -1665,7 +1665,9 @@ par_step (reader *rd, bl_table *t, const bl_table_opts *opt, pstate *ps, spec *w
       rd->eof = save_eof;
       if (st != BL_CONTINUE)
         return st;
-      if (end - ps->pos < 2 * min_part)
+      /* empty lines left pending would become records of the first part that its line
+         feeds do not count (the worker's rows start that count on) */
+      if (ps->pending || end - ps->pos < 2 * min_part)
         return BL_OK;
     }
   }
