@@ -1428,11 +1428,42 @@ typedef struct spec {
   size_t nrows, lines;        /* records parsed, lines consumed */
   int ok;                     /* the whole part was taken */
   int all_decided;            /* every type known: the one-pass record form applies */
+  /* The worker thread, started at the first parallel step of a read and kept until its end
+     (one thread per read, not one per step): a step is handed over under LOCK (JOB set,
+     GO signalled) and its end awaited (JOB cleared, DONE signalled).  The mutex orders
+     every write to W before the worker reads it, and the worker's rows before the merge. */
+  pthread_t tid;
+  pthread_mutex_t lock;
+  pthread_cond_t go, done;
+  int have_sync;              /* lock, go and done are initialized */
+  int running;                /* the thread exists */
+  int job, quit;
 } spec;
+
+/* Stop the worker thread, if there is one, and free what its synchronization holds. */
+static void
+spec_stop (spec *w)
+{
+  if (w->running) {
+    pthread_mutex_lock (&w->lock);
+    w->quit = 1;
+    pthread_cond_signal (&w->go);
+    pthread_mutex_unlock (&w->lock);
+    pthread_join (w->tid, NULL);
+    w->running = 0;
+  }
+  if (w->have_sync) {
+    pthread_cond_destroy (&w->done);
+    pthread_cond_destroy (&w->go);
+    pthread_mutex_destroy (&w->lock);
+    w->have_sync = 0;
+  }
+}
 
 static void
 spec_free (spec *w)
 {
+  spec_stop (w);
   for (size_t j = 0; j < w->ncols; j++)
     if (w->raw)
       bl_free (w->raw[j]);
@@ -1594,6 +1625,73 @@ spec_run (void *arg)
   return NULL;
 }
 
+/* The worker thread: one step per JOB, until QUIT. */
+static void *
+spec_loop (void *arg)
+{
+  spec *w = arg;
+  pthread_mutex_lock (&w->lock);
+  for (;;) {
+    while (!w->job && !w->quit)
+      pthread_cond_wait (&w->go, &w->lock);
+    if (w->quit)
+      break;
+    pthread_mutex_unlock (&w->lock);
+    spec_run (w);
+    pthread_mutex_lock (&w->lock);
+    w->job = 0;
+    pthread_cond_signal (&w->done);
+  }
+  pthread_mutex_unlock (&w->lock);
+  return NULL;
+}
+
+/* Hand the prepared step to the worker thread, starting it at the first step.  Returns 1
+   when the worker has the step, 0 when there is no worker (it could not be started: the
+   step then goes sequentially, with the same result). */
+static int
+spec_begin (spec *w)
+{
+  if (!w->have_sync) {
+    if (pthread_mutex_init (&w->lock, NULL) != 0)
+      return 0;
+    if (pthread_cond_init (&w->go, NULL) != 0) {
+      pthread_mutex_destroy (&w->lock);
+      return 0;
+    }
+    if (pthread_cond_init (&w->done, NULL) != 0) {
+      pthread_cond_destroy (&w->go);
+      pthread_mutex_destroy (&w->lock);
+      return 0;
+    }
+    w->have_sync = 1;
+  }
+  pthread_mutex_lock (&w->lock);
+  w->job = 1;
+  w->quit = 0;
+  if (!w->running) {
+    w->running = bl_thread_start (&w->tid, spec_loop, w) == 0;
+    if (!w->running) {
+      w->job = 0;
+      pthread_mutex_unlock (&w->lock);
+      return 0;
+    }
+  }
+  pthread_cond_signal (&w->go);
+  pthread_mutex_unlock (&w->lock);
+  return 1;
+}
+
+/* Wait until the worker has ended its step. */
+static void
+spec_end (spec *w)
+{
+  pthread_mutex_lock (&w->lock);
+  while (w->job)
+    pthread_cond_wait (&w->done, &w->lock);
+  pthread_mutex_unlock (&w->lock);
+}
+
 /* Append the worker's rows to T; BASE_LINE is the line of the split.  The worker's lines
    count from w->line0, which the first part's line feeds predict; should BASE_LINE differ,
    the difference is added (modulo 2^64, so either sign). */
@@ -1642,7 +1740,6 @@ par_step (reader *rd, bl_table *t, const bl_table_opts *opt, pstate *ps, spec *w
   char *const buf = rd->buf;
   size_t end = rd->len, split, save_len;
   const char *nl;
-  pthread_t tid;
   int started, st, save_eof;
   if (!rd->eof) {             /* the chunk ends after its last line feed */
     while (end > ps->pos && buf[end - 1] != '\n')
@@ -1692,7 +1789,7 @@ par_step (reader *rd, bl_table *t, const bl_table_opts *opt, pstate *ps, spec *w
   }
   w->rd.buf = buf + split;
   w->rd.len = end - split;
-  started = bl_thread_start (&tid, spec_run, w) == 0;
+  started = spec_begin (w);
   t->frozen = started;
   /* The first part, stopping at the split as if the input paused there. */
   save_len = rd->len;
@@ -1703,7 +1800,7 @@ par_step (reader *rd, bl_table *t, const bl_table_opts *opt, pstate *ps, spec *w
   rd->len = save_len;
   rd->eof = save_eof;
   if (started)
-    pthread_join (tid, NULL);
+    spec_end (w);
   t->frozen = 0;
   if (st != BL_CONTINUE)
     return st;
