@@ -31,6 +31,7 @@
 #include "design.h"
 #include "diag.h"
 #include "fit.h"
+#include "report.h"
 #include "table.h"
 #include "terms.h"
 #include "testutil.h"
@@ -668,7 +669,7 @@ START_TEST (diag_resid_table_identities)
     else
       job_fit (&j, BL_METHOD_GLM, fam[K], &bl_link_log);
     st = bl_fit_stats_get (j.f);
-    t = bl_resid_table_new (j.f, r, &err);
+    t = bl_resid_table_new (j.f, r, NULL, &err);
     ck_assert_msg (t != NULL, "resid table %s: %s", fam[K]->name, err.msg);
     ck_assert_uint_eq (t->n, N);
     {
@@ -753,6 +754,22 @@ START_TEST (diag_resid_table_identities)
         gsl_multifit_linear_free (mw);
       }
     }
+    {
+      /* a set cancel flag: the table is refused (BL_ECANCEL, nothing returned) and its CSV
+         writer stops at once (the caller discards the temporary it wrote to) */
+      volatile sig_atomic_t stop = 1;
+      bl_err e2 = { 0 };
+      FILE *null = fopen ("/dev/null", "w");
+      ck_assert_ptr_null (bl_resid_table_new (j.f, r, &stop, &e2));
+      ck_assert_int_eq (e2.code, BL_ECANCEL);
+      ck_assert_msg (strstr (e2.msg, "cancelled"), "resid table cancel: '%s'", e2.msg);
+      ck_assert_ptr_nonnull (null);
+      memset (&e2, 0, sizeof e2);
+      ck_assert_int_eq (bl_report_residuals_csv (null, j.f, t, &stop, &e2), BL_ECANCEL);
+      stop = 0;
+      ck_assert_int_eq (bl_report_residuals_csv (null, j.f, t, &stop, &e2), BL_OK);
+      fclose (null);
+    }
     bl_resid_table_free (t);
     bl_resid_table_free (NULL);
     test_job_free (&j);
@@ -816,7 +833,7 @@ START_TEST (diag_error_alloc_failure)
     if (dg) {
       bl_diag_free (dg);
       bl_alloc_fail_at (k);
-      t = bl_resid_table_new (j.f, NULL, &err);
+      t = bl_resid_table_new (j.f, NULL, NULL, &err);
       if (t) {
         bl_resid_table_free (t);
         if (bl_alloc_count () < k)

@@ -132,7 +132,7 @@ section (const bl_batch_row *row, const bl_compare *c, const bl_fit *f, const bl
   FILE *m = open_memstream (&s, &len);
   int st;
   ck_assert_ptr_nonnull (m);
-  st = bl_report_job_html (m, row, c, f, d, 20261201UL, &err);
+  st = bl_report_job_html (m, row, c, f, d, 20261201UL, NULL, &err);
   ck_assert_int_eq (fclose (m), 0);
   ck_assert_msg (st == BL_OK, "section '%s': %d %s: %s", row->job, st, err.where, err.msg);
   return s;
@@ -441,22 +441,49 @@ START_TEST (html_errors_arguments)
   job_compare (&a, 120);
   job_single (&b, 120);
   row_init (&row, "both", 1, "compare");
-  ck_assert_int_eq (bl_report_job_html (m, &row, a.c, b.f, a.d, 1, &err), BL_EINTERNAL);
+  ck_assert_int_eq (bl_report_job_html (m, &row, a.c, b.f, a.d, 1, NULL, &err), BL_EINTERNAL);
   ck_assert_str_eq (err.where, "report");
   ck_assert_msg (strstr (err.msg, "job 'both': both a comparison and a single model"),
                  "errors_arguments both: '%s'", err.msg);
   memset (&err, 0, sizeof err);
-  ck_assert_int_eq (bl_report_job_html (m, NULL, a.c, NULL, a.d, 1, &err), BL_EINTERNAL);
+  ck_assert_int_eq (bl_report_job_html (m, NULL, a.c, NULL, a.d, 1, NULL, &err), BL_EINTERNAL);
   ck_assert_str_eq (err.where, "report");
   ck_assert_msg (strstr (err.msg, "no summary row"), "errors_arguments row: '%s'", err.msg);
   memset (&err, 0, sizeof err);
-  ck_assert_int_eq (bl_report_job_html (m, &row, a.c, NULL, NULL, 1, &err), BL_EINTERNAL);
+  ck_assert_int_eq (bl_report_job_html (m, &row, a.c, NULL, NULL, 1, NULL, &err), BL_EINTERNAL);
   ck_assert_msg (strstr (err.msg, "no design given"), "errors_arguments design: '%s'",
                  err.msg);
   memset (&err, 0, sizeof err);
   ck_assert_int_eq (bl_report_html_page (m, "t", NULL, NULL, 2, &err), BL_EINTERNAL);
   ck_assert_str_eq (err.where, "report");
   ck_assert_msg (strstr (err.msg, "no summary rows"), "errors_arguments page: '%s'", err.msg);
+  fclose (m);
+  job_free (&a);
+  job_free (&b);
+}
+END_TEST
+
+/* A set cancel flag: the section stops before its first plot with BL_ECANCEL (the batch
+   runner then writes nothing of the job); a clear flag changes nothing. */
+START_TEST (html_errors_cancel)
+{
+  job a = { 0 }, b = { 0 };
+  bl_batch_row row;
+  bl_err err = { 0 };
+  volatile sig_atomic_t stop = 1;
+  FILE *m = fopen ("/dev/null", "w");
+  ck_assert_ptr_nonnull (m);
+  job_compare (&a, 120);
+  job_single (&b, 120);
+  row_init (&row, "cut", 1, "compare");
+  ck_assert_int_eq (bl_report_job_html (m, &row, a.c, NULL, a.d, 1, &stop, &err), BL_ECANCEL);
+  ck_assert_str_eq (err.where, "report");
+  ck_assert_msg (strstr (err.msg, "cancelled"), "errors_cancel compare: '%s'", err.msg);
+  memset (&err, 0, sizeof err);
+  ck_assert_int_eq (bl_report_job_html (m, &row, NULL, b.f, b.d, 1, &stop, &err), BL_ECANCEL);
+  stop = 0;
+  ck_assert_int_eq (bl_report_job_html (m, &row, a.c, NULL, a.d, 1, &stop, &err), BL_OK);
+  ck_assert_int_eq (bl_report_job_html (m, &row, NULL, b.f, b.d, 1, &stop, &err), BL_OK);
   fclose (m);
   job_free (&a);
   job_free (&b);
@@ -474,7 +501,7 @@ START_TEST (html_errors_write)
     return;                              /* no /dev/full here: nothing to provoke */
   job_compare (&a, 120);
   row_init (&row, "full", 1, "compare");
-  ck_assert_int_eq (bl_report_job_html (m, &row, a.c, NULL, a.d, 1, &err), BL_EIO);
+  ck_assert_int_eq (bl_report_job_html (m, &row, a.c, NULL, a.d, 1, NULL, &err), BL_EIO);
   ck_assert_str_eq (err.where, "output");
   ck_assert_msg (strstr (err.msg, "write failed"), "errors_write section: '%s'", err.msg);
   clearerr (m);
@@ -543,7 +570,7 @@ START_TEST (html_errors_nomem)
       ck_assert_ptr_nonnull (m);
       bl_alloc_fail_at (n);
       st = bl_report_job_html (m, &row, which ? NULL : a.c, which ? b.f : NULL,
-                               which ? b.d : a.d, 1, &err);
+                               which ? b.d : a.d, 1, NULL, &err);
       bl_alloc_fail_at (0);
       fclose (m);
       if (st == BL_OK) {
@@ -685,6 +712,7 @@ html_suite (void)
   tcase_add_test (idt, html_point_limits);
   tcase_add_test (err, html_errors_arguments);
   tcase_add_test (err, html_errors_write);
+  tcase_add_test (err, html_errors_cancel);
   tcase_add_test (err, html_errors_noconv);
   tcase_add_test (err, html_errors_nomem);
   tcase_add_test (bas, html_escaping);

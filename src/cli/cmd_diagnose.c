@@ -131,7 +131,7 @@ cmd_diagnose (int argc, char **argv)
       goto done;
     }
     gsl_rng_set (rng, (unsigned long) seed);
-    t = bl_resid_table_new (fit, rng, &err);
+    t = bl_resid_table_new (fit, rng, &cli_cancel, &err);
     gsl_rng_free (rng);
     if (!t || cli_cancel) {
       bl_resid_table_free (t);
@@ -142,7 +142,7 @@ cmd_diagnose (int argc, char **argv)
       bl_resid_table_free (t);
       goto done;
     }
-    if (bl_report_residuals_csv (rout.f, fit, t, &err) != BL_OK) {
+    if (bl_report_residuals_csv (rout.f, fit, t, &cli_cancel, &err) != BL_OK) {
       cli_out_abort (&rout);
       bl_resid_table_free (t);
       rc = cli_lib_error ("diagnose", &err);

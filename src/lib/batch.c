@@ -439,14 +439,14 @@ result:
       goto nomem;
     }
     gsl_rng_set (rng, seed);
-    t = bl_resid_table_new (resfit, rng, &e);
+    t = bl_resid_table_new (resfit, rng, rc->opt->cancel, &e);
     gsl_rng_free (rng);
-    st = t ? bl_report_residuals_csv (mr.f, resfit, t, &e) : e.code;
+    st = t ? bl_report_residuals_csv (mr.f, resfit, t, rc->opt->cancel, &e) : e.code;
     bl_resid_table_free (t);
     st = render_status (&mr, st, where, "residuals.csv", &e);
     if (st == BL_ENOMEM)
       goto nomem;
-    if (st != BL_OK)
+    if (st != BL_OK && st != BL_ECANCEL)
       row_fail (row, &e);
     have_resid = st == BL_OK;
   }
@@ -467,7 +467,7 @@ section:
   }
   {
     int st = bl_report_job_html (mb.f, row, cmp, cmp ? NULL : (row->ok ? fit : NULL), design,
-                                 seed, &e);
+                                 seed, rc->opt->cancel, &e);
     st = render_status (&mb, st, where, "index.html", &e);
     if (st == BL_ENOMEM)
       goto nomem;
@@ -475,7 +475,7 @@ section:
       rc->outs[i].section = mb.buf;
       rc->outs[i].section_len = mb.len;
       mb.buf = NULL;
-    } else {
+    } else if (st != BL_ECANCEL) {
       row_fail (row, &e);
     }
   }

@@ -61,10 +61,11 @@ int bl_batch_run (const bl_spec *spec, const char *outdir, const bl_batch_opts *
 
 /* The HTML report (report_html.c).  A job's section: its ranked table (or the single model),
    the recommendation and caution, and SVG plots.  C or FIT is given (the other NULL); for a
-   failed job both are NULL and ROW->message says why. */
+   failed job both are NULL and ROW->message says why.  CANCEL (may be NULL) is polled
+   between plots: once set, BL_ECANCEL with the section incomplete. */
 int bl_report_job_html (FILE *out, const bl_batch_row *row, const bl_compare *c,
                         const bl_fit *fit, const bl_design *d, unsigned long seed,
-                        bl_err *err);
+                        volatile sig_atomic_t *cancel, bl_err *err);
 /* The whole page around the sections (already written to strings, in job order). */
 int bl_report_html_page (FILE *out, const char *title, const bl_batch_row *rows,
                          const char *const *sections, size_t njobs, bl_err *err);

@@ -573,12 +573,16 @@ cdf_row (const bl_fit *f, size_t i, double y, double phi)
   return NAN;
 }
 
-int
-bl_quantile_residuals (const bl_fit *f, gsl_rng *rng, double *q, bl_err *err)
+/* Quantile residuals, polling CANCEL (may be NULL) every BL_IRLS_BLOCK rows. */
+static int
+quantile_residuals (const bl_fit *f, gsl_rng *rng, volatile sig_atomic_t *cancel, double *q,
+                    bl_err *err)
 {
   const double phi = f->fam->phi_free ? f->st.phi_pearson : 1.0;
   for (size_t i = 0; i < f->n; i++) {
     double u;
+    if (cancel && i % BL_IRLS_BLOCK == 0 && *cancel)
+      return bl_fail (err, BL_ECANCEL, "residuals", "the residual table was cancelled");
     if (f->fam == &bl_family_poisson) {
       /* randomized: u uniform on (F(y - 1), F(y)) (Dunn & Smyth 1996) */
       const double y = f->y[i], mu = f->mu[i];
@@ -606,8 +610,13 @@ bl_quantile_residuals (const bl_fit *f, gsl_rng *rng, double *q, bl_err *err)
       u = 1.0 - 1e-16;
     q[i] = gsl_cdf_ugaussian_Pinv (u);
   }
-  (void) err;
   return BL_OK;
+}
+
+int
+bl_quantile_residuals (const bl_fit *f, gsl_rng *rng, double *q, bl_err *err)
+{
+  return quantile_residuals (f, rng, NULL, q, err);
 }
 
 void
@@ -626,7 +635,7 @@ bl_resid_table_free (bl_resid_table *t)
 }
 
 bl_resid_table *
-bl_resid_table_new (const bl_fit *f, gsl_rng *rng, bl_err *err)
+bl_resid_table_new (const bl_fit *f, gsl_rng *rng, volatile sig_atomic_t *cancel, bl_err *err)
 {
   const size_t n = f->n, p = f->p;
   bl_resid_table *t = bl_calloc (1, sizeof *t);
@@ -646,10 +655,14 @@ bl_resid_table_new (const bl_fit *f, gsl_rng *rng, bl_err *err)
       || !t->leverage || !t->cooks)
     goto nomem;
   bl_pearson_residuals (f, t->pearson);
-  if (bl_quantile_residuals (f, rng, t->quantile, err) != BL_OK)
+  if (quantile_residuals (f, rng, cancel, t->quantile, err) != BL_OK)
     goto fail;
   for (size_t r0 = 0; r0 < n; r0 += BL_IRLS_BLOCK) {
     const size_t nb = n - r0 < BL_IRLS_BLOCK ? n - r0 : BL_IRLS_BLOCK;
+    if (cancel && *cancel) {
+      bl_fail (err, BL_ECANCEL, "residuals", "the residual table was cancelled");
+      goto fail;
+    }
     bl_design_fill (f->d, r0, nb, blk, BL_IRLS_BLOCK);
     for (size_t i = 0; i < nb; i++) {
       const size_t row = r0 + i;

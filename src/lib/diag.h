@@ -117,12 +117,14 @@ const bl_diag_result *bl_diag_get (const bl_diag *d);
 
 /* The residual table: per row the response, Pearson, deviance, working and randomized
    quantile residuals (Dunn & Smyth 1996, J. Comput. Graph. Statist. 5, 236-244; the discrete
-   family's uniform draws from RNG), leverage and Cook's distance.  Arrays of length n. */
+   family's uniform draws from RNG), leverage and Cook's distance.  Arrays of length n.
+   CANCEL (may be NULL) is polled every BL_IRLS_BLOCK rows: once set, NULL with BL_ECANCEL. */
 typedef struct bl_resid_table {
   size_t n;
   double *response, *pearson, *deviance, *working, *quantile, *leverage, *cooks;
 } bl_resid_table;
-bl_resid_table *bl_resid_table_new (const bl_fit *fit, gsl_rng *rng, bl_err *err);
+bl_resid_table *bl_resid_table_new (const bl_fit *fit, gsl_rng *rng,
+                                    volatile sig_atomic_t *cancel, bl_err *err);
 void bl_resid_table_free (bl_resid_table *t);
 
 /* Quantile residuals alone (as in the table) into Q (length n). */

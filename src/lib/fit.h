@@ -49,6 +49,11 @@ typedef struct bl_fit_transform_info {
   double shift;                   /* y + shift was transformed */
   size_t nprofile;                /* profile points (lambda, loglik), for plotting */
   const double *profile_lambda, *profile_loglik;
+  /* Duan's smearing sums over the fit's residuals e_i = y_i - mu_i (transformed scale),
+     made once with the fit (a prediction then costs O(1) for log and sqrt, not O(n)):
+     sum exp(e_i), sum e_i and sum e_i^2 in long double, and the least e_i. */
+  long double smear_sum_exp, smear_sum, smear_sum_sq;
+  double smear_min;
 } bl_fit_transform_info;
 
 typedef struct bl_fit_variance_info {

@@ -104,9 +104,10 @@ variance_name (bl_variance k)
   return k == BL_VARIANCE_COLUMN ? "column" : k == BL_VARIANCE_FITTED ? "fitted" : "none";
 }
 
-/* The smearing summaries over all N residuals e_i = y_i - mu_i of a transformed fit, summed
-   in long double as bl_fit_backtransform does, and every stride-th residual (the subsample
-   of bl_fit_backtransform above BL_SMEAR_MAX, here with BL_MODEL_RESIDUALS_MAX). */
+/* The smearing summaries over all N residuals e_i = y_i - mu_i of a transformed fit (the
+   fit's own sums, bl_fit_transform_info, as bl_fit_backtransform uses them), and every
+   stride-th residual (the subsample of bl_fit_backtransform above BL_SMEAR_MAX, here with
+   BL_MODEL_RESIDUALS_MAX). */
 static void
 write_smearing (bl_jsonw *w, const bl_fit *fit)
 {
@@ -114,16 +115,9 @@ write_smearing (bl_jsonw *w, const bl_fit *fit)
   const double *y = bl_fit_y (fit), *mu = bl_fit_mu (fit);
   const size_t stride = n > BL_MODEL_RESIDUALS_MAX
                         ? (n + BL_MODEL_RESIDUALS_MAX - 1) / BL_MODEL_RESIDUALS_MAX : 1;
-  long double se = 0.0L, s1 = 0.0L, s2 = 0.0L;
-  double emin = HUGE_VAL;
-  for (size_t i = 0; i < n; i++) {
-    const double e = y[i] - mu[i];
-    se += exp (e);
-    s1 += e;
-    s2 += (long double) e * e;
-    if (e < emin)
-      emin = e;
-  }
+  const bl_fit_transform_info *tr = bl_fit_transform (fit);
+  const long double se = tr->smear_sum_exp, s1 = tr->smear_sum, s2 = tr->smear_sum_sq;
+  const double emin = n ? tr->smear_min : HUGE_VAL;
   jw_obj (w, "smearing");
   jw_size (w, "n", n);
   jw_size (w, "stride", stride);

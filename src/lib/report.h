@@ -37,9 +37,11 @@ int bl_report_diag_text (FILE *out, const bl_fit *fit, const bl_diag *dg,
                          const bl_report_info *info, bl_err *err);
 
 /* The residual table as CSV: row (1-based data row of the table), fitted, response, pearson,
-   deviance, working, quantile, leverage, cooks.  BL_OK or BL_EIO. */
+   deviance, working, quantile, leverage, cooks.  BL_OK or BL_EIO; BL_ECANCEL once CANCEL
+   (may be NULL; polled every 4096 rows) is set, with the output then incomplete (the caller
+   writes to a temporary and discards it). */
 int bl_report_residuals_csv (FILE *out, const bl_fit *fit, const bl_resid_table *t,
-                             bl_err *err);
+                             volatile sig_atomic_t *cancel, bl_err *err);
 
 /* A comparison (doc/json.md, "compare"): JSON or text.  D is the design the candidates share. */
 int bl_report_compare_json (FILE *out, const bl_compare *c, const bl_design *d,

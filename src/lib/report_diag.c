@@ -188,12 +188,15 @@ bl_report_diag_text (FILE *o, const bl_fit *fit, const bl_diag *dg,
 }
 
 int
-bl_report_residuals_csv (FILE *o, const bl_fit *fit, const bl_resid_table *t, bl_err *err)
+bl_report_residuals_csv (FILE *o, const bl_fit *fit, const bl_resid_table *t,
+                         volatile sig_atomic_t *cancel, bl_err *err)
 {
   const bl_design *d = bl_fit_design (fit);
   const double *mu = bl_fit_mu (fit);
   fputs ("row,fitted,response,pearson,deviance,working,quantile,leverage,cooks\n", o);
   for (size_t i = 0; i < t->n; i++) {
+    if (cancel && i % 4096 == 0 && *cancel)
+      return bl_fail (err, BL_ECANCEL, "output", "writing the residual table was cancelled");
     const double v[8] = { mu[i], t->response[i], t->pearson[i], t->deviance[i], t->working[i],
                           t->quantile[i], t->leverage[i], t->cooks[i] };
     fprintf (o, "%zu", bl_design_table_row (d, i) + 1);

@@ -35,7 +35,19 @@
 
 /* ---------------------------------------------------------------- output */
 
-typedef struct hw { FILE *o; int bad; } hw;    /* bad: a write failed */
+/* bad: a write failed; cancel: the caller's flag (may be NULL), polled between plots */
+typedef struct hw { FILE *o; int bad; volatile sig_atomic_t *cancel; } hw;
+
+/* BL_ECANCEL (with ERR filled) once the caller's cancel flag is set, else BL_OK.  A plot
+   over a million rows sorts and bins them in a fraction of a second, so polling between
+   plots keeps a SIGINT's delay under one. */
+static int
+stopped (const hw *h, bl_err *err)
+{
+  if (h->cancel && *h->cancel)
+    return bl_fail (err, BL_ECANCEL, "report", "the report was cancelled");
+  return BL_OK;
+}
 
 static void
 put (hw *h, const char *s)
@@ -853,6 +865,8 @@ compare_section (hw *h, const bl_compare *c, const char *resp, size_t n, unsigne
     snprintf (head, sizeof head, "%zu. %s%s", k->rank_position, k->id,
               k->rank_position == 1 ? " (winner)" : "");
     snprintf (what, sizeof what, "%s, %s", k->id, k->description);
+    if ((st = stopped (h, err)) != BL_OK)
+      return st;
     fig_begin (h);
     plot_resid (h, k->fit, resp, head, what, 300.0, 220.0, r);
     put (h, "</figure>\n");
@@ -863,16 +877,22 @@ compare_section (hw *h, const bl_compare *c, const char *resp, size_t n, unsigne
     put (h, "<h3>The winner, ");
     esc (h, w->id);
     put (h, "</h3>\n<div class=\"plots\">\n");
-    if ((st = plot_spread (h, w->fit, resp, w->id, w->spread_null95, r, err)) != BL_OK)
+    if ((st = stopped (h, err)) != BL_OK
+        || (st = plot_spread (h, w->fit, resp, w->id, w->spread_null95, r, err)) != BL_OK)
       return st;
-    if ((st = plot_qq (h, w->fit, w->id, rng, w->normality_p, q, err)) != BL_OK)
+    if ((st = stopped (h, err)) != BL_OK
+        || (st = plot_qq (h, w->fit, w->id, rng, w->normality_p, q, err)) != BL_OK)
       return st;
     put (h, "</div>\n");
   }
   if (bc || ls) {
     put (h, "<h3>Choosing a transform and a variance function</h3>\n<div class=\"plots\">\n");
+    if ((st = stopped (h, err)) != BL_OK)
+      return st;
     if (bc && bl_fit_transform (bc->fit)->nprofile > 0
         && (st = plot_profile (h, bc, resp, err)) != BL_OK)
+      return st;
+    if ((st = stopped (h, err)) != BL_OK)
       return st;
     if (ls && (st = plot_meanvar (h, ls->fit, resp, "ls (ordinary least squares)", err))
         != BL_OK)
@@ -962,6 +982,8 @@ fit_section (hw *h, const bl_fit *f, const bl_design *d, const char *resp, unsig
     put (h, "</ul>\n");
   }
   put (h, "<h3>Plots</h3>\n<div class=\"plots\">\n");
+  if ((s = stopped (h, err)) != BL_OK)
+    return s;
   fig_begin (h);
   plot_resid (h, f, resp, NULL, "the model", 460.0, 300.0, r);
   snprintf (buf, sizeof buf, "Pearson residuals against fitted values%s: an even band around "
@@ -972,6 +994,8 @@ fit_section (hw *h, const bl_fit *f, const bl_design *d, const char *resp, unsig
   {
     /* the spread ratio's null point for these group sizes (diag.h), from the seeded RNG */
     bl_spread sp;
+    if ((s = stopped (h, err)) != BL_OK)
+      return s;
     bl_pearson_residuals (f, r);
     if ((s = bl_spread_compute (bl_fit_mu (f), r, fit_n (f), rng, BL_DIAG_NULL_REPS, &sp, err))
         != BL_OK)
@@ -979,13 +1003,16 @@ fit_section (hw *h, const bl_fit *f, const bl_design *d, const char *resp, unsig
     {
       const double null95 = sp.null95;
       bl_spread_clear (&sp);
-      if ((s = plot_spread (h, f, resp, "the model", null95, r, err)) != BL_OK)
+      if ((s = stopped (h, err)) != BL_OK
+          || (s = plot_spread (h, f, resp, "the model", null95, r, err)) != BL_OK)
         return s;
     }
   }
-  if ((s = plot_qq (h, f, "the model", rng, NAN, q, err)) != BL_OK)
+  if ((s = stopped (h, err)) != BL_OK || (s = plot_qq (h, f, "the model", rng, NAN, q, err))
+      != BL_OK)
     return s;
-  if ((s = plot_meanvar (h, f, resp, "the model", err)) != BL_OK)
+  if ((s = stopped (h, err)) != BL_OK || (s = plot_meanvar (h, f, resp, "the model", err))
+      != BL_OK)
     return s;
   put (h, "</div>\n");
   return BL_OK;
@@ -993,9 +1020,10 @@ fit_section (hw *h, const bl_fit *f, const bl_design *d, const char *resp, unsig
 
 int
 bl_report_job_html (FILE *out, const bl_batch_row *row, const bl_compare *c,
-                    const bl_fit *fit, const bl_design *d, unsigned long seed, bl_err *err)
+                    const bl_fit *fit, const bl_design *d, unsigned long seed,
+                    volatile sig_atomic_t *cancel, bl_err *err)
 {
-  hw h = { out, 0 };
+  hw h = { out, 0, cancel };
   gsl_rng *rng = NULL;
   double *r = NULL, *q = NULL;
   const char *resp;
@@ -1108,7 +1136,7 @@ int
 bl_report_html_page (FILE *out, const char *title, const bl_batch_row *rows,
                      const char *const *sections, size_t njobs, bl_err *err)
 {
-  hw h = { out, 0 };
+  hw h = { out, 0, NULL };
   size_t ndone = 0;
   if (njobs && !rows)
     return bl_fail (err, BL_EINTERNAL, "report", "no summary rows given");

@@ -1,4 +1,4 @@
-/* thread.h -- the library's short-lived helper threads.
+/* thread.h -- the library's helper threads (one per read or per fit, never one per row block).
 
    The reader's parse worker and the gzip producer run small, non-recursive loops; a thread
    with a bounded stack costs less to start (and far less under AddressSanitizer, which

@@ -112,6 +112,26 @@ interval_end (prof_ctx *c, double a, double b)
   return r;
 }
 
+/* The smearing sums of fit F (bl_fit_transform_info), in row order. */
+static void
+smear_sums (bl_fit *f)
+{
+  long double se = 0.0L, s1 = 0.0L, s2 = 0.0L;
+  double emin = HUGE_VAL;
+  for (size_t i = 0; i < f->n; i++) {
+    const double e = f->y[i] - f->mu[i];
+    se += exp (e);
+    s1 += e;
+    s2 += (long double) e * e;
+    if (e < emin)
+      emin = e;
+  }
+  f->tr.smear_sum_exp = se;
+  f->tr.smear_sum = s1;
+  f->tr.smear_sum_sq = s2;
+  f->tr.smear_min = emin;
+}
+
 /* lambda-hat: the best grid point, refined by Brent's method inside its neighbours. */
 static double
 refine_max (prof_ctx *c, const double *grid, const double *val, size_t ng, size_t m)
@@ -325,6 +345,7 @@ bl_fit_transform_run (const bl_design *d, const bl_fit_opts *opt, bl_err *err)
   f->tr.lambda = opt->transform == BL_TRANSFORM_BOXCOX ? lambda : NAN;
   f->tr.shift_given = opt->shift_given;
   f->tr.shift = c0;
+  smear_sums (f);
   f->method = BL_METHOD_OLS;
   if (f->st.converged) {
     f->st.loglik_transformed = f->st.loglik;
@@ -384,7 +405,7 @@ bl_fit_backtransform (const bl_fit *f, double xb, int smear)
 {
   const bl_fit_transform_info *t = &f->tr;
   const size_t n = f->n;
-  long double s = 0.0L, s1 = 0.0L, s2 = 0.0L;
+  long double s = 0.0L;
   size_t stride, cnt = 0;
   if (t->kind == BL_TRANSFORM_NONE)
     return xb;
@@ -393,22 +414,15 @@ bl_fit_backtransform (const bl_fit *f, double xb, int smear)
   switch (t->kind) {
   case BL_TRANSFORM_LOG:
     /* exp(xb) mean(exp(e_i)) */
-    for (size_t i = 0; i < n; i++)
-      s += exp (f->y[i] - f->mu[i]);
-    return exp (xb) * (double) (s / (long double) n) - t->shift;
+    return exp (xb) * (double) (t->smear_sum_exp / (long double) n) - t->shift;
   case BL_TRANSFORM_SQRT:
     /* mean((xb + e)^2) = xb^2 + 2 xb mean(e) + mean(e^2); the back-transform of sqrt is
        taken as z^2 on the whole line here (the clipping at 0 changes nothing where xb + e_i
-       >= 0 for all i, the usual case) */
-    for (size_t i = 0; i < n; i++) {
-      const double e = f->y[i] - f->mu[i];
-      if (xb + e < 0.0)
-        goto general;
-      s1 += e;
-      s2 += (long double) e * e;
-    }
-    return (double) ((long double) xb * xb + 2.0L * xb * s1 / (long double) n
-                     + s2 / (long double) n) - t->shift;
+       >= 0 for all i, that is xb + min e_i >= 0, the usual case) */
+    if (xb + t->smear_min < 0.0)
+      goto general;
+    return (double) ((long double) xb * xb + 2.0L * xb * t->smear_sum / (long double) n
+                     + t->smear_sum_sq / (long double) n) - t->shift;
   default:
     break;
   }

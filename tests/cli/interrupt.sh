@@ -375,6 +375,29 @@ fit_int "fit, fitting, to stdout" 0.55 "--json"
 expect_rc "fit: SIGINT, report on stdout: exit 130" 130
 expect_out_empty "fit: SIGINT, report on stdout: nothing printed"
 
+# diagnose with its residual table: the table and its CSV are the last part of the work
+# (about 40% of it on these rows), so a signal late in the uninterrupted duration lands there
+t0=$(now)
+bl diagnose big.csv "$@" --residuals whole-res.csv
+t1=$(now)
+expect_rc "diagnose: the uninterrupted run with its residual table" 0
+ddur=$(awk -v a="$t0" -v b="$t1" 'BEGIN { printf "%.3f", b - a }')
+echo "     the uninterrupted diagnose of 1e6 rows took $ddur s"
+rm -f whole-res.csv
+# shellcheck disable=SC2086  # $model is a list of options
+drive_int "diagnose, residual table" "$(awk -v d="$ddur" 'BEGIN { printf "%.3f", d * 0.85 }')" \
+  part-res.csv diagnose big.csv $model --residuals part-res.csv
+expect_rc "diagnose: SIGINT while writing the residual table: exit 130" 130
+expect_quick "diagnose: SIGINT while writing the residual table: stopped within 1 s"
+expect_err "diagnose: SIGINT while writing the residual table: says so" \
+  "ballast: diagnose: interrupted"
+if [ ! -e part-res.csv ]; then
+  pass "diagnose: no residual table written under its name"
+else
+  fail "diagnose: no residual table written under its name" "part-res.csv exists"
+fi
+no_temps "diagnose: no temporary file left" .
+
 # ---------------------------------------------------------------- 3. SIGINT during run
 # A job on the demo data, then one on the large file, then one more: SIGINT once the first
 # job's files are in place, while the second reads, and again while it fits.
