@@ -370,6 +370,19 @@ START_TEST (table_rounding_random)
 }
 END_TEST
 
+/* strtod of the K-byte decimal S (shorter than 48 bytes) written with a decimal comma or
+   point: the reference value of the reader's decimal-comma reading. */
+static double
+strtod_comma (const char *s, size_t k)
+{
+  char dot[48];
+  memcpy (dot, s, k + 1);
+  for (size_t c = 0; c < k; c++)
+    if (dot[c] == ',')
+      dot[c] = '.';
+  return strtod (dot, NULL);
+}
+
 START_TEST (table_rounding_random_comma)
 {
   /* The same with a decimal comma and ';' between fields: 20000 values in two columns. */
@@ -387,12 +400,7 @@ START_TEST (table_rounding_random_comma)
   p = text + 4;
   for (size_t i = 0; i < 2 * n; i++) {
     const size_t k = random_decimal (&seed, buf, ',');
-    char dot[48];
-    memcpy (dot, buf, k + 1);
-    for (size_t c = 0; c < k; c++)
-      if (dot[c] == ',')
-        dot[c] = '.';
-    want[i] = strtod (dot, NULL);
+    want[i] = strtod_comma (buf, k);
     memcpy (p, buf, k);
     p += k;
     *p++ = i % 2 == 0 ? ';' : '\n';
@@ -456,12 +464,7 @@ START_TEST (table_rounding_short_forms)
     p = text + sprintf (text, comma ? "a;b;c;d;e;f;g\n" : "a,b,c,d,e,f,g\n");
     for (size_t i = 0; i < n; i++) {
       const size_t k = short_decimal (&seed, buf, comma ? ',' : '.');
-      char dot[48];
-      memcpy (dot, buf, k + 1);
-      for (size_t c = 0; c < k; c++)
-        if (dot[c] == ',')
-          dot[c] = '.';
-      want[i] = strtod (dot, NULL);
+      want[i] = strtod_comma (buf, k);
       memcpy (p, buf, k);
       p += k;
       *p++ = (i + 1) % nc == 0 ? '\n' : comma ? ';' : ',';
