@@ -86,21 +86,22 @@ ig_logpdf (double y, double mu, double a, double phi)
 
 const bl_family bl_family_gaussian = {
   "gaussian", gau_var, gau_dev, mu_any, any_real, "any real y", 1, 0, &bl_link_identity,
-  gau_logpdf, gau_start, NULL, NULL, NULL, NULL
+  gau_logpdf, gau_start, NULL, NULL, NULL, NULL, BL_FAM_PHI_FREE | BL_FAM_NORMAL, BL_FAMPAR_NONE
 };
 const bl_family bl_family_poisson = {
   "poisson", poi_var, poi_dev, mu_pos, nonneg, "y >= 0", 0, 1, &bl_link_log,
-  poi_logpdf, poi_start, NULL, NULL, NULL, NULL
+  poi_logpdf, poi_start, NULL, NULL, NULL, NULL,
+  BL_FAM_DISCRETE | BL_FAM_OVERDISP | BL_FAM_ZERO_GROUP, BL_FAMPAR_NONE
 };
 const bl_family bl_family_gamma = {
   "gamma", gam_var, gam_dev, mu_pos, positive, "y > 0", 1, 0, &bl_link_inverse,
-  gam_logpdf, pos_start, NULL, NULL, NULL, NULL
+  gam_logpdf, pos_start, NULL, NULL, NULL, NULL, BL_FAM_PHI_FREE, BL_FAMPAR_NONE
 };
 /* The canonical link of the inverse gaussian is 1/mu^2, which is not in ballast's link set;
    its default here is log. */
 const bl_family bl_family_invgauss = {
   "inverse-gaussian", ig_var, ig_dev, mu_pos, positive, "y > 0", 1, 0, &bl_link_log,
-  ig_logpdf, pos_start, NULL, NULL, NULL, NULL
+  ig_logpdf, pos_start, NULL, NULL, NULL, NULL, BL_FAM_PHI_FREE, BL_FAMPAR_NONE
 };
 
 /* ---- negative binomial (NB2; Lawless 1987, Canad. J. Statist. 15, 209-225; Hilbe 2011,
@@ -148,24 +149,67 @@ static double tw_start (double y, double ybar) { return y + 0.1 * ybar; }
 
 const bl_family bl_family_negbin = {
   "negative-binomial", NULL, NULL, mu_pos, nonneg, "y >= 0", 0, 1, &bl_link_log,
-  NULL, poi_start, nb_var, nb_dev, nb_logpdf, "theta"
+  NULL, poi_start, nb_var, nb_dev, nb_logpdf, "theta", BL_FAM_DISCRETE, BL_FAMPAR_THETA
 };
 const bl_family bl_family_tweedie = {
   "tweedie", NULL, NULL, mu_pos, nonneg, "y >= 0", 1, 0, &bl_link_log,
-  NULL, tw_start, tw_var, tw_dev, tw_logpdf, "power"
+  NULL, tw_start, tw_var, tw_dev, tw_logpdf, "power", BL_FAM_PHI_FREE | BL_FAM_ZERO_MASS,
+  BL_FAMPAR_POWER
 };
+
+/* The family table: the one list of families (lookup, --help, error messages). */
+static const bl_family *const all_families[] = {
+  &bl_family_gaussian, &bl_family_poisson, &bl_family_gamma, &bl_family_invgauss,
+  &bl_family_negbin, &bl_family_tweedie
+};
+#define NFAMILIES (sizeof all_families / sizeof all_families[0])
 
 const bl_family *
 bl_family_find (const char *name)
 {
-  static const bl_family *const all[] = {
-    &bl_family_gaussian, &bl_family_poisson, &bl_family_gamma, &bl_family_invgauss,
-    &bl_family_negbin, &bl_family_tweedie
-  };
-  for (size_t i = 0; i < sizeof all / sizeof all[0]; i++)
-    if (strcmp (all[i]->name, name) == 0)
-      return all[i];
+  for (size_t i = 0; i < NFAMILIES; i++)
+    if (strcmp (all_families[i]->name, name) == 0)
+      return all_families[i];
   return NULL;
+}
+
+size_t bl_family_count (void) { return NFAMILIES; }
+const bl_family *bl_family_at (size_t i) { return i < NFAMILIES ? all_families[i] : NULL; }
+
+size_t
+bl_family_names (char *buf, size_t len, const char *sep)
+{
+  size_t need = 0;
+  if (len > 0)
+    buf[0] = '\0';
+  for (size_t i = 0; i < NFAMILIES; i++) {
+    const char *parts[2] = { i ? sep : "", all_families[i]->name };
+    for (int k = 0; k < 2; k++) {
+      const size_t l = strlen (parts[k]);
+      if (need + l < len) {
+        memcpy (buf + need, parts[k], l);
+        buf[need + l] = '\0';
+      } else if (len > 0 && need < len) {
+        memcpy (buf + need, parts[k], len - 1 - need);
+        buf[len - 1] = '\0';
+      }
+      need += l;
+    }
+  }
+  return need;
+}
+
+int bl_family_has (const bl_family *f, unsigned flag) { return (f->flags & flag) != 0; }
+bl_family_par bl_family_par_kind (const bl_family *f) { return (bl_family_par) f->par_kind; }
+const char *bl_family_name (const bl_family *f) { return f->name; }
+const char *bl_family_support (const bl_family *f) { return f->support; }
+const char *bl_family_par_name (const bl_family *f) { return f->par_name; }
+const bl_link *bl_family_default_link (const bl_family *f) { return f->default_link; }
+int bl_family_y_ok (const bl_family *f, double y) { return f->y_ok (y); }
+int bl_family_mu_ok (const bl_family *f, double mu) { return f->valid_mu (mu); }
+double bl_family_mustart (const bl_family *f, double y, double ybar)
+{
+  return f->mustart (y, ybar);
 }
 
 double

@@ -35,6 +35,8 @@ typedef struct bl_family {
   double (*dev_p) (double y, double mu, double par);
   double (*logpdf_p) (double y, double mu, double a, double phi, double par);
   const char *par_name;                   /* "theta", "power"; NULL without a parameter */
+  unsigned flags;                         /* BL_FAM_... */
+  int par_kind;                           /* bl_family_par */
 } bl_family;
 
 static inline double
@@ -64,6 +66,49 @@ extern const bl_family bl_family_tweedie;
 
 /* The family named NAME, or NULL. */
 const bl_family *bl_family_find (const char *name);
+
+/* ---- The family table and the descriptor's properties.  Code outside the family modules
+   asks these, never compares a family's address or name: what a family means to a fitter,
+   a test or a writer is a property of its descriptor, so that adding a family touches the
+   family's own file and its tests only. */
+
+/* The families in table order (the order of --help and of error messages): I < count. */
+size_t bl_family_count (void);
+const bl_family *bl_family_at (size_t i);
+/* The names of every family joined by SEP ("gaussian|poisson|..."), written to BUF of LEN
+   bytes (always NUL-terminated).  Returns the length the whole list needs, as snprintf. */
+size_t bl_family_names (char *buf, size_t len, const char *sep);
+
+/* Properties, as a bit set (bl_family_has (f, BL_FAM_...)). */
+enum {
+  BL_FAM_DISCRETE = 1u << 0,    /* y is a count; the log density is a log probability */
+  BL_FAM_PHI_FREE = 1u << 1,    /* the dispersion is estimated (else phi = 1) */
+  BL_FAM_NORMAL = 1u << 2,      /* the normal density: with the identity link, least squares
+                                   is exact and the deviance is a residual sum of squares */
+  BL_FAM_ZERO_MASS = 1u << 3,   /* continuous y > 0 with a point mass at y = 0 (compare ranks
+                                   it in the point-mass group) */
+  BL_FAM_OVERDISP = 1u << 4,    /* phi fixed at 1 with no shape parameter: the Pearson
+                                   dispersion tests it (overdispersion warning and advice) */
+  BL_FAM_ZERO_GROUP = 1u << 5   /* a level whose rows are all y = 0 has no finite log-mean
+                                   estimate: refused as not estimable */
+};
+int bl_family_has (const bl_family *f, unsigned flag);
+
+/* The family's shape parameter, estimated by its own engine in the fitting layer. */
+typedef enum bl_family_par {
+  BL_FAMPAR_NONE = 0,
+  BL_FAMPAR_THETA,              /* negative binomial theta, Var = mu + mu^2 / theta */
+  BL_FAMPAR_POWER               /* Tweedie power p, Var = phi mu^p */
+} bl_family_par;
+bl_family_par bl_family_par_kind (const bl_family *f);
+
+const char *bl_family_name (const bl_family *f);          /* "gamma" */
+const char *bl_family_support (const bl_family *f);       /* "y > 0" */
+const char *bl_family_par_name (const bl_family *f);      /* "theta", "power" or NULL */
+const bl_link *bl_family_default_link (const bl_family *f);
+int bl_family_y_ok (const bl_family *f, double y);        /* y inside the support */
+int bl_family_mu_ok (const bl_family *f, double mu);      /* mu inside the mean space */
+double bl_family_mustart (const bl_family *f, double y, double ybar);
 
 /* Maximum-likelihood dispersion of FAM given the fitted means.  Y, MU have length N; A (prior
    weights) may be NULL for all ones; DEV is the deviance sum a_i d_i at MU.

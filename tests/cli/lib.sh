@@ -98,6 +98,23 @@ fail () {
 run () {
   "$@" >"$tmp/.out" 2>"$tmp/.err"
   rc=$?
+  snapshot "$@"
+}
+
+# With BALLAST_SNAPSHOT set to a file, every run appends its command, exit status, stdout and
+# stderr to that file, with the temporary folder's name replaced by TMP (tests/cli/snapshot.sh
+# compares two such records: the behaviour before and after a change).
+snapshot () {
+  if [ -n "${BALLAST_SNAPSHOT:-}" ]; then
+    {
+      printf '@@ %s\n' "$*"
+      printf '@@ rc %s\n' "$rc"
+      cat "$tmp/.out"
+      printf '\n@@ stderr\n'
+      cat "$tmp/.err"
+    } | sed -e "s|$tmp|TMP|g" -e "s|$BALLAST|BALLAST|g" -e "s|$top_srcdir|SRC|g" \
+      >>"$BALLAST_SNAPSHOT"
+  fi
 }
 
 bl () {
@@ -111,6 +128,7 @@ bl_in () {
   # shellcheck disable=SC2086  # as in bl
   $VALGRIND "$BALLAST" "$@" <"$bl_in_file" >"$tmp/.out" 2>"$tmp/.err"
   rc=$?
+  snapshot "<$bl_in_file" "$@"
 }
 
 save_out () {
