@@ -26,6 +26,8 @@
 #include "link.h"
 #include "testutil.h"
 
+#define FN(f) bl_family_name (f)
+
 static const bl_family *const families[4] = {
   &bl_family_gaussian, &bl_family_poisson, &bl_family_gamma, &bl_family_invgauss
 };
@@ -56,7 +58,7 @@ START_TEST (family_unit_dev_closed_forms)
     { &bl_family_invgauss, 0.5, 2.0, 1.125, "inverse-gaussian d(0.5,2)" },
   };
   for (size_t k = 0; k < sizeof c / sizeof c[0]; k++) {
-    const double d = c[k].f->unit_dev (c[k].y, c[k].mu);
+    const double d = bl_family_dev (c[k].f, c[k].y, c[k].mu, 0.0);
     ck_assert_msg (fabs (d - c[k].d) <= 1e-15 * (1.0 + fabs (c[k].d)), "%s: got %.17g, want "
                    "%.17g", c[k].what, d, c[k].d);
   }
@@ -69,7 +71,7 @@ static double
 quasi_integrand (double t, void *vp)
 {
   const qparam *q = vp;
-  return (q->y - t) / q->f->var (t);
+  return (q->y - t) / bl_family_var (q->f, t, 0.0);
 }
 
 /* d(y, mu) = 2 int_mu^y (y - t) / V(t) dt (McCullagh & Nelder 1989, section 2.3 and
@@ -85,18 +87,18 @@ START_TEST (family_unit_dev_integral)
       double v, abserr, d;
       int st = gsl_integration_qag (&fn, pt_mu[i], pt_y[i], 0.0, 1e-13, 200, GSL_INTEG_GAUSS61,
                                     w, &v, &abserr);
-      ck_assert_msg (st == GSL_SUCCESS, "%s point %zu: quadrature status %d", families[k]->name,
+      ck_assert_msg (st == GSL_SUCCESS, "%s point %zu: quadrature status %d", FN (families[k]),
                      i, st);
-      d = families[k]->unit_dev (pt_y[i], pt_mu[i]);
+      d = bl_family_dev (families[k], pt_y[i], pt_mu[i], 0.0);
       ck_assert_msg (fabs (d - 2.0 * v) <= 1e-11 * (fabs (d) + 1e-3), "%s d(%g,%g): %.17g vs "
-                     "integral %.17g", families[k]->name, pt_y[i], pt_mu[i], d, 2.0 * v);
-      ck_assert_msg (d > 0.0, "%s d(%g,%g) = %g not > 0", families[k]->name, pt_y[i], pt_mu[i],
+                     "integral %.17g", FN (families[k]), pt_y[i], pt_mu[i], d, 2.0 * v);
+      ck_assert_msg (d > 0.0, "%s d(%g,%g) = %g not > 0", FN (families[k]), pt_y[i], pt_mu[i],
                      d);
     }
   }
   /* poisson at y = 0: the integrand is -1, so d = 2 mu */
   for (size_t i = 0; i < NPT; i++) {
-    const double d = bl_family_poisson.unit_dev (0.0, pt_mu[i]);
+    const double d = bl_family_dev (&bl_family_poisson, 0.0, pt_mu[i], 0.0);
     ck_assert_msg (fabs (d - 2.0 * pt_mu[i]) <= 1e-15 * d, "poisson d(0,%g) = %.17g",
                    pt_mu[i], d);
   }
@@ -135,10 +137,10 @@ START_TEST (family_logpdf_gsl)
   for (size_t k = 0; k < 4; k++)
     for (size_t i = 0; i < NPT; i++) {
       const double y = k == 1 ? ycount[i] : pt_y[i];
-      const double l = families[k]->logpdf (y, pt_mu[i], a[i], phi[k]);
+      const double l = bl_family_logpdf (families[k], y, pt_mu[i], a[i], phi[k], 0.0);
       const double r = gsl_logpdf (k, y, pt_mu[i], a[i], phi[k]);
       ck_assert_msg (fabs (l - r) <= 1e-12 * (1.0 + fabs (r)), "%s logpdf(%g,%g,a=%g): %.17g "
-                     "vs gsl %.17g", families[k]->name, y, pt_mu[i], a[i], l, r);
+                     "vs gsl %.17g", FN (families[k]), y, pt_mu[i], a[i], l, r);
     }
 }
 END_TEST
@@ -154,9 +156,9 @@ START_TEST (family_unit_dev_likelihood_ratio)
       const double l1 = gsl_logpdf (k, y, y == 0.0 ? 1e-300 : y, 1.0, phi[k]);
       const double l0 = gsl_logpdf (k, y, pt_mu[i], 1.0, phi[k]);
       const double want = 2.0 * phi[k] * (l1 - l0);
-      const double d = families[k]->unit_dev (y, pt_mu[i]);
+      const double d = bl_family_dev (families[k], y, pt_mu[i], 0.0);
       ck_assert_msg (fabs (d - want) <= 1e-11 * (1.0 + fabs (l1) + fabs (l0)), "%s d(%g,%g): "
-                     "%.17g vs likelihood ratio %.17g", families[k]->name, y, pt_mu[i], d, want);
+                     "%.17g vs likelihood ratio %.17g", FN (families[k]), y, pt_mu[i], d, want);
     }
 }
 END_TEST
@@ -172,14 +174,15 @@ START_TEST (family_variance)
     const double m = pt_mu[i];
     const double want[4] = { 1.0, m, m * m, m * m * m };
     for (size_t k = 0; k < 4; k++) {
-      const double v = families[k]->var (m);
+      const double v = bl_family_var (families[k], m, 0.0);
       const double y = pt_y[i], h = 1e-4 * y;
       const bl_family *f = families[k];
-      const double d2 = (f->unit_dev (y, y + h) - 2.0 * f->unit_dev (y, y)
-                         + f->unit_dev (y, y - h)) / (h * h);
-      ck_assert_msg (fabs (v - want[k]) <= 1e-15 * want[k], "%s V(%g) = %.17g", f->name, m, v);
-      ck_assert_msg (fabs (d2 - 2.0 / f->var (y)) <= 1e-5 * 2.0 / f->var (y), "%s d''(y=%g) "
-                     "= %.10g, 2/V = %.10g", f->name, y, d2, 2.0 / f->var (y));
+      const double d2 = (bl_family_dev (f, y, y + h, 0.0) - 2.0 * bl_family_dev (f, y, y, 0.0)
+                         + bl_family_dev (f, y, y - h, 0.0)) / (h * h);
+      ck_assert_msg (fabs (v - want[k]) <= 1e-15 * want[k], "%s V(%g) = %.17g", FN (f), m, v);
+      const double two_v = 2.0 / bl_family_var (f, y, 0.0);
+      ck_assert_msg (fabs (d2 - two_v) <= 1e-5 * two_v, "%s d''(y=%g) = %.10g, 2/V = %.10g",
+                     FN (f), y, d2, two_v);
     }
   }
 }
@@ -299,9 +302,9 @@ START_TEST (family_loglik_sum)
     l = bl_family_loglik (families[k], yy, pt_mu, a, NPT, 0.613);
     l1 = bl_family_loglik (families[k], yy, pt_mu, NULL, NPT, 0.613);
     ck_assert_msg (fabs (l - s) <= 1e-12 * fabs (s), "%s weighted loglik %.17g vs %.17g",
-                   families[k]->name, l, s);
+                   FN (families[k]), l, s);
     ck_assert_msg (fabs (l1 - s1) <= 1e-12 * fabs (s1), "%s unit loglik %.17g vs %.17g",
-                   families[k]->name, l1, s1);
+                   FN (families[k]), l1, s1);
   }
 }
 END_TEST
@@ -319,13 +322,13 @@ START_TEST (family_phi_ml_zero_deviance)
       ck_assert_msg (st == BL_OK && phi == 1.0, "poisson D=0: status %d phi %g", st, phi);
       continue;
     }
-    ck_assert_msg (st == BL_EDATA, "%s D=0: status %d", families[k]->name, st);
-    ck_assert_msg (err.code == BL_EDATA, "%s D=0: err.code %d", families[k]->name, err.code);
-    ck_assert_msg (strcmp (err.where, families[k]->name) == 0, "%s D=0: where '%s'",
-                   families[k]->name, err.where);
+    ck_assert_msg (st == BL_EDATA, "%s D=0: status %d", FN (families[k]), st);
+    ck_assert_msg (err.code == BL_EDATA, "%s D=0: err.code %d", FN (families[k]), err.code);
+    ck_assert_msg (strcmp (err.where, FN (families[k])) == 0, "%s D=0: where '%s'",
+                   FN (families[k]), err.where);
     ck_assert_msg (strstr (err.msg, "perfect fit") != NULL, "%s D=0: msg '%s'",
-                   families[k]->name, err.msg);
-    ck_assert_msg (phi == 123.0, "%s D=0: phi changed to %g", families[k]->name, phi);
+                   FN (families[k]), err.msg);
+    ck_assert_msg (phi == 123.0, "%s D=0: phi changed to %g", FN (families[k]), phi);
   }
 }
 END_TEST
@@ -351,7 +354,7 @@ START_TEST (family_find_names)
   const char *ln[3] = { "identity", "log", "inverse" };
   for (size_t k = 0; k < 4; k++) {
     ck_assert_msg (bl_family_find (fn[k]) == families[k], "bl_family_find '%s'", fn[k]);
-    ck_assert_str_eq (families[k]->name, fn[k]);
+    ck_assert_str_eq (FN (families[k]), fn[k]);
   }
   for (size_t l = 0; l < 3; l++) {
     ck_assert_msg (bl_link_find (ln[l]) == links[l], "bl_link_find '%s'", ln[l]);
@@ -363,20 +366,20 @@ END_TEST
 /* Descriptor flags, supports and default links (family.h). */
 START_TEST (family_descriptors)
 {
-  ck_assert_ptr_eq (bl_family_gaussian.default_link, &bl_link_identity);
-  ck_assert_ptr_eq (bl_family_poisson.default_link, &bl_link_log);
-  ck_assert_ptr_eq (bl_family_gamma.default_link, &bl_link_inverse);
-  ck_assert_ptr_eq (bl_family_invgauss.default_link, &bl_link_log);
-  ck_assert_int_eq (bl_family_gaussian.phi_free, 1);
-  ck_assert_int_eq (bl_family_poisson.phi_free, 0);
-  ck_assert_int_eq (bl_family_gamma.phi_free, 1);
-  ck_assert_int_eq (bl_family_invgauss.phi_free, 1);
-  ck_assert_int_eq (bl_family_poisson.discrete, 1);
-  ck_assert_int_eq (bl_family_gamma.discrete, 0);
-  ck_assert_str_eq (bl_family_gaussian.support, "any real y");
-  ck_assert_str_eq (bl_family_poisson.support, "y >= 0");
-  ck_assert_str_eq (bl_family_gamma.support, "y > 0");
-  ck_assert_str_eq (bl_family_invgauss.support, "y > 0");
+  ck_assert_ptr_eq (bl_family_default_link (&bl_family_gaussian), &bl_link_identity);
+  ck_assert_ptr_eq (bl_family_default_link (&bl_family_poisson), &bl_link_log);
+  ck_assert_ptr_eq (bl_family_default_link (&bl_family_gamma), &bl_link_inverse);
+  ck_assert_ptr_eq (bl_family_default_link (&bl_family_invgauss), &bl_link_log);
+  ck_assert_int_eq (bl_family_has (&bl_family_gaussian, BL_FAM_PHI_FREE), 1);
+  ck_assert_int_eq (bl_family_has (&bl_family_poisson, BL_FAM_PHI_FREE), 0);
+  ck_assert_int_eq (bl_family_has (&bl_family_gamma, BL_FAM_PHI_FREE), 1);
+  ck_assert_int_eq (bl_family_has (&bl_family_invgauss, BL_FAM_PHI_FREE), 1);
+  ck_assert_int_eq (bl_family_has (&bl_family_poisson, BL_FAM_DISCRETE), 1);
+  ck_assert_int_eq (bl_family_has (&bl_family_gamma, BL_FAM_DISCRETE), 0);
+  ck_assert_str_eq (bl_family_support (&bl_family_gaussian), "any real y");
+  ck_assert_str_eq (bl_family_support (&bl_family_poisson), "y >= 0");
+  ck_assert_str_eq (bl_family_support (&bl_family_gamma), "y > 0");
+  ck_assert_str_eq (bl_family_support (&bl_family_invgauss), "y > 0");
 }
 END_TEST
 
@@ -390,22 +393,25 @@ START_TEST (family_valid_ranges)
   };
   for (size_t k = 0; k < 4; k++) {
     const bl_family *f = families[k];
-    ck_assert_msg (!f->y_ok (NAN) && !f->y_ok (INFINITY) && !f->y_ok (-INFINITY), "%s y_ok "
-                   "non-finite", f->name);
-    ck_assert_msg (!f->valid_mu (NAN) && !f->valid_mu (INFINITY), "%s valid_mu non-finite",
-                   f->name);
+    ck_assert_msg (!bl_family_y_ok (f, NAN) && !bl_family_y_ok (f, INFINITY)
+                   && !bl_family_y_ok (f, -INFINITY), "%s y_ok "
+                   "non-finite", FN (f));
+    ck_assert_msg (!bl_family_mu_ok (f, NAN) && !bl_family_mu_ok (f, INFINITY),
+                   "%s valid_mu non-finite",
+                   FN (f));
     for (size_t i = 0; i < sizeof ys / sizeof ys[0]; i++) {
-      ck_assert_msg (!f->y_ok (ys[i]) == !ok[k][i], "%s y_ok(%g) = %d", f->name, ys[i],
-                     f->y_ok (ys[i]));
-      if (f->y_ok (ys[i]) && fabs (ys[i]) < 1e10) {
-        const double m = f->mustart (ys[i], 2.17);
-        ck_assert_msg (f->valid_mu (m), "%s mustart(%g) = %g outside the mean space", f->name,
+      ck_assert_msg (!bl_family_y_ok (f, ys[i]) == !ok[k][i], "%s y_ok(%g) = %d", FN (f), ys[i],
+                     bl_family_y_ok (f, ys[i]));
+      if (bl_family_y_ok (f, ys[i]) && fabs (ys[i]) < 1e10) {
+        const double m = bl_family_mustart (f, ys[i], 2.17);
+        ck_assert_msg (bl_family_mu_ok (f, m), "%s mustart(%g) = %g outside the mean space",
+                       FN (f),
                        ys[i], m);
       }
     }
-    ck_assert_msg (f->valid_mu (0.5), "%s valid_mu(0.5)", f->name);
-    ck_assert_msg (!f->valid_mu (0.0) == (k != 0), "%s valid_mu(0)", f->name);
-    ck_assert_msg (!f->valid_mu (-1.0) == (k != 0), "%s valid_mu(-1)", f->name);
+    ck_assert_msg (bl_family_mu_ok (f, 0.5), "%s valid_mu(0.5)", FN (f));
+    ck_assert_msg (!bl_family_mu_ok (f, 0.0) == (k != 0), "%s valid_mu(0)", FN (f));
+    ck_assert_msg (!bl_family_mu_ok (f, -1.0) == (k != 0), "%s valid_mu(-1)", FN (f));
   }
   /* links: log keeps exp(eta) finite and nonzero; inverse excludes eta = 0 */
   ck_assert (bl_link_identity.valid_eta (-1e300));

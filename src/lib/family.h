@@ -1,8 +1,10 @@
-/* family.h -- GLM variance families: gaussian, poisson, gamma, inverse gaussian.
+/* family.h -- the variance families: gaussian, poisson, gamma, inverse gaussian, negative
+   binomial, Tweedie.
 
-   A family is one static const descriptor; IRLS and the fit summary are written once against
-   it.  Dispersion convention: phi is the dispersion of a row with prior weight 1, so that row i
-   has Var(y_i) = phi V(mu_i) / a_i.  Gaussian phi = sigma^2, gamma phi = 1/shape, inverse
+   A family is one static const descriptor in its own file (family_NAME.c), listed in the one
+   family table of family.c; IRLS, the fit summary, the diagnostics, the comparer and the
+   writers are written once against it.  Dispersion convention: phi is the dispersion of a
+   row with prior weight 1, so that row i has Var(y_i) = phi V(mu_i) / a_i.  Gaussian phi = sigma^2, gamma phi = 1/shape, inverse
    gaussian phi = lambda^-1 (McCullagh & Nelder 1989, ch. 2 and table 2.1). */
 #ifndef BALLAST_FAMILY_H
 #define BALLAST_FAMILY_H
@@ -13,47 +15,42 @@
 extern "C" {
 #endif
 
-typedef struct bl_family {
-  const char *name;                       /* "gaussian", "poisson", "gamma", "inverse-gaussian" */
-  double (*var) (double mu);              /* V(mu) */
-  double (*unit_dev) (double y, double mu);   /* d(y, mu); D = sum a_i d_i */
-  int (*valid_mu) (double mu);            /* mu inside the family's mean space */
-  int (*y_ok) (double y);                 /* y inside the support */
-  const char *support;                    /* "any real y", "y >= 0", "y > 0" */
-  int phi_free;                           /* 1: dispersion estimated; 0: phi = 1 */
-  int discrete;                           /* 1: y is a count */
-  const bl_link *default_link;
-  /* Log density of y at mean mu with prior weight a and dispersion phi (ignored when the
-     dispersion is fixed).  For the discrete family, the log probability (lgamma form). */
-  double (*logpdf) (double y, double mu, double a, double phi);
-  /* A starting mean from y (and the weighted mean ybar) that lies in the mean space. */
-  double (*mustart) (double y, double ybar);
-  /* Families with a shape parameter PAR (negative binomial: theta; Tweedie: the power p)
-     give these instead of var, unit_dev and logpdf (which are then NULL); use the
-     bl_family_var / _dev / _logpdf wrappers below, which serve both kinds. */
-  double (*var_p) (double mu, double par);
-  double (*dev_p) (double y, double mu, double par);
-  double (*logpdf_p) (double y, double mu, double a, double phi, double par);
-  const char *par_name;                   /* "theta", "power"; NULL without a parameter */
-  unsigned flags;                         /* BL_FAM_... */
-  int par_kind;                           /* bl_family_par */
-} bl_family;
+/* The descriptor is opaque: its fields are in family_impl.h (not installed), read through
+   the functions below. */
+typedef struct bl_family bl_family;
 
-static inline double
-bl_family_var (const bl_family *f, double mu, double par)
-{
-  return f->var_p ? f->var_p (mu, par) : f->var (mu);
-}
-static inline double
-bl_family_dev (const bl_family *f, double y, double mu, double par)
-{
-  return f->dev_p ? f->dev_p (y, mu, par) : f->unit_dev (y, mu);
-}
-static inline double
-bl_family_logpdf (const bl_family *f, double y, double mu, double a, double phi, double par)
-{
-  return f->logpdf_p ? f->logpdf_p (y, mu, a, phi, par) : f->logpdf (y, mu, a, phi);
-}
+/* transitional: until every caller uses the accessors (fit.c, irls.c, model.c and some tests
+   still read fields), the descriptor stays visible here. */
+#include "family_impl.h"
+
+/* The per-row functions.  PAR is the family's shape parameter (negative binomial theta,
+   Tweedie power; ignored by the others), A the row's prior weight and PHI the dispersion of a
+   row with prior weight 1 (the row's own dispersion is phi / a): each call is one row, so a
+   per-row phi_i is passed as it is. */
+double bl_family_var (const bl_family *f, double mu, double par);             /* V(mu) */
+double bl_family_dev (const bl_family *f, double y, double mu, double par);   /* d(y, mu) */
+/* Log density of y (the log probability for a discrete family); PHI is ignored when the
+   dispersion is fixed. */
+double bl_family_logpdf (const bl_family *f, double y, double mu, double a, double phi,
+                         double par);
+
+/* Where a family's CDF has two roundings of one scale (the gamma: scale = mu phi / a, or
+   mu / shape with shape = a / phi), FORM picks one, so that the comparer's discretized
+   likelihood (BL_FAM_SCALE_MUL, also the prediction quantiles') and the quantile residuals
+   (BL_FAM_SCALE_DIV) keep the numbers they always had, bit for bit.  The other families
+   ignore it. */
+typedef enum bl_family_scale { BL_FAM_SCALE_MUL = 0, BL_FAM_SCALE_DIV = 1 } bl_family_scale;
+
+/* P(Y <= y) at (mu, a, phi, par): for a discrete family at the integer part of y (0 for
+   y < 0); 0 for y <= 0 when the support is y > 0; for the Tweedie the point mass at 0
+   included.  Sources in each family's file. */
+double bl_family_cdf (const bl_family *f, double y, double mu, double a, double phi,
+                      double par, bl_family_scale form);
+/* The PROB quantile at (mu, a, phi, par): for a discrete family the least integer k with
+   P(Y <= k) >= PROB (HUGE_VAL when PROB >= 1 or no k below UINT_MAX / 2 reaches it); for a
+   continuous one F^-1(PROB) (the Tweedie: 0 when PROB <= P(Y = 0)). */
+double bl_family_quantile (const bl_family *f, double prob, double mu, double a, double phi,
+                           double par);
 
 extern const bl_family bl_family_gaussian;
 extern const bl_family bl_family_poisson;
@@ -89,8 +86,11 @@ enum {
                                    it in the point-mass group) */
   BL_FAM_OVERDISP = 1u << 4,    /* phi fixed at 1 with no shape parameter: the Pearson
                                    dispersion tests it (overdispersion warning and advice) */
-  BL_FAM_ZERO_GROUP = 1u << 5   /* a level whose rows are all y = 0 has no finite log-mean
+  BL_FAM_ZERO_GROUP = 1u << 5,  /* a level whose rows are all y = 0 has no finite log-mean
                                    estimate: refused as not estimable */
+  BL_FAM_CDF_PHI_ML = 1u << 6   /* its quantile residuals take the CDF at the ML dispersion
+                                   (the one its shape parameter was estimated with), not at
+                                   the Pearson estimate */
 };
 int bl_family_has (const bl_family *f, unsigned flag);
 
@@ -109,13 +109,22 @@ const bl_link *bl_family_default_link (const bl_family *f);
 int bl_family_y_ok (const bl_family *f, double y);        /* y inside the support */
 int bl_family_mu_ok (const bl_family *f, double mu);      /* mu inside the mean space */
 double bl_family_mustart (const bl_family *f, double y, double ybar);
+/* The family in a sentence ("poisson", "the negative binomial", "Tweedie"), and the
+   complement of its support for messages ("y <= 0", "y < 0"; NULL when every real y is in
+   it). */
+const char *bl_family_noun (const bl_family *f);
+const char *bl_family_outside (const bl_family *f);
+/* K when the variance function is the fixed power mu^K (gaussian 0, poisson 1, gamma 2,
+   inverse gaussian 3); NAN for a family whose variance has a shape parameter. */
+double bl_family_var_power (const bl_family *f);
 
-/* Maximum-likelihood dispersion of FAM given the fitted means.  Y, MU have length N; A (prior
-   weights) may be NULL for all ones; DEV is the deviance sum a_i d_i at MU.
+/* Maximum-likelihood dispersion of FAM given the fitted means (the family's own hook).  Y,
+   MU have length N; A (prior weights) may be NULL for all ones; DEV is the deviance sum a_i d_i at MU.
    - gaussian: phi = D / n (D = sum a r^2);
    - gamma: phi = 1/nu where nu solves sum a_i [log(nu a_i) - psi(nu a_i)] = D/2 (the score
      equation of the gamma log-likelihood in the shape; McCullagh & Nelder 1989, section 8.3);
-   - inverse gaussian: phi = D / n;  - poisson: 1.
+   - inverse gaussian: phi = D / n;  - poisson, negative binomial: 1;
+   - Tweedie: D / n (its engine, famfit.c, maximizes the series likelihood itself).
    Returns BL_OK, or BL_EDATA when D == 0 (the dispersion MLE is 0: a perfect fit), or
    BL_ENOCONV when the gamma equation cannot be solved. */
 int bl_family_phi_ml (const bl_family *fam, const double *y, const double *mu, const double *a,

@@ -179,6 +179,17 @@ double bl_fit_family_par (const bl_fit *fit);
 #define BL_SMEAR_MAX 5000
 double bl_fit_backtransform (const bl_fit *fit, double xb, int smear);
 
+/* ---- Accessors for the readers of a fit (diag.c, compare.c), implemented in fit_access.c.
+   Pointers stay valid until bl_fit_free. */
+size_t bl_fit_n (const bl_fit *fit);              /* rows fitted */
+size_t bl_fit_p (const bl_fit *fit);              /* columns of the design */
+/* (X'WX)^-1 at the fit, p x p column-major; aliased rows and columns 0. */
+const double *bl_fit_cov_unscaled (const bl_fit *fit);
+/* The response on its original scale (length n): the design's y for a transformed fit,
+   otherwise the response fitted (bl_fit_y). */
+const double *bl_fit_y_original (const bl_fit *fit);
+/* ---- end of the accessors for the readers of a fit */
+
 #ifdef __cplusplus
 }
 #endif

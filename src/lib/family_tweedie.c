@@ -1,8 +1,13 @@
-/* tweedie.c -- the Tweedie density by the series of Dunn & Smyth (2005). */
+/* family_tweedie.c -- the Tweedie family, 1 < p < 2: V = mu^p, the compound Poisson-gamma
+   density by the series of Dunn & Smyth (2005), its CDF and quantile (tweedie.h), and the
+   family's descriptor.  The power p is the shape parameter (par), estimated by the family's
+   engine (famfit.c). */
 #define _GNU_SOURCE 1            /* lgamma_r: the C library's log-gamma without the global
                                     signgam, so the series is safe on several threads */
 #include <math.h>
 #include <gsl/gsl_sf_gamma.h>
+#include "family.h"
+#include "family_impl.h"
 #include "tweedie.h"
 
 static double
@@ -119,3 +124,38 @@ bl_tweedie_quantile (double prob, double mu, double phi, double p)
   }
   return 0.5 * (lo + hi);
 }
+
+/* ---- the descriptor: V = mu^p, the unit deviance, density, CDF and quantile above; the
+   row's dispersion is phi / a. */
+static double tw_var (double mu, double p) { return exp (p * log (mu)); }
+static double tw_dev (double y, double mu, double p) { return bl_tweedie_unit_dev (y, mu, p); }
+static double
+tw_logpdf (double y, double mu, double a, double phi, double p)
+{
+  return bl_tweedie_logpdf (y, mu, phi / a, p);
+}
+static double
+tw_cdf (double y, double mu, double a, double phi, double p, int form)
+{
+  (void) form;
+  return bl_tweedie_cdf (y, mu, phi / a, p);
+}
+static double
+tw_quantile (double prob, double mu, double a, double phi, double p)
+{
+  return bl_tweedie_quantile (prob, mu, phi / a, p);
+}
+/* A start inside mu > 0 also where y = 0 (common practice, no source). */
+static double tw_start (double y, double ybar) { return y + 0.1 * ybar; }
+
+/* The dispersion MLE hook gives D / n, as it always has; the Tweedie engine (famfit.c)
+   maximizes the series log-likelihood in phi itself. */
+const bl_family bl_family_tweedie = {
+  .name = "tweedie", .noun = "Tweedie", .support = "y >= 0", .outside = "y < 0",
+  .par_name = "power", .default_link = &bl_link_log,
+  .flags = BL_FAM_PHI_FREE | BL_FAM_ZERO_MASS | BL_FAM_CDF_PHI_ML,
+  .par_kind = BL_FAMPAR_POWER, .phi_free = 1, .var_power = NAN,
+  .y_ok = bl_family_y_nonneg, .valid_mu = bl_family_mu_pos, .mustart = tw_start,
+  .var = tw_var, .unit_dev = tw_dev, .logpdf = tw_logpdf, .cdf = tw_cdf,
+  .quantile = tw_quantile, .phi_ml = bl_family_phi_dev_n, .loglik_unit = NULL
+};
