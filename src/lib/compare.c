@@ -22,7 +22,6 @@
 #include "alloc.h"
 #include "compare.h"
 #include "diag.h"
-#include "fit_impl.h"
 
 typedef struct spec {
   const char *id;
@@ -175,7 +174,7 @@ cand_init (bl_candidate *k, const spec *sp, double lam)
 {
   k->description = sp->desc;
   k->method = bl_method_name (sp->method);
-  k->family = sp->fam->name;
+  k->family = bl_family_name (sp->fam);
   k->link = sp->link->name;
   k->transform = sp->tr == BL_TRANSFORM_LOG ? "log" : sp->tr == BL_TRANSFORM_SQRT ? "sqrt"
                  : sp->tr == BL_TRANSFORM_BOXCOX ? "boxcox" : NULL;
@@ -223,45 +222,39 @@ htrans (const bl_fit_transform_info *t, double y)
   }
 }
 
-/* P(Y <= x) for row i of a continuous fit at its ML dispersion, on y's original scale. */
+/* P(Y <= x) for row i of a continuous fit at its ML dispersion, on y's original scale: the
+   normal CDF of h(x) for a transformed fit, else the family's CDF hook (its gamma scale as
+   mu phi / a, BL_FAM_SCALE_MUL, the rounding this score always had). */
 static double
 cdf_orig (const bl_fit *f, size_t i, double x)
 {
-  const double a = f->a ? f->a[i] : 1.0, mu = f->mu[i], phi = f->st.phi_ml;
-  if (f->tr.kind != BL_TRANSFORM_NONE) {
+  const double *pw = bl_fit_prior_w (f);
+  const double a = pw ? pw[i] : 1.0, mu = bl_fit_mu (f)[i], phi = bl_fit_stats_get (f)->phi_ml;
+  const bl_fit_transform_info *tr = bl_fit_transform (f);
+  if (tr->kind != BL_TRANSFORM_NONE) {
     if (!(x > 0.0))
       return 0.0;
-    return gsl_cdf_gaussian_P (htrans (&f->tr, x) - mu, sqrt (phi / a));
+    return gsl_cdf_gaussian_P (htrans (tr, x) - mu, sqrt (phi / a));
   }
-  if (f->fam == &bl_family_gaussian)
-    return gsl_cdf_gaussian_P (x - mu, sqrt (phi / a));
-  if (!(x > 0.0))
-    return 0.0;
-  if (f->fam == &bl_family_gamma)
-    return gsl_cdf_gamma_P (x, a / phi, mu * phi / a);
-  {
-    const double lam = a / phi, s = sqrt (lam / x);
-    const double t2 = exp (2.0 * lam / mu + log (gsl_cdf_ugaussian_P (-s * (x / mu + 1.0))));
-    return gsl_cdf_ugaussian_P (s * (x / mu - 1.0)) + (isfinite (t2) ? t2 : 0.0);
-  }
+  return bl_family_cdf (bl_fit_family (f), x, mu, a, phi, bl_fit_family_par (f),
+                        BL_FAM_SCALE_MUL);
 }
 
+/* The discretized log-likelihood sum log [F(y + 1/2) - F(y - 1/2)] over the integer y >= 0,
+   the lower end clipped at y = 0 (all the mass below 1/2); a discrete family's own
+   log-likelihood already is one. */
 static double
 discrete_loglik (const bl_fit *f)
 {
+  const size_t n = bl_fit_n (f);
+  const double *yo = bl_fit_y_original (f);
   long double l = 0.0L;
-  if (f->fam == &bl_family_poisson || f->fam == &bl_family_negbin)
-    return f->st.loglik;
-  for (size_t i = 0; i < f->n; i++) {
-    const double y = f->y_own && f->tr.kind != BL_TRANSFORM_NONE
-                     ? bl_design_y (f->d)[i] : f->y[i];
+  if (bl_family_has (bl_fit_family (f), BL_FAM_DISCRETE))
+    return bl_fit_stats_get (f)->loglik;
+  for (size_t i = 0; i < n; i++) {
+    const double y = yo[i];
     const double hi = cdf_orig (f, i, y + 0.5);
-    const double lo = (y - 0.5 <= 0.0 && f->fam != &bl_family_gaussian)
-                      || (f->tr.kind != BL_TRANSFORM_NONE && y - 0.5 <= 0.0)
-                      || y <= 0.0 ? (f->fam == &bl_family_gaussian
-                                     && f->tr.kind == BL_TRANSFORM_NONE && y > 0.0
-                                     ? cdf_orig (f, i, y - 0.5) : 0.0)
-                      : cdf_orig (f, i, y - 0.5);
+    const double lo = y > 0.0 ? cdf_orig (f, i, y - 0.5) : 0.0;
     const double pr = hi - lo;
     if (!(pr > 0.0))
       return -HUGE_VAL;
@@ -274,9 +267,9 @@ discrete_loglik (const bl_fit *f)
 static double
 predict_mean (const bl_fit *f, double eta)
 {
-  if (f->method == BL_METHOD_GLM)
-    return f->link->ginv (eta);
-  if (f->tr.kind != BL_TRANSFORM_NONE)
+  if (bl_fit_method (f) == BL_METHOD_GLM)
+    return bl_fit_link (f)->ginv (eta);
+  if (bl_fit_transform (f)->kind != BL_TRANSFORM_NONE)
     return bl_fit_backtransform (f, eta, 1);
   return eta;
 }
@@ -309,7 +302,7 @@ cross_validate (const bl_design *d, const bl_compare_opts *opt, const spec *sp, 
   fit_opts_for (opt, sp, lam, &o);
   if (sp->tr == BL_TRANSFORM_BOXCOX && k->fit) {     /* lambda as estimated on all rows */
     o.lambda_est = 0;
-    o.lambda = k->fit->tr.lambda;
+    o.lambda = bl_fit_transform (k->fit)->lambda;
   }
   o.se = BL_SE_MODEL;
   for (size_t g = 0; g < K; g++) {
@@ -330,16 +323,16 @@ cross_validate (const bl_design *d, const bl_compare_opts *opt, const spec *sp, 
       goto done;
     }
     ft = bl_fit_glm (sub, &o, &e);
-    if ((ft ? ft->status.code : e.code) == BL_ENOMEM) {
+    if ((ft ? bl_fit_status (ft)->code : e.code) == BL_ENOMEM) {
       /* exhaustion is the caller's error, not a note about the fold (compare.h) */
       st = bl_fail (err, BL_ENOMEM, "compare", "out of memory");
       bl_fit_free (ft);
       bl_design_free (sub);
       goto done;
     }
-    if (!ft || !ft->st.converged) {
+    if (!ft || !bl_fit_stats_get (ft)->converged) {
       if (bl_warnings_add (&k->notes, "cross-validation: fold %zu could not be fitted (%s)",
-                           g + 1, ft ? ft->status.msg : e.msg) != BL_OK)
+                           g + 1, ft ? bl_fit_status (ft)->msg : e.msg) != BL_OK)
         st = bl_fail (err, BL_ENOMEM, "compare", "out of memory");
       bl_fit_free (ft);
       bl_design_free (sub);
@@ -359,8 +352,8 @@ cross_validate (const bl_design *d, const bl_compare_opts *opt, const spec *sp, 
         if (fold[r0 + i] != g)
           continue;
         for (size_t j = 0; j < p; j++)
-          if (!ft->aliased[j])
-            eta += blk[i + j * BL_IRLS_BLOCK] * ft->beta[j];
+          if (!bl_fit_aliased (ft)[j])
+            eta += blk[i + j * BL_IRLS_BLOCK] * bl_fit_beta (ft)[j];
         res = y[r0 + i] - predict_mean (ft, eta);
         se += (long double) res * res;
         ae += fabs (res);
@@ -390,8 +383,8 @@ seed_for (unsigned long seed, const char *id)
 static int
 score (bl_candidate *k, const bl_compare_opts *opt, bl_err *err)
 {
-  bl_fit *f = k->fit;
-  const size_t n = f->n;
+  const bl_fit *f = k->fit;
+  const size_t n = bl_fit_n (f);
   double *r = bl_mallocn (n ? n : 1, sizeof *r);
   gsl_rng *rng = gsl_rng_alloc (gsl_rng_mt19937);
   bl_spread sp;
@@ -402,7 +395,7 @@ score (bl_candidate *k, const bl_compare_opts *opt, bl_err *err)
   }
   gsl_rng_set (rng, seed_for (opt->seed, k->id));
   bl_pearson_residuals (f, r);
-  if ((st = bl_spread_compute (f->mu, r, n, rng, opt->null_reps, &sp, err)) != BL_OK)
+  if ((st = bl_spread_compute (bl_fit_mu (f), r, n, rng, opt->null_reps, &sp, err)) != BL_OK)
     goto done;
   k->spread_ratio = sp.ratio;
   k->spread_null95 = sp.null95;
@@ -427,75 +420,383 @@ done:
   return st;
 }
 
+/* What bl_compare_run learns of y once: every y > 0 (the transforms' need) and every
+   y >= 0; each family's own support test is asked per candidate (applicable). */
+typedef struct yscan {
+  int pos_y, nonneg_y;
+} yscan;
+
+/* Whether every y of D lies in FAM's support (the family's own test). */
+static int
+in_support (const bl_family *fam, const bl_design *d)
+{
+  const size_t n = bl_design_n (d);
+  const double *y = bl_design_y (d);
+  for (size_t i = 0; i < n; i++)
+    if (!bl_family_y_ok (fam, y[i]))
+      return 0;
+  return 1;
+}
+
+/* Why candidate SP is not fitted to D, written to BUF (LEN bytes), or NULL when it is.  The
+   family's reasons come from its descriptor: its support and the complement's text, its
+   name in a sentence, and the properties (a count family needs integer y; a family with a
+   point mass at 0 is fitted by default only when y has exact zeros and non-integer
+   values). */
+static const char *
+applicable (const bl_compare *c, const spec *sp, const bl_design *d, const yscan *ys,
+            char *buf, size_t len)
+{
+  const bl_family *fam = sp->fam;
+  const int discrete = bl_family_has (fam, BL_FAM_DISCRETE);
+  const int mass = bl_family_has (fam, BL_FAM_ZERO_MASS);
+  if (bl_design_offset (d) && sp->method != BL_METHOD_GLM)
+    return "not applicable: with an offset only GLM candidates are fitted";
+  if (sp->tr != BL_TRANSFORM_NONE && !ys->pos_y)
+    return "not applicable: it needs y > 0, and some y <= 0 (no rows are dropped to make it "
+           "fit)";
+  if (!discrete && !mass && !in_support (fam, d))
+    snprintf (buf, len, "not applicable: it needs %s, and some %s (no rows are dropped to "
+              "make it fit)", bl_family_support (fam), bl_family_outside (fam));
+  else if (discrete && !c->integer_y)
+    snprintf (buf, len, "not applicable: %s needs integer-valued %s", bl_family_noun (fam),
+              bl_family_support (fam));
+  else if (mass && c->default_list && !c->zero_groups)
+    snprintf (buf, len, "left out by default: %s is fitted when %s has exact zeros and "
+              "non-integer values (ask for it with --candidates)", bl_family_noun (fam),
+              bl_family_support (fam));
+  else if (mass && !in_support (fam, d))
+    snprintf (buf, len, "not applicable: %s needs %s", bl_family_noun (fam),
+              bl_family_support (fam));
+  else
+    return NULL;
+  return buf;
+}
+
+/* Add a note to candidate K: BL_OK, or BL_ENOMEM in ERR. */
+#define NOTE(k, ...) (bl_warnings_add (&(k)->notes, __VA_ARGS__) == BL_OK ? BL_OK \
+                      : bl_fail (err, BL_ENOMEM, "compare", "out of memory"))
+
+/* Copy a converged fit's figures into candidate K and score it. */
+static int
+take_fit (bl_compare *c, bl_candidate *k, const spec *sp, const bl_compare_opts *opt,
+          bl_err *err)
+{
+  const bl_fit_stats *st = bl_fit_stats_get (k->fit);
+  const bl_warnings *fw = bl_fit_warnings (k->fit);
+  k->loglik = st->loglik;
+  k->aic = st->aic;
+  k->aicc = st->aicc;
+  k->bic = st->bic;
+  if (sp->tr == BL_TRANSFORM_BOXCOX)
+    k->lambda = bl_fit_transform (k->fit)->lambda;
+  if (sp->var != BL_VARIANCE_NONE)
+    k->variance_power = bl_fit_variance (k->fit)->power;
+  if (bl_family_par_kind (sp->fam) == BL_FAMPAR_THETA)
+    k->theta = st->fam_par;
+  if (bl_family_par_kind (sp->fam) == BL_FAMPAR_POWER)
+    k->power = st->fam_par;
+  for (size_t w = 0; w < fw->n; w++)
+    if (NOTE (k, "%s", fw->msg[w]) != BL_OK)
+      return BL_ENOMEM;
+  if (c->integer_y && isfinite (k->loglik)) {
+    k->loglik_discrete = discrete_loglik (k->fit);
+    k->aic_discrete = isfinite (k->loglik_discrete)
+                      ? -2.0 * k->loglik_discrete + 2.0 * (double) k->k : NAN;
+  }
+  return score (k, opt, err);
+}
+
 static int
 fit_candidate (bl_compare *c, size_t i, const bl_design *d, const bl_compare_opts *opt,
-               int pos_y, int int_y, int nonneg_y, bl_err *err)
+               const yscan *ys, bl_err *err)
 {
   bl_candidate *k = &c->c[i];
   const spec *sp = &c->sp[i];
   bl_fit_opts o;
   bl_err e;
-  const char *why = NULL;
+  char buf[256];
+  const char *why;
   cand_init (k, sp, c->lam[i]);
   k->n = bl_design_n (d);
-  if (bl_design_offset (d) && sp->method != BL_METHOD_GLM)
-    why = "not applicable: with an offset only GLM candidates are fitted";
-  else if ((sp->tr != BL_TRANSFORM_NONE || sp->fam == &bl_family_gamma
-            || sp->fam == &bl_family_invgauss) && !pos_y)
-    why = "not applicable: it needs y > 0, and some y <= 0 (no rows are dropped to make it "
-          "fit)";
-  else if ((sp->fam == &bl_family_poisson || sp->fam == &bl_family_negbin) && !int_y)
-    why = sp->fam == &bl_family_poisson ? "not applicable: poisson needs integer-valued y >= 0"
-          : "not applicable: the negative binomial needs integer-valued y >= 0";
-  else if (sp->fam == &bl_family_tweedie && c->default_list && !c->zero_groups)
-    why = "left out by default: Tweedie is fitted when y >= 0 has exact zeros and non-integer "
-          "values (ask for it with --candidates)";
-  else if (sp->fam == &bl_family_tweedie && !nonneg_y)
-    why = "not applicable: Tweedie needs y >= 0";
-  if (why) {
+  if ((why = applicable (c, sp, d, ys, buf, sizeof buf)) != NULL) {
     k->applicable = 0;
-    return bl_warnings_add (&k->notes, "%s", why) == BL_OK ? BL_OK
-           : bl_fail (err, BL_ENOMEM, "compare", "out of memory");
+    return NOTE (k, "%s", why);
   }
   fit_opts_for (opt, sp, c->lam[i], &o);
   k->fit = bl_fit_glm (d, &o, &e);
   if (!k->fit) {
     if (e.code == BL_ENOMEM)
       return bl_fail (err, BL_ENOMEM, "compare", "out of memory");
-    return bl_warnings_add (&k->notes, "failed: %s%s%s", e.where, e.where[0] ? ": " : "",
-                            e.msg) == BL_OK ? BL_OK
-           : bl_fail (err, BL_ENOMEM, "compare", "out of memory");
+    return NOTE (k, "failed: %s%s%s", e.where, e.where[0] ? ": " : "", e.msg);
   }
   {
-    const bl_fit_stats *st = &k->fit->st;
+    const bl_fit_stats *st = bl_fit_stats_get (k->fit);
     k->converged = st->converged;
     k->rank = st->rank;
     k->k = st->k;
     if (!st->converged)
-      return bl_warnings_add (&k->notes, "failed: %s", k->fit->status.msg) == BL_OK ? BL_OK
-             : bl_fail (err, BL_ENOMEM, "compare", "out of memory");
-    k->loglik = st->loglik;
-    k->aic = st->aic;
-    k->aicc = st->aicc;
-    k->bic = st->bic;
-    if (sp->tr == BL_TRANSFORM_BOXCOX)
-      k->lambda = k->fit->tr.lambda;
-    if (sp->var != BL_VARIANCE_NONE)
-      k->variance_power = k->fit->var.power;
-    if (sp->fam == &bl_family_negbin)
-      k->theta = st->fam_par;
-    if (sp->fam == &bl_family_tweedie)
-      k->power = st->fam_par;
-    for (size_t w = 0; w < k->fit->warn.n; w++)
-      if (bl_warnings_add (&k->notes, "%s", k->fit->warn.msg[w]) != BL_OK)
-        return bl_fail (err, BL_ENOMEM, "compare", "out of memory");
-    if (c->integer_y && isfinite (k->loglik)) {
-      k->loglik_discrete = discrete_loglik (k->fit);
-      k->aic_discrete = isfinite (k->loglik_discrete)
-                        ? -2.0 * k->loglik_discrete + 2.0 * (double) k->k : NAN;
+      return NOTE (k, "failed: %s", bl_fit_status (k->fit)->msg);
+  }
+  return take_fit (c, k, sp, opt, err);
+}
+
+/* After candidate I (ls-bc, lambda estimated) converged: insert ls-bc=L right after it for
+   the practical Box-Cox power L, when it is not a transform already in the table. */
+static void
+add_practical (bl_compare *c, size_t i)
+{
+  const double L = bl_fit_transform (c->c[i].fit)->lambda_practical;
+  char id[40];
+  int dup = 0;
+  if (!isfinite (L) || L == 0.0 || L == 0.5 || L == 1.0)
+    return;
+  snprintf (id, sizeof id, "ls-bc=%g", L);
+  for (size_t j = 0; j < c->nc; j++)
+    dup |= strcmp (c->c[j].id, id) == 0;
+  if (dup)
+    return;
+  memmove (&c->c[i + 2], &c->c[i + 1], (c->nc - i - 1) * sizeof c->c[0]);
+  memmove (&c->sp[i + 2], &c->sp[i + 1], (c->nc - i - 1) * sizeof c->sp[0]);
+  memmove (&c->lam[i + 2], &c->lam[i + 1], (c->nc - i - 1) * sizeof c->lam[0]);
+  memset (&c->c[i + 1], 0, sizeof c->c[0]);
+  snprintf (c->c[i + 1].id, sizeof c->c[i + 1].id, "%s", id);
+  lookup (id, &c->sp[i + 1], &c->lam[i + 1]);
+  c->nc++;
+}
+
+/* Fit and score every candidate, polling the cancel flag between them. */
+static int
+fit_all (bl_compare *c, const bl_design *d, const bl_compare_opts *opt, const yscan *ys,
+         bl_err *err)
+{
+  int st = BL_OK;
+  for (size_t i = 0; i < c->nc && st == BL_OK; i++) {
+    if (cancel_set (opt))
+      return bl_fail (err, BL_ECANCEL, "compare", "the comparison was cancelled");
+    st = fit_candidate (c, i, d, opt, ys, err);
+    if (st == BL_OK && c->sp[i].tr == BL_TRANSFORM_BOXCOX && c->sp[i].lambda_est
+        && c->c[i].fit && c->c[i].converged && c->nc < BL_COMPARE_MAX)
+      add_practical (c, i);
+  }
+  if (st == BL_OK && cancel_set (opt))        /* the last candidate's fit was cut short */
+    st = bl_fail (err, BL_ECANCEL, "compare", "the comparison was cancelled");
+  return st;
+}
+
+/* Whether candidate I is ranked in group GRP (NULL: a single group). */
+static int
+in_group (const bl_compare *c, size_t i, const char *grp)
+{
+  return !grp || strcmp (c->c[i].group, grp) == 0;
+}
+
+/* Deltas, Akaike weights and positions by rank_by within group GRP; returns its best
+   candidate's index or -1. */
+static long
+rank_group (bl_compare *c, const char *grp)
+{
+  double gbest = HUGE_VAL, wsum = 0.0;
+  long gwin = -1;
+  for (size_t i = 0; i < c->nc; i++) {
+    const double s = c->integer_y ? c->c[i].aic_discrete : c->c[i].aic;
+    if (in_group (c, i, grp) && c->c[i].converged && isfinite (s) && s < gbest) {
+      gbest = s;
+      gwin = (long) i;
     }
   }
-  return score (k, opt, err);
+  for (size_t i = 0; i < c->nc; i++) {
+    const double s = c->integer_y ? c->c[i].aic_discrete : c->c[i].aic;
+    if (in_group (c, i, grp) && c->c[i].converged && isfinite (s)) {
+      c->c[i].delta_aic = s - gbest;
+      wsum += exp (-0.5 * c->c[i].delta_aic);
+    }
+  }
+  for (size_t i = 0; i < c->nc; i++) {
+    size_t pos = 1;
+    if (!in_group (c, i, grp) || !isfinite (c->c[i].delta_aic))
+      continue;
+    c->c[i].akaike_weight = exp (-0.5 * c->c[i].delta_aic) / wsum;
+    for (size_t j = 0; j < c->nc; j++)
+      if (j != i && isfinite (c->c[j].delta_aic) && in_group (c, j, grp)
+          && (c->c[j].delta_aic < c->c[i].delta_aic
+              || (c->c[j].delta_aic == c->c[i].delta_aic && j < i)))
+        pos++;
+    c->c[i].rank_position = pos;
+  }
+  return gwin;
+}
+
+/* Ranking by rank_by over the converged candidates with a finite score; with exact zeros in
+   non-integer y, within each group (a density and a mixed likelihood are not on one scale:
+   a family with a point mass at 0 ranks in the point-mass group), the winner from the
+   point-mass group when it has one. */
+static void
+rank_all (bl_compare *c)
+{
+  for (size_t i = 0; i < c->nc; i++)
+    if (c->zero_groups)
+      c->c[i].group = bl_family_has (c->sp[i].fam, BL_FAM_ZERO_MASS) ? "point-mass"
+                      : "continuous";
+  for (int pass = 0; pass < (c->zero_groups ? 2 : 1); pass++) {
+    const char *grp = !c->zero_groups ? NULL : pass == 0 ? "point-mass" : "continuous";
+    const long gwin = rank_group (c, grp);
+    if (c->winner < 0 && gwin >= 0)
+      c->winner = gwin;
+  }
+}
+
+/* Cross-validation of every converged candidate, with folds from one seeded permutation;
+   c->folds = 0 when there are too few rows. */
+static int
+cv_all (bl_compare *c, const bl_design *d, const bl_compare_opts *opt, bl_err *err)
+{
+  const size_t n = bl_design_n (d);
+  gsl_rng *rng = NULL;
+  size_t *fold = NULL, *perm = NULL;
+  int st = BL_OK;
+  if (!(opt->folds >= 2 && n >= opt->folds)) {
+    c->folds = 0;
+    goto done;
+  }
+  rng = gsl_rng_alloc (gsl_rng_mt19937);
+  fold = bl_mallocn (n, sizeof *fold);
+  perm = bl_mallocn (n, sizeof *perm);
+  if (!rng || !fold || !perm) {
+    st = bl_fail (err, BL_ENOMEM, "compare", "out of memory");
+    goto done;
+  }
+  gsl_rng_set (rng, opt->seed);
+  for (size_t i = 0; i < n; i++)
+    perm[i] = i;
+  gsl_ran_shuffle (rng, perm, n, sizeof *perm);
+  for (size_t i = 0; i < n; i++)
+    fold[perm[i]] = i % opt->folds;
+  for (size_t i = 0; i < c->nc && st == BL_OK; i++)
+    if (c->c[i].converged)
+      st = cross_validate (d, opt, &c->sp[i], c->lam[i], fold, &c->c[i], err);
+done:
+  if (rng)
+    gsl_rng_free (rng);
+  bl_free (fold);
+  bl_free (perm);
+  if (st == BL_OK && cancel_set (opt))         /* a fold's fit was cut short */
+    st = bl_fail (err, BL_ECANCEL, "compare", "the comparison was cancelled");
+  return st;
+}
+
+/* Add an advice line: BL_OK, or BL_ENOMEM in ERR. */
+#define ADVISE(...) (bl_warnings_add (&c->advice, __VA_ARGS__) == BL_OK ? BL_OK \
+                     : bl_fail (err, BL_ENOMEM, "compare", "out of memory"))
+
+/* The advice about the winner: why it won, its ties, its spread and its lack of fit. */
+static int
+advise_winner (bl_compare *c, const bl_compare_opts *opt, bl_err *err)
+{
+  const bl_candidate *w = &c->c[c->winner];
+  bl_diag_opts dopt;
+  bl_diag *dg;
+  int st;
+  if (ADVISE ("ranked first by %s: %s (%s)", c->integer_y ? "the discretized AIC" : "AIC",
+              w->id, w->description) != BL_OK)
+    return BL_ENOMEM;
+  for (size_t i = 0; i < c->nc; i++)
+    if ((long) i != c->winner && isfinite (c->c[i].delta_aic)
+        && c->c[i].delta_aic < BL_COMPARE_DELTA
+        && ADVISE ("%s is within %g of the winner (delta %.3g): the data do not separate "
+                   "them; prefer the simpler or the one that predicts better", c->c[i].id,
+                   BL_COMPARE_DELTA, c->c[i].delta_aic) != BL_OK)
+      return BL_ENOMEM;
+  if (w->spread_flag
+      && ADVISE ("the winner's residual spread still changes across the fitted range (ratio "
+                 "%.3g, above its null 95%% point %.3g): its variance model does not fully "
+                 "account for the data", w->spread_ratio, w->spread_null95) != BL_OK)
+    return BL_ENOMEM;
+  bl_diag_opts_init (&dopt);
+  dopt.seed = opt->seed;
+  dopt.null_reps = 0;
+  dopt.cancel = opt->fit.irls.cancel;
+  if (!(dg = bl_diag_new (w->fit, &dopt, err)))
+    return err ? err->code : BL_EINTERNAL;
+  st = bl_diag_get (dg)->lof.flag
+       ? ADVISE ("the winner's residual means drift against the fitted values or a term "
+                 "(lack of fit): fix the mean model (the terms) before trusting any variance "
+                 "treatment") : BL_OK;
+  bl_diag_free (dg);
+  return st;
+}
+
+/* The advice on a family whose dispersion the Pearson statistic tests (BL_FAM_OVERDISP)
+   when it is overdispersed. */
+static int
+advise_overdisp (bl_compare *c, bl_err *err)
+{
+  for (size_t i = 0; i < c->nc; i++) {
+    const bl_fit *f = c->c[i].fit;
+    if (f && c->c[i].converged && bl_family_has (bl_fit_family (f), BL_FAM_OVERDISP)
+        && bl_fit_stats_get (f)->phi_pearson > BL_FIT_OVERDISPERSION
+        && ADVISE ("%s is overdispersed (Pearson chi2 / dof = %.3g): its standard errors are "
+                   "too small and its likelihood too confident",
+                   bl_family_name (bl_fit_family (f)), bl_fit_stats_get (f)->phi_pearson)
+           != BL_OK)
+      return BL_ENOMEM;
+  }
+  return BL_OK;
+}
+
+/* The comparison, from the properties, of that count family (BL_FAM_OVERDISP) with the one
+   that adds a theta to its variance (BL_FAMPAR_THETA). */
+static int
+advise_theta (bl_compare *c, bl_err *err)
+{
+  long po = -1, nb = -1;
+  double gain;
+  const char *pn, *nn;
+  for (size_t i = 0; i < c->nc; i++) {
+    if (c->c[i].converged && bl_family_has (c->sp[i].fam, BL_FAM_OVERDISP))
+      po = (long) i;
+    if (c->c[i].converged && bl_family_par_kind (c->sp[i].fam) == BL_FAMPAR_THETA)
+      nb = (long) i;
+  }
+  if (po < 0 || nb < 0 || !isfinite (c->c[po].aic) || !isfinite (c->c[nb].aic))
+    return BL_OK;
+  gain = c->c[po].aic - c->c[nb].aic;
+  pn = bl_family_noun (c->sp[po].fam);
+  nn = bl_family_noun (c->sp[nb].fam);
+  if (gain > 10.0)
+    return ADVISE ("%s beats %s by %.3g AIC (theta %.3g): the counts are overdispersed, and "
+                   "%s's standard errors are too small", nn, pn, gain, c->c[nb].theta, pn);
+  if (gain > BL_COMPARE_DELTA)
+    return ADVISE ("%s is better than %s by %.3g AIC (theta %.3g): some overdispersion, not a "
+                   "clear margin; check with new data", nn, pn, gain, c->c[nb].theta);
+  if (gain > -BL_COMPARE_DELTA)
+    return ADVISE ("%s and %s tie (AIC difference %.3g): no clear overdispersion; the simpler "
+                   "%s suffices", nn, pn, gain, pn);
+  return BL_OK;
+}
+
+static int
+advise (bl_compare *c, const bl_compare_opts *opt, bl_err *err)
+{
+  int st;
+  if (c->winner >= 0)
+    st = advise_winner (c, opt, err);
+  else
+    st = ADVISE ("no candidate could be fitted and scored");
+  if (st != BL_OK)
+    return st;
+  if (advise_overdisp (c, err) != BL_OK)
+    return BL_ENOMEM;
+  if (c->zero_groups
+      && ADVISE ("y has exact zeros: only candidates with a point mass at zero (Tweedie) can "
+                 "account for them; the continuous candidates give zeros a density, not a "
+                 "probability, so they are ranked in a group of their own and their AICs are "
+                 "not compared with Tweedie's") != BL_OK)
+    return BL_ENOMEM;
+  if (advise_theta (c, err) != BL_OK)
+    return BL_ENOMEM;
+  return ADVISE ("a ranking is evidence, not proof: validate the chosen model on new data "
+                 "before acting on it");
 }
 
 bl_compare *
@@ -504,9 +805,8 @@ bl_compare_run (const bl_design *d, const bl_compare_opts *opt, bl_err *err)
   bl_compare *c = bl_calloc (1, sizeof *c);
   const size_t n = bl_design_n (d);
   const double *y = bl_design_y (d);
-  size_t *fold = NULL, *perm = NULL;
-  int pos_y = 1, nonneg_y = 1, any_zero = 0, st = BL_OK;
-  double wsum = 0.0;
+  yscan ys = { 1, 1 };
+  int any_zero = 0, st;
   if (!c) {
     bl_fail (err, BL_ENOMEM, "compare", "out of memory");
     return NULL;
@@ -516,226 +816,28 @@ bl_compare_run (const bl_design *d, const bl_compare_opts *opt, bl_err *err)
   c->winner = -1;
   c->integer_y = 1;
   c->default_list = opt->candidates == NULL;
-  if (parse_list (opt->candidates ? opt->candidates : BL_COMPARE_DEFAULT, c, err) != BL_OK) {
-    bl_free (c);
-    return NULL;
-  }
+  if ((st = parse_list (opt->candidates ? opt->candidates : BL_COMPARE_DEFAULT, c, err))
+      != BL_OK)
+    goto done;
   for (size_t i = 0; i < n; i++) {
-    pos_y &= y[i] > 0.0;
-    nonneg_y &= y[i] >= 0.0;
+    ys.pos_y &= y[i] > 0.0;
+    ys.nonneg_y &= y[i] >= 0.0;
     any_zero |= y[i] == 0.0;
     c->integer_y &= y[i] >= 0.0 && y[i] == floor (y[i]);
   }
-  c->zero_groups = any_zero && nonneg_y && !c->integer_y;
-  for (size_t i = 0; i < c->nc && st == BL_OK; i++) {
-    if (cancel_set (opt)) {
-      st = bl_fail (err, BL_ECANCEL, "compare", "the comparison was cancelled");
-      break;
-    }
-    st = fit_candidate (c, i, d, opt, pos_y, c->integer_y, nonneg_y, err);
-    /* the practical Box-Cox power, when it is not a transform already in the table */
-    if (st == BL_OK && c->sp[i].tr == BL_TRANSFORM_BOXCOX && c->sp[i].lambda_est
-        && c->c[i].fit && c->c[i].converged && c->nc < BL_COMPARE_MAX) {
-      const double L = c->c[i].fit->tr.lambda_practical;
-      char id[40];
-      int dup = 0;
-      if (isfinite (L) && L != 0.0 && L != 0.5 && L != 1.0) {
-        snprintf (id, sizeof id, "ls-bc=%g", L);
-        for (size_t j = 0; j < c->nc; j++)
-          dup |= strcmp (c->c[j].id, id) == 0;
-        if (!dup) {
-          /* insert right after ls-bc */
-          memmove (&c->c[i + 2], &c->c[i + 1], (c->nc - i - 1) * sizeof c->c[0]);
-          memmove (&c->sp[i + 2], &c->sp[i + 1], (c->nc - i - 1) * sizeof c->sp[0]);
-          memmove (&c->lam[i + 2], &c->lam[i + 1], (c->nc - i - 1) * sizeof c->lam[0]);
-          memset (&c->c[i + 1], 0, sizeof c->c[0]);
-          snprintf (c->c[i + 1].id, sizeof c->c[i + 1].id, "%s", id);
-          lookup (id, &c->sp[i + 1], &c->lam[i + 1]);
-          c->nc++;
-        }
-      }
-    }
+  c->zero_groups = any_zero && ys.nonneg_y && !c->integer_y;
+  if ((st = fit_all (c, d, opt, &ys, err)) != BL_OK)
+    goto done;
+  rank_all (c);
+  if ((st = cv_all (c, d, opt, err)) != BL_OK)
+    goto done;
+  st = advise (c, opt, err);
+done:
+  if (st != BL_OK) {
+    bl_compare_free (c);
+    return NULL;
   }
-  if (st == BL_OK && cancel_set (opt))        /* the last candidate's fit was cut short */
-    st = bl_fail (err, BL_ECANCEL, "compare", "the comparison was cancelled");
-  if (st != BL_OK)
-    goto fail;
-
-  /* ranking by rank_by over the converged candidates with a finite score; with exact zeros
-     in non-integer y, within each group (a density and a mixed likelihood are not on one
-     scale), the winner from the point-mass group when it has one */
-  for (size_t i = 0; i < c->nc; i++)
-    if (c->zero_groups)
-      c->c[i].group = c->sp[i].fam == &bl_family_tweedie ? "point-mass" : "continuous";
-  for (int pass = 0; pass < (c->zero_groups ? 2 : 1); pass++) {
-    const char *grp = !c->zero_groups ? NULL : pass == 0 ? "point-mass" : "continuous";
-    double gbest = HUGE_VAL;
-    long gwin = -1;
-    wsum = 0.0;
-    for (size_t i = 0; i < c->nc; i++) {
-      const double s = c->integer_y ? c->c[i].aic_discrete : c->c[i].aic;
-      if (grp && strcmp (c->c[i].group, grp) != 0)
-        continue;
-      if (c->c[i].converged && isfinite (s) && s < gbest) {
-        gbest = s;
-        gwin = (long) i;
-      }
-    }
-    for (size_t i = 0; i < c->nc; i++) {
-      const double s = c->integer_y ? c->c[i].aic_discrete : c->c[i].aic;
-      if (grp && strcmp (c->c[i].group, grp) != 0)
-        continue;
-      if (c->c[i].converged && isfinite (s)) {
-        c->c[i].delta_aic = s - gbest;
-        wsum += exp (-0.5 * c->c[i].delta_aic);
-      }
-    }
-    for (size_t i = 0; i < c->nc; i++) {
-      size_t pos = 1;
-      if ((grp && strcmp (c->c[i].group, grp) != 0) || !isfinite (c->c[i].delta_aic))
-        continue;
-      c->c[i].akaike_weight = exp (-0.5 * c->c[i].delta_aic) / wsum;
-      for (size_t j = 0; j < c->nc; j++)
-        if (j != i && isfinite (c->c[j].delta_aic)
-            && (!grp || strcmp (c->c[j].group, grp) == 0)
-            && (c->c[j].delta_aic < c->c[i].delta_aic
-                || (c->c[j].delta_aic == c->c[i].delta_aic && j < i)))
-          pos++;
-      c->c[i].rank_position = pos;
-    }
-    if (c->winner < 0 && gwin >= 0)
-      c->winner = gwin;
-  }
-
-  /* cross-validation, with folds from one seeded permutation */
-  if (opt->folds >= 2 && n >= opt->folds) {
-    gsl_rng *rng = gsl_rng_alloc (gsl_rng_mt19937);
-    fold = bl_mallocn (n, sizeof *fold);
-    perm = bl_mallocn (n, sizeof *perm);
-    if (!rng || !fold || !perm) {
-      if (rng)
-        gsl_rng_free (rng);
-      bl_fail (err, BL_ENOMEM, "compare", "out of memory");
-      goto fail;
-    }
-    gsl_rng_set (rng, opt->seed);
-    for (size_t i = 0; i < n; i++)
-      perm[i] = i;
-    gsl_ran_shuffle (rng, perm, n, sizeof *perm);
-    for (size_t i = 0; i < n; i++)
-      fold[perm[i]] = i % opt->folds;
-    gsl_rng_free (rng);
-    for (size_t i = 0; i < c->nc; i++)
-      if (c->c[i].converged
-          && cross_validate (d, opt, &c->sp[i], c->lam[i], fold, &c->c[i], err) != BL_OK)
-        goto fail;
-  } else {
-    c->folds = 0;
-  }
-  if (cancel_set (opt)) {             /* a fold's fit was cut short */
-    bl_fail (err, BL_ECANCEL, "compare", "the comparison was cancelled");
-    goto fail;
-  }
-
-  /* advice */
-  if (c->winner >= 0) {
-    const bl_candidate *w = &c->c[c->winner];
-    if (bl_warnings_add (&c->advice, "ranked first by %s: %s (%s)",
-                         c->integer_y ? "the discretized AIC" : "AIC", w->id,
-                         w->description) != BL_OK)
-      goto nomem;
-    for (size_t i = 0; i < c->nc; i++)
-      if ((long) i != c->winner && isfinite (c->c[i].delta_aic)
-          && c->c[i].delta_aic < BL_COMPARE_DELTA
-          && bl_warnings_add (&c->advice, "%s is within %g of the winner (delta %.3g): the "
-                              "data do not separate them; prefer the simpler or the one "
-                              "that predicts better", c->c[i].id, BL_COMPARE_DELTA,
-                              c->c[i].delta_aic) != BL_OK)
-        goto nomem;
-    if (w->spread_flag
-        && bl_warnings_add (&c->advice, "the winner's residual spread still changes across "
-                            "the fitted range (ratio %.3g, above its null 95%% point %.3g): "
-                            "its variance model does not fully account for the data",
-                            w->spread_ratio, w->spread_null95) != BL_OK)
-      goto nomem;
-    {
-      bl_diag_opts dopt;
-      bl_diag *dg;
-      bl_diag_opts_init (&dopt);
-      dopt.seed = opt->seed;
-      dopt.null_reps = 0;
-      dopt.cancel = opt->fit.irls.cancel;
-      dg = bl_diag_new (w->fit, &dopt, err);
-      if (!dg)
-        goto fail;
-      if (bl_diag_get (dg)->lof.flag
-          && bl_warnings_add (&c->advice, "the winner's residual means drift against the "
-                              "fitted values or a term (lack of fit): fix the mean model (the "
-                              "terms) before trusting any variance treatment") != BL_OK) {
-        bl_diag_free (dg);
-        goto nomem;
-      }
-      bl_diag_free (dg);
-    }
-  } else if (bl_warnings_add (&c->advice, "no candidate could be fitted and scored") != BL_OK) {
-    goto nomem;
-  }
-  for (size_t i = 0; i < c->nc; i++)
-    if (c->c[i].fit && c->c[i].converged && c->c[i].fit->fam == &bl_family_poisson
-        && c->c[i].fit->st.phi_pearson > BL_FIT_OVERDISPERSION
-        && bl_warnings_add (&c->advice, "poisson is overdispersed (Pearson chi2 / dof = %.3g): "
-                            "its standard errors are too small and its likelihood too "
-                            "confident", c->c[i].fit->st.phi_pearson) != BL_OK)
-      goto nomem;
-  if (c->zero_groups
-      && bl_warnings_add (&c->advice, "y has exact zeros: only candidates with a point mass at "
-                          "zero (Tweedie) can account for them; the continuous candidates "
-                          "give zeros a density, not a probability, so they are ranked in a "
-                          "group of their own and their AICs are not compared with "
-                          "Tweedie's") != BL_OK)
-    goto nomem;
-  {
-    const bl_candidate *po = NULL, *nb = NULL;
-    for (size_t i = 0; i < c->nc; i++) {
-      if (c->c[i].converged && c->sp[i].fam == &bl_family_poisson)
-        po = &c->c[i];
-      if (c->c[i].converged && c->sp[i].fam == &bl_family_negbin)
-        nb = &c->c[i];
-    }
-    if (po && nb && isfinite (po->aic) && isfinite (nb->aic)) {
-      const double gain = po->aic - nb->aic;
-      int wst;
-      if (gain > 10.0)
-        wst = bl_warnings_add (&c->advice, "the negative binomial beats poisson by %.3g AIC "
-                               "(theta %.3g): the counts are overdispersed, and poisson's "
-                               "standard errors are too small", gain, nb->theta);
-      else if (gain > BL_COMPARE_DELTA)
-        wst = bl_warnings_add (&c->advice, "the negative binomial is better than poisson by "
-                               "%.3g AIC (theta %.3g): some overdispersion, not a clear "
-                               "margin; check with new data", gain, nb->theta);
-      else if (gain > -BL_COMPARE_DELTA)
-        wst = bl_warnings_add (&c->advice, "the negative binomial and poisson tie (AIC "
-                               "difference %.3g): no clear overdispersion; the simpler "
-                               "poisson suffices", gain);
-      else
-        wst = BL_OK;
-      if (wst != BL_OK)
-        goto nomem;
-    }
-  }
-  if (bl_warnings_add (&c->advice, "a ranking is evidence, not proof: validate the chosen "
-                       "model on new data before acting on it") != BL_OK)
-    goto nomem;
-  bl_free (fold);
-  bl_free (perm);
   return c;
-nomem:
-  bl_fail (err, BL_ENOMEM, "compare", "out of memory");
-fail:
-  bl_free (fold);
-  bl_free (perm);
-  bl_compare_free (c);
-  return NULL;
 }
 
 void

@@ -5,11 +5,8 @@
 #include <string.h>
 #include <gsl/gsl_cdf.h>
 #include <gsl/gsl_randist.h>
-#include <gsl/gsl_sf_gamma.h>
 #include "alloc.h"
 #include "diag.h"
-#include "fit_impl.h"
-#include "tweedie.h"
 
 struct bl_diag {
   bl_diag_result r;
@@ -27,9 +24,13 @@ bl_diag_opts_init (bl_diag_opts *opt)
 void
 bl_pearson_residuals (const bl_fit *f, double *r)
 {
-  for (size_t i = 0; i < f->n; i++) {
-    const double a = f->a ? f->a[i] : 1.0;
-    r[i] = (f->y[i] - f->mu[i]) * sqrt (a / bl_family_var (f->fam, f->mu[i], f->fam_par));
+  const size_t n = bl_fit_n (f);
+  const double *y = bl_fit_y (f), *mu = bl_fit_mu (f), *pw = bl_fit_prior_w (f);
+  const bl_family *fam = bl_fit_family (f);
+  const double par = bl_fit_family_par (f);
+  for (size_t i = 0; i < n; i++) {
+    const double a = pw ? pw[i] : 1.0;
+    r[i] = (y[i] - mu[i]) * sqrt (a / bl_family_var (fam, mu[i], par));
   }
 }
 
@@ -221,7 +222,7 @@ static int
 variance_tests (const bl_fit *f, const double *e, const bl_diag_opts *opt, bl_diag_result *r,
                 bl_err *err)
 {
-  const size_t n = f->n, p = f->p;
+  const size_t n = bl_fit_n (f), p = bl_fit_p (f);
   aux_ctx c;
   double *u = bl_mallocn (n, sizeof *u);
   long double rss0 = 0.0L;
@@ -229,7 +230,7 @@ variance_tests (const bl_fit *f, const double *e, const bl_diag_opts *opt, bl_di
   size_t rank;
   int st = BL_OK;
   memset (&c, 0, sizeof c);
-  c.d = f->d;
+  c.d = bl_fit_design (f);
   c.p = p;
   c.cancel = opt->cancel;
   c.xcols = bl_mallocn (p ? p : 1, sizeof *c.xcols);
@@ -239,7 +240,7 @@ variance_tests (const bl_fit *f, const double *e, const bl_diag_opts *opt, bl_di
     goto done;
   }
   for (size_t j = 0; j < p; j++)
-    if (!(bl_design_has_intercept (f->d) && j == 0) && !f->aliased[j])
+    if (!(bl_design_has_intercept (bl_fit_design (f)) && j == 0) && !bl_fit_aliased (f)[j])
       c.xcols[c.nx++] = j;
   for (size_t i = 0; i < n; i++)
     rss0 += (long double) e[i] * e[i];
@@ -291,7 +292,8 @@ done:
 static int
 variance_power (const bl_fit *f, int integer_y, bl_power *pw, bl_err *err)
 {
-  const size_t n = f->n;
+  const size_t n = bl_fit_n (f);
+  const double *y = bl_fit_y (f), *mu = bl_fit_mu (f);
   size_t G = n / BL_DIAG_MIN_GROUP, *order, m = 0;
   double gx[BL_DIAG_POWER_MAX_GROUPS], gy[BL_DIAG_POWER_MAX_GROUPS];
   memset (pw, 0, sizeof *pw);
@@ -307,7 +309,7 @@ variance_power (const bl_fit *f, int integer_y, bl_power *pw, bl_err *err)
   order = bl_mallocn (n, sizeof *order);
   if (!order)
     return bl_fail (err, BL_ENOMEM, "diagnose", "out of memory");
-  if (bl_order_by (f->mu, n, order, err) != BL_OK) {
+  if (bl_order_by (mu, n, order, err) != BL_OK) {
     bl_free (order);
     return BL_ENOMEM;
   }
@@ -315,8 +317,8 @@ variance_power (const bl_fit *f, int integer_y, bl_power *pw, bl_err *err)
     const size_t a = g * n / G, b = (g + 1) * n / G;
     long double sm = 0.0L, ss = 0.0L;
     for (size_t k = a; k < b; k++) {
-      const double r = f->y[order[k]] - f->mu[order[k]];
-      sm += f->mu[order[k]];
+      const double r = y[order[k]] - mu[order[k]];
+      sm += mu[order[k]];
       ss += (long double) r * r;
     }
     sm /= (long double) (b - a);
@@ -367,16 +369,18 @@ variance_power (const bl_fit *f, int integer_y, bl_power *pw, bl_err *err)
     pw->lo = b - t * pw->se;
     pw->hi = b + t * pw->se;
   }
-  /* the nearest of 0 (gaussian), 1 (poisson, integer y only), 2 (gamma), 3 (inverse gaussian) */
+  /* the nearest of the families' fixed variance powers, in table order: 0 (gaussian), 1
+     (poisson, a discrete family: integer y only), 2 (gamma), 3 (inverse gaussian) */
   {
-    static const char *const names[] = { "gaussian", "poisson", "gamma", "inverse-gaussian" };
     double best = HUGE_VAL;
-    for (int k = 0; k < 4; k++) {
-      if (k == 1 && !integer_y)
+    for (size_t k = 0; k < bl_family_count (); k++) {
+      const bl_family *fam = bl_family_at (k);
+      const double K = bl_family_var_power (fam);
+      if (!isfinite (K) || (bl_family_has (fam, BL_FAM_DISCRETE) && !integer_y))
         continue;
-      if (fabs (pw->estimate - k) < best) {
-        best = fabs (pw->estimate - k);
-        pw->suggested = names[k];
+      if (fabs (pw->estimate - K) < best) {
+        best = fabs (pw->estimate - K);
+        pw->suggested = bl_family_name (fam);
       }
     }
   }
@@ -390,7 +394,7 @@ static int
 lack_of_fit (const bl_fit *f, const double *e, volatile sig_atomic_t *cancel, bl_lof *lof,
              bl_err *err)
 {
-  const size_t n = f->n, p = f->p;
+  const size_t n = bl_fit_n (f), p = bl_fit_p (f);
   size_t G = BL_DIAG_LOF_GROUPS, nagainst = 1, cap;
   size_t *order = NULL;
   double *x = NULL, *blk = NULL;
@@ -416,15 +420,15 @@ lack_of_fit (const bl_fit *f, const double *e, volatile sig_atomic_t *cancel, bl
       goto done;
     }
     if (a == 0) {
-      memcpy (x, f->mu, n * sizeof *x);
+      memcpy (x, bl_fit_mu (f), n * sizeof *x);
     } else {
       const size_t j = a - 1;
       int binary = 1;
-      if (f->aliased[j] || (bl_design_has_intercept (f->d) && j == 0))
+      if (bl_fit_aliased (f)[j] || (bl_design_has_intercept (bl_fit_design (f)) && j == 0))
         continue;
       for (size_t r0 = 0; r0 < n; r0 += BL_IRLS_BLOCK) {
         const size_t nb = n - r0 < BL_IRLS_BLOCK ? n - r0 : BL_IRLS_BLOCK;
-        bl_design_fill (f->d, r0, nb, blk, BL_IRLS_BLOCK);
+        bl_design_fill (bl_fit_design (f), r0, nb, blk, BL_IRLS_BLOCK);
         for (size_t i = 0; i < nb; i++) {
           x[r0 + i] = blk[i + j * BL_IRLS_BLOCK];
           binary &= x[r0 + i] == 0.0 || x[r0 + i] == 1.0;
@@ -432,7 +436,7 @@ lack_of_fit (const bl_fit *f, const double *e, volatile sig_atomic_t *cancel, bl
       }
       if (binary)
         continue;
-      label = bl_design_label (f->d, j);
+      label = bl_design_label (bl_fit_design (f), j);
       nagainst++;
     }
     if ((st = bl_order_by (x, n, order, err)) != BL_OK)
@@ -466,6 +470,18 @@ done:
   return st;
 }
 
+/* Whether every y the fit used is an integer >= 0. */
+static int
+integer_response (const bl_fit *f)
+{
+  const size_t n = bl_fit_n (f);
+  const double *y = bl_fit_y (f);
+  int integer_y = 1;
+  for (size_t i = 0; i < n && integer_y; i++)
+    integer_y = y[i] >= 0.0 && y[i] == floor (y[i]);
+  return integer_y;
+}
+
 /* BL_ECANCEL (ERR filled) when the caller's cancel flag is set, else BL_OK. */
 static int
 cancelled (const bl_diag_opts *opt, bl_err *err)
@@ -478,40 +494,35 @@ bl_diag *
 bl_diag_new (const bl_fit *f, const bl_diag_opts *opt, bl_err *err)
 {
   bl_diag *d = bl_calloc (1, sizeof *d);
-  double *e = bl_mallocn (f->n ? f->n : 1, sizeof *e);
+  double *e = bl_mallocn (bl_fit_n (f) ? bl_fit_n (f) : 1, sizeof *e);
   gsl_rng *rng = gsl_rng_alloc (gsl_rng_mt19937);
-  int integer_y = 1, st;
+  int st;
   if (!d || !e || !rng) {
-    bl_free (d);
-    bl_free (e);
-    if (rng)
-      gsl_rng_free (rng);
-    bl_fail (err, BL_ENOMEM, "diagnose", "out of memory");
-    return NULL;
+    st = bl_fail (err, BL_ENOMEM, "diagnose", "out of memory");
+    goto done;
   }
-  if (!f->st.converged) {
-    bl_free (d);
-    bl_free (e);
-    gsl_rng_free (rng);
-    bl_fail (err, BL_ENOCONV, "diagnose", "the model did not converge: nothing to diagnose");
-    return NULL;
+  if (!bl_fit_stats_get (f)->converged) {
+    st = bl_fail (err, BL_ENOCONV, "diagnose", "the model did not converge: nothing to "
+                  "diagnose");
+    goto done;
   }
   gsl_rng_set (rng, opt->seed);
   bl_pearson_residuals (f, e);
-  for (size_t i = 0; i < f->n && integer_y; i++)
-    integer_y = f->y[i] >= 0.0 && f->y[i] == floor (f->y[i]);
   /* the caller's cancel flag is polled inside the auxiliary regressions and between checks */
   st = variance_tests (f, e, opt, &d->r, err);
   if (st == BL_OK && (st = cancelled (opt, err)) == BL_OK)
-    st = bl_spread_compute (f->mu, e, f->n, rng, opt->null_reps, &d->r.spread, err);
+    st = bl_spread_compute (bl_fit_mu (f), e, bl_fit_n (f), rng, opt->null_reps, &d->r.spread,
+                            err);
   if (st == BL_OK && (st = cancelled (opt, err)) == BL_OK)
-    st = variance_power (f, integer_y, &d->r.power, err);
+    st = variance_power (f, integer_response (f), &d->r.power, err);
   if (st == BL_OK && (st = cancelled (opt, err)) == BL_OK)
     st = lack_of_fit (f, e, opt->cancel, &d->r.lof, err);
   if (st == BL_OK)
     st = cancelled (opt, err);
+done:
   bl_free (e);
-  gsl_rng_free (rng);
+  if (rng)
+    gsl_rng_free (rng);
   if (st != BL_OK) {
     bl_diag_free (d);
     return NULL;
@@ -522,17 +533,14 @@ bl_diag_new (const bl_fit *f, const bl_diag_opts *opt, bl_err *err)
 int
 bl_variance_power (const bl_fit *f, bl_power *out, bl_err *err)
 {
-  int integer_y = 1;
-  if (!f->st.converged) {
+  if (!bl_fit_stats_get (f)->converged) {
     memset (out, 0, sizeof *out);
     out->estimate = out->se = out->lo = out->hi = out->intercept = NAN;
     out->why = "the model did not converge";
     return bl_fail (err, BL_ENOCONV, "diagnose", "the model did not converge: nothing to "
                     "diagnose");
   }
-  for (size_t i = 0; i < f->n && integer_y; i++)
-    integer_y = f->y[i] >= 0.0 && f->y[i] == floor (f->y[i]);
-  return variance_power (f, integer_y, out, err);
+  return variance_power (f, integer_response (f), out, err);
 }
 
 void
@@ -549,61 +557,49 @@ const bl_diag_result *bl_diag_get (const bl_diag *d) { return &d->r; }
 
 /* ---------------------------------------------------------------- quantile residuals */
 
-/* The fitted distribution's CDF at y for row i (continuous families), with the dispersion
-   phi (row dispersion phi / a). */
+/* The row's u = F(y) for a quantile residual, randomized where F jumps (Dunn & Smyth 1996):
+   - a discrete family: u uniform on (F(y - 1), F(y));
+   - a point mass at 0 (BL_FAM_ZERO_MASS): u uniform on (0, P(Y = 0)) at y = 0, elsewhere F
+     is continuous;
+   - otherwise u = F(y).
+   F is the family's CDF hook at dispersion PHI; its gamma scale as mu / shape
+   (BL_FAM_SCALE_DIV, the rounding these residuals always had). */
 static double
-cdf_row (const bl_fit *f, size_t i, double y, double phi)
+resid_u (const bl_family *fam, double y, double mu, double a, double phi, double par,
+         gsl_rng *rng)
 {
-  const double a = f->a ? f->a[i] : 1.0, mu = f->mu[i];
-  if (f->fam == &bl_family_gaussian)
-    return gsl_cdf_gaussian_P (y - mu, sqrt (phi / a));
-  if (f->fam == &bl_family_gamma) {
-    const double shape = a / phi;
-    return gsl_cdf_gamma_P (y, shape, mu / shape);
+  if (bl_family_has (fam, BL_FAM_DISCRETE)) {
+    const double hi = bl_family_cdf (fam, y, mu, a, phi, par, BL_FAM_SCALE_DIV);
+    const double lo = y >= 1.0 ? bl_family_cdf (fam, y - 1.0, mu, a, phi, par,
+                                                BL_FAM_SCALE_DIV) : 0.0;
+    return lo + gsl_rng_uniform_pos (rng) * (hi - lo);
   }
-  if (f->fam == &bl_family_invgauss) {
-    /* Chhikara & Folks 1989, eq. 2.3: F = Phi(s (y/mu - 1)) + exp(2 lambda / mu) Phi(-s (y/mu
-       + 1)), s = sqrt(lambda / y), lambda = a / phi; the second term in log space */
-    const double lam = a / phi, s = sqrt (lam / y);
-    const double t1 = gsl_cdf_ugaussian_P (s * (y / mu - 1.0));
-    const double z2 = -s * (y / mu + 1.0);
-    const double t2 = exp (2.0 * lam / mu + log (gsl_cdf_ugaussian_P (z2)));
-    return t1 + (isfinite (t2) ? t2 : 0.0);
+  if (bl_family_has (fam, BL_FAM_ZERO_MASS)) {
+    const double F = bl_family_cdf (fam, y, mu, a, phi, par, BL_FAM_SCALE_DIV);
+    return y == 0.0 ? gsl_rng_uniform_pos (rng) * F : F;
   }
-  return NAN;
+  return bl_family_cdf (fam, y, mu, a, phi, par, BL_FAM_SCALE_DIV);
 }
 
-/* Quantile residuals, polling CANCEL (may be NULL) every BL_IRLS_BLOCK rows. */
+/* Quantile residuals, polling CANCEL (may be NULL) every BL_IRLS_BLOCK rows.  The dispersion
+   is the Pearson estimate (1 when it is fixed), or the ML one for a family that asks for it
+   (BL_FAM_CDF_PHI_ML). */
 static int
 quantile_residuals (const bl_fit *f, gsl_rng *rng, volatile sig_atomic_t *cancel, double *q,
                     bl_err *err)
 {
-  const double phi = f->fam->phi_free ? f->st.phi_pearson : 1.0;
-  for (size_t i = 0; i < f->n; i++) {
+  const bl_family *fam = bl_fit_family (f);
+  const bl_fit_stats *st = bl_fit_stats_get (f);
+  const double phi = bl_family_has (fam, BL_FAM_CDF_PHI_ML) ? st->phi_ml
+                     : bl_family_has (fam, BL_FAM_PHI_FREE) ? st->phi_pearson : 1.0;
+  const size_t n = bl_fit_n (f);
+  const double *y = bl_fit_y (f), *mu = bl_fit_mu (f), *pw = bl_fit_prior_w (f);
+  const double par = bl_fit_family_par (f);
+  for (size_t i = 0; i < n; i++) {
     double u;
     if (cancel && i % BL_IRLS_BLOCK == 0 && *cancel)
       return bl_fail (err, BL_ECANCEL, "residuals", "the residual table was cancelled");
-    if (f->fam == &bl_family_poisson) {
-      /* randomized: u uniform on (F(y - 1), F(y)) (Dunn & Smyth 1996) */
-      const double y = f->y[i], mu = f->mu[i];
-      const double hi = gsl_cdf_poisson_P ((unsigned) y, mu);
-      const double lo = y >= 1.0 ? gsl_cdf_poisson_P ((unsigned) (y - 1.0), mu) : 0.0;
-      u = lo + gsl_rng_uniform_pos (rng) * (hi - lo);
-    } else if (f->fam == &bl_family_negbin) {
-      /* the same with NB(theta, theta / (theta + mu)) */
-      const double y = f->y[i], mu = f->mu[i], th = f->fam_par, pr = th / (th + mu);
-      const double hi = gsl_cdf_negative_binomial_P ((unsigned) y, pr, th);
-      const double lo = y >= 1.0 ? gsl_cdf_negative_binomial_P ((unsigned) (y - 1.0), pr, th)
-                                 : 0.0;
-      u = lo + gsl_rng_uniform_pos (rng) * (hi - lo);
-    } else if (f->fam == &bl_family_tweedie) {
-      /* the point mass at 0 is randomized over (0, P(Y = 0)); elsewhere F is continuous */
-      const double a = f->a ? f->a[i] : 1.0;
-      const double F = bl_tweedie_cdf (f->y[i], f->mu[i], f->st.phi_ml / a, f->fam_par);
-      u = f->y[i] == 0.0 ? gsl_rng_uniform_pos (rng) * F : F;
-    } else {
-      u = cdf_row (f, i, f->y[i], phi);
-    }
+    u = resid_u (fam, y[i], mu[i], pw ? pw[i] : 1.0, phi, par, rng);
     if (u <= 0.0)
       u = 1e-300;
     if (u >= 1.0)
@@ -634,71 +630,89 @@ bl_resid_table_free (bl_resid_table *t)
   bl_free (t);
 }
 
-bl_resid_table *
-bl_resid_table_new (const bl_fit *f, gsl_rng *rng, volatile sig_atomic_t *cancel, bl_err *err)
+/* The table's per-row columns beside the Pearson and quantile residuals, one block of rows
+   at a time: BL_OK, or BL_ECANCEL once CANCEL is set. */
+static int
+resid_rows (const bl_fit *f, bl_resid_table *t, double *blk, volatile sig_atomic_t *cancel,
+            bl_err *err)
 {
-  const size_t n = f->n, p = f->p;
-  bl_resid_table *t = bl_calloc (1, sizeof *t);
-  double *blk = bl_mallocn ((size_t) BL_IRLS_BLOCK * (p ? p : 1), sizeof *blk);
-  const double phi = f->fam->phi_free ? f->st.phi_pearson : 1.0;
-  if (!t || !blk)
-    goto nomem;
-  t->n = n;
-  t->response = bl_mallocn (n ? n : 1, sizeof (double));
-  t->pearson = bl_mallocn (n ? n : 1, sizeof (double));
-  t->deviance = bl_mallocn (n ? n : 1, sizeof (double));
-  t->working = bl_mallocn (n ? n : 1, sizeof (double));
-  t->quantile = bl_mallocn (n ? n : 1, sizeof (double));
-  t->leverage = bl_mallocn (n ? n : 1, sizeof (double));
-  t->cooks = bl_mallocn (n ? n : 1, sizeof (double));
-  if (!t->response || !t->pearson || !t->deviance || !t->working || !t->quantile
-      || !t->leverage || !t->cooks)
-    goto nomem;
-  bl_pearson_residuals (f, t->pearson);
-  if (quantile_residuals (f, rng, cancel, t->quantile, err) != BL_OK)
-    goto fail;
+  const size_t n = bl_fit_n (f), p = bl_fit_p (f);
+  const bl_family *fam = bl_fit_family (f);
+  const bl_link *lnk = bl_fit_link (f);
+  const double par = bl_fit_family_par (f);
+  const double *y = bl_fit_y (f), *mu = bl_fit_mu (f), *pw = bl_fit_prior_w (f);
+  const double *eta = bl_fit_eta (f), *w = bl_fit_working_w (f);
+  const double *cov = bl_fit_cov_unscaled (f);
+  const int *aliased = bl_fit_aliased (f);
+  const bl_fit_stats *st = bl_fit_stats_get (f);
+  const double phi = bl_family_has (fam, BL_FAM_PHI_FREE) ? st->phi_pearson : 1.0;
   for (size_t r0 = 0; r0 < n; r0 += BL_IRLS_BLOCK) {
     const size_t nb = n - r0 < BL_IRLS_BLOCK ? n - r0 : BL_IRLS_BLOCK;
-    if (cancel && *cancel) {
-      bl_fail (err, BL_ECANCEL, "residuals", "the residual table was cancelled");
-      goto fail;
-    }
-    bl_design_fill (f->d, r0, nb, blk, BL_IRLS_BLOCK);
+    if (cancel && *cancel)
+      return bl_fail (err, BL_ECANCEL, "residuals", "the residual table was cancelled");
+    bl_design_fill (bl_fit_design (f), r0, nb, blk, BL_IRLS_BLOCK);
     for (size_t i = 0; i < nb; i++) {
       const size_t row = r0 + i;
-      const double a = f->a ? f->a[row] : 1.0, y = f->y[row], mu = f->mu[row];
-      const double dmu = f->link->dmu_deta (f->eta[row]);
+      const double a = pw ? pw[row] : 1.0, yr = y[row], m = mu[row];
+      const double dmu = lnk->dmu_deta (eta[row]);
       double h = 0.0;
       /* leverage h = w x' (X'WX)^-1 x (the diagonal of the IRLS hat matrix; McCullagh &
          Nelder 1989, section 12.7.1), Cook's distance r_P^2 h / (phi k (1 - h)^2) with k the
          rank (Cook 1977, Technometrics 19, 15-18, in its GLM form) */
       for (size_t j = 0; j < p; j++) {
         double s = 0.0;
-        if (f->aliased[j])
+        if (aliased[j])
           continue;
         for (size_t k = 0; k < p; k++)
-          if (!f->aliased[k])
-            s += f->cov_unscaled[j + k * p] * blk[i + k * BL_IRLS_BLOCK];
+          if (!aliased[k])
+            s += cov[j + k * p] * blk[i + k * BL_IRLS_BLOCK];
         h += blk[i + j * BL_IRLS_BLOCK] * s;
       }
-      h *= f->w[row];
-      t->response[row] = y - mu;
-      t->deviance[row] = (y >= mu ? 1.0 : -1.0)
-                         * sqrt (a * bl_family_dev (f->fam, y, mu, f->fam_par));
-      t->working[row] = (y - mu) / dmu;
+      h *= w[row];
+      t->response[row] = yr - m;
+      t->deviance[row] = (yr >= m ? 1.0 : -1.0) * sqrt (a * bl_family_dev (fam, yr, m, par));
+      t->working[row] = (yr - m) / dmu;
       t->leverage[row] = h;
       t->cooks[row] = h < 1.0 ? t->pearson[row] * t->pearson[row] * h
-                                / (phi * (double) f->st.rank * (1.0 - h) * (1.0 - h)) : NAN;
+                                / (phi * (double) st->rank * (1.0 - h) * (1.0 - h)) : NAN;
     }
   }
+  return BL_OK;
+}
+
+bl_resid_table *
+bl_resid_table_new (const bl_fit *f, gsl_rng *rng, volatile sig_atomic_t *cancel, bl_err *err)
+{
+  const size_t n = bl_fit_n (f), p = bl_fit_p (f);
+  bl_resid_table *t = bl_calloc (1, sizeof *t);
+  double *blk = bl_mallocn ((size_t) BL_IRLS_BLOCK * (p ? p : 1), sizeof *blk);
+  int st = BL_OK;
+  if (t) {
+    t->n = n;
+    t->response = bl_mallocn (n ? n : 1, sizeof (double));
+    t->pearson = bl_mallocn (n ? n : 1, sizeof (double));
+    t->deviance = bl_mallocn (n ? n : 1, sizeof (double));
+    t->working = bl_mallocn (n ? n : 1, sizeof (double));
+    t->quantile = bl_mallocn (n ? n : 1, sizeof (double));
+    t->leverage = bl_mallocn (n ? n : 1, sizeof (double));
+    t->cooks = bl_mallocn (n ? n : 1, sizeof (double));
+  }
+  if (!t || !blk || !t->response || !t->pearson || !t->deviance || !t->working
+      || !t->quantile || !t->leverage || !t->cooks) {
+    st = bl_fail (err, BL_ENOMEM, "residuals", "out of memory");
+    goto done;
+  }
+  bl_pearson_residuals (f, t->pearson);
+  if ((st = quantile_residuals (f, rng, cancel, t->quantile, err)) != BL_OK)
+    goto done;
+  st = resid_rows (f, t, blk, cancel, err);
+done:
   bl_free (blk);
+  if (st != BL_OK) {
+    bl_resid_table_free (t);
+    return NULL;
+  }
   return t;
-nomem:
-  bl_fail (err, BL_ENOMEM, "residuals", "out of memory");
-fail:
-  bl_free (blk);
-  bl_resid_table_free (t);
-  return NULL;
 }
 
 void
@@ -754,7 +768,8 @@ int
 bl_brown_forsythe (const bl_fit *f, const bl_table *t, const char *col, bl_bf *out,
                    bl_err *err)
 {
-  const size_t n = f->n;
+  const size_t n = bl_fit_n (f);
+  const bl_design *dsg = bl_fit_design (f);
   const long jc = bl_table_find (t, col);
   const int32_t *codes;
   size_t L, *cnt = NULL, *start = NULL, *pos = NULL, G = 0;
@@ -785,10 +800,10 @@ bl_brown_forsythe (const bl_fit *f, const bl_table *t, const char *col, bl_bf *o
   }
   bl_pearson_residuals (f, r);
   for (size_t i = 0; i < n; i++) {
-    const int32_t c = codes[bl_design_table_row (f->d, i)];
+    const int32_t c = codes[bl_design_table_row (dsg, i)];
     if (c < 0) {
       char where[1100];
-      snprintf (where, sizeof where, "%s:%zu", bl_table_source (t), bl_design_line (f->d, i));
+      snprintf (where, sizeof where, "%s:%zu", bl_table_source (t), bl_design_line (dsg, i));
       st = bl_fail (err, BL_EDATA, where, "--by column '%s' is missing on a row the model "
                     "uses", col);
       goto done;
@@ -798,7 +813,7 @@ bl_brown_forsythe (const bl_fit *f, const bl_table *t, const char *col, bl_bf *o
   for (size_t k = 0; k < L; k++)
     start[k + 1] = start[k] + cnt[k];
   for (size_t i = 0; i < n; i++) {
-    const size_t c = (size_t) codes[bl_design_table_row (f->d, i)];
+    const size_t c = (size_t) codes[bl_design_table_row (dsg, i)];
     sorted[start[c] + pos[c]++] = r[i];
   }
   /* z = |r - group median|, grouped the same way */

@@ -64,7 +64,7 @@ bl_report_fit_json (FILE *out, const bl_fit *fit, const bl_report_info *info, bl
 
   jw_obj (&w, "model");
   jw_str (&w, "method", bl_method_name (bl_fit_method (fit)));
-  jw_str (&w, "family", bl_fit_family (fit)->name);
+  jw_str (&w, "family", bl_family_name (bl_fit_family (fit)));
   jw_str (&w, "link", bl_fit_link (fit)->name);
   jw_str (&w, "response", bl_design_response (d));
   jw_arr (&w, "terms");
@@ -189,11 +189,11 @@ bl_report_fit_json (FILE *out, const bl_fit *fit, const bl_report_info *info, bl
   jw_num (&w, "aicc", st->aicc);
   jw_num (&w, "bic", st->bic);
   jw_size (&w, "k", st->k);
-  if (bl_fit_family (fit) == &bl_family_negbin) {
+  if (bl_family_par_kind (bl_fit_family (fit)) == BL_FAMPAR_THETA) {
     jw_num (&w, "theta", st->fam_par);
     jw_num (&w, "theta_se", st->fam_par_se);
     jw_bool (&w, "theta_estimated", st->fam_par_est);
-  } else if (bl_fit_family (fit) == &bl_family_tweedie) {
+  } else if (bl_family_par_kind (bl_fit_family (fit)) == BL_FAMPAR_POWER) {
     jw_num (&w, "power", st->fam_par);
     jw_num (&w, "power_lo", st->fam_par_lo);
     jw_num (&w, "power_hi", st->fam_par_hi);
@@ -209,7 +209,7 @@ bl_report_fit_json (FILE *out, const bl_fit *fit, const bl_report_info *info, bl
   why (&w, "aic", st->aic, st->loglik_why);
   why (&w, "aicc", st->aicc, st->aicc_why);
   why (&w, "bic", st->bic, st->loglik_why);
-  if (bl_fit_family (fit) == &bl_family_negbin)
+  if (bl_family_par_kind (bl_fit_family (fit)) == BL_FAMPAR_THETA)
     why (&w, "theta", st->fam_par, st->fam_par_why);
   jw_obj_end (&w);
   jw_obj_end (&w);

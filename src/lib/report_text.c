@@ -101,17 +101,17 @@ bl_report_fit_text (FILE *o, const bl_fit *fit, const bl_report_info *info, bl_e
       fputs ("              estimates are on the transformed scale; the likelihood figures "
              "are on y's\n", o);
     } else {
-      fprintf (o, "  variance    %s family, %s link (%s)\n", bl_fit_family (fit)->name,
+      fprintf (o, "  variance    %s family, %s link (%s)\n", bl_family_name (bl_fit_family (fit)),
                bl_fit_link (fit)->name, bl_fit_method (fit) == BL_METHOD_OLS
                ? "ordinary least squares" : "maximum likelihood by IRLS");
-      if (bl_fit_family (fit) == &bl_family_negbin) {
+      if (bl_family_par_kind (bl_fit_family (fit)) == BL_FAMPAR_THETA) {
         if (isfinite (st->fam_par))
           fprintf (o, "              theta = %.6g (standard error %.3g)%s: Var = mu + mu^2 / "
                    "theta\n", st->fam_par, st->fam_par_se, st->fam_par_est ? ", estimated"
                    : ", fixed");
         else
           fprintf (o, "              theta: %s\n", st->fam_par_why);
-      } else if (bl_fit_family (fit) == &bl_family_tweedie) {
+      } else if (bl_family_par_kind (bl_fit_family (fit)) == BL_FAMPAR_POWER) {
         fprintf (o, "              power p = %.5g%s: Var = phi mu^p", st->fam_par,
                  st->fam_par_est ? " (estimated)" : " (fixed)");
         if (st->fam_par_est)
