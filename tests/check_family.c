@@ -11,20 +11,29 @@
      (1989), The Inverse Gaussian Distribution, Marcel Dekker;
    - links by g(g^-1(eta)) = eta and a central finite difference of g^-1;
    - the gamma dispersion MLE by plugging it back into its score equation with gsl_sf_psi
-     (McCullagh & Nelder 1989, section 8.3). */
+     (McCullagh & Nelder 1989, section 8.3);
+   - the CDF hooks against GSL's distribution functions, the summed probabilities, and the
+     densities integrated by GSL quadrature; the quantile hooks by round trips through the
+     CDF and against model.c's prediction-interval algorithm, copied here as the reference;
+   - the family table and the properties family.h documents. */
 #include <check.h>
+#include <float.h>
+#include <limits.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <gsl/gsl_cdf.h>
 #include <gsl/gsl_errno.h>
 #include <gsl/gsl_integration.h>
 #include <gsl/gsl_randist.h>
+#include <gsl/gsl_sf_erf.h>
 #include <gsl/gsl_sf_gamma.h>
 #include <gsl/gsl_sf_psi.h>
 #include "family.h"
 #include "link.h"
 #include "testutil.h"
+#include "tweedie.h"
 
 #define FN(f) bl_family_name (f)
 
@@ -432,6 +441,397 @@ START_TEST (family_valid_ranges)
 }
 END_TEST
 
+/* ---------------------------------------------------------------- CDF and quantile hooks */
+
+static const bl_family *const all6[6] = {
+  &bl_family_gaussian, &bl_family_poisson, &bl_family_gamma, &bl_family_invgauss,
+  &bl_family_negbin, &bl_family_tweedie
+};
+
+/* The continuous CDFs against GSL's own distribution functions: gaussian
+   gsl_cdf_gaussian_P(y - mu, sqrt(phi / a)), gamma gsl_cdf_gamma_P(y, a / phi, mu phi / a)
+   (both scale roundings). */
+START_TEST (family_cdf_gsl)
+{
+  const double a[NPT] = { 1.0, 0.63, 1.87, 2.5, 0.915 };
+  const double phi = 0.437;
+  for (size_t i = 0; i < NPT; i++) {
+    const double y = pt_y[i], mu = pt_mu[i];
+    const double g = gsl_cdf_gaussian_P (y - mu, sqrt (phi / a[i]));
+    const double gm = gsl_cdf_gamma_P (y, a[i] / phi, mu * phi / a[i]);
+    const double f0 = bl_family_cdf (&bl_family_gaussian, y, mu, a[i], phi, 0.0,
+                                     BL_FAM_SCALE_MUL);
+    const double f1 = bl_family_cdf (&bl_family_gamma, y, mu, a[i], phi, 0.0,
+                                     BL_FAM_SCALE_MUL);
+    const double f2 = bl_family_cdf (&bl_family_gamma, y, mu, a[i], phi, 0.0,
+                                     BL_FAM_SCALE_DIV);
+    ck_assert_msg (f0 == g, "gaussian F(%g) %.17g, gsl %.17g", y, f0, g);
+    ck_assert_msg (f1 == gm, "gamma F(%g) %.17g, gsl %.17g", y, f1, gm);
+    ck_assert_msg (fabs (f2 - gm) <= 1e-14, "gamma F(%g) mu/shape %.17g, gsl %.17g", y, f2, gm);
+  }
+  ck_assert (bl_family_cdf (&bl_family_gamma, 0.0, 1.0, 1.0, 0.5, 0.0, BL_FAM_SCALE_MUL) == 0.0);
+  ck_assert (bl_family_cdf (&bl_family_invgauss, -1.0, 1.0, 1.0, 0.5, 0.0, BL_FAM_SCALE_MUL)
+             == 0.0);
+}
+END_TEST
+
+/* Chhikara & Folks (1989) inverse gaussian density, integrated from 0 to y by GSL's adaptive
+   quadrature, against the CDF hook (eq. 2.3). */
+typedef struct igp { double mu, lam; } igp;
+static double
+ig_density (double x, void *vp)
+{
+  const igp *q = vp;
+  if (!(x > 0.0))
+    return 0.0;
+  return sqrt (q->lam / (2.0 * M_PI * x * x * x))
+         * exp (-q->lam * (x - q->mu) * (x - q->mu) / (2.0 * q->mu * q->mu * x));
+}
+
+START_TEST (family_cdf_invgauss_integral)
+{
+  gsl_integration_workspace *w = gsl_integration_workspace_alloc (200);
+  const double a = 1.37, phi[3] = { 0.0721, 0.613, 2.85 };
+  for (size_t k = 0; k < 3; k++)
+    for (size_t i = 0; i < NPT; i++) {
+      igp q = { pt_mu[i], a / phi[k] };
+      gsl_function fn = { ig_density, &q };
+      double v, abserr;
+      const double F = bl_family_cdf (&bl_family_invgauss, pt_y[i], pt_mu[i], a, phi[k], 0.0,
+                                      BL_FAM_SCALE_MUL);
+      ck_assert_int_eq (gsl_integration_qags (&fn, 0.0, pt_y[i], 1e-14, 1e-12, 200, w, &v,
+                                              &abserr), GSL_SUCCESS);
+      ck_assert_msg (fabs (F - v) <= 1e-9, "ig F(%g; mu %g, lambda %g) = %.17g, integral "
+                     "%.17g", pt_y[i], pt_mu[i], q.lam, F, v);
+    }
+  gsl_integration_workspace_free (w);
+}
+END_TEST
+
+/* The discrete CDFs against the summed probabilities: gsl_ran_poisson_pdf and
+   gsl_ran_negative_binomial_pdf (NB(theta, theta / (theta + mu))), and the family's own
+   exp(logpdf); 0 below 0. */
+START_TEST (family_cdf_discrete_sum)
+{
+  const double mus[3] = { 0.37, 4.26, 23.9 }, th = 2.713;
+  for (size_t m = 0; m < 3; m++) {
+    long double sp = 0.0L, sn = 0.0L, lp = 0.0L, ln = 0.0L;
+    const double mu = mus[m], pr = th / (th + mu);
+    for (unsigned k = 0; k <= 60; k++) {
+      const double y = (double) k;
+      double fp, fn;
+      sp += gsl_ran_poisson_pdf (k, mu);
+      sn += gsl_ran_negative_binomial_pdf (k, pr, th);
+      lp += exp (bl_family_logpdf (&bl_family_poisson, y, mu, 1.0, 1.0, 0.0));
+      ln += exp (bl_family_logpdf (&bl_family_negbin, y, mu, 1.0, 1.0, th));
+      fp = bl_family_cdf (&bl_family_poisson, y, mu, 1.0, 1.0, 0.0, BL_FAM_SCALE_MUL);
+      fn = bl_family_cdf (&bl_family_negbin, y, mu, 1.0, 1.0, th, BL_FAM_SCALE_MUL);
+      ck_assert_msg (fabs (fp - (double) sp) <= 1e-13 && fabs (fp - (double) lp) <= 1e-12,
+                     "poisson F(%u; %g) %.17g, sum %.17g", k, mu, fp, (double) sp);
+      ck_assert_msg (fabs (fn - (double) sn) <= 1e-13 && fabs (fn - (double) ln) <= 1e-12,
+                     "negbin F(%u; %g) %.17g, sum %.17g", k, mu, fn, (double) sn);
+    }
+    ck_assert (bl_family_cdf (&bl_family_poisson, -1.0, mu, 1.0, 1.0, 0.0, 0) == 0.0);
+    ck_assert (bl_family_cdf (&bl_family_negbin, -1.0, mu, 1.0, 1.0, th, 0) == 0.0);
+  }
+}
+END_TEST
+
+/* The Tweedie CDF (compound sum, Jorgensen 1997) against the series density of Dunn & Smyth
+   (2005): P(Y = 0) plus the density integrated over (0, y] by GSL's quadrature. */
+typedef struct twp { double mu, phi, p; } twp;
+static double
+tw_density (double x, void *vp)
+{
+  const twp *q = vp;
+  return exp (bl_family_logpdf (&bl_family_tweedie, x, q->mu, 1.0, q->phi, q->p));
+}
+
+START_TEST (family_cdf_tweedie_integral)
+{
+  gsl_integration_workspace *w = gsl_integration_workspace_alloc (400);
+  const twp cases[3] = { { 1.7, 0.83, 1.37 }, { 3.1, 1.92, 1.61 }, { 0.62, 0.41, 1.18 } };
+  const double ys[3] = { 0.43, 2.385, 5.9 };
+  for (size_t k = 0; k < 3; k++)
+    for (size_t i = 0; i < 3; i++) {
+      twp q = cases[k];
+      gsl_function fn = { tw_density, &q };
+      double v, abserr;
+      const double p0 = exp (bl_family_logpdf (&bl_family_tweedie, 0.0, q.mu, 1.0, q.phi, q.p));
+      const double F = bl_family_cdf (&bl_family_tweedie, ys[i], q.mu, 1.0, q.phi, q.p, 0);
+      ck_assert_int_eq (gsl_integration_qags (&fn, 0.0, ys[i], 1e-13, 1e-11, 400, w, &v,
+                                              &abserr), GSL_SUCCESS);
+      ck_assert_msg (fabs (F - (p0 + v)) <= 1e-8, "tweedie F(%g; %g, %g, %g) = %.17g, mass + "
+                     "integral %.17g", ys[i], q.mu, q.phi, q.p, F, p0 + v);
+      ck_assert_msg (fabs (bl_family_cdf (&bl_family_tweedie, 0.0, q.mu, 1.0, q.phi, q.p, 0)
+                           - p0) <= 1e-15, "tweedie P(Y = 0)");
+    }
+  gsl_integration_workspace_free (w);
+}
+END_TEST
+
+/* Quantile/CDF round trips over a grid of levels and rows: F(q - 1) < p <= F(q) for the
+   discrete families (the quantile's definition), |F(q) - p| small for the continuous ones,
+   and q = 0 exactly when p <= P(Y = 0) for the Tweedie. */
+START_TEST (family_quantile_round_trip)
+{
+  const double ps[7] = { 1e-6, 0.025, 0.2718, 0.5, 0.8413, 0.975, 1.0 - 1e-7 };
+  const double mus[3] = { 0.37, 4.26, 23.9 }, as[2] = { 1.0, 2.31 };
+  const double phis[6] = { 1.913, 1.0, 0.437, 0.0721, 1.0, 1.27 };
+  const double pars[6] = { 0.0, 0.0, 0.0, 0.0, 2.713, 1.43 };
+  for (size_t f = 0; f < 6; f++)
+    for (size_t m = 0; m < 3; m++)
+      for (size_t j = 0; j < 2; j++)
+        for (size_t k = 0; k < 7; k++) {
+          const bl_family *fam = all6[f];
+          const double mu = mus[m], a = as[j], phi = phis[f], par = pars[f], p = ps[k];
+          const double q = bl_family_quantile (fam, p, mu, a, phi, par);
+          const double Fq = bl_family_cdf (fam, q, mu, a, phi, par, BL_FAM_SCALE_MUL);
+          if (bl_family_has (fam, BL_FAM_DISCRETE)) {
+            const double F1 = q >= 1.0 ? bl_family_cdf (fam, q - 1.0, mu, a, phi, par, 0) : 0.0;
+            ck_assert_msg (q == floor (q) && F1 < p && p <= Fq, "%s q(%g; %g) = %g: F(q-1) "
+                           "%.17g, F(q) %.17g", FN (fam), p, mu, q, F1, Fq);
+          } else if (bl_family_has (fam, BL_FAM_ZERO_MASS) && q == 0.0) {
+            ck_assert_msg (p <= Fq, "%s q(%g) = 0 above the mass %.17g", FN (fam), p, Fq);
+          } else {
+            ck_assert_msg (fabs (Fq - p) <= 1e-9 * (p < 0.5 ? 1.0 : 1.0) + 1e-12,
+                           "%s q(%g; mu %g, a %g) = %.17g: F(q) = %.17g", FN (fam), p, mu, a,
+                           q, Fq);
+          }
+        }
+  ck_assert (bl_family_quantile (&bl_family_poisson, 1.0, 3.0, 1.0, 1.0, 0.0) == HUGE_VAL);
+  ck_assert (bl_family_quantile (&bl_family_negbin, 1.0, 3.0, 1.0, 1.0, 2.0) == HUGE_VAL);
+}
+END_TEST
+
+/* ---- the reference: the prediction-interval quantiles exactly as src/lib/model.c computed
+   them before the hook existed (copied here unchanged, so that model.c's switch to the hook
+   keeps its numbers bit for bit). */
+static double
+ref_discrete_quantile (double p, double k0, double (*cdf) (unsigned k, const double *par),
+                       const double *par)
+{
+  const double kmax = (double) UINT_MAX / 2.0;
+  double lo, hi, step = 1.0;
+  if (!(k0 >= 0.0))
+    k0 = 0.0;
+  if (k0 > kmax)
+    k0 = kmax;
+  k0 = floor (k0);
+  if (cdf ((unsigned) k0, par) >= p) {
+    hi = k0;
+    lo = k0 - step;
+    while (lo >= 0.0 && cdf ((unsigned) lo, par) >= p) {
+      hi = lo;
+      step *= 2.0;
+      lo = hi - step;
+    }
+    if (lo < 0.0)
+      lo = -1.0;
+  } else {
+    lo = k0;
+    hi = k0 + step;
+    while (cdf ((unsigned) hi, par) < p) {
+      if (hi >= kmax)
+        return HUGE_VAL;
+      lo = hi;
+      step *= 2.0;
+      hi = lo + step < kmax ? lo + step : kmax;
+    }
+  }
+  while (hi - lo > 1.0) {
+    const double mid = floor (lo + (hi - lo) / 2.0);
+    if (mid >= 0.0 && cdf ((unsigned) mid, par) >= p)
+      hi = mid;
+    else
+      lo = mid;
+  }
+  return hi;
+}
+static double ref_poi_cdf (unsigned k, const double *par) { return gsl_cdf_poisson_P (k, par[0]); }
+static double
+ref_nb_cdf (unsigned k, const double *par)
+{
+  return gsl_cdf_negative_binomial_P (k, par[0], par[1]);
+}
+static double
+ref_poisson_quantile (double p, double mu)
+{
+  double k;
+  if (!(p < 1.0))
+    return HUGE_VAL;
+  k = floor (mu + gsl_cdf_ugaussian_Pinv (p) * sqrt (mu));
+  if (!(k < (double) UINT_MAX / 2.0))
+    return k;
+  return ref_discrete_quantile (p, k, ref_poi_cdf, &mu);
+}
+static double
+ref_negbin_quantile (double p, double mu, double th)
+{
+  const double par[2] = { th / (th + mu), th };
+  double k;
+  if (!(p < 1.0))
+    return HUGE_VAL;
+  k = floor (mu + gsl_cdf_ugaussian_Pinv (p) * sqrt (mu + mu * mu / th));
+  if (!(k < (double) UINT_MAX / 2.0))
+    return k;
+  return ref_discrete_quantile (p, k, ref_nb_cdf, par);
+}
+static double
+ref_invgauss_cdf (double x, double mu, double lambda)
+{
+  const double r = sqrt (lambda / x);
+  const double z1 = r * (x / mu - 1.0), z2 = r * (x / mu + 1.0);
+  if (x <= 0.0)
+    return 0.0;
+  return gsl_cdf_ugaussian_P (z1)
+         + exp (2.0 * lambda / mu + gsl_sf_log_erfc (z2 / M_SQRT2) - M_LN2);
+}
+static double
+ref_invgauss_quantile (double p, double mu, double lambda)
+{
+  double lo = 0.0, hi = mu;
+  for (int k = 0; k < 2000 && ref_invgauss_cdf (hi, mu, lambda) < p; k++) {
+    lo = hi;
+    hi *= 2.0;
+  }
+  for (int k = 0; k < 400 && hi - lo > 4.0 * DBL_EPSILON * hi; k++) {
+    const double mid = 0.5 * (lo + hi);
+    if (ref_invgauss_cdf (mid, mu, lambda) < p)
+      lo = mid;
+    else
+      hi = mid;
+  }
+  return 0.5 * (lo + hi);
+}
+
+/* model.c's glm_pred_interval quantile for family F at (mu, a, phi_ml, par). */
+static double
+ref_model_quantile (size_t f, double p, double mu, double a, double phi, double par)
+{
+  switch (f) {
+  case 1: return ref_poisson_quantile (p, mu);
+  case 2: return gsl_cdf_gamma_Pinv (p, a / phi, mu * phi / a);
+  case 3: return ref_invgauss_quantile (p, mu, a / phi);
+  case 4: return ref_negbin_quantile (p, mu, par);
+  default: return bl_tweedie_quantile (p, mu, phi / a, par);
+  }
+}
+
+START_TEST (family_quantile_model_reference)
+{
+  const double ps[6] = { 0.005, 0.025, 0.05, 0.95, 0.975, 0.995 };
+  const double mus[4] = { 0.0371, 1.7, 42.6, 3.9e5 }, as[2] = { 1.0, 0.683 };
+  const double phis[6] = { 1.0, 1.0, 0.437, 0.0721, 1.0, 1.27 };
+  const double pars[6] = { 0.0, 0.0, 0.0, 0.0, 2.713, 1.43 };
+  for (size_t f = 1; f < 6; f++)
+    for (size_t m = 0; m < 4; m++)
+      for (size_t j = 0; j < 2; j++)
+        for (size_t k = 0; k < 6; k++) {
+          double q, r;
+          if (f == 5 && m == 3)
+            continue;                    /* the Tweedie CDF sum is too long at this mean */
+          q = bl_family_quantile (all6[f], ps[k], mus[m], as[j], phis[f], pars[f]);
+          r = ref_model_quantile (f, ps[k], mus[m], as[j], phis[f], pars[f]);
+          ck_assert_msg (q == r || (isnan (q) && isnan (r)), "%s q(%g; mu %g, a %g) = %.17g, "
+                         "model.c %.17g", FN (all6[f]), ps[k], mus[m], as[j], q, r);
+        }
+}
+END_TEST
+
+/* ---------------------------------------------------------------- the table and properties */
+
+START_TEST (family_table)
+{
+  static const char *const names[6] = { "gaussian", "poisson", "gamma", "inverse-gaussian",
+                                        "negative-binomial", "tweedie" };
+  const char *all = "gaussian|poisson|gamma|inverse-gaussian|negative-binomial|tweedie";
+  char buf[128], small[12];
+  ck_assert_uint_eq (bl_family_count (), 6);
+  for (size_t i = 0; i < 6; i++) {
+    ck_assert_ptr_eq (bl_family_at (i), all6[i]);
+    ck_assert_ptr_eq (bl_family_find (names[i]), all6[i]);
+    ck_assert_str_eq (bl_family_name (all6[i]), names[i]);
+  }
+  ck_assert_ptr_null (bl_family_at (6));
+  ck_assert_uint_eq (bl_family_names (buf, sizeof buf, "|"), strlen (all));
+  ck_assert_str_eq (buf, all);
+  ck_assert_uint_eq (bl_family_names (small, sizeof small, "|"), strlen (all));
+  ck_assert_str_eq (small, "gaussian|po");
+  ck_assert_uint_eq (bl_family_names (NULL, 0, ", "), strlen (all) + 5);
+}
+END_TEST
+
+/* The properties, as family.h documents them, and the support texts against the support
+   test: the complement's text names a y the test refuses. */
+START_TEST (family_properties)
+{
+  const unsigned flags[6] = {
+    BL_FAM_PHI_FREE | BL_FAM_NORMAL, BL_FAM_DISCRETE | BL_FAM_OVERDISP | BL_FAM_ZERO_GROUP,
+    BL_FAM_PHI_FREE, BL_FAM_PHI_FREE, BL_FAM_DISCRETE,
+    BL_FAM_PHI_FREE | BL_FAM_ZERO_MASS | BL_FAM_CDF_PHI_ML
+  };
+  const bl_family_par kinds[6] = { BL_FAMPAR_NONE, BL_FAMPAR_NONE, BL_FAMPAR_NONE,
+                                   BL_FAMPAR_NONE, BL_FAMPAR_THETA, BL_FAMPAR_POWER };
+  const double powers[4] = { 0.0, 1.0, 2.0, 3.0 };
+  for (size_t f = 0; f < 6; f++) {
+    const bl_family *fam = all6[f];
+    const char *out = bl_family_outside (fam);
+    for (unsigned b = 0; b < 7; b++)
+      ck_assert_msg (!bl_family_has (fam, 1u << b) == !(flags[f] & (1u << b)), "%s flag %u",
+                     FN (fam), b);
+    ck_assert_int_eq (bl_family_par_kind (fam), kinds[f]);
+    ck_assert_msg (!bl_family_par_name (fam) == (kinds[f] == BL_FAMPAR_NONE), "%s par_name",
+                   FN (fam));
+    if (f < 4)
+      ck_assert_msg (bl_family_var_power (fam) == powers[f], "%s var power", FN (fam));
+    else
+      ck_assert_msg (isnan (bl_family_var_power (fam)), "%s var power", FN (fam));
+    ck_assert_ptr_nonnull (bl_family_noun (fam));
+    if (!out) {
+      ck_assert (bl_family_y_ok (fam, -3.7) && bl_family_y_ok (fam, 0.0));
+    } else if (strcmp (out, "y <= 0") == 0) {
+      ck_assert_str_eq (bl_family_support (fam), "y > 0");
+      ck_assert (!bl_family_y_ok (fam, 0.0) && bl_family_y_ok (fam, 1e-300));
+    } else {
+      ck_assert_str_eq (out, "y < 0");
+      ck_assert_str_eq (bl_family_support (fam), "y >= 0");
+      ck_assert (!bl_family_y_ok (fam, -1e-300) && bl_family_y_ok (fam, 0.0));
+    }
+    /* the transitional field mirrors the flag */
+    ck_assert_int_eq (fam->phi_free, bl_family_has (fam, BL_FAM_PHI_FREE));
+  }
+  ck_assert_str_eq (bl_family_noun (&bl_family_negbin), "the negative binomial");
+}
+END_TEST
+
+/* The gamma's unit-weight log-likelihood sum (lgamma taken out of the loop) equals the sum
+   of its per-row log densities; a per-row weight enters each row alone. */
+START_TEST (family_loglik_unit_weights)
+{
+  const double a[NPT] = { 1.0, 1.0, 1.0, 1.0, 1.0 };
+  for (size_t f = 0; f < 6; f++) {
+    const double phi = 0.613, par = f == 4 ? 2.713 : f == 5 ? 1.43 : 0.0;
+    long double s = 0.0L;
+    double l0, l1;
+    for (size_t i = 0; i < NPT; i++)
+      s += bl_family_logpdf (all6[f], f == 1 || f == 4 ? floor (pt_y[i]) : pt_y[i], pt_mu[i],
+                             1.0, phi, par);
+    {
+      double yy[NPT];
+      for (size_t i = 0; i < NPT; i++)
+        yy[i] = f == 1 || f == 4 ? floor (pt_y[i]) : pt_y[i];
+      l0 = bl_family_loglik_p (all6[f], yy, pt_mu, NULL, NPT, phi, par);
+      l1 = bl_family_loglik_p (all6[f], yy, pt_mu, a, NPT, phi, par);
+    }
+    ck_assert_msg (fabs (l0 - (double) s) <= 1e-12 * (1.0 + fabs ((double) s)), "%s loglik "
+                   "%.17g, sum %.17g", FN (all6[f]), l0, (double) s);
+    ck_assert_msg (l1 == (double) s, "%s weighted loglik %.17g, sum %.17g", FN (all6[f]), l1,
+                   (double) s);
+  }
+}
+END_TEST
+
 static Suite *
 family_suite (void)
 {
@@ -455,6 +855,15 @@ family_suite (void)
   tcase_add_test (bas, family_find_names);
   tcase_add_test (bas, family_descriptors);
   tcase_add_test (bas, family_valid_ranges);
+  tcase_add_test (ref, family_cdf_gsl);
+  tcase_add_test (ref, family_cdf_invgauss_integral);
+  tcase_add_test (ref, family_cdf_discrete_sum);
+  tcase_add_test (ref, family_cdf_tweedie_integral);
+  tcase_add_test (idt, family_quantile_round_trip);
+  tcase_add_test (ref, family_quantile_model_reference);
+  tcase_add_test (idt, family_loglik_unit_weights);
+  tcase_add_test (bas, family_table);
+  tcase_add_test (bas, family_properties);
   suite_add_tcase (s, ref);
   suite_add_tcase (s, idt);
   suite_add_tcase (s, err);

@@ -4,8 +4,9 @@
    A family is one static const descriptor in its own file (family_NAME.c), listed in the one
    family table of family.c; IRLS, the fit summary, the diagnostics, the comparer and the
    writers are written once against it.  Dispersion convention: phi is the dispersion of a
-   row with prior weight 1, so that row i has Var(y_i) = phi V(mu_i) / a_i.  Gaussian phi = sigma^2, gamma phi = 1/shape, inverse
-   gaussian phi = lambda^-1 (McCullagh & Nelder 1989, ch. 2 and table 2.1). */
+   row with prior weight 1, so that row i has Var(y_i) = phi V(mu_i) / a_i.  Gaussian
+   phi = sigma^2, gamma phi = 1/shape, inverse gaussian phi = lambda^-1 (McCullagh & Nelder
+   1989, ch. 2 and table 2.1). */
 #ifndef BALLAST_FAMILY_H
 #define BALLAST_FAMILY_H
 #include <stddef.h>
@@ -119,7 +120,8 @@ const char *bl_family_outside (const bl_family *f);
 double bl_family_var_power (const bl_family *f);
 
 /* Maximum-likelihood dispersion of FAM given the fitted means (the family's own hook).  Y,
-   MU have length N; A (prior weights) may be NULL for all ones; DEV is the deviance sum a_i d_i at MU.
+   MU have length N; A (prior weights) may be NULL for all ones; DEV is the deviance sum
+   a_i d_i at MU.
    - gaussian: phi = D / n (D = sum a r^2);
    - gamma: phi = 1/nu where nu solves sum a_i [log(nu a_i) - psi(nu a_i)] = D/2 (the score
      equation of the gamma log-likelihood in the shape; McCullagh & Nelder 1989, section 8.3);
