@@ -283,62 +283,43 @@ cancel_set (const bl_compare_opts *opt)
   return opt->fit.irls.cancel && *opt->fit.irls.cancel;
 }
 
-/* K-fold cross-validated RMSE and MAE of candidate K (spec SP) on D. */
+/* Fold G of the cross-validation: fit on the other folds' rows (SEL and BLK are scratch of n
+   rows and one block), add the squared and absolute errors of fold G's rows to SE and AE.
+   A fold that cannot be fitted sets *FAILED and gets a note in K.  BL_OK, or BL_ENOMEM. */
 static int
-cross_validate (const bl_design *d, const bl_compare_opts *opt, const spec *sp, double lam,
-                const size_t *fold, bl_candidate *k, bl_err *err)
+cv_fold (const bl_design *d, const bl_fit_opts *o, const size_t *fold, size_t g, size_t *sel,
+         double *blk, bl_candidate *k, long double *se, long double *ae, int *failed,
+         bl_err *err)
 {
-  const size_t n = bl_design_n (d), p = bl_design_p (d), K = opt->folds;
+  const size_t n = bl_design_n (d), p = bl_design_p (d);
   const double *y = bl_design_y (d), *off = bl_design_offset (d);
-  size_t *sel = bl_mallocn (n, sizeof *sel);
-  double *blk = bl_mallocn ((size_t) BL_IRLS_BLOCK * (p ? p : 1), sizeof *blk);
-  long double se = 0.0L, ae = 0.0L;
-  bl_fit_opts o;
+  size_t m = 0;
+  bl_design *sub;
+  bl_fit *ft = NULL;
+  bl_err e;
   int st = BL_OK;
-  if (!sel || !blk) {
+  for (size_t i = 0; i < n; i++)
+    if (fold[i] != g)
+      sel[m++] = i;
+  sub = bl_design_subset (d, sel, m, err);
+  if (!sub)
+    return BL_ENOMEM;
+  ft = bl_fit_glm (sub, o, &e);
+  if ((ft ? bl_fit_status (ft)->code : e.code) == BL_ENOMEM) {
+    /* exhaustion is the caller's error, not a note about the fold (compare.h) */
     st = bl_fail (err, BL_ENOMEM, "compare", "out of memory");
     goto done;
   }
-  fit_opts_for (opt, sp, lam, &o);
-  if (sp->tr == BL_TRANSFORM_BOXCOX && k->fit) {     /* lambda as estimated on all rows */
-    o.lambda_est = 0;
-    o.lambda = bl_fit_transform (k->fit)->lambda;
-  }
-  o.se = BL_SE_MODEL;
-  for (size_t g = 0; g < K; g++) {
-    size_t m = 0;
-    bl_design *sub;
-    bl_fit *ft;
-    bl_err e;
-    if (cancel_set (opt)) {
-      st = bl_fail (err, BL_ECANCEL, "compare", "the comparison was cancelled");
-      goto done;
-    }
-    for (size_t i = 0; i < n; i++)
-      if (fold[i] != g)
-        sel[m++] = i;
-    sub = bl_design_subset (d, sel, m, err);
-    if (!sub) {
-      st = BL_ENOMEM;
-      goto done;
-    }
-    ft = bl_fit_glm (sub, &o, &e);
-    if ((ft ? bl_fit_status (ft)->code : e.code) == BL_ENOMEM) {
-      /* exhaustion is the caller's error, not a note about the fold (compare.h) */
+  if (!ft || !bl_fit_stats_get (ft)->converged) {
+    *failed = 1;
+    if (bl_warnings_add (&k->notes, "cross-validation: fold %zu could not be fitted (%s)",
+                         g + 1, ft ? bl_fit_status (ft)->msg : e.msg) != BL_OK)
       st = bl_fail (err, BL_ENOMEM, "compare", "out of memory");
-      bl_fit_free (ft);
-      bl_design_free (sub);
-      goto done;
-    }
-    if (!ft || !bl_fit_stats_get (ft)->converged) {
-      if (bl_warnings_add (&k->notes, "cross-validation: fold %zu could not be fitted (%s)",
-                           g + 1, ft ? bl_fit_status (ft)->msg : e.msg) != BL_OK)
-        st = bl_fail (err, BL_ENOMEM, "compare", "out of memory");
-      bl_fit_free (ft);
-      bl_design_free (sub);
-      k->cv_rmse = k->cv_mae = NAN;
-      goto done;
-    }
+    goto done;
+  }
+  {
+    const int *aliased = bl_fit_aliased (ft);
+    const double *beta = bl_fit_beta (ft);
     for (size_t r0 = 0; r0 < n; r0 += BL_IRLS_BLOCK) {
       const size_t nb = n - r0 < BL_IRLS_BLOCK ? n - r0 : BL_IRLS_BLOCK;
       int any = 0;
@@ -352,15 +333,52 @@ cross_validate (const bl_design *d, const bl_compare_opts *opt, const spec *sp, 
         if (fold[r0 + i] != g)
           continue;
         for (size_t j = 0; j < p; j++)
-          if (!bl_fit_aliased (ft)[j])
-            eta += blk[i + j * BL_IRLS_BLOCK] * bl_fit_beta (ft)[j];
+          if (!aliased[j])
+            eta += blk[i + j * BL_IRLS_BLOCK] * beta[j];
         res = y[r0 + i] - predict_mean (ft, eta);
-        se += (long double) res * res;
-        ae += fabs (res);
+        *se += (long double) res * res;
+        *ae += fabs (res);
       }
     }
-    bl_fit_free (ft);
-    bl_design_free (sub);
+  }
+done:
+  bl_fit_free (ft);
+  bl_design_free (sub);
+  return st;
+}
+
+/* K-fold cross-validated RMSE and MAE of candidate K (spec SP) on D. */
+static int
+cross_validate (const bl_design *d, const bl_compare_opts *opt, const spec *sp, double lam,
+                const size_t *fold, bl_candidate *k, bl_err *err)
+{
+  const size_t n = bl_design_n (d), p = bl_design_p (d), K = opt->folds;
+  size_t *sel = bl_mallocn (n, sizeof *sel);
+  double *blk = bl_mallocn ((size_t) BL_IRLS_BLOCK * (p ? p : 1), sizeof *blk);
+  long double se = 0.0L, ae = 0.0L;
+  bl_fit_opts o;
+  int st = BL_OK, failed = 0;
+  if (!sel || !blk) {
+    st = bl_fail (err, BL_ENOMEM, "compare", "out of memory");
+    goto done;
+  }
+  fit_opts_for (opt, sp, lam, &o);
+  if (sp->tr == BL_TRANSFORM_BOXCOX && k->fit) {     /* lambda as estimated on all rows */
+    o.lambda_est = 0;
+    o.lambda = bl_fit_transform (k->fit)->lambda;
+  }
+  o.se = BL_SE_MODEL;
+  for (size_t g = 0; g < K; g++) {
+    if (cancel_set (opt)) {
+      st = bl_fail (err, BL_ECANCEL, "compare", "the comparison was cancelled");
+      goto done;
+    }
+    if ((st = cv_fold (d, &o, fold, g, sel, blk, k, &se, &ae, &failed, err)) != BL_OK)
+      goto done;
+    if (failed) {
+      k->cv_rmse = k->cv_mae = NAN;
+      goto done;
+    }
   }
   k->cv_rmse = sqrt ((double) (se / (long double) n));
   k->cv_mae = (double) (ae / (long double) n);

@@ -83,8 +83,9 @@ int
 bl_spread_compute (const double *fitted, const double *r, size_t n, gsl_rng *rng, size_t reps,
                    bl_spread *out, bl_err *err)
 {
-  size_t G = BL_DIAG_GROUPS, *order;
-  double lo = HUGE_VAL, hi = 0.0;
+  size_t G = BL_DIAG_GROUPS, *order = NULL;
+  double lo = HUGE_VAL, hi = 0.0, *sim = NULL;
+  int st = BL_OK;
   memset (out, 0, sizeof *out);
   out->ratio = out->null95 = NAN;
   out->why = "";
@@ -97,15 +98,11 @@ bl_spread_compute (const double *fitted, const double *r, size_t n, gsl_rng *rng
   order = bl_mallocn (n, sizeof *order);
   out->groups = bl_calloc (G, sizeof *out->groups);
   if (!order || !out->groups) {
-    bl_free (order);
-    bl_spread_clear (out);
-    return bl_fail (err, BL_ENOMEM, "spread", "out of memory");
+    st = bl_fail (err, BL_ENOMEM, "spread", "out of memory");
+    goto done;
   }
-  if (bl_order_by (fitted, n, order, err) != BL_OK) {
-    bl_free (order);
-    bl_spread_clear (out);
-    return BL_ENOMEM;
-  }
+  if ((st = bl_order_by (fitted, n, order, err)) != BL_OK)
+    goto done;
   out->ngroups = G;
   for (size_t g = 0; g < G; g++) {
     const size_t a = g * n / G, b = (g + 1) * n / G;
@@ -120,15 +117,14 @@ bl_spread_compute (const double *fitted, const double *r, size_t n, gsl_rng *rng
     lo = out->groups[g].rms < lo ? out->groups[g].rms : lo;
     hi = out->groups[g].rms > hi ? out->groups[g].rms : hi;
   }
-  bl_free (order);
   out->ratio = lo > 0.0 ? hi / lo : NAN;
   if (!(lo > 0.0))
     out->why = "a group has zero residual spread";
   if (rng && reps > 0) {
-    double *sim = bl_mallocn (reps, sizeof *sim);
+    sim = bl_mallocn (reps, sizeof *sim);
     if (!sim) {
-      bl_spread_clear (out);
-      return bl_fail (err, BL_ENOMEM, "spread", "out of memory");
+      st = bl_fail (err, BL_ENOMEM, "spread", "out of memory");
+      goto done;
     }
     for (size_t k = 0; k < reps; k++) {
       double l = HUGE_VAL, h = 0.0;
@@ -142,11 +138,15 @@ bl_spread_compute (const double *fitted, const double *r, size_t n, gsl_rng *rng
     }
     qsort (sim, reps, sizeof *sim, cmp_double);
     out->null95 = sim[(size_t) ceil (0.95 * (double) reps) - 1];
-    bl_free (sim);
   }
   out->flag = isfinite (out->ratio) && out->ratio >= BL_DIAG_SPREAD_FLAG
               && (!isfinite (out->null95) || out->ratio > out->null95);
-  return BL_OK;
+done:
+  bl_free (order);
+  bl_free (sim);
+  if (st != BL_OK)
+    bl_spread_clear (out);
+  return st;
 }
 
 /* ---------------------------------------------------------------- auxiliary regressions */
@@ -764,6 +764,32 @@ median_of (double *x, size_t n)
   return n % 2 ? x[n / 2] : 0.5 * (x[n / 2 - 1] + x[n / 2]);
 }
 
+/* The one-way ANOVA F of z over the L levels (CNT rows each, level k's z at START[k] ..
+   START[k + 1] - 1; G levels with rows, N rows, ZBAR the mean z) into OUT. */
+static void
+bf_anova (const size_t *cnt, const size_t *start, const double *z, size_t L, size_t n,
+          size_t G, long double zbar, bl_bf *out)
+{
+  long double between = 0.0L, within = 0.0L;
+  for (size_t k = 0; k < L; k++) {
+    long double m = 0.0L;
+    if (!cnt[k])
+      continue;
+    for (size_t q = start[k]; q < start[k + 1]; q++)
+      m += z[q];
+    m /= (long double) cnt[k];
+    between += (long double) cnt[k] * (m - zbar) * (m - zbar);
+    for (size_t q = start[k]; q < start[k + 1]; q++)
+      within += (z[q] - m) * (z[q] - m);
+  }
+  out->dof = G - 1;
+  out->dof2 = n - G;
+  out->stat = within > 0.0L ? (double) ((between / (long double) (G - 1))
+                                         / (within / (long double) (n - G))) : NAN;
+  out->p = isfinite (out->stat) ? gsl_cdf_fdist_Q (out->stat, (double) out->dof,
+                                                   (double) out->dof2) : NAN;
+}
+
 int
 bl_brown_forsythe (const bl_fit *f, const bl_table *t, const char *col, bl_bf *out,
                    bl_err *err)
@@ -774,7 +800,7 @@ bl_brown_forsythe (const bl_fit *f, const bl_table *t, const char *col, bl_bf *o
   const int32_t *codes;
   size_t L, *cnt = NULL, *start = NULL, *pos = NULL, G = 0;
   double *r = NULL, *sorted = NULL, *z = NULL;
-  long double zbar = 0.0L, between = 0.0L, within = 0.0L;
+  long double zbar = 0.0L;
   int st = BL_OK;
 
   memset (out, 0, sizeof *out);
@@ -840,24 +866,7 @@ bl_brown_forsythe (const bl_fit *f, const bl_table *t, const char *col, bl_bf *o
                   "compare", col, G, G == 1 ? "" : "s");
     goto done;
   }
-  zbar /= (long double) n;
-  for (size_t k = 0; k < L; k++) {
-    long double m = 0.0L;
-    if (!cnt[k])
-      continue;
-    for (size_t q = start[k]; q < start[k + 1]; q++)
-      m += z[q];
-    m /= (long double) cnt[k];
-    between += (long double) cnt[k] * (m - zbar) * (m - zbar);
-    for (size_t q = start[k]; q < start[k + 1]; q++)
-      within += (z[q] - m) * (z[q] - m);
-  }
-  out->dof = G - 1;
-  out->dof2 = n - G;
-  out->stat = within > 0.0L ? (double) ((between / (long double) (G - 1))
-                                         / (within / (long double) (n - G))) : NAN;
-  out->p = isfinite (out->stat) ? gsl_cdf_fdist_Q (out->stat, (double) out->dof,
-                                                   (double) out->dof2) : NAN;
+  bf_anova (cnt, start, z, L, n, G, zbar / (long double) n, out);
 done:
   bl_free (cnt);
   bl_free (start);
