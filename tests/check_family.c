@@ -798,8 +798,9 @@ START_TEST (family_properties)
       ck_assert_str_eq (bl_family_support (fam), "y >= 0");
       ck_assert (!bl_family_y_ok (fam, -1e-300) && bl_family_y_ok (fam, 0.0));
     }
-    /* the transitional field mirrors the flag */
+    /* the transitional fields mirror the flags */
     ck_assert_int_eq (fam->phi_free, bl_family_has (fam, BL_FAM_PHI_FREE));
+    ck_assert_int_eq (fam->discrete, bl_family_has (fam, BL_FAM_DISCRETE));
   }
   ck_assert_str_eq (bl_family_noun (&bl_family_negbin), "the negative binomial");
 }

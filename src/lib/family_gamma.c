@@ -134,7 +134,8 @@ gam_phi_ml (const double *y, const double *mu, const double *a, size_t n, double
 const bl_family bl_family_gamma = {
   .name = "gamma", .noun = "gamma", .support = "y > 0", .outside = "y <= 0",
   .par_name = NULL, .default_link = &bl_link_inverse,
-  .flags = BL_FAM_PHI_FREE, .par_kind = BL_FAMPAR_NONE, .phi_free = 1, .var_power = 2.0,
+  .flags = BL_FAM_PHI_FREE, .par_kind = BL_FAMPAR_NONE,
+  .phi_free = 1, .discrete = 0, .var_power = 2.0,
   .y_ok = bl_family_y_pos, .valid_mu = bl_family_mu_pos, .mustart = pos_start,
   .var = gam_var, .unit_dev = gam_dev, .logpdf = gam_logpdf, .cdf = gam_cdf,
   .quantile = gam_quantile, .phi_ml = gam_phi_ml, .loglik_unit = gam_loglik_unit

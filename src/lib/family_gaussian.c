@@ -40,7 +40,8 @@ gau_quantile (double prob, double mu, double a, double phi, double par)
 const bl_family bl_family_gaussian = {
   .name = "gaussian", .noun = "gaussian", .support = "any real y", .outside = NULL,
   .par_name = NULL, .default_link = &bl_link_identity,
-  .flags = BL_FAM_PHI_FREE | BL_FAM_NORMAL, .par_kind = BL_FAMPAR_NONE, .phi_free = 1,
+  .flags = BL_FAM_PHI_FREE | BL_FAM_NORMAL, .par_kind = BL_FAMPAR_NONE,
+  .phi_free = 1, .discrete = 0,
   .var_power = 0.0,
   .y_ok = bl_family_y_real, .valid_mu = bl_family_mu_real, .mustart = gau_start,
   .var = gau_var, .unit_dev = gau_dev, .logpdf = gau_logpdf, .cdf = gau_cdf,

@@ -21,8 +21,9 @@ struct bl_family {
   const bl_link *default_link;
   unsigned flags;           /* BL_FAM_... */
   int par_kind;             /* bl_family_par */
-  int phi_free;             /* = BL_FAM_PHI_FREE in flags; transitional, for the callers that
-                               still read the field (family.h) */
+  int phi_free;             /* = BL_FAM_PHI_FREE in flags, and */
+  int discrete;             /* = BL_FAM_DISCRETE: transitional, for the callers that still
+                               read the fields (family.h) */
   double var_power;         /* K when V(mu) = mu^K with K fixed (0, 1, 2, 3); else NAN */
   int (*y_ok) (double y);                       /* y inside the support */
   int (*valid_mu) (double mu);                  /* mu inside the mean space */

@@ -92,7 +92,8 @@ ig_quantile (double prob, double mu, double a, double phi, double par)
 const bl_family bl_family_invgauss = {
   .name = "inverse-gaussian", .noun = "the inverse gaussian", .support = "y > 0",
   .outside = "y <= 0", .par_name = NULL, .default_link = &bl_link_log,
-  .flags = BL_FAM_PHI_FREE, .par_kind = BL_FAMPAR_NONE, .phi_free = 1, .var_power = 3.0,
+  .flags = BL_FAM_PHI_FREE, .par_kind = BL_FAMPAR_NONE,
+  .phi_free = 1, .discrete = 0, .var_power = 3.0,
   .y_ok = bl_family_y_pos, .valid_mu = bl_family_mu_pos, .mustart = pos_start,
   .var = ig_var, .unit_dev = ig_dev, .logpdf = ig_logpdf, .cdf = ig_cdf,
   .quantile = ig_quantile, .phi_ml = bl_family_phi_dev_n, .loglik_unit = NULL

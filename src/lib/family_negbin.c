@@ -71,7 +71,8 @@ nb_quantile (double prob, double mu, double a, double phi, double th)
 const bl_family bl_family_negbin = {
   .name = "negative-binomial", .noun = "the negative binomial", .support = "y >= 0",
   .outside = "y < 0", .par_name = "theta", .default_link = &bl_link_log,
-  .flags = BL_FAM_DISCRETE, .par_kind = BL_FAMPAR_THETA, .phi_free = 0, .var_power = NAN,
+  .flags = BL_FAM_DISCRETE, .par_kind = BL_FAMPAR_THETA,
+  .phi_free = 0, .discrete = 1, .var_power = NAN,
   .y_ok = bl_family_y_nonneg, .valid_mu = bl_family_mu_pos, .mustart = nb_start,
   .var = nb_var, .unit_dev = nb_dev, .logpdf = nb_logpdf, .cdf = nb_cdf,
   .quantile = nb_quantile, .phi_ml = NULL, .loglik_unit = NULL

@@ -53,7 +53,7 @@ const bl_family bl_family_poisson = {
   .name = "poisson", .noun = "poisson", .support = "y >= 0", .outside = "y < 0",
   .par_name = NULL, .default_link = &bl_link_log,
   .flags = BL_FAM_DISCRETE | BL_FAM_OVERDISP | BL_FAM_ZERO_GROUP, .par_kind = BL_FAMPAR_NONE,
-  .phi_free = 0, .var_power = 1.0,
+  .phi_free = 0, .discrete = 1, .var_power = 1.0,
   .y_ok = bl_family_y_nonneg, .valid_mu = bl_family_mu_pos, .mustart = poi_start,
   .var = poi_var, .unit_dev = poi_dev, .logpdf = poi_logpdf, .cdf = poi_cdf,
   .quantile = poi_quantile, .phi_ml = NULL, .loglik_unit = NULL

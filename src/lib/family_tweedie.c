@@ -154,7 +154,7 @@ const bl_family bl_family_tweedie = {
   .name = "tweedie", .noun = "Tweedie", .support = "y >= 0", .outside = "y < 0",
   .par_name = "power", .default_link = &bl_link_log,
   .flags = BL_FAM_PHI_FREE | BL_FAM_ZERO_MASS | BL_FAM_CDF_PHI_ML,
-  .par_kind = BL_FAMPAR_POWER, .phi_free = 1, .var_power = NAN,
+  .par_kind = BL_FAMPAR_POWER, .phi_free = 1, .discrete = 0, .var_power = NAN,
   .y_ok = bl_family_y_nonneg, .valid_mu = bl_family_mu_pos, .mustart = tw_start,
   .var = tw_var, .unit_dev = tw_dev, .logpdf = tw_logpdf, .cdf = tw_cdf,
   .quantile = tw_quantile, .phi_ml = bl_family_phi_dev_n, .loglik_unit = NULL
