@@ -12,6 +12,7 @@
 #include <stdio.h>
 #include <string.h>
 #include "alloc.h"
+#include "options.h"
 #include "source.h"
 #include "spec.h"
 
@@ -21,10 +22,11 @@ struct bl_spec {
   size_t njobs, cap;
 };
 
-/* Every known key is shorter than this (the longest is "decimal-comma"). */
+/* Every known key is shorter than this (the longest is "decimal-comma"; check_options.c
+   checks the table against it). */
 #define KEY_MAX 24
-/* More than the number of keys bl_job_set knows; a section repeats none of them. */
-#define SECTION_KEYS_MAX 64
+/* More than the number of keys in the option table; a section repeats none of them. */
+#define SECTION_KEYS_MAX BL_OPTION_MAX
 
 /* The keys one section has set, with their lines (for "given twice"). */
 typedef struct seen_keys {
