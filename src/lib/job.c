@@ -141,26 +141,28 @@ int
 bl_job_parse_terms (const bl_job *j, const char *where_spec, bl_terms **terms,
                     bl_terms **offset, bl_err *err)
 {
+  const char *const where_offset = where_spec ? where_spec : "--offset";
+  int status = BL_OK;
   *terms = *offset = NULL;
   if (j->terms && !(*terms = bl_terms_parse (j->terms, where_spec ? where_spec : "--terms",
-                                             err)))
-    return err ? err->code : BL_ESPEC;
-  if (j->offset) {
-    if (!(*offset = bl_terms_parse (j->offset, where_spec ? where_spec : "--offset", err))) {
-      bl_terms_free (*terms);
-      *terms = NULL;
-      return err ? err->code : BL_ESPEC;
-    }
-    if (bl_terms_count (*offset) != 1) {
-      const size_t k = bl_terms_count (*offset);
-      bl_terms_free (*terms);
-      bl_terms_free (*offset);
-      *terms = *offset = NULL;
-      return bl_fail (err, BL_ESPEC, where_spec ? where_spec : "--offset",
-                      "expected one term, got %zu", k);
-    }
+                                             err))) {
+    status = err ? err->code : BL_ESPEC;
+    goto done;
   }
-  return BL_OK;
+  if (j->offset && !(*offset = bl_terms_parse (j->offset, where_offset, err))) {
+    status = err ? err->code : BL_ESPEC;
+    goto done;
+  }
+  if (*offset && bl_terms_count (*offset) != 1)
+    status = bl_fail (err, BL_ESPEC, where_offset, "expected one term, got %zu",
+                      bl_terms_count (*offset));
+done:
+  if (status != BL_OK) {
+    bl_terms_free (*terms);
+    bl_terms_free (*offset);
+    *terms = *offset = NULL;
+  }
+  return status;
 }
 
 void
@@ -257,6 +259,7 @@ bl_job_load_with (const bl_job *j, const bl_terms *terms, const bl_terms *offset
   bl_design_opts dopt;
   names keep;
   bl_terms *against = NULL;
+  int status = BL_OK;
   *table = NULL;
   *design = NULL;
   memset (&keep, 0, sizeof keep);
@@ -281,18 +284,21 @@ bl_job_load_with (const bl_job *j, const bl_terms *terms, const bl_terms *offset
     to.keep = keep.v;
     to.n_keep = keep.n;
   }
-  *table = bl_table_read (j->data, &to, err);
+  if (!(*table = bl_table_read (j->data, &to, err))) {
+    status = err ? err->code : BL_EIO;
+    goto done;
+  }
+  bl_job_design_opts (j, offset, &dopt);
+  if (!(*design = bl_design_new (*table, j->response, terms, &dopt, err)))
+    status = err ? err->code : BL_EDATA;
+done:
   bl_free (keep.v);
   for (size_t k = 0; k < keep.nown; k++)
     bl_free (keep.own[k]);
   bl_terms_free (against);
-  if (!*table)
-    return err ? err->code : BL_EIO;
-  bl_job_design_opts (j, offset, &dopt);
-  if (!(*design = bl_design_new (*table, j->response, terms, &dopt, err))) {
+  if (status != BL_OK) {
     bl_table_free (*table);
     *table = NULL;
-    return err ? err->code : BL_EDATA;
   }
-  return BL_OK;
+  return status;
 }
