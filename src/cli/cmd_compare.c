@@ -39,8 +39,8 @@ static const char usage_tail[] =
 
 enum { OPT_JSON = OPT_FIRST_OWN, OPT_CANDIDATES, OPT_FOLDS, OPT_SEED };
 
-static const struct option long_opts[] = {
-  CLI_MODEL_LONG_OPTS,
+/* The command's own long options; the shared ones come from the option table. */
+static const struct option own_opts[] = {
   { "json", no_argument, NULL, OPT_JSON },
   { "candidates", required_argument, NULL, OPT_CANDIDATES },
   { "folds", required_argument, NULL, OPT_FOLDS },
@@ -79,10 +79,11 @@ cmd_compare (int argc, char **argv)
   bl_err_clear (&err);
   optind = 1;
   opterr = 0;
+  struct option long_opts[CLI_LONG_OPTS_MAX];
+  cli_model_long_opts (long_opts, own_opts);
   while ((c = getopt_long (argc, argv, ":o:qh", long_opts, &li)) != -1) {
     int r;
-    if (c == OPT_METHOD || c == OPT_FAMILY || c == OPT_LINK || c == OPT_VARIANCE
-        || c == OPT_TRANSFORM || c == OPT_SHIFT || c == OPT_DISPERSION) {
+    if (cli_model_option_has (c, BL_OPTION_CANDIDATE)) {
       char where[64];
       snprintf (where, sizeof where, "--%s", long_opts[li].name);
       cli_model_free (&m);

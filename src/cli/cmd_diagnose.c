@@ -35,8 +35,8 @@ static const char usage_tail[] =
 
 enum { OPT_JSON = OPT_FIRST_OWN, OPT_RESIDUALS, OPT_SEED, OPT_BY };
 
-static const struct option long_opts[] = {
-  CLI_MODEL_LONG_OPTS,
+/* The command's own long options; the shared ones come from the option table. */
+static const struct option own_opts[] = {
   { "json", no_argument, NULL, OPT_JSON },
   { "residuals", required_argument, NULL, OPT_RESIDUALS },
   { "seed", required_argument, NULL, OPT_SEED },
@@ -67,6 +67,8 @@ cmd_diagnose (int argc, char **argv)
   bl_err_clear (&err);
   optind = 1;
   opterr = 0;
+  struct option long_opts[CLI_LONG_OPTS_MAX];
+  cli_model_long_opts (long_opts, own_opts);
   while ((c = getopt_long (argc, argv, ":o:qh", long_opts, NULL)) != -1) {
     const int r = cli_model_option (&m, c, optarg, "diagnose");
     if (r > 0) {
@@ -74,8 +76,7 @@ cmd_diagnose (int argc, char **argv)
       return r;
     }
     if (r == 0) {
-      method_set |= c == OPT_METHOD || c == OPT_FAMILY || c == OPT_LINK
-                    || c == OPT_TRANSFORM || c == OPT_VARIANCE;
+      method_set |= cli_model_option_has (c, BL_OPTION_METHOD);
       continue;
     }
     switch (c) {

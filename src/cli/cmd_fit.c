@@ -27,8 +27,8 @@ static const char usage_tail[] =
 
 enum { OPT_JSON = OPT_FIRST_OWN, OPT_SAVE };
 
-static const struct option long_opts[] = {
-  CLI_MODEL_LONG_OPTS,
+/* The command's own long options; the shared ones come from the option table. */
+static const struct option own_opts[] = {
   { "json", no_argument, NULL, OPT_JSON },
   { "save", required_argument, NULL, OPT_SAVE },
   { "output", required_argument, NULL, 'o' },
@@ -73,6 +73,8 @@ cmd_fit (int argc, char **argv)
   bl_err_clear (&err);
   optind = 1;
   opterr = 0;
+  struct option long_opts[CLI_LONG_OPTS_MAX];
+  cli_model_long_opts (long_opts, own_opts);
   while ((c = getopt_long (argc, argv, ":o:qh", long_opts, NULL)) != -1) {
     const int r = cli_model_option (&m, c, optarg, "fit");
     if (r > 0) {
