@@ -1,4 +1,4 @@
-/* transform.c -- ordinary least squares of a transformed response, reported on the original
+/* fit_transform.c -- ordinary least squares of a transformed response, reported on the original
    scale of y.
 
    With z = h(y) normal with mean x'b and variance sigma^2 / a, the density of y is the
@@ -21,7 +21,8 @@
 #include <gsl/gsl_min.h>
 #include <gsl/gsl_roots.h>
 #include "alloc.h"
-#include "fit_impl.h"
+#include "fit_engine.h"
+#include "fit_glm.h"
 
 typedef struct prof_ctx {
   const bl_design *d;
@@ -182,7 +183,7 @@ bl_fit_transform_run (const bl_design *d, const bl_fit_opts *opt, bl_err *err)
   const char *name = opt->transform == BL_TRANSFORM_LOG ? "log"
                      : opt->transform == BL_TRANSFORM_SQRT ? "sqrt" : "boxcox";
 
-  if ((opt->fam && opt->fam != &bl_family_gaussian)
+  if ((opt->fam && !bl_family_has (opt->fam, BL_FAM_NORMAL))
       || (opt->link && opt->link != &bl_link_identity)) {
     bl_fail (err, BL_ESPEC, "--transform", "a transformed response is fitted by ordinary "
              "least squares: leave out --family and --link");

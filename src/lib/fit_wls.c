@@ -1,4 +1,4 @@
-/* wls.c -- weighted least squares: known weights, and a variance function with its power
+/* fit_wls.c -- weighted least squares: known weights, and a variance function with its power
    fixed or estimated by maximum likelihood.
 
    Model: y_i is Normal(mu_i, sigma^2 v_i / a_i), mu = X b, a_i the prior weights and
@@ -28,7 +28,8 @@
 #include <gsl/gsl_linalg.h>
 #include <gsl/gsl_min.h>
 #include "alloc.h"
-#include "fit_impl.h"
+#include "fit_engine.h"
+#include "fit_glm.h"
 
 #define BLOCK 1024
 #define LOG_2PI 1.8378770664093454835606594728112
@@ -536,7 +537,7 @@ bl_fit_wls_run (const bl_design *d, const bl_fit_opts *opt, bl_err *err)
   const double *a = bl_design_prior_w (d);
   bl_fit_opts o = *opt;
   bl_fit *f = NULL;
-  if ((opt->fam && opt->fam != &bl_family_gaussian)
+  if ((opt->fam && !bl_family_has (opt->fam, BL_FAM_NORMAL))
       || (opt->link && opt->link != &bl_link_identity)) {
     bl_fail (err, BL_ESPEC, "--method", "wls is least squares with the identity link: leave "
              "out --family and --link");
