@@ -97,6 +97,53 @@ check_offset_range (const bl_design *d, const bl_link *lnk, bl_err *err)
   return BL_OK;
 }
 
+/* A candidate combination v of check_mean_boundary: a column, or with an intercept the
+   indicator of one categorical column's reference level. */
+typedef struct cand {
+  size_t nz, first;                 /* rows where v != 0; the first of them */
+  int pos, neg, hit;                /* v > 0 somewhere, v < 0 somewhere, v != 0 where y > 0 */
+} cand;
+
+/* One pass over the rows in blocks of BL_IRLS_BLOCK: where each candidate of C (the P
+   columns, then one per category) is nonzero, of which sign, and whether on a row with
+   y > 0.  GRP[j] is the category of column j or -1; BUF holds one block, SUM one entry per
+   category. */
+static void
+scan_candidates (const bl_design *d, const double *y, const long *grp, cand *c, double *buf,
+                 double *sum)
+{
+  const size_t n = bl_design_n (d), p = bl_design_p (d), ncat = bl_design_ncat (d);
+  const size_t nc = p + ncat;
+  const size_t ld = BL_IRLS_BLOCK;
+  for (size_t r0 = 0; r0 < n; r0 += ld) {
+    const size_t nb = n - r0 < ld ? n - r0 : ld;
+    bl_design_fill (d, r0, nb, buf, ld);
+    for (size_t i = 0; i < nb; i++) {
+      const int yp = y[r0 + i] != 0.0;
+      for (size_t g = 0; g < ncat; g++)
+        sum[g] = 0.0;
+      for (size_t k = 0; k < nc; k++) {
+        double v;
+        if (k < p) {
+          v = buf[i + k * ld];
+          if (grp[k] >= 0)
+            sum[grp[k]] += v;
+        } else if (bl_design_has_intercept (d))
+          v = buf[i] - sum[k - p];     /* column 0 is the intercept */
+        else
+          continue;
+        if (v == 0.0)
+          continue;
+        if (c[k].nz++ == 0)
+          c[k].first = r0 + i;
+        c[k].pos |= v > 0.0;
+        c[k].neg |= v < 0.0;
+        c[k].hit |= yp;
+      }
+    }
+  }
+}
+
 /* No maximum-likelihood estimate when the mean runs to 0.  In a model whose support holds
    y = 0 while its means must be nonzero (zero_mean_excluded), a linear combination v = X d of
    the columns that is one-signed, nonzero on some rows and 0 on every row with y > 0 makes
@@ -120,10 +167,6 @@ check_mean_boundary (const bl_design *d, const double *y, const bl_family *fam,
   const size_t n = bl_design_n (d), p = bl_design_p (d), ncat = bl_design_ncat (d);
   const size_t nc = p + ncat;         /* candidates: the columns, then one per category */
   const size_t ld = BL_IRLS_BLOCK;
-  typedef struct cand {
-    size_t nz, first;                 /* rows where v != 0; the first of them */
-    int pos, neg, hit;                /* v > 0 somewhere, v < 0 somewhere, v != 0 where y > 0 */
-  } cand;
   cand *c;
   double *buf, *sum;
   long *grp;                          /* category of column j, or -1 */
@@ -153,33 +196,7 @@ check_mean_boundary (const bl_design *d, const double *y, const bl_family *fam,
         grp[j] = (long) g;
     }
   }
-  for (size_t r0 = 0; r0 < n; r0 += ld) {
-    const size_t nb = n - r0 < ld ? n - r0 : ld;
-    bl_design_fill (d, r0, nb, buf, ld);
-    for (size_t i = 0; i < nb; i++) {
-      const int yp = y[r0 + i] != 0.0;
-      for (size_t g = 0; g < ncat; g++)
-        sum[g] = 0.0;
-      for (size_t k = 0; k < nc; k++) {
-        double v;
-        if (k < p) {
-          v = buf[i + k * ld];
-          if (grp[k] >= 0)
-            sum[grp[k]] += v;
-        } else if (bl_design_has_intercept (d))
-          v = buf[i] - sum[k - p];     /* column 0 is the intercept */
-        else
-          continue;
-        if (v == 0.0)
-          continue;
-        if (c[k].nz++ == 0)
-          c[k].first = r0 + i;
-        c[k].pos |= v > 0.0;
-        c[k].neg |= v < 0.0;
-        c[k].hit |= yp;
-      }
-    }
-  }
+  scan_candidates (d, y, grp, c, buf, sum);
   for (size_t k = 0; k < nc && bad == nc; k++) {
     int members = k < p;
     for (size_t j = 0; j < p && !members; j++)
@@ -276,17 +293,17 @@ null_deviance (bl_fit *f, const bl_fit_opts *opt)
 }
 
 
-/* Fill the coefficient table and every summary figure from a converged workspace. */
+/* The means, working weights, rank, deviance and Pearson chi2 of a converged workspace, the
+   perfect-fit test and the range check; *SA is the total prior weight. */
 static int
-summarize (bl_fit *f, const bl_irls_work *ws, const bl_fit_opts *opt, bl_err *err)
+summary_fit (bl_fit *f, const bl_irls_work *ws, long double *sa_out, bl_err *err)
 {
   const bl_design *d = f->d;
   const size_t n = f->n, p = f->p;
   const double *y = f->y, *a = f->a;
-  const bl_lsq_sol *sol = bl_irls_sol (ws);
   bl_fit_stats *st = &f->st;
+  const bl_lsq_sol *sol = bl_irls_sol (ws);
   long double x2 = 0.0L, ssy = 0.0L, rss = 0.0L, sa = 0.0L;
-  int wst;
 
   memcpy (f->mu, bl_irls_mu (ws), n * sizeof (double));
   memcpy (f->eta, bl_irls_eta (ws), n * sizeof (double));
@@ -344,6 +361,18 @@ summarize (bl_fit *f, const bl_irls_work *ws, const bl_fit_opts *opt, bl_err *er
       && bl_warnings_add (&f->warn, "perfect fit: the residual variance is zero, so the "
                           "log-likelihood, AIC and BIC do not exist") != BL_OK)
     return bl_fail (err, BL_ENOMEM, "fit", "out of memory");
+  *sa_out = sa;
+  return BL_OK;
+}
+
+/* The dispersion (Pearson and maximum likelihood, and the one the covariance uses), the
+   parameter count and the log-likelihood with AIC, AICc and BIC. */
+static void
+summary_likelihood (bl_fit *f, const bl_lsq_sol *sol, const bl_fit_opts *opt)
+{
+  const size_t n = f->n;
+  const double *y = f->y, *a = f->a;
+  bl_fit_stats *st = &f->st;
 
   if (!bl_family_has (f->fam, BL_FAM_PHI_FREE)) {
     st->phi_ml = 1.0;
@@ -397,6 +426,18 @@ summarize (bl_fit *f, const bl_irls_work *ws, const bl_fit_opts *opt, bl_err *er
       st->aicc_why = st->loglik_why;
     }
   }
+}
+
+/* The coefficient table from the solve, scaled by the dispersion, with a warning for each
+   aliased column; a standard error out of a double's range is an error. */
+static int
+summary_coefs (bl_fit *f, const bl_irls_work *ws, bl_err *err)
+{
+  const bl_lsq_sol *sol = bl_irls_sol (ws);
+  const bl_design *d = f->d;
+  const size_t n = f->n, p = f->p;
+  bl_fit_stats *st = &f->st;
+  int wst;
 
   for (size_t j = 0; j < p; j++) {
     f->aliased[j] = sol->aliased[j];
@@ -441,6 +482,18 @@ summarize (bl_fit *f, const bl_irls_work *ws, const bl_fit_opts *opt, bl_err *er
                       st->phi_used, xmax);
     }
   }
+  return BL_OK;
+}
+
+/* The warnings a converged fit may carry: overdispersion, and means vanishing where y = 0. */
+static int
+summary_warnings (bl_fit *f, const bl_fit_opts *opt, long double sa, bl_err *err)
+{
+  const bl_design *d = f->d;
+  const size_t n = f->n;
+  const double *y = f->y, *a = f->a;
+  bl_fit_stats *st = &f->st;
+  int wst;
 
   if (bl_family_has (f->fam, BL_FAM_OVERDISP) && st->dof_resid > 0
       && st->phi_pearson > BL_FIT_OVERDISPERSION && !opt->dispersion_pearson) {
@@ -476,6 +529,21 @@ summarize (bl_fit *f, const bl_irls_work *ws, const bl_fit_opts *opt, bl_err *er
       return bl_fail (err, BL_ENOMEM, "fit", "out of memory");
   }
   return BL_OK;
+}
+
+/* Fill the coefficient table and every summary figure from a converged workspace. */
+static int
+summarize (bl_fit *f, const bl_irls_work *ws, const bl_fit_opts *opt, bl_err *err)
+{
+  const bl_lsq_sol *sol = bl_irls_sol (ws);
+  long double sa = 0.0L;
+  int st = summary_fit (f, ws, &sa, err);
+  if (st != BL_OK)
+    return st;
+  summary_likelihood (f, sol, opt);
+  if ((st = summary_coefs (f, ws, err)) != BL_OK)
+    return st;
+  return summary_warnings (f, opt, sa, err);
 }
 
 /* The options and data a GLM fit needs before any allocation: an OLS fit is the normal

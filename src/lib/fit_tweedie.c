@@ -9,13 +9,10 @@
 #include <math.h>
 #include <stdio.h>
 #include <string.h>
-#include <gsl/gsl_cdf.h>
-#include <gsl/gsl_errno.h>
-#include <gsl/gsl_min.h>
-#include <gsl/gsl_roots.h>
 #include "alloc.h"
 #include "fit_engine.h"
 #include "fit_glm.h"
+#include "profile.h"
 
 #define TW_GRID_LO 1.1
 #define TW_GRID_HI 1.9
@@ -30,7 +27,6 @@ typedef struct tw_ctx {
   double p;
   int status;
   bl_err *err;
-  double thr;
 } tw_ctx;
 
 static double
@@ -45,22 +41,31 @@ tw_negll_logphi (double t, void *arg)
   return isfinite (l) ? -l : HUGE_VAL;
 }
 
+static double
+tw_ll_logphi (double t, void *arg)
+{
+  return -tw_negll_logphi (t, arg);
+}
+
+/* The search for log phi: GSL's Brent steps are at least sqrt(DBL_EPSILON) |x| long, so an
+   absolute 1e-9 alone is out of reach once |log phi| passes about 0.07: the relative part
+   (1e-7) ends the search there, and so does an iteration that leaves the bracket as it was
+   (each evaluation is a pass of series densities over every row: measured, 200 of them made
+   a Tweedie fit of 2e5 rows take minutes). */
+static const bl_profile_tol tw_phi_tol = { 1e-9, 1e-7, 200, 1 };
+#define TW_PHI_SPAN 7.0           /* the first bracket: log phi0 -/+ this */
+#define TW_PHI_WALK 60            /* halvings of the bracket while looking for its inside */
+
 /* phi-hat given the means: Brent's method on log phi, bracketed around the Pearson value. */
 static double
 tw_phi_ml (tw_ctx *c, double phi0, double *ll)
 {
-  gsl_function F = { tw_negll_logphi, c };
-  gsl_min_fminimizer *s = gsl_min_fminimizer_alloc (gsl_min_fminimizer_brent);
-  double lo = log (phi0) - 7.0, hi = log (phi0) + 7.0, x = log (phi0);
+  double lo = log (phi0) - TW_PHI_SPAN, hi = log (phi0) + TW_PHI_SPAN, x = log (phi0);
   double fx = tw_negll_logphi (x, c), flo = tw_negll_logphi (lo, c);
   double fhi = tw_negll_logphi (hi, c);
-  if (!s) {
-    c->status = BL_ENOMEM;
-    return NAN;
-  }
   /* walk the start inward until it is below both ends (the likelihood is unimodal in
      log phi) */
-  for (int k = 0; k < 60 && !(fx < flo && fx < fhi); k++) {
+  for (int k = 0; k < TW_PHI_WALK && !(fx < flo && fx < fhi); k++) {
     if (flo < fhi) {
       hi = x;
       fhi = fx;
@@ -71,26 +76,14 @@ tw_phi_ml (tw_ctx *c, double phi0, double *ll)
     x = 0.5 * (lo + hi);
     fx = tw_negll_logphi (x, c);
   }
-  if (fx < flo && fx < fhi
-      && gsl_min_fminimizer_set_with_values (s, &F, x, fx, lo, flo, hi, fhi) == GSL_SUCCESS) {
-    for (int it = 0; it < 200; it++) {
-      const double lo0 = gsl_min_fminimizer_x_lower (s), hi0 = gsl_min_fminimizer_x_upper (s);
-      if (gsl_min_fminimizer_iterate (s) != GSL_SUCCESS)
-        break;
-      x = gsl_min_fminimizer_x_minimum (s);
-      /* GSL's Brent steps are at least sqrt(DBL_EPSILON) |x| long, so an absolute 1e-9 alone
-         is out of reach once |log phi| passes about 0.07: the relative part (1e-7) ends the
-         search there, and so does an iteration that leaves the bracket as it was (each
-         evaluation is a pass of series densities over every row: measured, 200 of them
-         made a Tweedie fit of 2e5 rows take minutes) */
-      if (gsl_min_test_interval (gsl_min_fminimizer_x_lower (s), gsl_min_fminimizer_x_upper (s),
-                                 1e-9, 1e-7) == GSL_SUCCESS
-          || (gsl_min_fminimizer_x_lower (s) == lo0 && gsl_min_fminimizer_x_upper (s) == hi0))
-        break;
+  if (fx < flo && fx < fhi) {
+    if (bl_profile_brent (tw_ll_logphi, c, lo, -flo, x, -fx, hi, -fhi, &tw_phi_tol, &x)
+        != BL_OK) {
+      c->status = BL_ENOMEM;
+      return NAN;
     }
     fx = tw_negll_logphi (x, c);
   }
-  gsl_min_fminimizer_free (s);
   *ll = -fx;
   return exp (x);
 }
@@ -142,34 +135,14 @@ tw_profile (double p, void *arg)
   return ok ? ll : -HUGE_VAL;
 }
 
-static double tw_neg_profile (double p, void *arg) { return -tw_profile (p, arg); }
-static double
-tw_gap (double p, void *arg)
-{
-  tw_ctx *c = arg;
-  return tw_profile (p, arg) - c->thr;
-}
-
-static double
-tw_root (tw_ctx *c, double a, double b)
-{
-  gsl_function F = { tw_gap, c };
-  gsl_root_fsolver *s = gsl_root_fsolver_alloc (gsl_root_fsolver_brent);
-  double r = NAN;
-  if (!s)
-    return NAN;
-  if (gsl_root_fsolver_set (s, &F, a < b ? a : b, a < b ? b : a) == GSL_SUCCESS)
-    for (int it = 0; it < 100; it++) {
-      if (gsl_root_fsolver_iterate (s) != GSL_SUCCESS)
-        break;
-      r = gsl_root_fsolver_root (s);
-      if (gsl_root_test_interval (gsl_root_fsolver_x_lower (s), gsl_root_fsolver_x_upper (s),
-                                  1e-6, 0.0) == GSL_SUCCESS)
-        break;
-    }
-  gsl_root_fsolver_free (s);
-  return r;
-}
+/* The searches of the power's profile: the maximum by Brent's method to 1e-6 in p, at most
+   100 profile fits, without the stall test of the other searches (adding it is left to the
+   statistics issue); the interval ends by Brent's root bracketing to 1e-6, at most 100 fits
+   each.  A solver that GSL cannot allocate is skipped: the grid point stands for the
+   maximum, and that end of the interval is open. */
+static const bl_profile_tol tw_power_tol = { 1e-6, 0.0, 100, 0 };
+static const bl_profile_tol tw_root_tol = { 1e-6, 0.0, 100, 0 };
+#define TW_GRID_MAX 32            /* grid points at most */
 
 bl_fit *
 bl_fit_tweedie_run (const bl_design *d, const bl_fit_opts *opt, bl_err *err)
@@ -198,54 +171,22 @@ bl_fit_tweedie_run (const bl_design *d, const bl_fit_opts *opt, bl_err *err)
     }
     p = opt->fam_par;
   } else {
-    const size_t ng = (size_t) lround ((TW_GRID_HI - TW_GRID_LO) / TW_GRID_STEP) + 1;
-    double grid[32], val[32];
-    size_t m = 0;
-    for (size_t k = 0; k < ng && k < 32; k++) {
-      grid[k] = TW_GRID_LO + TW_GRID_STEP * (double) k;
-      val[k] = tw_profile (grid[k], &c);
-      if (c.status != BL_OK)
-        return NULL;
-      if (val[k] > val[m])
-        m = k;
-    }
+    const size_t ng0 = (size_t) lround ((TW_GRID_HI - TW_GRID_LO) / TW_GRID_STEP) + 1;
+    const size_t ng = ng0 < TW_GRID_MAX ? ng0 : TW_GRID_MAX;
+    double grid[TW_GRID_MAX], val[TW_GRID_MAX];
+    size_t m = bl_profile_grid (tw_profile, &c, TW_GRID_LO, TW_GRID_STEP, ng, grid, val,
+                                &c.status);
+    if (c.status != BL_OK)
+      return NULL;
     if (!(val[m] > -HUGE_VAL)) {
       bl_fail (err, BL_ENOCONV, "--power", "the Tweedie profile likelihood could not be "
                "evaluated at any power in [%g, %g]", TW_GRID_LO, TW_GRID_HI);
       return NULL;
     }
-    p = grid[m];
-    if (m > 0 && m + 1 < ng && val[m] > val[m - 1] && val[m] > val[m + 1]) {
-      gsl_function F = { tw_neg_profile, &c };
-      gsl_min_fminimizer *s = gsl_min_fminimizer_alloc (gsl_min_fminimizer_brent);
-      if (s && gsl_min_fminimizer_set_with_values (s, &F, grid[m], -val[m], grid[m - 1],
-                                                   -val[m - 1], grid[m + 1], -val[m + 1])
-                 == GSL_SUCCESS)
-        for (int it = 0; it < 100; it++) {
-          if (gsl_min_fminimizer_iterate (s) != GSL_SUCCESS)
-            break;
-          p = gsl_min_fminimizer_x_minimum (s);
-          if (gsl_min_test_interval (gsl_min_fminimizer_x_lower (s),
-                                     gsl_min_fminimizer_x_upper (s), 1e-6, 0.0) == GSL_SUCCESS)
-            break;
-        }
-      if (s)
-        gsl_min_fminimizer_free (s);
-    }
-    {
-      const double top = tw_profile (p, &c);
-      c.thr = top - 0.5 * gsl_cdf_chisq_Pinv (0.95, 1.0);
-      for (size_t k = m + 1; k-- > 0;)
-        if (grid[k] < p && val[k] < c.thr) {
-          lo = tw_root (&c, grid[k], (k + 1 < ng && grid[k + 1] < p) ? grid[k + 1] : p);
-          break;
-        }
-      for (size_t k = m; k < ng; k++)
-        if (grid[k] > p && val[k] < c.thr) {
-          hi = tw_root (&c, (k >= 1 && grid[k - 1] > p) ? grid[k - 1] : p, grid[k]);
-          break;
-        }
-    }
+    (void) bl_profile_refine (tw_profile, &c, grid, val, ng, m, &tw_power_tol, &p);
+    (void) bl_profile_interval (tw_profile, &c, grid, val, ng, m, p,
+                                bl_profile_threshold (tw_profile (p, &c), BL_PROFILE_LEVEL),
+                                &tw_root_tol, &lo, &hi);
     if (c.status != BL_OK)
       return NULL;
   }
