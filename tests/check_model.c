@@ -717,8 +717,12 @@ START_TEST (model_error_keep)
   bl_table *t = table_of ("site,age,load\nmill-lane,3.2,0.5\n", "new.csv", ej.m);
   bl_prediction *p = bl_model_predict (ej.m, t, 0.0, &err);
   FILE *f = tmpfile ();
+  bl_prediction_csv_opts opt;
+  bl_prediction_csv_opts_init (&opt);
+  opt.keep = keep;
+  opt.nkeep = 2;
   ck_assert_ptr_nonnull (p);
-  ck_assert_int_eq (bl_prediction_write_csv (f, p, t, keep, 2, &err), BL_EDATA);
+  ck_assert_int_eq (bl_prediction_write_csv (f, p, t, &opt, &err), BL_EDATA);
   ck_assert_str_eq (err.where, "new.csv:1");
   ck_assert_ptr_nonnull (strstr (err.msg, "no column 'serial' to keep"));
   ck_assert_int_eq (ftell (f), 0);                  /* nothing written */
