@@ -21,10 +21,10 @@
 #include <stdlib.h>
 #include <string.h>
 #include <gsl/gsl_cdf.h>
-#include <gsl/gsl_rng.h>
 #include "alloc.h"
 #include "batch.h"
 #include "diag.h"
+#include "job_run.h"
 
 /* Above this many rows a residual panel is a binned density (a grid of shaded cells) and the
    normal quantile plot shows this many evenly spaced order statistics. */
@@ -396,17 +396,16 @@ fit_n (const bl_fit *f)
   return bl_design_n (bl_fit_design (f));
 }
 
-/* (1) Pearson residuals against fitted values: one small panel. R: scratch of length n. */
+/* (1) Pearson residuals R (the panel's series) against fitted values: one small panel. */
 static void
 plot_resid (hw *h, const bl_fit *f, const char *resp, const char *heading, const char *what,
-            double W, double H, double *r)
+            double W, double H, const double *r)
 {
   const size_t n = fit_n (f);
   const double *mu = bl_fit_mu (f);
   char sc[256], xlab[300], title[600];
   double lo, hi, rlo, rhi, m;
   frame fr;
-  bl_pearson_residuals (f, r);
   scale_name (f, resp, sc, sizeof sc);
   snprintf (xlab, sizeof xlab, "fitted value, %s", sc);
   snprintf (title, sizeof title, "Pearson residuals against fitted values: %s", what);
@@ -426,27 +425,22 @@ plot_resid (hw *h, const bl_fit *f, const char *resp, const char *heading, const
 /* (2) The spread groups: rms Pearson residual per group by fitted value, with the null 95%
    point of the ratio drawn as a level: the smallest group's rms times that point.  A group
    above the line makes the ratio larger than 95% of ratios under constant variance. */
-static int
+static void
 plot_spread (hw *h, const bl_fit *f, const char *resp, const char *id, double null95,
-             double *r, bl_err *err)
+             const bl_spread *spp)
 {
   const size_t n = fit_n (f);
-  const double *mu = bl_fit_mu (f);
+  const bl_spread sp = *spp;
   char sc[256], xlab[300], buf[1024];
   double lo = HUGE_VAL, hi = -HUGE_VAL, rmin = HUGE_VAL, rmax = 0.0, line;
-  bl_spread sp;
   frame fr;
-  bl_pearson_residuals (f, r);
-  if (bl_spread_compute (mu, r, n, NULL, 0, &sp, err) != BL_OK)
-    return err ? err->code : BL_ENOMEM;
   fig_begin (h);
   if (sp.ngroups < 2) {
     put (h, "<p class=\"none\">no spread groups: ");
     esc (h, sp.why);
     put (h, "</p>\n");
     fig_caption (h, "spread groups");
-    bl_spread_clear (&sp);
-    return BL_OK;
+    return;
   }
   for (size_t g = 0; g < sp.ngroups; g++) {
     lo = fmin (lo, sp.groups[g].fitted_mean);
@@ -488,43 +482,25 @@ plot_spread (hw *h, const bl_fit *f, const char *resp, const char *id, double nu
               "(largest / smallest rms) %.4g; no null 95%% point.", id, sp.ngroups,
               n / sp.ngroups, sp.ratio);
   fig_caption (h, buf);
-  bl_spread_clear (&sp);
-  return BL_OK;
-}
-
-static int
-cmp_double (const void *pa, const void *pb)
-{
-  const double a = *(const double *) pa, b = *(const double *) pb;
-  return (a > b) - (a < b);
 }
 
 /* (3) Normal quantile plot of the quantile residuals (Dunn & Smyth 1996, J. Comput. Graph.
    Statist. 5, 236-244): sorted q_(i) against Phi^-1((i - 0.5) / n), the plotting position of
    common practice (no source), with the identity line; above BL_HTML_MAX_POINTS rows, that
-   many order statistics evenly spaced in rank (i = 1 + round(k (n - 1) / (m - 1))). */
-static int
-plot_qq (hw *h, const bl_fit *f, const char *id, gsl_rng *rng, double pval, double *q,
-         bl_err *err)
+   many order statistics evenly spaced in rank (i = 1 + round(k (n - 1) / (m - 1))).  Q: the
+   N sorted quantile residuals, PVAL their Kolmogorov-Smirnov p (job_run.c). */
+static void
+plot_qq (hw *h, const char *id, const double *q, size_t n, double pval)
 {
-  const size_t n = fit_n (f);
   const size_t m = n < BL_HTML_MAX_POINTS ? n : BL_HTML_MAX_POINTS;
   char buf[1024];
   double lo, hi;
   frame fr;
-  int st = bl_quantile_residuals (f, rng, q, err);
-  if (st != BL_OK)
-    return st;
-  qsort (q, n, sizeof *q, cmp_double);
-  if (!isfinite (pval) && n > 0) {
-    double dstat;
-    bl_ks_normal (q, n, &dstat, &pval);    /* q is sorted already: order unchanged */
-  }
   fig_begin (h);
   if (n < 2) {
     put (h, "<p class=\"none\">fewer than 2 rows</p>\n");
     fig_caption (h, "normal quantile plot");
-    return BL_OK;
+    return;
   }
   {
     const double t0 = gsl_cdf_ugaussian_Pinv (0.5 / (double) n);
@@ -560,7 +536,6 @@ plot_qq (hw *h, const bl_fit *f, const char *id, gsl_rng *rng, double pval, doub
               "describes y; an S-shape: tails too heavy or too light; a bend: skew.  "
               "Kolmogorov-Smirnov p = %.4g.", id, n, pval);
   fig_caption (h, buf);
-  return BL_OK;
 }
 
 /* (4) The Box-Cox profile log-likelihood (on y's scale, with the Jacobian) over the lambda
@@ -672,24 +647,21 @@ plot_profile (hw *h, const bl_candidate *k, const char *resp, bl_err *err)
 
 /* (5) The log-log mean-variance plot (diag.h, bl_variance_power): per group of rows by fitted
    value, log mean squared raw residual against log mean fitted value, with the least-squares
-   line whose slope K estimates the power in Var y = c mu^K. */
-static int
-plot_meanvar (hw *h, const bl_fit *f, const char *resp, const char *id, bl_err *err)
+   line whose slope K estimates the power in Var y = c mu^K.  PWP: the points (job_run.c). */
+static void
+plot_meanvar (hw *h, const char *resp, const char *id, const bl_power *pwp)
 {
-  bl_power pw;
+  const bl_power pw = *pwp;
   char buf[1024], xlab[256];
   double xlo, xhi, ylo, yhi;
   frame fr;
-  int st = bl_variance_power (f, &pw, err);
-  if (st != BL_OK)
-    return st;
   fig_begin (h);
   if (!pw.done) {
     put (h, "<p class=\"none\">no mean-variance plot: ");
     esc (h, pw.why);
     put (h, "</p>\n");
     fig_caption (h, "mean and variance");
-    return BL_OK;
+    return;
   }
   range_of (pw.log_mean, pw.groups_used, &xlo, &xhi);
   range_of (pw.log_var, pw.groups_used, &ylo, &yhi);
@@ -716,7 +688,6 @@ plot_meanvar (hw *h, const bl_fit *f, const char *resp, const char *id, bl_err *
             pw.groups_left_out ? " (groups with mean fitted value <= 0 left out)" : "",
             pw.estimate, pw.lo, pw.hi, pw.suggested ? pw.suggested : "none");
   fig_caption (h, buf);
-  return BL_OK;
 }
 
 /* ---------------------------------------------------------------- sections */
@@ -809,25 +780,13 @@ rank_table (hw *h, const bl_compare *c, const size_t *order, size_t m)
   put (h, "</tbody></table></div>\n");
 }
 
-static const bl_candidate *
-find_candidate (const bl_compare *c, const char *id)
-{
-  for (size_t i = 0; i < bl_compare_count (c); i++) {
-    const bl_candidate *k = bl_compare_get (c, i);
-    if (strcmp (k->id, id) == 0 && k->fit && k->converged)
-      return k;
-  }
-  return NULL;
-}
-
+/* A comparison's section: the ranked table, the advice and the plots of P. */
 static int
 compare_section (hw *h, const bl_compare *c, const char *resp, size_t n, unsigned long seed,
-                 gsl_rng *rng, double *r, double *q, bl_err *err)
+                 const bl_job_plots *p, bl_err *err)
 {
-  const long win = bl_compare_winner (c);
   const bl_warnings *adv = bl_compare_advice (c);
-  const bl_candidate *bc = find_candidate (c, "ls-bc"), *ls = find_candidate (c, "ls");
-  size_t order[BL_COMPARE_MAX], m = rank_order (c, order), nfit = 0;
+  size_t order[BL_COMPARE_MAX], m = rank_order (c, order);
   int st = BL_OK;
   put (h, "<p class=\"meta\">Comparison of variance treatments for <b>");
   esc (h, resp);
@@ -844,11 +803,7 @@ compare_section (hw *h, const bl_compare *c, const char *resp, size_t n, unsigne
     put (h, "</li>\n");
   }
   put (h, "</ul>\n");
-  for (size_t i = 0; i < m; i++) {
-    const bl_candidate *k = bl_compare_get (c, order[i]);
-    nfit += k->fit && k->converged;
-  }
-  if (!nfit)
+  if (!p->npanels)
     return BL_OK;
   putf (h, "<h3>Residuals against fitted values</h3>\n<p class=\"note\">One panel per fitted "
         "candidate, in rank order, each on its own scales: Pearson residuals (the fit's own "
@@ -857,46 +812,43 @@ compare_section (hw *h, const bl_compare *c, const char *resp, size_t n, unsigne
         "curve means the mean is wrong.%s</p>\n<div class=\"multiples\">\n",
         n > BL_HTML_MAX_POINTS ? "  With more than 2000 rows each panel is a binned density: "
         "darker cells hold more rows." : "");
-  for (size_t i = 0; i < m; i++) {
-    const bl_candidate *k = bl_compare_get (c, order[i]);
+  for (size_t i = 0; i < p->npanels; i++) {
+    const bl_candidate *k = p->panel[i].cand;
     char head[128], what[256];
-    if (!k->fit || !k->converged)
-      continue;
     snprintf (head, sizeof head, "%zu. %s%s", k->rank_position, k->id,
               k->rank_position == 1 ? " (winner)" : "");
     snprintf (what, sizeof what, "%s, %s", k->id, k->description);
     if ((st = stopped (h, err)) != BL_OK)
       return st;
     fig_begin (h);
-    plot_resid (h, k->fit, resp, head, what, 300.0, 220.0, r);
+    plot_resid (h, k->fit, resp, head, what, 300.0, 220.0, p->panel[i].pearson);
     put (h, "</figure>\n");
   }
   put (h, "</div>\n");
-  if (win >= 0) {
-    const bl_candidate *w = bl_compare_get (c, (size_t) win);
+  if (p->main) {
+    const bl_candidate *w = bl_compare_get (c, (size_t) bl_compare_winner (c));
     put (h, "<h3>The winner, ");
     esc (h, w->id);
     put (h, "</h3>\n<div class=\"plots\">\n");
-    if ((st = stopped (h, err)) != BL_OK
-        || (st = plot_spread (h, w->fit, resp, w->id, w->spread_null95, r, err)) != BL_OK)
+    if ((st = stopped (h, err)) != BL_OK)
       return st;
-    if ((st = stopped (h, err)) != BL_OK
-        || (st = plot_qq (h, w->fit, w->id, rng, w->normality_p, q, err)) != BL_OK)
+    plot_spread (h, w->fit, resp, w->id, p->null95, &p->spread);
+    if ((st = stopped (h, err)) != BL_OK)
       return st;
+    plot_qq (h, w->id, p->qq, p->nq, p->qq_p);
     put (h, "</div>\n");
   }
-  if (bc || ls) {
+  if (p->profile || p->power_fit) {
     put (h, "<h3>Choosing a transform and a variance function</h3>\n<div class=\"plots\">\n");
     if ((st = stopped (h, err)) != BL_OK)
       return st;
-    if (bc && bl_fit_transform (bc->fit)->nprofile > 0
-        && (st = plot_profile (h, bc, resp, err)) != BL_OK)
+    if (p->profile && bl_fit_transform (p->profile->fit)->nprofile > 0
+        && (st = plot_profile (h, p->profile, resp, err)) != BL_OK)
       return st;
     if ((st = stopped (h, err)) != BL_OK)
       return st;
-    if (ls && (st = plot_meanvar (h, ls->fit, resp, "ls (ordinary least squares)", err))
-        != BL_OK)
-      return st;
+    if (p->power_fit)
+      plot_meanvar (h, resp, "ls (ordinary least squares)", &p->power);
     put (h, "</div>\n");
   }
   return BL_OK;
@@ -922,7 +874,7 @@ model_name (const bl_fit *f, char *buf, size_t cap)
 
 static int
 fit_section (hw *h, const bl_fit *f, const bl_design *d, const char *resp, unsigned long seed,
-             gsl_rng *rng, double *r, double *q, bl_err *err)
+             const bl_job_plots *pl, bl_err *err)
 {
   const bl_fit_stats *st = bl_fit_stats_get (f);
   const bl_warnings *wn = bl_fit_warnings (f);
@@ -985,49 +937,34 @@ fit_section (hw *h, const bl_fit *f, const bl_design *d, const char *resp, unsig
   if ((s = stopped (h, err)) != BL_OK)
     return s;
   fig_begin (h);
-  plot_resid (h, f, resp, NULL, "the model", 460.0, 300.0, r);
+  plot_resid (h, f, resp, NULL, "the model", 460.0, 300.0, pl->panel[0].pearson);
   snprintf (buf, sizeof buf, "Pearson residuals against fitted values%s: an even band around "
             "0 means the variance model fits; a funnel, that the spread still changes with "
             "the mean.", fit_n (f) > BL_HTML_MAX_POINTS ? " (a binned density above 2000 "
             "rows: darker cells hold more rows)" : "");
   fig_caption (h, buf);
-  {
-    /* the spread ratio's null point for these group sizes (diag.h), from the seeded RNG */
-    bl_spread sp;
-    if ((s = stopped (h, err)) != BL_OK)
-      return s;
-    bl_pearson_residuals (f, r);
-    if ((s = bl_spread_compute (bl_fit_mu (f), r, fit_n (f), rng, BL_DIAG_NULL_REPS, &sp, err))
-        != BL_OK)
-      return s;
-    {
-      const double null95 = sp.null95;
-      bl_spread_clear (&sp);
-      if ((s = stopped (h, err)) != BL_OK
-          || (s = plot_spread (h, f, resp, "the model", null95, r, err)) != BL_OK)
-        return s;
-    }
-  }
-  if ((s = stopped (h, err)) != BL_OK || (s = plot_qq (h, f, "the model", rng, NAN, q, err))
-      != BL_OK)
+  /* the spread ratio's null point for these group sizes (diag.h), from the seeded RNG of
+     the plot series (job_run.c) */
+  if ((s = stopped (h, err)) != BL_OK)
     return s;
-  if ((s = stopped (h, err)) != BL_OK || (s = plot_meanvar (h, f, resp, "the model", err))
-      != BL_OK)
+  plot_spread (h, f, resp, "the model", pl->null95, &pl->spread);
+  if ((s = stopped (h, err)) != BL_OK)
     return s;
+  plot_qq (h, "the model", pl->qq, pl->nq, pl->qq_p);
+  if ((s = stopped (h, err)) != BL_OK)
+    return s;
+  plot_meanvar (h, resp, "the model", &pl->power);
   put (h, "</div>\n");
   return BL_OK;
 }
 
 int
-bl_report_job_html (FILE *out, const bl_batch_row *row, const bl_compare *c,
-                    const bl_fit *fit, const bl_design *d, unsigned long seed,
-                    volatile sig_atomic_t *cancel, bl_err *err)
+bl_report_section_html (FILE *out, const bl_batch_row *row, const bl_compare *c,
+                        const bl_fit *fit, const bl_design *d, unsigned long seed,
+                        const bl_job_plots *plots, volatile sig_atomic_t *cancel, bl_err *err)
 {
   hw h = { out, 0, cancel };
-  gsl_rng *rng = NULL;
-  double *r = NULL, *q = NULL;
   const char *resp;
-  size_t n;
   int st = BL_OK;
   if (!row)
     return bl_fail (err, BL_EINTERNAL, "report", "no summary row given");
@@ -1038,6 +975,8 @@ bl_report_job_html (FILE *out, const bl_batch_row *row, const bl_compare *c,
     d = bl_fit_design (fit);
   if (!d && (c || fit))
     return bl_fail (err, BL_EINTERNAL, "report", "job '%s': no design given", row->job);
+  if ((c || (fit && bl_fit_stats_get (fit)->converged)) && !plots)
+    return bl_fail (err, BL_EINTERNAL, "report", "job '%s': no plot series given", row->job);
   section_head (&h, row);
   if (!c && !fit) {
     put (&h, "<p class=\"why\">");
@@ -1046,30 +985,16 @@ bl_report_job_html (FILE *out, const bl_batch_row *row, const bl_compare *c,
     return finish (&h, err);
   }
   resp = bl_design_response (d);
-  n = bl_design_n (d);
-  r = bl_mallocn (n ? n : 1, sizeof *r);
-  q = bl_mallocn (n ? n : 1, sizeof *q);
-  rng = gsl_rng_alloc (gsl_rng_mt19937);
-  if (!r || !q || !rng) {
-    st = bl_fail (err, BL_ENOMEM, "report", "out of memory");
-    goto done;
-  }
-  gsl_rng_set (rng, seed);
   if (c)
-    st = compare_section (&h, c, resp, n, seed, rng, r, q, err);
+    st = compare_section (&h, c, resp, bl_design_n (d), seed, plots, err);
   else
-    st = fit_section (&h, fit, d, resp, seed, rng, r, q, err);
+    st = fit_section (&h, fit, d, resp, seed, plots, err);
   if (st == BL_OK && row->message[0] && row->ok) {
     put (&h, "<p class=\"note\">");
     esc (&h, row->message);
     put (&h, "</p>\n");
   }
   put (&h, "</section>\n");
-done:
-  bl_free (r);
-  bl_free (q);
-  if (rng)
-    gsl_rng_free (rng);
   return st == BL_OK ? finish (&h, err) : st;
 }
 
