@@ -3,7 +3,7 @@
    Poisson-gamma with its power by profile likelihood.
 
    Fits go through the public pipeline of tests/check_irls.c: bl_table_read[_mem] ->
-   bl_terms_parse -> bl_design_new -> bl_fit_glm.  The checks, each with its source beside it:
+   bl_terms_parse -> bl_design_new -> bl_fit_new.  The checks, each with its source beside it:
    - reference: SciPy's negative binomial maximized directly (tests/reference/nb_mle.py ->
      nb_mle.txt, data tests/data/nb_counts.csv); the Tweedie density against the compound
      Poisson sum of gamma densities evaluated here with GSL, its integral by GSL quadrature,
@@ -109,7 +109,7 @@ job_fit (job *j, const bl_family *fam, double par)
   fo.link = &bl_link_log;
   fo.fam_par_est = isnan (par);
   fo.fam_par = par;
-  j->f = bl_fit_glm (j->d, &fo, &err);
+  j->f = bl_fit_new (j->d, &fo, &err);
   ck_assert_msg (j->f != NULL, "fit %s: %s: %s", fam->name, err.where, err.msg);
   ck_assert_msg (bl_fit_stats_get (j->f)->converged, "fit %s did not converge: %s",
                  fam->name, bl_fit_status (j->f)->msg);
@@ -608,7 +608,7 @@ expect_fit_error (const char *csv, const bl_family *fam, double par, int est, in
   fo.fam_par_est = est;
   if (code == BL_ESPEC && strcmp (where, "--family") == 0)
     fo.transform = BL_TRANSFORM_LOG;
-  j.f = bl_fit_glm (j.d, &fo, &err);
+  j.f = bl_fit_new (j.d, &fo, &err);
   ck_assert_msg (j.f == NULL, "%s: the fit succeeded", name);
   ck_assert_msg (err.code == code, "%s: code %d, expected %d", name, err.code, code);
   ck_assert_msg (strcmp (err.where, where) == 0, "%s: where '%s', expected '%s'", name,

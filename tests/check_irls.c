@@ -1,13 +1,13 @@
 /* check_irls.c -- the IRLS engine and the GLM fitter (irls.h, fit.h), end to end.
 
    Every fit goes through the public pipeline: bl_table_read[_mem] -> bl_terms_parse ->
-   bl_design_new -> bl_fit_glm.  The checks, each with its source beside it:
+   bl_design_new -> bl_fit_new.  The checks, each with its source beside it:
    - reference: published worked examples (tests/data/glm/, values from memory of the book;
      recomputed, tests/data/SOURCES.md) and direct likelihood maximization with SciPy
      (tests/reference/glm_mle.txt, tests/reference/README.md);
    - identities: closed forms (the independence model of a two-way table, the intercept-only
      model), log-likelihoods against GSL's densities, integer weights against replicated rows;
-   - errors: every error path of bl_fit_glm provoked on purpose;
+   - errors: every error path of bl_fit_new provoked on purpose;
    - basics: recovery of known coefficients from large simulated samples (GSL generators, fixed
      seeds), bit-identical results whatever the thread count. */
 #include <check.h>
@@ -302,13 +302,13 @@ engine_fixed_point (const bl_design *d, const bl_family *fam, const bl_link *lnk
 
    - The engine's fixed point (IRLS iterated until beta stops changing) is the MLE:
      |b - ref| <= 1e-8 (|ref| + se_fisher) for every coefficient.
-   - bl_fit_glm with the default stopping rule, a deviance change below 1e-10 (|D| + 0.1)
+   - bl_fit_new with the default stopping rule, a deviance change below 1e-10 (|D| + 0.1)
      (irls.h) followed by the coefficient polish (BL_IRLS_EPSBETA): loglik, deviance and
      phi_ml relative 1e-8, and every coefficient |b - ref| <= 1e-8 (|ref| + se).  (The
      deviance test alone would stop about 1e-4 short: near the optimum D - D_min ~
      phi (delta / se)^2, so a test at 1e-10 D stops once delta / se ~ 1e-4 at n = 60.)
      The figure reached is printed.
-   - bl_fit_glm with epsrel 1e-14 (and room for 300 iterations): the figures that move to
+   - bl_fit_new with epsrel 1e-14 (and room for 300 iterations): the figures that move to
      first order with beta, standard errors against se_fisher relative 1e-7, Pearson chi2
      and phi_pearson relative 1e-8 (for poisson the reference's phi_pearson is the 1 its
      se_fisher uses: compared with phi_used; the fit's phi_pearson with X2 / (n - p)). */
@@ -662,12 +662,12 @@ START_TEST (irls_error_support)
   j.t = test_table_mem (gam, strlen (gam), "amounts.csv", NULL, 0);
   test_job_design (&j, "y", "x", NULL, NULL);
   fo.fam = &bl_family_gamma;
-  f = bl_fit_glm (j.d, &fo, &err);
+  f = bl_fit_new (j.d, &fo, &err);
   expect_fail (f, &err, BL_EDATA, "amounts.csv:3", "has 2 values", "y > 0", "gamma y <= 0");
   ck_assert_msg (strstr (err.msg, "gamma") != NULL, "gamma y <= 0: msg '%s'", err.msg);
   fo.fam = &bl_family_invgauss;
   bl_err_clear (&err);
-  f = bl_fit_glm (j.d, &fo, &err);
+  f = bl_fit_new (j.d, &fo, &err);
   expect_fail (f, &err, BL_EDATA, "amounts.csv:3", "has 2 values", "y > 0", "invgauss y <= 0");
   test_job_free (&j);
 
@@ -675,7 +675,7 @@ START_TEST (irls_error_support)
   test_job_design (&j, "y", "x", NULL, NULL);
   fo.fam = &bl_family_poisson;
   bl_err_clear (&err);
-  f = bl_fit_glm (j.d, &fo, &err);
+  f = bl_fit_new (j.d, &fo, &err);
   expect_fail (f, &err, BL_EDATA, "counts.csv:4", "has 1 value ", "y >= 0", "poisson y < 0");
   test_job_free (&j);
 }
@@ -706,12 +706,12 @@ START_TEST (irls_error_options)
   bl_fit_opts_init (&fo);
   fo.method = BL_METHOD_OLS;
   fo.fam = &bl_family_gamma;
-  expect_fail (bl_fit_glm (j.d, &fo, &err), &err, BL_ESPEC, "--method", "family 'gamma'",
+  expect_fail (bl_fit_new (j.d, &fo, &err), &err, BL_ESPEC, "--method", "family 'gamma'",
                "ols", "ols with gamma");
   fo.fam = &bl_family_gaussian;
   fo.link = &bl_link_log;
   bl_err_clear (&err);
-  expect_fail (bl_fit_glm (j.d, &fo, &err), &err, BL_ESPEC, "--method", "link 'log'", "ols",
+  expect_fail (bl_fit_new (j.d, &fo, &err), &err, BL_ESPEC, "--method", "link 'log'", "ols",
                "ols with gaussian log");
   bl_fit_opts_init (&fo);
   fo.fam = &bl_family_gamma;
@@ -720,7 +720,7 @@ START_TEST (irls_error_options)
     snprintf (what, sizeof what, "level %g", bad_level[i]);
     fo.level = bad_level[i];
     bl_err_clear (&err);
-    expect_fail (bl_fit_glm (j.d, &fo, &err), &err, BL_ESPEC, "--level", "between 0 and 1",
+    expect_fail (bl_fit_new (j.d, &fo, &err), &err, BL_ESPEC, "--level", "between 0 and 1",
                  NULL, what);
   }
   test_job_free (&j);
@@ -742,7 +742,7 @@ START_TEST (irls_error_noconv)
   fo.fam = &bl_family_gamma;
   fo.link = &bl_link_log;
   fo.irls.max_iter = 1;
-  j.f = bl_fit_glm (j.d, &fo, &err);
+  j.f = bl_fit_new (j.d, &fo, &err);
   ck_assert_msg (j.f != NULL, "noconv: NULL (%s: %s)", err.where, err.msg);
   st = bl_fit_stats_get (j.f);
   s = bl_fit_status (j.f);
@@ -773,7 +773,7 @@ START_TEST (irls_error_cancel)
   bl_fit_opts_init (&fo);
   fo.fam = &bl_family_gamma;
   fo.irls.cancel = &flag;
-  j.f = bl_fit_glm (j.d, &fo, &err);
+  j.f = bl_fit_new (j.d, &fo, &err);
   ck_assert_msg (j.f != NULL, "cancel: NULL (%s: %s)", err.where, err.msg);
   ck_assert_int_eq (bl_fit_status (j.f)->code, BL_ECANCEL);
   ck_assert_str_eq (bl_fit_status (j.f)->where, "irls");
@@ -796,7 +796,7 @@ START_TEST (irls_error_no_start)
   test_job_design (&j, "y", "x", NULL, NULL);
   bl_fit_opts_init (&fo);
   fo.link = &bl_link_log;
-  expect_fail (bl_fit_glm (j.d, &fo, &err), &err, BL_EDATA, "irls",
+  expect_fail (bl_fit_new (j.d, &fo, &err), &err, BL_EDATA, "irls",
                "no valid starting mean at row 1", "log link", "gaussian log, y < 0");
   test_job_free (&j);
 }
@@ -891,7 +891,7 @@ START_TEST (irls_error_ships_offset)
 END_TEST
 
 /* Allocation failures (a build with --enable-alloc-fail; elsewhere bl_alloc_count is 0 and
-   the loop is skipped): the N-th allocation fails, bl_fit_glm returns NULL with BL_ENOMEM or
+   the loop is skipped): the N-th allocation fails, bl_fit_new returns NULL with BL_ENOMEM or
    a fit, and leaks nothing (checked by ASan/valgrind). */
 START_TEST (irls_error_alloc_failure)
 {
@@ -905,14 +905,14 @@ START_TEST (irls_error_alloc_failure)
   fo.fam = &bl_family_gamma;
   fo.link = &bl_link_log;
   bl_alloc_fail_at (0);
-  f = bl_fit_glm (j.d, &fo, NULL);
+  f = bl_fit_new (j.d, &fo, NULL);
   ck_assert (f != NULL);
   bl_fit_free (f);
   if (bl_alloc_count () > 0) {
     for (n = 1;; n++) {
       bl_err err = { 0 };
       bl_alloc_fail_at (n);
-      f = bl_fit_glm (j.d, &fo, &err);
+      f = bl_fit_new (j.d, &fo, &err);
       if (f && bl_alloc_count () < n)
         break;
       if (!f)
@@ -922,7 +922,7 @@ START_TEST (irls_error_alloc_failure)
     }
     bl_alloc_fail_at (0);
     bl_fit_free (f);
-    fprintf (stderr, "alloc failure: bl_fit_glm succeeded from allocation %lu on\n", n);
+    fprintf (stderr, "alloc failure: bl_fit_new succeeded from allocation %lu on\n", n);
     ck_assert_msg (n > 10, "alloc failure: only %lu allocations", n);
   }
   test_job_free (&j);
@@ -1037,7 +1037,7 @@ START_TEST (irls_threads_bit_identical)
     fo.link = &bl_link_log;
     fo.irls.solver = t < 2 ? BL_SOLVER_STREAMED : BL_SOLVER_EXTENDED;
     fo.irls.threads = t == 0 ? 1 : 2;
-    f[t] = bl_fit_glm (j.d, &fo, &err);
+    f[t] = bl_fit_new (j.d, &fo, &err);
     ck_assert_msg (f[t] && bl_fit_stats_get (f[t])->converged, "threads fit %d failed", t);
   }
   ck_assert_str_eq (bl_fit_stats_get (f[0])->solver, "qr-streamed");
@@ -1079,7 +1079,7 @@ START_TEST (irls_ols_equals_glm)
   test_job_fit_glm (&j, &bl_family_gaussian, &bl_link_identity, NULL);
   bl_fit_opts_init (&fo);
   fo.method = BL_METHOD_OLS;
-  ols = bl_fit_glm (j.d, &fo, &err);
+  ols = bl_fit_new (j.d, &fo, &err);
   ck_assert_msg (ols != NULL, "ols: %s: %s", err.where, err.msg);
   ck_assert_int_eq (bl_fit_method (ols), BL_METHOD_OLS);
   ck_assert_str_eq (bl_method_name (BL_METHOD_OLS), "ols");

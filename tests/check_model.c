@@ -717,8 +717,12 @@ START_TEST (model_error_keep)
   bl_table *t = table_of ("site,age,load\nmill-lane,3.2,0.5\n", "new.csv", ej.m);
   bl_prediction *p = bl_model_predict (ej.m, t, 0.0, &err);
   FILE *f = tmpfile ();
+  bl_prediction_csv_opts opt;
+  bl_prediction_csv_opts_init (&opt);
+  opt.keep = keep;
+  opt.nkeep = 2;
   ck_assert_ptr_nonnull (p);
-  ck_assert_int_eq (bl_prediction_write_csv (f, p, t, keep, 2, &err), BL_EDATA);
+  ck_assert_int_eq (bl_prediction_write_csv (f, p, t, &opt, &err), BL_EDATA);
   ck_assert_str_eq (err.where, "new.csv:1");
   ck_assert_ptr_nonnull (strstr (err.msg, "no column 'serial' to keep"));
   ck_assert_int_eq (ftell (f), 0);                  /* nothing written */
@@ -770,6 +774,73 @@ read_fails (const char *path, int code, const char *where, const char *frag, con
   ck_assert_msg (strstr (err.msg, frag) != NULL, "%s: message '%s' lacks '%s'", name, err.msg,
                  frag);
 }
+
+/* Read back the CSV that bl_prediction_write_csv writes for P on T with OPT into BUF. */
+static int
+csv_text (const bl_prediction *p, const bl_table *t, const bl_prediction_csv_opts *opt,
+          char *buf, size_t cap, bl_err *err)
+{
+  FILE *f = tmpfile ();
+  size_t n;
+  int st;
+  ck_assert_ptr_nonnull (f);
+  st = bl_prediction_write_csv (f, p, t, opt, err);
+  rewind (f);
+  n = fread (buf, 1, cap - 1, f);
+  buf[n] = '\0';
+  fclose (f);
+  return st;
+}
+
+/* The options of the CSV writer: defaults (also for OPT NULL), the median column, kept
+   columns quoted per RFC 4180, and a kept name that only clashes with the median column
+   when that column is written. */
+START_TEST (model_csv_options)
+{
+  bl_err err = { 0 };
+  const char *keep[] = { "note", "median" };
+  bl_table *t = table_of ("site,age,load,note,median\nmill-lane,3.2,0.5,\"no. 4, \"\"old\"\"\","
+                          "7\n", "new.csv", ej.m);
+  bl_prediction *p = bl_model_predict (ej.m, t, 0.0, &err);
+  bl_prediction_csv_opts opt;
+  char a[2048], b[2048], want[2048];
+  ck_assert_msg (p != NULL, "%s: %s", err.where, err.msg);
+  bl_prediction_csv_opts_init (&opt);
+  ck_assert_ptr_null (opt.keep);
+  ck_assert_uint_eq (opt.nkeep, 0);
+  ck_assert_int_eq (opt.median, 0);
+  ck_assert_int_eq (csv_text (p, t, &opt, a, sizeof a, &err), BL_OK);
+  ck_assert_int_eq (csv_text (p, t, NULL, b, sizeof b, &err), BL_OK);
+  ck_assert_str_eq (a, b);
+  snprintf (want, sizeof want, "row,mean,mean_lo,mean_hi,pred_lo,pred_hi\n1,%.17g,%.17g,"
+            "%.17g,%.17g,%.17g\n", p->mean[0], p->mean_lo[0], p->mean_hi[0], p->pred_lo[0],
+            p->pred_hi[0]);
+  ck_assert_str_eq (a, want);
+  /* keep 'note' (quoted: it holds a comma and quotes) and 'median', a column of the data */
+  opt.keep = keep;
+  opt.nkeep = 2;
+  ck_assert_int_eq (csv_text (p, t, &opt, a, sizeof a, &err), BL_OK);
+  snprintf (want, sizeof want, "row,mean,mean_lo,mean_hi,pred_lo,pred_hi,note,median\n"
+            "1,%.17g,%.17g,%.17g,%.17g,%.17g,\"no. 4, \"\"old\"\"\",7\n", p->mean[0], p->mean_lo[0],
+            p->mean_hi[0], p->pred_lo[0], p->pred_hi[0]);
+  ck_assert_str_eq (a, want);
+  /* with the median column (empty: a GLM has no median), 'median' cannot be kept */
+  opt.median = 1;
+  opt.nkeep = 1;
+  ck_assert_int_eq (csv_text (p, t, &opt, a, sizeof a, &err), BL_OK);
+  snprintf (want, sizeof want, "row,mean,mean_lo,mean_hi,pred_lo,pred_hi,median,note\n"
+            "1,%.17g,%.17g,%.17g,%.17g,%.17g,,\"no. 4, \"\"old\"\"\"\n", p->mean[0], p->mean_lo[0],
+            p->mean_hi[0], p->pred_lo[0], p->pred_hi[0]);
+  ck_assert_str_eq (a, want);
+  opt.nkeep = 2;
+  ck_assert_int_eq (csv_text (p, t, &opt, a, sizeof a, &err), BL_EDATA);
+  ck_assert_str_eq (err.where, "new.csv:1");
+  ck_assert_ptr_nonnull (strstr (err.msg, "cannot keep column 'median'"));
+  ck_assert_str_eq (a, "");                         /* nothing written */
+  bl_prediction_free (p);
+  bl_table_free (t);
+}
+END_TEST
 
 START_TEST (model_error_files)
 {
@@ -899,6 +970,7 @@ model_suite (void)
   tcase_add_test (tc, model_error_mean_domain);
   tcase_add_test (tc, model_error_level);
   tcase_add_test (tc, model_error_keep);
+  tcase_add_test (tc, model_csv_options);
   tcase_add_test (tc, model_error_files);
   tcase_add_test (tc, model_error_inconsistent);
   suite_add_tcase (s, tc);

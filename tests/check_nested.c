@@ -3,7 +3,7 @@
    equal spread (diag.h, bl_brown_forsythe).
 
    Fits go through the public pipeline of tests/check_irls.c: bl_table_read_mem ->
-   bl_terms_parse -> bl_design_new -> bl_fit_glm, on data simulated here with GSL generators
+   bl_terms_parse -> bl_design_new -> bl_fit_new, on data simulated here with GSL generators
    and fixed seeds.  The checks, each with its source beside it:
    - reference: the deviance difference of two fits made here (McCullagh & Nelder 1989,
      Generalized Linear Models, 2nd ed., section 4.4.3) with GSL's chi-square and F tails;
@@ -95,7 +95,7 @@ static const bl_fit *
 job_fit (job *j, const bl_fit_opts *fo)
 {
   bl_err err = { 0 };
-  j->f = bl_fit_glm (j->d, fo, &err);
+  j->f = bl_fit_new (j->d, fo, &err);
   ck_assert_msg (j->f != NULL, "fit %s: %s: %s", fo->fam ? fo->fam->name : "gaussian",
                  err.where, err.msg);
   ck_assert_msg (bl_fit_stats_get (j->f)->converged, "fit did not converge: %s",
@@ -550,7 +550,7 @@ expect_cluster_error (const char *csv, const char *col, int code, const char *wh
   fo.fam = &bl_family_poisson;
   fo.se = BL_SE_CLUSTER;
   fo.cluster_col = col;
-  j.f = bl_fit_glm (j.d, &fo, &err);
+  j.f = bl_fit_new (j.d, &fo, &err);
   ck_assert_msg (j.f == NULL, "%s: the fit succeeded", name);
   ck_assert_msg (err.code == code, "%s: code %d, expected %d (%s)", name, err.code, code,
                  err.msg);

@@ -2,7 +2,7 @@
    fit.h): log, sqrt, Box-Cox with lambda fixed or estimated, the original-scale likelihood,
    and the back-transform with Duan's smearing.
 
-   Every fit goes through the public pipeline: table -> terms -> design -> bl_fit_glm.  The
+   Every fit goes through the public pipeline: table -> terms -> design -> bl_fit_new.  The
    checks, each with its source beside it:
    - reference: scipy.stats.boxcox (lambda-hat and its 95% interval, intercept only) and a
      NumPy profile for a regression (tests/reference/remedies_mle.py, its output
@@ -296,7 +296,7 @@ START_TEST (transform_error_nonpositive)
     j.t = test_table_mem (csv, strlen (csv), "neg.csv", NULL, 0);
     test_job_design_spec (&j, "y", "x", NULL);
     tr_opts (&fo, cs[c].tr, 0.5, cs[c].est);
-    f = bl_fit_glm (j.d, &fo, &err);
+    f = bl_fit_new (j.d, &fo, &err);
     test_expect_fail (f, &err, BL_EDATA, "neg.csv:4", "y > 0", "2 values", what);
     ck_assert_str_eq (err.where, "neg.csv:4");
     ck_assert_msg (strstr (err.msg, cs[c].name) && strstr (err.msg, "--shift"),
@@ -304,7 +304,7 @@ START_TEST (transform_error_nonpositive)
     /* shift 2.5: every y + 2.5 > 0 */
     fo.shift_given = 1;
     fo.shift = 2.5;
-    j.f = bl_fit_glm (j.d, &fo, &err);
+    j.f = bl_fit_new (j.d, &fo, &err);
     ck_assert_msg (j.f != NULL, "%s shifted: %s", what, err.msg);
     ck_assert_msg (test_fit_has_warning (j.f, "depends on that choice"),
                    "%s shifted: no warning", what);
@@ -314,7 +314,7 @@ START_TEST (transform_error_nonpositive)
     j.f = NULL;
     /* shift 2: -2 + 2 = 0 is still not > 0 */
     fo.shift = 2.0;
-    f = bl_fit_glm (j.d, &fo, &err);
+    f = bl_fit_new (j.d, &fo, &err);
     test_expect_fail (f, &err, BL_EDATA, "neg.csv:6", "y + shift > 0", "1 value", what);
     test_job_free (&j);
   }
@@ -336,29 +336,29 @@ START_TEST (transform_error_options)
   tr_opts (&fo, BL_TRANSFORM_LOG, NAN, 0);
   fo.method = BL_METHOD_GLM;
   fo.fam = &bl_family_gamma;
-  f = bl_fit_glm (j.d, &fo, &err);
+  f = bl_fit_new (j.d, &fo, &err);
   test_expect_fail (f, &err, BL_ESPEC, "--transform", "least squares", "--family", "log + gamma");
   tr_opts (&fo, BL_TRANSFORM_SQRT, NAN, 0);
   fo.method = BL_METHOD_GLM;
   fo.fam = &bl_family_poisson;
-  f = bl_fit_glm (j.d, &fo, &err);
+  f = bl_fit_new (j.d, &fo, &err);
   test_expect_fail (f, &err, BL_ESPEC, "--transform", "--family", NULL, "sqrt + poisson");
   tr_opts (&fo, BL_TRANSFORM_LOG, NAN, 0);
   fo.link = &bl_link_log;
-  f = bl_fit_glm (j.d, &fo, &err);
+  f = bl_fit_new (j.d, &fo, &err);
   test_expect_fail (f, &err, BL_ESPEC, "--transform", "--link", NULL, "log + log link");
   tr_opts (&fo, BL_TRANSFORM_LOG, NAN, 0);
   fo.method = BL_METHOD_WLS;
-  f = bl_fit_glm (j.d, &fo, &err);
+  f = bl_fit_new (j.d, &fo, &err);
   test_expect_fail (f, &err, BL_ESPEC, "--transform", "wls", NULL, "log + wls");
   tr_opts (&fo, BL_TRANSFORM_BOXCOX, 3.5, 0);
-  f = bl_fit_glm (j.d, &fo, &err);
+  f = bl_fit_new (j.d, &fo, &err);
   test_expect_fail (f, &err, BL_ESPEC, "--transform", "[-3, 3]", "3.5", "boxcox=3.5");
   test_job_free (&j);
   j.t = test_table_file ("remedies.csv", NULL, 0);
   test_job_design_spec (&j, "hours", "load", &ds);
   tr_opts (&fo, BL_TRANSFORM_LOG, NAN, 0);
-  f = bl_fit_glm (j.d, &fo, &err);
+  f = bl_fit_new (j.d, &fo, &err);
   test_expect_fail (f, &err, BL_ESPEC, "--offset", "offset", NULL, "log + offset");
   test_job_free (&j);
 }
@@ -366,7 +366,7 @@ END_TEST
 
 /* Allocation failures (DEVELOPERS.md, "Tests"; SQLite's malloc tests), a no-op without
    --enable-alloc-fail.  On tests/data/remedies.csv (80 rows), hours on (1, load):
-   - the fit: for N = 1, 2, ... the N-th allocation fails until bl_fit_glm succeeds; every
+   - the fit: for N = 1, 2, ... the N-th allocation fails until bl_fit_new succeeds; every
      failure is NULL with BL_ENOMEM and a message about memory, nothing leaks (the sanitizer
      build's leak check at exit), and the first success is the fit made without injection,
      bit for bit (test_alloc_fail_fit);

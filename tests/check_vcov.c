@@ -1,7 +1,7 @@
 /* check_vcov.c -- heteroscedasticity-consistent (sandwich) covariance, HC0-HC3 (vcov.c
    through fit.h), for OLS, WLS and GLM fits.
 
-   Every fit goes through the public pipeline: table -> terms -> design -> bl_fit_glm.  The
+   Every fit goes through the public pipeline: table -> terms -> design -> bl_fit_new.  The
    checks, each with its source beside it:
    - reference: the sandwich formula computed here by direct matrix algebra with GSL
      (X, W, residuals, (X'WX)^-1 by Cholesky, the leverages one by one):
@@ -336,7 +336,7 @@ START_TEST (vcov_error_leverage_one)
     bl_fit_opts_init (&fo);
     fo.method = BL_METHOD_OLS;
     fo.se = (bl_se_kind) K;
-    f = bl_fit_glm (j.d, &fo, &err);
+    f = bl_fit_new (j.d, &fo, &err);
     if (K >= 3) {
       test_expect_fail (f, &err, BL_EDATA, "lev.csv:5", "leverage 1", kind_name[K], kind_name[K]);
       ck_assert_str_eq (err.where, "lev.csv:5");

@@ -1,7 +1,7 @@
 /* check_wls.c -- weighted least squares (wls.c through fit.h): known weights, COL^K and
    fitted^K with the power fixed or estimated by maximum likelihood.
 
-   Every fit goes through the public pipeline: table -> terms -> design -> bl_fit_glm.  The
+   Every fit goes through the public pipeline: table -> terms -> design -> bl_fit_new.  The
    checks, each with its source beside it:
    - reference: GSL's gsl_multifit_wlinear (an independent weighted least-squares code), and a
      direct SciPy maximization of the likelihood (tests/reference/remedies_mle.py, its output
@@ -351,11 +351,11 @@ START_TEST (wls_error_fitted_nonpositive)
   ck_assert_msg (first < 20, "falling: the OLS fit stays positive");
   snprintf (where, sizeof where, "falling.csv:%zu", first + 2);
   wls_opts (&fo, BL_VARIANCE_FITTED, NULL, 1.0, 0);
-  f = bl_fit_glm (j.d, &fo, &err);
+  f = bl_fit_new (j.d, &fo, &err);
   test_expect_fail (f, &err, BL_EDATA, where, "fitted", "<= 0", "fitted^1 with mu <= 0");
   ck_assert_str_eq (err.where, where);
   wls_opts (&fo, BL_VARIANCE_FITTED, NULL, 0.0, 1);
-  f = bl_fit_glm (j.d, &fo, &err);
+  f = bl_fit_new (j.d, &fo, &err);
   test_expect_fail (f, &err, BL_EDATA, where, "fitted", NULL, "fitted^est with mu <= 0");
   test_job_free (&j);
   test_job_free (&o);
@@ -399,7 +399,7 @@ START_TEST (wls_error_options)
   j.t = test_table_file ("remedies.csv", NULL, 0);
   test_job_design_spec (&j, "hours", "load", &ds);
   wls_opts (&fo, BL_VARIANCE_COLUMN, "load", 1.0, 0);
-  f = bl_fit_glm (j.d, &fo, &err);
+  f = bl_fit_new (j.d, &fo, &err);
   test_expect_fail (f, &err, BL_ESPEC, "--offset", "offset", "wls", "wls with an offset");
   test_job_free (&j);
 
@@ -408,11 +408,11 @@ START_TEST (wls_error_options)
   test_job_design_spec (&j, "hours", "load", &ds);
   wls_opts (&fo, BL_VARIANCE_COLUMN, "load", 1.0, 0);
   fo.fam = &bl_family_gamma;
-  f = bl_fit_glm (j.d, &fo, &err);
+  f = bl_fit_new (j.d, &fo, &err);
   test_expect_fail (f, &err, BL_ESPEC, "--method", "wls", "--family", "wls with gamma");
   wls_opts (&fo, BL_VARIANCE_COLUMN, "load", 1.0, 0);
   fo.link = &bl_link_log;
-  f = bl_fit_glm (j.d, &fo, &err);
+  f = bl_fit_new (j.d, &fo, &err);
   test_expect_fail (f, &err, BL_ESPEC, "--method", "identity", NULL, "wls with a log link");
   test_job_free (&j);
 
@@ -420,7 +420,7 @@ START_TEST (wls_error_options)
   ds.variance = NULL;
   test_job_design_spec (&j, "hours", "load", &ds);
   wls_opts (&fo, BL_VARIANCE_COLUMN, "load", 1.0, 0);
-  f = bl_fit_glm (j.d, &fo, &err);
+  f = bl_fit_new (j.d, &fo, &err);
   test_expect_fail (f, &err, BL_ESPEC, "--variance", "no variance column", NULL,
                     "COL^K without a column");
   test_job_free (&j);
@@ -447,7 +447,7 @@ START_TEST (wls_error_power_not_identified)
   j.t = test_table_mem (c.s, c.len, "wide.csv", NULL, 0);
   test_job_design_spec (&j, "y", "x", &ds);
   wls_opts (&fo, BL_VARIANCE_COLUMN, "x", 0.0, 1);
-  f = bl_fit_glm (j.d, &fo, &err);
+  f = bl_fit_new (j.d, &fo, &err);
   test_expect_fail (f, &err, BL_ENOCONV, "--variance", "not identified", "range",
                     "x^est not identified");
   test_job_free (&j);

@@ -137,26 +137,25 @@ cli_out_commit (cli_out *o)
   }
   if (cli_cancel) {           /* interrupted: the caller reports it (cli_interrupted) */
     fclose (o->f);
-    unlink (o->tmp);
-    return -1;
+    goto discard;
   }
   if (fflush (o->f) != 0 || fsync (fileno (o->f)) != 0 || ferror (o->f)) {
     cli_error (o->path, "write failed: %s", strerror (errno));
     fclose (o->f);
-    unlink (o->tmp);
-    return -1;
+    goto discard;
   }
   if (fclose (o->f) != 0) {
     cli_error (o->path, "write failed: %s", strerror (errno));
-    unlink (o->tmp);
-    return -1;
+    goto discard;
   }
   if (chmod (o->tmp, 0644) != 0 || rename (o->tmp, o->path) != 0) {
     cli_error (o->path, "cannot move the finished file into place: %s", strerror (errno));
-    unlink (o->tmp);
-    return -1;
+    goto discard;
   }
   return 0;
+discard:                      /* the temporary is removed; PATH is left as it was */
+  unlink (o->tmp);
+  return -1;
 }
 
 void

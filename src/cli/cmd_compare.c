@@ -5,6 +5,7 @@
 #include <string.h>
 #include "ballast.h"
 #include "cli.h"
+#include "job_run.h"
 #include "model_opts.h"
 
 static const char usage_head[] =
@@ -39,8 +40,8 @@ static const char usage_tail[] =
 
 enum { OPT_JSON = OPT_FIRST_OWN, OPT_CANDIDATES, OPT_FOLDS, OPT_SEED };
 
-static const struct option long_opts[] = {
-  CLI_MODEL_LONG_OPTS,
+/* The command's own long options; the shared ones come from the option table. */
+static const struct option own_opts[] = {
   { "json", no_argument, NULL, OPT_JSON },
   { "candidates", required_argument, NULL, OPT_CANDIDATES },
   { "folds", required_argument, NULL, OPT_FOLDS },
@@ -62,6 +63,53 @@ parse_count (const char *s, size_t *out)
   return cli_parse_size (s, out);
 }
 
+/* Compare M's candidates (the folds, null points and quantile residuals drawn with SEED),
+   print the warnings and write the report: the exit code. */
+static int
+compare_report (const cli_model *m, unsigned long seed, int json, int quiet,
+                const char *output)
+{
+  const bl_job_input in = { m->table, m->design, m->offset, NULL };
+  bl_job_run_opts ro;
+  bl_job_result *res = NULL;
+  const bl_compare *cmp;
+  bl_err err;
+  cli_out out;
+  int st, rc = EXIT_DATA;
+  bl_err_clear (&err);
+  bl_job_run_opts_init (&ro);
+  ro.task = BL_JOB_COMPARE;
+  ro.seed = seed;
+  ro.cancel = &cli_cancel;
+  if (bl_job_run (&m->job, &in, &ro, &res, &err) != BL_OK) {
+    rc = cli_lib_error ("compare", &err);
+    goto done;
+  }
+  cmp = bl_job_result_compare (res);
+  if (!quiet)
+    cli_model_warn_drops (m);
+  if (cli_out_open (&out, output) != 0)
+    goto done;
+  {
+    const bl_report_info info = { m->job.data, m->terms, m->offset, m->job.weights,
+                                  bl_version (), NULL, NULL };
+    st = json ? bl_report_compare_json (out.f, cmp, m->design, &info, &err)
+              : bl_report_compare_text (out.f, cmp, m->design, &info, &err);
+  }
+  if (st != BL_OK) {
+    cli_out_abort (&out);
+    rc = cli_lib_error ("compare", &err);
+  } else if (cli_out_commit (&out) == 0) {
+    if (bl_compare_winner (cmp) < 0)
+      cli_error ("compare", "no candidate could be fitted");
+    else
+      rc = EXIT_DONE;
+  }
+done:
+  bl_job_result_free (res);
+  return rc;
+}
+
 int
 cmd_compare (int argc, char **argv)
 {
@@ -70,19 +118,18 @@ cmd_compare (int argc, char **argv)
   size_t folds = BL_COMPARE_FOLDS, seed = BL_COMPARE_SEED;
   cli_model m;
   bl_compare_opts copt;
-  bl_compare *cmp = NULL;
   bl_err err;
-  cli_out out;
 
   cli_model_init (&m);
   bl_compare_opts_init (&copt);
   bl_err_clear (&err);
   optind = 1;
   opterr = 0;
+  struct option long_opts[CLI_LONG_OPTS_MAX];
+  cli_model_long_opts (long_opts, own_opts);
   while ((c = getopt_long (argc, argv, ":o:qh", long_opts, &li)) != -1) {
     int r;
-    if (c == OPT_METHOD || c == OPT_FAMILY || c == OPT_LINK || c == OPT_VARIANCE
-        || c == OPT_TRANSFORM || c == OPT_SHIFT || c == OPT_DISPERSION) {
+    if (cli_model_option_has (c, BL_OPTION_CANDIDATE)) {
       char where[64];
       snprintf (where, sizeof where, "--%s", long_opts[li].name);
       cli_model_free (&m);
@@ -130,33 +177,13 @@ cmd_compare (int argc, char **argv)
     cli_model_free (&m);
     return rc;
   }
-  copt.folds = folds;
-  copt.seed = (unsigned long) seed;
-  copt.fit = m.job.fit;
-  rc = EXIT_DATA;
-  if (!(cmp = bl_compare_run (m.design, &copt, &err))) {
+  /* the comparison's settings into the job, which the runner reads */
+  m.job.folds = folds;
+  if (copt.candidates
+      && bl_job_set (&m.job, "candidates", copt.candidates, "--candidates", &err) != BL_OK)
     rc = cli_lib_error ("compare", &err);
-    goto done;
-  }
-  if (!quiet)
-    cli_model_warn_drops (&m);
-  if (cli_out_open (&out, output) == 0) {
-    bl_report_info info = { m.job.data, m.terms, m.offset, m.job.weights, bl_version (),
-                            NULL, NULL };
-    const int st = json ? bl_report_compare_json (out.f, cmp, m.design, &info, &err)
-                        : bl_report_compare_text (out.f, cmp, m.design, &info, &err);
-    if (st != BL_OK) {
-      cli_out_abort (&out);
-      rc = cli_lib_error ("compare", &err);
-    } else if (cli_out_commit (&out) == 0) {
-      if (bl_compare_winner (cmp) < 0)
-        cli_error ("compare", "no candidate could be fitted");
-      else
-        rc = EXIT_DONE;
-    }
-  }
-done:
-  bl_compare_free (cmp);
+  else
+    rc = compare_report (&m, (unsigned long) seed, json, quiet, output);
   cli_model_free (&m);
   return rc;
 }

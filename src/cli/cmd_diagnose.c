@@ -5,6 +5,7 @@
 #include <string.h>
 #include "ballast.h"
 #include "cli.h"
+#include "job_run.h"
 #include "model_opts.h"
 
 static const char usage_head[] =
@@ -35,8 +36,8 @@ static const char usage_tail[] =
 
 enum { OPT_JSON = OPT_FIRST_OWN, OPT_RESIDUALS, OPT_SEED, OPT_BY };
 
-static const struct option long_opts[] = {
-  CLI_MODEL_LONG_OPTS,
+/* The command's own long options; the shared ones come from the option table. */
+static const struct option own_opts[] = {
   { "json", no_argument, NULL, OPT_JSON },
   { "residuals", required_argument, NULL, OPT_RESIDUALS },
   { "seed", required_argument, NULL, OPT_SEED },
@@ -47,26 +48,111 @@ static const struct option long_opts[] = {
   { NULL, 0, NULL, 0 }
 };
 
+/* Write the residual table of RES's model to PATH (atomically): the exit code. */
+static int
+write_residuals (const bl_job_result *res, const char *path)
+{
+  bl_resid_table *t;
+  cli_out rout;
+  bl_err err;
+  int rc = EXIT_DATA;
+  bl_err_clear (&err);
+  t = bl_job_resid_table (res, &cli_cancel, &err);
+  if (!t || cli_cancel) {
+    rc = t ? cli_interrupted ("diagnose") : cli_lib_error ("diagnose", &err);
+    goto done;
+  }
+  if (cli_out_open (&rout, path) != 0)
+    goto done;
+  if (bl_report_residuals_csv (rout.f, bl_job_result_model (res), t, &cli_cancel, &err)
+      != BL_OK) {
+    cli_out_abort (&rout);
+    rc = cli_lib_error ("diagnose", &err);
+    goto done;
+  }
+  if (cli_out_commit (&rout) == 0)
+    rc = EXIT_DONE;
+done:
+  bl_resid_table_free (t);
+  return rc;
+}
+
+/* Fit M's model and check it (the null quantile and the quantile residuals drawn with SEED;
+   the spread by group of column BY when given), print its warnings, write the residual table
+   to RESIDUALS when given and the report: the exit code. */
+static int
+diagnose_report (const cli_model *m, unsigned long seed, const char *by, const char *residuals,
+                 int json, int quiet, const char *output)
+{
+  const bl_job_input in = { m->table, m->design, m->offset, NULL };
+  bl_job_run_opts ro;
+  bl_job_result *res = NULL;
+  const bl_fit *fit;
+  bl_err err;
+  cli_out out;
+  int st, rc = EXIT_DATA;
+  bl_err_clear (&err);
+  bl_job_run_opts_init (&ro);
+  ro.task = BL_JOB_DIAGNOSE;
+  ro.seed = seed;
+  ro.by = by;
+  ro.cancel = &cli_cancel;
+  st = bl_job_run (&m->job, &in, &ro, &res, &err);
+  fit = res ? bl_job_result_fit (res) : NULL;
+  if (!fit || !bl_job_result_diag (res)) {
+    if (cli_cancel)                /* a cancelled fit or diagnosis: no report of it */
+      rc = cli_interrupted ("diagnose");
+    else if (fit && !bl_fit_stats_get (fit)->converged)
+      cli_error ("diagnose", "%s", bl_fit_status (fit)->msg);
+    else
+      rc = cli_lib_error ("diagnose", &err);
+    goto done;
+  }
+  if (!quiet) {
+    const bl_warnings *wn = bl_fit_warnings (fit);
+    cli_model_warn_drops (m);
+    for (size_t i = 0; i < wn->n; i++)
+      cli_warn ("diagnose", "%s", wn->msg[i]);
+  }
+  if (residuals && (rc = write_residuals (res, residuals)) != EXIT_DONE)
+    goto done;
+  rc = EXIT_DATA;
+  if (st != BL_OK) {               /* the spread by group (--by) */
+    rc = cli_lib_error ("diagnose", &err);
+    goto done;
+  }
+  if (cli_out_open (&out, output) != 0)
+    goto done;
+  {
+    const bl_report_info info = { m->job.data, m->terms, m->offset, m->job.weights,
+                                  bl_version (), NULL, bl_job_result_by (res) };
+    st = json ? bl_report_diag_json (out.f, fit, bl_job_result_diag (res), &info, &err)
+              : bl_report_diag_text (out.f, fit, bl_job_result_diag (res), &info, &err);
+  }
+  if (st != BL_OK) {
+    cli_out_abort (&out);
+    rc = cli_lib_error ("diagnose", &err);
+  } else if (cli_out_commit (&out) == 0) {
+    rc = EXIT_DONE;
+  }
+done:
+  bl_job_result_free (res);
+  return rc;
+}
+
 int
 cmd_diagnose (int argc, char **argv)
 {
   const char *output = NULL, *residuals = NULL, *by = NULL;
-  bl_bf bf;
-  int have_bf = 0;
   int json = 0, quiet = 0, c, rc, method_set = 0;
   size_t seed = BL_DIAG_SEED;
   cli_model m;
-  bl_fit *fit = NULL;
-  bl_diag *dg = NULL;
-  bl_diag_opts dopt;
-  bl_err err;
-  cli_out out, rout;
 
   cli_model_init (&m);
-  bl_diag_opts_init (&dopt);
-  bl_err_clear (&err);
   optind = 1;
   opterr = 0;
+  struct option long_opts[CLI_LONG_OPTS_MAX];
+  cli_model_long_opts (long_opts, own_opts);
   while ((c = getopt_long (argc, argv, ":o:qh", long_opts, NULL)) != -1) {
     const int r = cli_model_option (&m, c, optarg, "diagnose");
     if (r > 0) {
@@ -74,8 +160,7 @@ cmd_diagnose (int argc, char **argv)
       return r;
     }
     if (r == 0) {
-      method_set |= c == OPT_METHOD || c == OPT_FAMILY || c == OPT_LINK
-                    || c == OPT_TRANSFORM || c == OPT_VARIANCE;
+      method_set |= cli_model_option_has (c, BL_OPTION_METHOD);
       continue;
     }
     switch (c) {
@@ -104,78 +189,7 @@ cmd_diagnose (int argc, char **argv)
     cli_model_free (&m);
     return rc;
   }
-  dopt.seed = (unsigned long) seed;
-  dopt.cancel = &cli_cancel;
-  rc = EXIT_DATA;
-  if (!(fit = bl_fit_glm (m.design, &m.job.fit, &err))
-      || !(dg = bl_diag_new (fit, &dopt, &err))) {
-    if (cli_cancel)                /* a cancelled fit or diagnosis: no report of it */
-      rc = cli_interrupted ("diagnose");
-    else if (fit && !bl_fit_stats_get (fit)->converged)
-      cli_error ("diagnose", "%s", bl_fit_status (fit)->msg);
-    else
-      rc = cli_lib_error ("diagnose", &err);
-    goto done;
-  }
-  if (!quiet) {
-    const bl_warnings *wn = bl_fit_warnings (fit);
-    cli_model_warn_drops (&m);
-    for (size_t i = 0; i < wn->n; i++)
-      cli_warn ("diagnose", "%s", wn->msg[i]);
-  }
-  if (residuals) {
-    gsl_rng *rng = gsl_rng_alloc (gsl_rng_mt19937);
-    bl_resid_table *t;
-    if (!rng) {
-      cli_error ("diagnose", "out of memory");
-      goto done;
-    }
-    gsl_rng_set (rng, (unsigned long) seed);
-    t = bl_resid_table_new (fit, rng, &cli_cancel, &err);
-    gsl_rng_free (rng);
-    if (!t || cli_cancel) {
-      bl_resid_table_free (t);
-      rc = t ? cli_interrupted ("diagnose") : cli_lib_error ("diagnose", &err);
-      goto done;
-    }
-    if (cli_out_open (&rout, residuals) != 0) {
-      bl_resid_table_free (t);
-      goto done;
-    }
-    if (bl_report_residuals_csv (rout.f, fit, t, &cli_cancel, &err) != BL_OK) {
-      cli_out_abort (&rout);
-      bl_resid_table_free (t);
-      rc = cli_lib_error ("diagnose", &err);
-      goto done;
-    }
-    bl_resid_table_free (t);
-    if (cli_out_commit (&rout) != 0)
-      goto done;
-  }
-  if (by) {
-    if (bl_brown_forsythe (fit, m.table, by, &bf, &err) != BL_OK) {
-      rc = cli_lib_error ("diagnose", &err);
-      goto done;
-    }
-    have_bf = 1;
-  }
-  if (cli_out_open (&out, output) == 0) {
-    bl_report_info info = { m.job.data, m.terms, m.offset, m.job.weights, bl_version (),
-                            NULL, have_bf ? &bf : NULL };
-    const int st = json ? bl_report_diag_json (out.f, fit, dg, &info, &err)
-                        : bl_report_diag_text (out.f, fit, dg, &info, &err);
-    if (st != BL_OK) {
-      cli_out_abort (&out);
-      rc = cli_lib_error ("diagnose", &err);
-    } else if (cli_out_commit (&out) == 0) {
-      rc = EXIT_DONE;
-    }
-  }
-done:
-  if (have_bf)
-    bl_bf_clear (&bf);
-  bl_diag_free (dg);
-  bl_fit_free (fit);
+  rc = diagnose_report (&m, (unsigned long) seed, by, residuals, json, quiet, output);
   cli_model_free (&m);
   return rc;
 }

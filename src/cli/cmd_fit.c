@@ -4,6 +4,7 @@
 #include <string.h>
 #include "ballast.h"
 #include "cli.h"
+#include "job_run.h"
 #include "model.h"
 #include "model_opts.h"
 
@@ -27,8 +28,8 @@ static const char usage_tail[] =
 
 enum { OPT_JSON = OPT_FIRST_OWN, OPT_SAVE };
 
-static const struct option long_opts[] = {
-  CLI_MODEL_LONG_OPTS,
+/* The command's own long options; the shared ones come from the option table. */
+static const struct option own_opts[] = {
   { "json", no_argument, NULL, OPT_JSON },
   { "save", required_argument, NULL, OPT_SAVE },
   { "output", required_argument, NULL, 'o' },
@@ -56,23 +57,77 @@ save_model (const char *save, const bl_fit *fit, const cli_model *m)
   return cli_out_commit (&so) == 0 ? EXIT_DONE : EXIT_DATA;
 }
 
+/* Fit M's model (and test it against SMALL, the smaller model, when given), print its
+   warnings and write its report (and save it): the exit code. */
+static int
+fit_report (const cli_model *m, const bl_terms *small, int json, int quiet,
+            const char *output, const char *save)
+{
+  const bl_job_input in = { m->table, m->design, m->offset, small };
+  bl_job_run_opts ro;
+  bl_job_result *res = NULL;
+  const bl_fit *fit;
+  bl_err err;
+  cli_out out;
+  int st, rc = EXIT_DATA;
+  bl_err_clear (&err);
+  bl_job_run_opts_init (&ro);
+  ro.task = BL_JOB_FIT;
+  ro.cancel = &cli_cancel;
+  st = bl_job_run (&m->job, &in, &ro, &res, &err);
+  if (!res || cli_cancel) {
+    /* a cancelled fit comes back unconverged (BL_ECANCEL in its status): no report of it */
+    rc = res ? cli_interrupted ("fit") : cli_lib_error ("fit", &err);
+    goto done;
+  }
+  fit = bl_job_result_fit (res);
+  if (!quiet) {
+    const bl_warnings *wn = bl_fit_warnings (fit);
+    cli_model_warn_drops (m);
+    for (size_t i = 0; i < wn->n; i++)
+      cli_warn ("fit", "%s", wn->msg[i]);
+  }
+  if (st != BL_OK) {                 /* the likelihood-ratio test against the smaller model */
+    rc = cli_lib_error ("fit", &err);
+    goto done;
+  }
+  if (cli_out_open (&out, output) != 0)
+    goto done;
+  {
+    const bl_report_info info = { m->job.data, m->terms, m->offset, m->job.weights,
+                                  bl_version (), bl_job_result_nested (res), NULL };
+    st = json ? bl_report_fit_json (out.f, fit, &info, &err)
+              : bl_report_fit_text (out.f, fit, &info, &err);
+  }
+  if (st != BL_OK) {
+    cli_out_abort (&out);
+    rc = cli_lib_error ("fit", &err);
+  } else if (cli_out_commit (&out) == 0) {
+    if (!bl_fit_stats_get (fit)->converged)
+      cli_error ("fit", "%s", bl_fit_status (fit)->msg);
+    else
+      rc = save_model (save, fit, m);
+  }
+done:
+  bl_job_result_free (res);
+  return rc;
+}
+
 int
 cmd_fit (int argc, char **argv)
 {
   const char *output = NULL, *save = NULL;
   int json = 0, quiet = 0, c, rc;
   cli_model m;
-  bl_fit *fit = NULL;
-  bl_nested nested;
   bl_terms *small = NULL;
-  int have_nested = 0;
   bl_err err;
-  cli_out out;
 
   cli_model_init (&m);
   bl_err_clear (&err);
   optind = 1;
   opterr = 0;
+  struct option long_opts[CLI_LONG_OPTS_MAX];
+  cli_model_long_opts (long_opts, own_opts);
   while ((c = getopt_long (argc, argv, ":o:qh", long_opts, NULL)) != -1) {
     const int r = cli_model_option (&m, c, optarg, "fit");
     if (r > 0) {
@@ -107,64 +162,9 @@ cmd_fit (int argc, char **argv)
     cli_model_free (&m);
     return rc;
   }
-  if ((rc = cli_model_load (&m, "fit")) != 0) {
-    bl_terms_free (small);
-    cli_model_free (&m);
-    return rc;
-  }
-  fit = bl_fit_glm (m.design, &m.job.fit, &err);
-  if (!fit || cli_cancel) {
-    /* a cancelled fit comes back unconverged (BL_ECANCEL in its status): no report of it */
-    rc = fit ? cli_interrupted ("fit") : cli_lib_error ("fit", &err);
-    bl_fit_free (fit);
-    bl_terms_free (small);
-    cli_model_free (&m);
-    return rc;
-  }
-  if (!quiet) {
-    const bl_warnings *wn = bl_fit_warnings (fit);
-    cli_model_warn_drops (&m);
-    for (size_t i = 0; i < wn->n; i++)
-      cli_warn ("fit", "%s", wn->msg[i]);
-  }
-  if (small && bl_fit_stats_get (fit)->converged) {
-    /* the likelihood-ratio test against the smaller model */
-    bl_design_opts dopt;
-    bl_job_design_opts (&m.job, m.offset, &dopt);
-    rc = bl_nested_test (fit, m.table, small, &dopt, &m.job.fit, &nested, &err);
-    bl_terms_free (small);
-    small = NULL;
-    if (rc != BL_OK) {
-      rc = cli_lib_error ("fit", &err);
-      bl_fit_free (fit);
-      cli_model_free (&m);
-      return rc;
-    }
-    have_nested = 1;
-  }
-  if (cli_cancel) {
-    bl_fit_free (fit);
-    cli_model_free (&m);
-    return cli_interrupted ("fit");
-  }
-  rc = EXIT_DATA;
-  if (cli_out_open (&out, output) == 0) {
-    bl_report_info info = { m.job.data, m.terms, m.offset, m.job.weights, bl_version (),
-                            have_nested ? &nested : NULL, NULL };
-    const int st = json ? bl_report_fit_json (out.f, fit, &info, &err)
-                        : bl_report_fit_text (out.f, fit, &info, &err);
-    if (st != BL_OK) {
-      cli_out_abort (&out);
-      rc = cli_lib_error ("fit", &err);
-    } else if (cli_out_commit (&out) == 0) {
-      if (!bl_fit_stats_get (fit)->converged)
-        cli_error ("fit", "%s", bl_fit_status (fit)->msg);
-      else
-        rc = save_model (save, fit, &m);
-    }
-  }
+  if ((rc = cli_model_load (&m, "fit")) == 0)
+    rc = fit_report (&m, small, json, quiet, output, save);
   bl_terms_free (small);
-  bl_fit_free (fit);
   cli_model_free (&m);
   return rc;
 }

@@ -139,7 +139,12 @@ cmd_predict (int argc, char **argv)
   }
   if (cli_out_open (&out, output) != 0)
     goto done;
-  if (bl_prediction_write_csv2 (out.f, pr, t, keep, nkeep, median, &err) != BL_OK) {
+  bl_prediction_csv_opts copt;
+  bl_prediction_csv_opts_init (&copt);
+  copt.keep = keep;
+  copt.nkeep = nkeep;
+  copt.median = median;
+  if (bl_prediction_write_csv (out.f, pr, t, &copt, &err) != BL_OK) {
     cli_out_abort (&out);
     rc = cli_lib_error ("predict", &err);
     goto done;

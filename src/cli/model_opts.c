@@ -6,66 +6,68 @@
 #include "model_opts.h"
 
 
-const char cli_model_help[] =
-  "model:\n"
-  "  --response COL          the response column (required)\n"
-  "  --terms TERMS           comma-separated terms: a column, log(t), sqrt(t), exp(t),\n"
-  "                          pow(t, k), cross(t1, t2); names with spaces in [brackets]\n"
-  "  --no-intercept          leave out the intercept column\n"
-  "  --method glm|ols|wls    glm (default): maximum likelihood by IRLS; ols: the gaussian\n"
-  "                          family with the identity link; wls: weighted least squares\n"
-  "                          with --weights and/or --variance\n"
-  "  --family NAME           gaussian (default), poisson, gamma, inverse-gaussian,\n"
-  "                          negative-binomial (Var = mu + mu^2/theta), tweedie\n"
-  "                          (compound poisson-gamma, Var = phi mu^p, 1 < p < 2)\n"
-  "  --theta T               negative binomial: fix theta (default: estimated)\n"
-  "  --power P|est           tweedie: the power p (default: est, by profile likelihood)\n"
-  "  --link NAME             identity, log, inverse, sqrt; default: the canonical link\n"
-  "                          (identity, log, inverse), but log for inverse-gaussian, whose\n"
-  "                          canonical link 1/mu^2 is not offered, and log for the\n"
-  "                          negative binomial and tweedie\n"
-  "  --variance EXPR         wls variance function: COL^K (proportional to a positive\n"
-  "                          column to the power K) or fitted^K (to the fitted mean);\n"
-  "                          K a number or 'est' (maximum likelihood)\n"
-  "  --transform NAME        ordinary least squares of log(y), sqrt(y), or a Box-Cox\n"
-  "                          power: boxcox (estimated) or boxcox=L; reported on y's scale\n"
-  "  --shift C               transform y + C (for y <= 0; results depend on C)\n"
-  "  --weights COL           prior weights (each > 0)\n"
-  "  --offset TERM           a term added with coefficient 1, e.g. log(hours) for exposure\n"
-  "  --categorical A,B       treat these columns as categorical\n"
-  "  --reference COL=LEVEL   reference level of a categorical column (repeatable);\n"
-  "                          default: the first level in byte order\n"
-  "  --dispersion KIND       model (default) or pearson (poisson: scale the standard\n"
-  "                          errors by the Pearson estimate)\n"
-  "  --level X               confidence level of the intervals (default 0.95)\n"
-  "  --against TERMS         fit: test against the smaller model with these terms\n"
-  "                          (likelihood ratio: chi-square, or F when phi is estimated)\n"
-  "  --se KIND               standard errors: model (default), hc0, hc1, hc2, hc3\n"
-  "                          (heteroscedasticity-consistent sandwich), cluster\n"
-  "  --cluster COL           with --se cluster: the column naming each row's cluster\n"
-  "\n"
-  "input:\n"
-  "  --delimiter C           field delimiter (default ',', or tab for .tsv names)\n"
-  "  --decimal-comma         numbers are written 3,14\n"
-  "\n"
-  "numerics:\n"
-  "  --max-iter N            IRLS iteration limit (default 50)\n"
-  "  --epsilon X             convergence: |D_old - D| <= X (|D| + 0.1) (default 1e-10)\n"
-  "  --solver KIND           auto (default), extended, streamed\n"
-  "  --threads N             worker threads, 1 or 2 (default 2)\n";
+/* Help lines start their text at this column: "  --KEY ARG" is padded to it. */
+#define HELP_COLUMN 26
 
-/* The key of each shared option code (the long option's name). */
-static const struct { int code; const char *key; } codes[] = {
-  { OPT_RESPONSE, "response" }, { OPT_TERMS, "terms" }, { OPT_NO_INTERCEPT, "no-intercept" },
-  { OPT_METHOD, "method" }, { OPT_FAMILY, "family" }, { OPT_LINK, "link" },
-  { OPT_WEIGHTS, "weights" }, { OPT_OFFSET, "offset" }, { OPT_CATEGORICAL, "categorical" },
-  { OPT_REFERENCE, "reference" }, { OPT_DISPERSION, "dispersion" }, { OPT_LEVEL, "level" },
-  { OPT_DELIMITER, "delimiter" }, { OPT_DECIMAL_COMMA, "decimal-comma" },
-  { OPT_MAX_ITER, "max-iter" }, { OPT_EPSILON, "epsilon" }, { OPT_SOLVER, "solver" },
-  { OPT_THREADS, "threads" }, { OPT_VARIANCE, "variance" }, { OPT_TRANSFORM, "transform" },
-  { OPT_SHIFT, "shift" }, { OPT_SE, "se" }, { OPT_THETA, "theta" }, { OPT_POWER, "power" },
-  { OPT_AGAINST, "against" }, { OPT_CLUSTER, "cluster" }
-};
+/* The help of the shared options, from the option table: each group under its heading
+   ("model:"), the groups a blank line apart, and each option as "  --KEY ARG", padded to
+   HELP_COLUMN, then its text, whose further lines are indented to that column. */
+static void
+print_help (FILE *f)
+{
+  const char *group = NULL;
+  for (size_t i = 0; i < bl_option_count (); i++) {
+    const bl_option *const o = bl_option_at (i);
+    int col;
+    if (!(o->flags & BL_OPTION_CLI) || !o->help)
+      continue;
+    if (!group || strcmp (group, o->group) != 0)
+      fprintf (f, "%s%s:\n", group ? "\n" : "", o->group);
+    group = o->group;
+    col = fprintf (f, "  --%s%s%s", o->key, o->arg ? " " : "", o->arg ? o->arg : "");
+    for (const char *t = o->help; *t; t++) {
+      for (; col < HELP_COLUMN; col++)
+        fputc (' ', f);
+      fputc (*t, f);
+      col = *t == '\n' ? 0 : HELP_COLUMN;
+    }
+    fputc ('\n', f);
+  }
+}
+
+void
+cli_model_long_opts (struct option *long_opts, const struct option *own)
+{
+  size_t n = 0;
+  for (size_t i = 0; i < bl_option_count (); i++) {
+    const bl_option *const o = bl_option_at (i);
+    if (!(o->flags & BL_OPTION_CLI))
+      continue;
+    long_opts[n].name = o->key;
+    long_opts[n].has_arg = o->kind == BL_OPTION_FLAG ? no_argument : required_argument;
+    long_opts[n].flag = NULL;
+    long_opts[n++].val = CLI_OPT_BASE + (int) i;
+  }
+  for (size_t k = 0; own[k].name && k + 1 < CLI_OWN_MAX; k++)
+    long_opts[n++] = own[k];
+  memset (&long_opts[n], 0, sizeof long_opts[n]);
+}
+
+/* The option table's entry of getopt code C, or NULL when C is not a shared option. */
+static const bl_option *
+key_of (int c)
+{
+  const bl_option *const o = c >= CLI_OPT_BASE ? bl_option_at ((size_t) (c - CLI_OPT_BASE))
+                                               : NULL;
+  return o && (o->flags & BL_OPTION_CLI) ? o : NULL;
+}
+
+int
+cli_model_option_has (int c, unsigned flags)
+{
+  const bl_option *const o = key_of (c);
+  return o && (o->flags & flags) == flags;
+}
 
 void
 cli_model_init (cli_model *m)
@@ -92,16 +94,15 @@ cli_model_free (cli_model *m)
 int
 cli_model_option (cli_model *m, int c, const char *arg, const char *cmd)
 {
-  for (size_t i = 0; i < sizeof codes / sizeof codes[0]; i++)
-    if (codes[i].code == c) {
-      char where[64];
-      bl_err err;
-      snprintf (where, sizeof where, "--%s", codes[i].key);
-      if (bl_job_set (&m->job, codes[i].key, arg, where, &err) != BL_OK)
-        return cli_lib_error (cmd, &err);
-      return 0;
-    }
-  return -1;
+  const bl_option *const o = key_of (c);
+  char where[64];
+  bl_err err;
+  if (!o)
+    return -1;
+  snprintf (where, sizeof where, "--%s", o->key);
+  if (bl_job_set (&m->job, o->key, arg, where, &err) != BL_OK)
+    return cli_lib_error (cmd, &err);
+  return 0;
 }
 
 int
@@ -144,7 +145,7 @@ cli_model_option_end (cli_model *m, int c, const char *cmd, char **argv, const c
   switch (c) {
   case 'h':
     fputs (head, stdout);
-    fputs (cli_model_help, stdout);
+    print_help (stdout);
     fputs (tail, stdout);
     return EXIT_DONE;
   case ':':

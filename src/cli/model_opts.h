@@ -4,48 +4,25 @@
 #define BALLAST_MODEL_OPTS_H
 #include <getopt.h>
 #include "ballast.h"
+#include "options.h"
 
-
+/* getopt codes: a shared option is CLI_OPT_BASE + the index of its key in the option table
+   (options.h); a subcommand numbers its own options from OPT_FIRST_OWN. */
 enum {
-  OPT_RESPONSE = 256, OPT_TERMS, OPT_NO_INTERCEPT, OPT_METHOD, OPT_FAMILY, OPT_LINK,
-  OPT_WEIGHTS, OPT_OFFSET, OPT_CATEGORICAL, OPT_REFERENCE, OPT_DISPERSION, OPT_LEVEL,
-  OPT_DELIMITER, OPT_DECIMAL_COMMA, OPT_MAX_ITER, OPT_EPSILON, OPT_SOLVER, OPT_THREADS,
-  OPT_VARIANCE, OPT_TRANSFORM, OPT_SHIFT, OPT_SE, OPT_THETA, OPT_POWER, OPT_AGAINST,
-  OPT_CLUSTER,
-  OPT_FIRST_OWN = 400           /* subcommands number their own options from here */
+  CLI_OPT_BASE = 256,
+  OPT_FIRST_OWN = CLI_OPT_BASE + BL_OPTION_MAX,
+  CLI_OWN_MAX = 16              /* a subcommand has fewer own long options than this */
 };
+/* Room for the shared long options, a subcommand's own and the zero entry. */
+#define CLI_LONG_OPTS_MAX (BL_OPTION_MAX + CLI_OWN_MAX + 1)
 
-/* The shared long options, to be followed by a subcommand's own and a zero entry. */
-#define CLI_MODEL_LONG_OPTS \
-  { "response", required_argument, NULL, OPT_RESPONSE }, \
-  { "terms", required_argument, NULL, OPT_TERMS }, \
-  { "no-intercept", no_argument, NULL, OPT_NO_INTERCEPT }, \
-  { "method", required_argument, NULL, OPT_METHOD }, \
-  { "family", required_argument, NULL, OPT_FAMILY }, \
-  { "link", required_argument, NULL, OPT_LINK }, \
-  { "weights", required_argument, NULL, OPT_WEIGHTS }, \
-  { "offset", required_argument, NULL, OPT_OFFSET }, \
-  { "categorical", required_argument, NULL, OPT_CATEGORICAL }, \
-  { "reference", required_argument, NULL, OPT_REFERENCE }, \
-  { "dispersion", required_argument, NULL, OPT_DISPERSION }, \
-  { "level", required_argument, NULL, OPT_LEVEL }, \
-  { "delimiter", required_argument, NULL, OPT_DELIMITER }, \
-  { "decimal-comma", no_argument, NULL, OPT_DECIMAL_COMMA }, \
-  { "max-iter", required_argument, NULL, OPT_MAX_ITER }, \
-  { "epsilon", required_argument, NULL, OPT_EPSILON }, \
-  { "solver", required_argument, NULL, OPT_SOLVER }, \
-  { "threads", required_argument, NULL, OPT_THREADS }, \
-  { "variance", required_argument, NULL, OPT_VARIANCE }, \
-  { "transform", required_argument, NULL, OPT_TRANSFORM }, \
-  { "shift", required_argument, NULL, OPT_SHIFT }, \
-  { "se", required_argument, NULL, OPT_SE }, \
-  { "theta", required_argument, NULL, OPT_THETA }, \
-  { "power", required_argument, NULL, OPT_POWER }, \
-  { "against", required_argument, NULL, OPT_AGAINST }, \
-  { "cluster", required_argument, NULL, OPT_CLUSTER }
-
-/* Help text for the shared options. */
-extern const char cli_model_help[];
+/* Fill LONG_OPTS (CLI_LONG_OPTS_MAX entries) with the shared options, the table's
+   BL_OPTION_CLI keys in table order, then OWN (fewer than CLI_OWN_MAX entries, ended by a
+   zero entry), then the zero entry. */
+void cli_model_long_opts (struct option *long_opts, const struct option *own);
+/* Whether getopt code C is a shared option whose key has every bit of FLAGS
+   (BL_OPTION_METHOD, BL_OPTION_CANDIDATE, ...). */
+int cli_model_option_has (int c, unsigned flags);
 
 typedef struct cli_model {
   bl_job job;
@@ -68,8 +45,8 @@ int cli_model_load (cli_model *m, const char *cmd);
 /* The same, keeping column ALSO of the data as well (see bl_job_load_with). */
 int cli_model_load_with (cli_model *m, const char *cmd, const char *also);
 /* The options every modelling subcommand ends its option switch with: -h (HEAD, the shared
-   help and TAIL on stdout, EXIT_DONE), a missing value and an unknown option (EXIT_USAGE).
-   Frees M and returns the exit code. */
+   options' help from the option table, and TAIL on stdout, EXIT_DONE), a missing value and
+   an unknown option (EXIT_USAGE).  Frees M and returns the exit code. */
 int cli_model_option_end (cli_model *m, int c, const char *cmd, char **argv, const char *head,
                           const char *tail);
 

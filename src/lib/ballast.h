@@ -2,6 +2,7 @@
    positive skewed amounts.  Include this, or the module headers one by one. */
 #ifndef BALLAST_BALLAST_H
 #define BALLAST_BALLAST_H
+#include "version.h"
 #include "alloc.h"
 #include "error.h"
 #include "source.h"
@@ -26,15 +27,6 @@
 extern "C" {
 #endif
 
-#define BL_VERSION_MAJOR 0
-#define BL_VERSION_MINOR 1
-#define BL_VERSION_PATCH 0
-#define BL_VERSION_STRING "0.1.0"
-
-/* The library's version string ("0.1.0"), which may differ from the header's. */
-const char *bl_version (void);
-/* The CBLAS the library was linked with ("openblas" or "gsl"). */
-const char *bl_blas_name (void);
 
 #ifdef __cplusplus
 }

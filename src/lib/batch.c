@@ -16,10 +16,10 @@
 #include <sys/stat.h>
 #include <time.h>
 #include <unistd.h>
-#include <gsl/gsl_rng.h>
 #include "alloc.h"
 #include "batch.h"
 #include "diag.h"
+#include "job_run.h"
 #include "jsonw.h"
 #include "report.h"
 #include "ballast.h"
@@ -251,166 +251,114 @@ render_status (membuf *m, int st, const char *where, const char *file, bl_err *e
   return st;
 }
 
-/* Run job I: fit or compare, render its files and write them, render its section.  Out of
-   memory anywhere stops the run (run_nomem): nothing more is written for this job, and the
-   files it already wrote are complete. */
+/* The summary line's start for job SJ: its name and method, no figures yet. */
 static void
-run_job (run_ctx *rc, size_t i)
+row_start (bl_batch_row *row, const bl_spec_job *sj)
 {
-  const bl_spec_job *sj = bl_spec_get (rc->spec, i);
-  const bl_job *j = &sj->job;
-  bl_batch_row *row = &rc->rows[i];
-  bl_terms *terms = NULL, *offset = NULL;
-  bl_table *table = NULL;
-  bl_design *design = NULL;
-  bl_compare *cmp = NULL;
-  bl_fit *fit = NULL;
-  const bl_fit *resfit = NULL;
-  membuf mb = { NULL, 0, NULL }, mr = { NULL, 0, NULL };
-  int have_result = 0, have_resid = 0;
-  bl_err e;
-  int jobfd = -1;
-  const unsigned long seed = bl_batch_seed (sj->name, j->seed);
-  char where[BL_SPEC_NAME_MAX + 16];
-  bl_report_info info;
-  bl_job jl;                  /* J with the cancel flag for its table read (a shallow copy) */
-
   memset (row, 0, sizeof *row);
   snprintf (row->job, sizeof row->job, "%s", sj->name);
   snprintf (row->method, sizeof row->method, "%s",
-            sj->single ? bl_method_name (j->fit.method) : "compare");
+            sj->single ? bl_method_name (sj->job.fit.method) : "compare");
   row->aic = row->delta = row->spread_ratio = NAN;
   row->ok = 1;
-  snprintf (where, sizeof where, "job '%s'", sj->name);
-  bl_err_clear (&e);
+}
 
-  jobfd = open_subdir (rc->outfd, sj->name);
-  if (jobfd < 0) {
-    bl_fail (&e, BL_EIO, where, "cannot use the folder '%s' in the output folder: %s",
-             sj->name, errno == ELOOP || errno == ENOTDIR ? "it is a symbolic link or not a "
-             "folder" : strerror (errno));
-    row_fail (row, &e);
-    goto section;
-  }
-  jl = *j;
-  jl.table.cancel = rc->opt->cancel;
-  if (bl_job_parse_terms (j, NULL, &terms, &offset, &e) != BL_OK
-      || bl_job_load (&jl, terms, offset, &table, &design, &e) != BL_OK) {
-    if (e.code == BL_ENOMEM)
-      goto nomem;
-    row_fail (row, &e);
-    goto result;
-  }
-  row->n = bl_design_n (design);
-  if (sj->single) {
-    bl_fit_opts fo = j->fit;
-    fo.irls.cancel = rc->opt->cancel;
-    fit = bl_fit_glm (design, &fo, &e);
-    if (!fit) {
-      if (e.code == BL_ENOMEM)
-        goto nomem;
-      row_fail (row, &e);
-      goto result;
-    }
+/* The summary line's figures from RES: the single model's (or why it has none) or the
+   winner's with its delta to the runner-up.  BL_ENOMEM (E filled) when the fit failed for
+   want of memory: the run stops (run_nomem); else BL_OK. */
+static int
+row_fill (bl_batch_row *row, const bl_job_result *res, const char *where, bl_err *e)
+{
+  const bl_fit *fit = bl_job_result_fit (res);
+  const bl_compare *cmp = bl_job_result_compare (res);
+  long w;
+  double second = HUGE_VAL;
+  if (fit) {
     if (!bl_fit_stats_get (fit)->converged) {
       if (bl_fit_status (fit)->code == BL_ENOMEM) {
-        e = *bl_fit_status (fit);
-        goto nomem;
+        *e = *bl_fit_status (fit);
+        return BL_ENOMEM;
       }
       row_fail (row, bl_fit_status (fit));
-    } else {
-      const bl_fit_stats *st = bl_fit_stats_get (fit);
-      gsl_rng *rng = gsl_rng_alloc (gsl_rng_mt19937);
-      double *r = bl_mallocn (st->n ? st->n : 1, sizeof *r);
-      bl_spread sp;
-      int sst;
-      snprintf (row->winner, sizeof row->winner, "%s/%s", bl_fit_family (fit)->name,
-                bl_fit_link (fit)->name);
-      row->aic = st->aic;
-      if (!rng || !r) {
-        bl_free (r);
-        if (rng)
-          gsl_rng_free (rng);
-        bl_fail (&e, BL_ENOMEM, where, "out of memory for the spread ratio");
-        goto nomem;
-      }
-      gsl_rng_set (rng, seed);
-      bl_pearson_residuals (fit, r);
-      /* a spread ratio that does not exist (too few rows) is NAN; out of memory is not */
-      sst = bl_spread_compute (bl_fit_mu (fit), r, st->n, rng, BL_DIAG_NULL_REPS, &sp, &e);
-      if (sst == BL_OK) {
-        row->spread_ratio = sp.ratio;
-        bl_spread_clear (&sp);
-      }
-      bl_free (r);
-      gsl_rng_free (rng);
-      if (sst == BL_ENOMEM)
-        goto nomem;
-      resfit = fit;
+      return BL_OK;
     }
-  } else {
-    bl_compare_opts co;
-    long w;
-    bl_compare_opts_init (&co);
-    co.candidates = j->candidates;
-    co.folds = j->folds;
-    co.seed = seed;
-    co.fit = j->fit;
-    co.fit.irls.cancel = rc->opt->cancel;
-    cmp = bl_compare_run (design, &co, &e);
-    if (!cmp) {
-      if (e.code == BL_ENOMEM)
-        goto nomem;
-      row_fail (row, &e);
-      goto result;
-    }
-    w = bl_compare_winner (cmp);
-    if (w < 0) {
-      bl_fail (&e, BL_ENOCONV, where, "no candidate could be fitted");
-      row_fail (row, &e);
-    } else {
-      const bl_candidate *k = bl_compare_get (cmp, (size_t) w);
-      double second = HUGE_VAL;
-      snprintf (row->winner, sizeof row->winner, "%s", k->id);
-      row->aic = bl_compare_integer_y (cmp) ? k->aic_discrete : k->aic;
-      row->spread_ratio = k->spread_ratio;
-      for (size_t q = 0; q < bl_compare_count (cmp); q++) {
-        const bl_candidate *o = bl_compare_get (cmp, q);
-        if ((long) q != w && isfinite (o->delta_aic) && o->delta_aic < second)
-          second = o->delta_aic;
-      }
-      row->delta = isfinite (second) ? second : NAN;
-      resfit = k->fit;
-    }
+    snprintf (row->winner, sizeof row->winner, "%s/%s", bl_fit_family (fit)->name,
+              bl_fit_link (fit)->name);
+    row->aic = bl_fit_stats_get (fit)->aic;
+    row->spread_ratio = bl_job_result_spread_ratio (res);
+    return BL_OK;
   }
-
-result:
-  /* A job cut short by the cancel flag writes nothing: its result would describe the
-     interruption (a cancelled read or fit), not the data; bl_batch_run reports BL_ECANCEL. */
-  if (cancelled (rc))
-    goto done;
-  /* Render result.json (the compare or fit document, or the failure) and residuals.csv (of
-     the winner or the single model) in memory first, then write them: out of memory while
-     rendering leaves neither file. */
-  if (jobfd < 0)
-    goto section;
-  if (mem_open (&mb) != 0) {
-    bl_fail (&e, BL_ENOMEM, where, "out of memory rendering 'result.json'");
-    goto nomem;
+  if ((w = bl_compare_winner (cmp)) < 0) {
+    bl_err nf;
+    bl_fail (&nf, BL_ENOCONV, where, "no candidate could be fitted");
+    row_fail (row, &nf);
+    return BL_OK;
   }
   {
-    int st = BL_OK;
-    info.source = j->data;
-    info.terms = terms;
-    info.offset = offset;
-    info.weights = j->weights;
-    info.tool_version = bl_version ();
-    info.against = NULL;
-    info.by = NULL;
+    const bl_candidate *k = bl_compare_get (cmp, (size_t) w);
+    snprintf (row->winner, sizeof row->winner, "%s", k->id);
+    row->aic = bl_compare_integer_y (cmp) ? k->aic_discrete : k->aic;
+    row->spread_ratio = k->spread_ratio;
+  }
+  for (size_t q = 0; q < bl_compare_count (cmp); q++) {
+    const bl_candidate *o = bl_compare_get (cmp, q);
+    if ((long) q != w && isfinite (o->delta_aic) && o->delta_aic < second)
+      second = o->delta_aic;
+  }
+  row->delta = isfinite (second) ? second : NAN;
+  return BL_OK;
+}
+
+/* Run the job's model (a comparison or one fit) with the plot series of its report.  RES is
+   NULL when the model failed (ROW says why).  BL_ENOMEM (E filled) stops the run; else
+   BL_OK. */
+static int
+job_model (run_ctx *rc, const bl_spec_job *sj, const bl_job_input *in, unsigned long seed,
+           const char *where, bl_batch_row *row, bl_job_result **res, bl_err *e)
+{
+  bl_job_run_opts ro;
+  int st;
+  bl_job_run_opts_init (&ro);
+  ro.task = sj->single ? BL_JOB_FIT : BL_JOB_COMPARE;
+  ro.seed = seed;
+  ro.plots = 1;
+  ro.cancel = rc->opt->cancel;
+  st = bl_job_run (&sj->job, in, &ro, res, e);
+  if (st == BL_ENOMEM || (st != BL_OK && e->code == BL_ENOMEM))
+    return BL_ENOMEM;
+  if (st != BL_OK)
+    row_fail (row, e);      /* the model failed; or cancelled (then nothing is written) */
+  if (*res && st == BL_OK)
+    return row_fill (row, *res, where, e);
+  return BL_OK;
+}
+
+/* Render result.json (the compare or fit document, or the failure) and residuals.csv (of
+   the winner or the single model) of RES (may be NULL) in memory first, then write them into
+   JOBFD: out of memory while rendering leaves neither file.  BL_ENOMEM (E filled) stops the
+   run; BL_ECANCEL: cancelled while rendering, nothing written; else BL_OK, with ROW failed
+   when a file could not be rendered or written. */
+static int
+job_files (run_ctx *rc, const bl_spec_job *sj, const bl_job_result *res, const bl_terms *terms,
+           const bl_terms *offset, const bl_design *design, int jobfd, const char *where,
+           bl_batch_row *row, bl_err *e)
+{
+  const bl_compare *cmp = res ? bl_job_result_compare (res) : NULL;
+  const bl_fit *fit = res ? bl_job_result_fit (res) : NULL;
+  const bl_fit *resfit = res ? bl_job_result_model (res) : NULL;
+  membuf mb = { NULL, 0, NULL }, mr = { NULL, 0, NULL };
+  int have_result = 0, have_resid = 0, st = BL_OK;
+  if (mem_open (&mb) != 0) {
+    st = bl_fail (e, BL_ENOMEM, where, "out of memory rendering 'result.json'");
+    goto done;
+  }
+  {
+    const bl_report_info info = { sj->job.data, terms, offset, sj->job.weights, bl_version (),
+                                  NULL, NULL };
     if (cmp)
-      st = bl_report_compare_json (mb.f, cmp, design, &info, &e);
+      st = bl_report_compare_json (mb.f, cmp, design, &info, e);
     else if (fit)
-      st = bl_report_fit_json (mb.f, fit, &info, &e);
+      st = bl_report_fit_json (mb.f, fit, &info, e);
     else {
       bl_jsonw w;
       jw_init (&w, mb.f);
@@ -421,74 +369,129 @@ result:
       jw_obj_end (&w);
       st = jw_finish (&w) ? BL_EIO : BL_OK;
     }
-    st = render_status (&mb, st, where, "result.json", &e);
+    st = render_status (&mb, st, where, "result.json", e);
     if (st == BL_ENOMEM)
-      goto nomem;
+      goto done;
     if (st != BL_OK)
-      row_fail (row, &e);
+      row_fail (row, e);
     have_result = st == BL_OK;
+    st = BL_OK;
   }
   if (resfit) {
-    gsl_rng *rng = gsl_rng_alloc (gsl_rng_mt19937);
     bl_resid_table *t = NULL;
-    int st;
-    if (!rng || mem_open (&mr) != 0) {
-      if (rng)
-        gsl_rng_free (rng);
-      bl_fail (&e, BL_ENOMEM, where, "out of memory rendering 'residuals.csv'");
-      goto nomem;
+    if (mem_open (&mr) != 0) {
+      st = bl_fail (e, BL_ENOMEM, where, "out of memory rendering 'residuals.csv'");
+      goto done;
     }
-    gsl_rng_set (rng, seed);
-    t = bl_resid_table_new (resfit, rng, rc->opt->cancel, &e);
-    gsl_rng_free (rng);
-    st = t ? bl_report_residuals_csv (mr.f, resfit, t, rc->opt->cancel, &e) : e.code;
+    t = bl_job_resid_table (res, rc->opt->cancel, e);
+    st = t ? bl_report_residuals_csv (mr.f, resfit, t, rc->opt->cancel, e) : e->code;
     bl_resid_table_free (t);
-    st = render_status (&mr, st, where, "residuals.csv", &e);
+    st = render_status (&mr, st, where, "residuals.csv", e);
     if (st == BL_ENOMEM)
-      goto nomem;
+      goto done;
     if (st != BL_OK && st != BL_ECANCEL)
-      row_fail (row, &e);
+      row_fail (row, e);
     have_resid = st == BL_OK;
+    st = BL_OK;
   }
-  if (cancelled (rc))          /* while rendering (the residual table is long for many rows) */
+  if (cancelled (rc)) {        /* while rendering (the residual table is long for many rows) */
+    st = BL_ECANCEL;
     goto done;
-  if (have_result && write_atomic (jobfd, "result.json", mb.buf, mb.len, where, &e) != BL_OK)
-    row_fail (row, &e);
-  if (have_resid && write_atomic (jobfd, "residuals.csv", mr.buf, mr.len, where, &e) != BL_OK)
-    row_fail (row, &e);
-  mem_free (&mb);
-  mem_free (&mr);
-section:
-  if (cancelled (rc))
-    goto done;
-  if (mem_open (&mb) != 0) {
-    bl_fail (&e, BL_ENOMEM, where, "out of memory rendering the report section");
-    goto nomem;
   }
-  {
-    int st = bl_report_job_html (mb.f, row, cmp, cmp ? NULL : (row->ok ? fit : NULL), design,
-                                 seed, rc->opt->cancel, &e);
-    st = render_status (&mb, st, where, "index.html", &e);
-    if (st == BL_ENOMEM)
-      goto nomem;
-    if (st == BL_OK) {
-      rc->outs[i].section = mb.buf;
-      rc->outs[i].section_len = mb.len;
-      mb.buf = NULL;
-    } else if (st != BL_ECANCEL) {
-      row_fail (row, &e);
-    }
-  }
-  goto done;
-nomem:
-  run_nomem (rc, sj->name, &e);
+  if (have_result && write_atomic (jobfd, "result.json", mb.buf, mb.len, where, e) != BL_OK)
+    row_fail (row, e);
+  if (have_resid && write_atomic (jobfd, "residuals.csv", mr.buf, mr.len, where, e) != BL_OK)
+    row_fail (row, e);
 done:
   mem_free (&mb);
   mem_free (&mr);
+  return st;
+}
+
+/* Render job I's report section from RES (may be NULL) and keep it for the page.  A single
+   model is drawn only while the job is done (a failed job's section says why).  BL_ENOMEM
+   (E filled) stops the run; else BL_OK, with ROW failed when the section failed. */
+static int
+job_section (run_ctx *rc, size_t i, const bl_job_result *res, const bl_design *design,
+             unsigned long seed, const char *where, bl_batch_row *row, bl_err *e)
+{
+  const bl_job_plots *plots = res ? bl_job_result_plots (res) : NULL;
+  const bl_compare *cmp = plots ? bl_job_result_compare (res) : NULL;
+  const bl_fit *fit = plots && !cmp && row->ok ? bl_job_result_fit (res) : NULL;
+  membuf mb = { NULL, 0, NULL };
+  int st;
+  if (mem_open (&mb) != 0)
+    return bl_fail (e, BL_ENOMEM, where, "out of memory rendering the report section");
+  st = bl_report_section_html (mb.f, row, cmp, fit, design, seed, plots, rc->opt->cancel, e);
+  st = render_status (&mb, st, where, "index.html", e);
+  if (st == BL_OK) {
+    rc->outs[i].section = mb.buf;
+    rc->outs[i].section_len = mb.len;
+    mb.buf = NULL;
+  } else if (st != BL_ECANCEL && st != BL_ENOMEM) {
+    row_fail (row, e);
+  }
+  mem_free (&mb);
+  return st == BL_ENOMEM ? BL_ENOMEM : BL_OK;
+}
+
+/* Run job I: its model (job_run.h), its files, its section.  Out of memory anywhere stops the
+   run (run_nomem): nothing more is written for this job, and the files it already wrote are
+   complete.  A job cut short by the cancel flag writes nothing: its result would describe
+   the interruption (a cancelled read or fit), not the data; bl_batch_run reports
+   BL_ECANCEL. */
+static void
+run_job (run_ctx *rc, size_t i)
+{
+  const bl_spec_job *sj = bl_spec_get (rc->spec, i);
+  bl_batch_row *row = &rc->rows[i];
+  bl_terms *terms = NULL, *offset = NULL;
+  bl_table *table = NULL;
+  bl_design *design = NULL;
+  bl_job_result *res = NULL;
+  bl_err e;
+  int jobfd = -1;
+  const unsigned long seed = bl_batch_seed (sj->name, sj->job.seed);
+  char where[BL_SPEC_NAME_MAX + 16];
+  bl_job jl = sj->job;        /* the job with the cancel flag for its table read (shallow) */
+
+  row_start (row, sj);
+  snprintf (where, sizeof where, "job '%s'", sj->name);
+  bl_err_clear (&e);
+  jl.table.cancel = rc->opt->cancel;
+  if ((jobfd = open_subdir (rc->outfd, sj->name)) < 0) {
+    bl_fail (&e, BL_EIO, where, "cannot use the folder '%s' in the output folder: %s",
+             sj->name, errno == ELOOP || errno == ENOTDIR ? "it is a symbolic link or not a "
+             "folder" : strerror (errno));
+    row_fail (row, &e);
+  } else if (bl_job_parse_terms (&sj->job, NULL, &terms, &offset, &e) != BL_OK
+             || bl_job_load (&jl, terms, offset, &table, &design, &e) != BL_OK) {
+    if (e.code == BL_ENOMEM)
+      goto nomem;
+    row_fail (row, &e);
+  } else {
+    const bl_job_input in = { table, design, offset, NULL };
+    row->n = bl_design_n (design);
+    if (job_model (rc, sj, &in, seed, where, row, &res, &e) != BL_OK)
+      goto nomem;
+  }
+  if (cancelled (rc))
+    goto done;
+  if (jobfd >= 0) {
+    const int st = job_files (rc, sj, res, terms, offset, design, jobfd, where, row, &e);
+    if (st == BL_ENOMEM)
+      goto nomem;
+    if (st == BL_ECANCEL || cancelled (rc))
+      goto done;
+  }
+  if (job_section (rc, i, res, design, seed, where, row, &e) == BL_OK)
+    goto done;
+nomem:
+  run_nomem (rc, sj->name, &e);
+done:
   if (jobfd >= 0)
     close (jobfd);
-  bl_compare_free (cmp);
-  bl_fit_free (fit);
+  bl_job_result_free (res);
   bl_design_free (design);
   bl_table_free (table);
   bl_terms_free (terms);
@@ -708,5 +711,22 @@ bl_batch_run (const bl_spec *spec, const char *outdir, const bl_batch_opts *opt,
     free (rc.outs[i].section);
   bl_free (rc.outs);
   close (rc.outfd);
+  return st;
+}
+
+int
+bl_report_job_html (FILE *out, const bl_batch_row *row, const bl_compare *c,
+                    const bl_fit *fit, const bl_design *d, unsigned long seed,
+                    volatile sig_atomic_t *cancel, bl_err *err)
+{
+  bl_job_plots plots;
+  const int draw = row && !(c && fit) && (d || fit)
+                   && (c || (fit && bl_fit_stats_get (fit)->converged));
+  int st;
+  memset (&plots, 0, sizeof plots);
+  if (draw && (st = bl_job_plots_init (&plots, c, fit, seed, cancel, err)) != BL_OK)
+    return st;
+  st = bl_report_section_html (out, row, c, fit, d, seed, draw ? &plots : NULL, cancel, err);
+  bl_job_plots_clear (&plots);
   return st;
 }

@@ -17,6 +17,7 @@
 #include "compare.h"
 #include "error.h"
 #include "fit.h"
+#include "job_run.h"
 #include "spec.h"
 #ifdef __cplusplus
 extern "C" {
@@ -60,9 +61,18 @@ int bl_batch_run (const bl_spec *spec, const char *outdir, const bl_batch_opts *
                   bl_batch_row *rows, bl_err *err);
 
 /* The HTML report (report_html.c).  A job's section: its ranked table (or the single model),
-   the recommendation and caution, and SVG plots.  C or FIT is given (the other NULL); for a
-   failed job both are NULL and ROW->message says why.  CANCEL (may be NULL) is polled
-   between plots: once set, BL_ECANCEL with the section incomplete. */
+   the recommendation and caution, and SVG plots drawn from PLOTS (job_run.h: the series the
+   job runner computed for C or FIT; may be NULL only when nothing is drawn).  C or FIT is
+   given (the other NULL); for a failed job both are NULL and ROW->message says why.  SEED is
+   the plots' seed, as the section states it.  CANCEL (may be NULL) is polled between plots:
+   once set, BL_ECANCEL with the section incomplete.  BL_EINTERNAL for contradictory
+   arguments, BL_EIO when a write failed, BL_ENOMEM. */
+int bl_report_section_html (FILE *out, const bl_batch_row *row, const bl_compare *c,
+                            const bl_fit *fit, const bl_design *d, unsigned long seed,
+                            const bl_job_plots *plots, volatile sig_atomic_t *cancel,
+                            bl_err *err);
+/* The same for a caller without the runner's series (batch.c): computes them with
+   bl_job_plots_init (C or FIT, SEED, CANCEL), writes the section and frees them. */
 int bl_report_job_html (FILE *out, const bl_batch_row *row, const bl_compare *c,
                         const bl_fit *fit, const bl_design *d, unsigned long seed,
                         volatile sig_atomic_t *cancel, bl_err *err);

@@ -8,6 +8,7 @@
 #include <gsl/gsl_rng.h>
 #include "error.h"
 #include "fit.h"
+#include "order.h"            /* bl_order_by, formerly declared here */
 #include "table.h"
 #ifdef __cplusplus
 extern "C" {
@@ -91,9 +92,6 @@ typedef struct bl_diag_result {
    response, means and prior weights, which makes them sqrt(w) r for WLS and the
    transformed-scale residual for transformed OLS (one definition everywhere). */
 void bl_pearson_residuals (const bl_fit *fit, double *r);
-
-/* Row order by fitted value, ties by row index (a deterministic, stable order). */
-int bl_order_by (const double *key, size_t n, size_t *order, bl_err *err);
 
 /* The spread ratio of residuals R (length n) grouped by FITTED: G = BL_DIAG_GROUPS groups (fewer
    when a group would hold fewer than BL_DIAG_MIN_GROUP rows); group g holds sorted rows

@@ -1,4 +1,5 @@
-/* fit.h -- bl_fit, the one result type of every fitting method, and the GLM/OLS fitter. */
+/* fit.h -- bl_fit, the one result type of every fitting method, and bl_fit_new, which fits
+   every method. */
 #ifndef BALLAST_FIT_H
 #define BALLAST_FIT_H
 #include <stddef.h>
@@ -96,7 +97,7 @@ typedef struct bl_fit_opts {
 
 void bl_fit_opts_init (bl_fit_opts *opt);
 
-typedef struct bl_fit bl_fit;     /* opaque; defined in fit.c */
+typedef struct bl_fit bl_fit;     /* opaque; defined in fit_impl.h */
 
 /* Summary figures of a fit.  A figure that does not exist is NAN, with its reason in the
    matching *_why string (otherwise ""). */
@@ -131,6 +132,8 @@ typedef struct bl_fit_stats {
    them), BL_ESPEC for an invalid combination of options, BL_ENOMEM.  Otherwise returns a fit;
    when IRLS did not converge or diverged the fit's status (bl_fit_status) holds the error and
    the stats have converged = 0 and no coefficients to stand behind.  D must outlive the fit. */
+bl_fit *bl_fit_new (const bl_design *d, const bl_fit_opts *opt, bl_err *err);
+/* The former name of bl_fit_new (it fits every method, not only GLMs); to be removed. */
 bl_fit *bl_fit_glm (const bl_design *d, const bl_fit_opts *opt, bl_err *err);
 void bl_fit_free (bl_fit *fit);
 

@@ -1,5 +1,13 @@
-/* fit_impl.h -- the inside of bl_fit, shared by the engines that fill it (fit.c, wls.c,
-   transform.c, vcov.c).  Not installed: callers see only fit.h. */
+/* fit_impl.h -- the inside of bl_fit and the result layer's setters (fit_result.c), shared by
+   the modules that fill or read it.  Not installed: callers see only fit.h.
+
+   The fitting layer is a DAG, each header naming one layer:
+     fit.c (dispatcher) -> fit_engine.h: fit_wls.c, fit_transform.c, fit_negbin.c,
+       fit_tweedie.c, fit_vcov.c -> fit_glm.h: fit_glm.c (the IRLS core) -> fit_impl.h:
+       fit_result.c
+   An engine includes fit_engine.h for its own declaration and fit_glm.h for the core; it
+   calls no other engine, and nothing below the dispatcher calls up into it.  The sandwich
+   covariance (fit_vcov.c) is reached from the dispatcher and calls only the result layer. */
 #ifndef BALLAST_FIT_IMPL_H
 #define BALLAST_FIT_IMPL_H
 #include "fit.h"
@@ -25,24 +33,19 @@ struct bl_fit {
   double *prof_lambda, *prof_loglik;   /* Box-Cox profile points */
 };
 
-/* Fit by IRLS with response Y and prior weights A (NULL: the design's own), copying them.
-   LIGHT skips the null model (for the many fits inside a profile search).  Returns as
-   bl_fit_glm for a plain GLM. */
-bl_fit *bl_fit_core (const bl_design *d, const double *y, const double *a,
-                     const bl_fit_opts *opt, int light, bl_err *err);
+/* ---- The result layer (fit_result.c), below every engine. */
+
+/* A new result for design D with response Y and prior weights A (NULL: the design's own,
+   else copied), family FAM and link LNK, every table allocated.  NULL with ERR set
+   (BL_ENOMEM) when memory runs out. */
+bl_fit *bl_fit_result_new (const bl_design *d, const double *y, const double *a,
+                           const bl_fit_opts *opt, const bl_family *fam, const bl_link *lnk,
+                           bl_err *err);
 
 /* Set the log-likelihood and parameter count, and recompute AIC, AICc and BIC from them. */
 void bl_fit_set_loglik (bl_fit *f, double loglik, size_t k);
 
 /* Recompute se, wald, p, lo and hi from f->cov (after it was replaced). */
 void bl_fit_wald_table (bl_fit *f);
-
-/* The engines (wls.c, transform.c) and the sandwich covariance (vcov.c). */
-bl_fit *bl_fit_wls_run (const bl_design *d, const bl_fit_opts *opt, bl_err *err);
-bl_fit *bl_fit_transform_run (const bl_design *d, const bl_fit_opts *opt, bl_err *err);
-bl_fit *bl_fit_negbin_run (const bl_design *d, const bl_fit_opts *opt, bl_err *err);
-bl_fit *bl_fit_tweedie_run (const bl_design *d, const bl_fit_opts *opt, bl_err *err);
-int bl_fit_sandwich (bl_fit *f, bl_se_kind kind, bl_err *err);
-int bl_fit_sandwich_cluster (bl_fit *f, const bl_table *t, const char *col, bl_err *err);
 
 #endif

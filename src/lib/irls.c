@@ -164,7 +164,7 @@ bl_irls_work_new (const bl_irls_model *model, const bl_irls_opts *opt, bl_err *e
   if (ws->solver == BL_SOLVER_AUTO)
     ws->solver = ((double) n * (double) q * (double) q <= BL_LSQ_SMALL_NQ2)
                  ? BL_SOLVER_EXTENDED : BL_SOLVER_STREAMED;
-  ws->exact = (model->fam == &bl_family_gaussian && model->link == &bl_link_identity);
+  ws->exact = (bl_family_has (model->fam, BL_FAM_NORMAL) && model->link == &bl_link_identity);
   nblocks = (n + BL_IRLS_BLOCK - 1) / BL_IRLS_BLOCK;
   ws->nparts = nblocks < BL_IRLS_PARTS ? (nblocks ? nblocks : 1) : BL_IRLS_PARTS;
   ws->beta = bl_calloc (p, sizeof (double));
@@ -289,7 +289,7 @@ pass_part (bl_irls_work *ws, part *pt, const double *beta, int accumulate, doubl
         return;
       }
       mu[i] = lnk->ginv (eta[i]);
-      if (!fam->valid_mu (mu[i])) {
+      if (!bl_family_mu_ok (fam, mu[i])) {
         pt->bad = 2;
         pt->bad_row = r0 + i;
         return;
@@ -421,7 +421,7 @@ pass_error (bl_irls_work *ws, int code, size_t row, bl_err *err)
                   "%s at %s: the linear predictor left the %s link's range or the mean left "
                   "the %s family's mean space, and step halving could not recover",
                   code == 1 ? "invalid linear predictor" : "invalid mean", where,
-                  ws->m.link->name, ws->m.fam->name);
+                  ws->m.link->name, bl_family_name (ws->m.fam));
 }
 
 int
@@ -467,7 +467,7 @@ bl_irls_init (bl_irls_work *ws, bl_err *err)
   /* Starting means (McCullagh & Nelder 1989, section 2.5: the data themselves, adjusted into
      the mean space), eta = g(mu_start). */
   for (size_t i = 0; i < n; i++) {
-    const double mu0 = m->fam->mustart (m->y[i], ybar);
+    const double mu0 = bl_family_mustart (m->fam, m->y[i], ybar);
     ws->eta[i] = m->link->g (mu0);
     if (!m->link->valid_eta (ws->eta[i])) {
       /* e.g. identity-link start at a mean the link cannot take: start from the mean of y */
@@ -479,7 +479,7 @@ bl_irls_init (bl_irls_work *ws, bl_err *err)
     return st == 3 ? pass_error (ws, st, bad_row, err)
                    : bl_fail (err, BL_EDATA, "irls",
                               "no valid starting mean at row %zu for the %s family with the "
-                              "%s link", bad_row + 1, m->fam->name, m->link->name);
+                              "%s link", bad_row + 1, bl_family_name (m->fam), m->link->name);
   ws->dev_prev = ws->dev;
   ws->iter = 0;
   ws->halvings = 0;
@@ -489,7 +489,7 @@ bl_irls_init (bl_irls_work *ws, bl_err *err)
      valid on every row, when there is an intercept and no offset. */
   ws->have_prev = 0;
   if (m->intercept && !m->offset && m->link->valid_eta (m->link->g (ybar))
-      && m->fam->valid_mu (ybar)) {
+      && bl_family_mu_ok (m->fam, ybar)) {
     memset (ws->beta_prev, 0, p * sizeof (double));
     ws->beta_prev[0] = m->link->g (ybar);
     ws->have_prev = 1;
@@ -572,7 +572,7 @@ static double
 beta_change (const bl_irls_work *ws)
 {
   const size_t p = ws->p;
-  const double phi = ws->m.fam->phi_free && ws->n > ws->sol->rank
+  const double phi = bl_family_has (ws->m.fam, BL_FAM_PHI_FREE) && ws->n > ws->sol->rank
                      ? ws->dev / (double) (ws->n - ws->sol->rank) : 1.0;
   double worst = 0.0;
   for (size_t j = 0; j < p; j++) {

@@ -2,7 +2,8 @@
 
    The command line (--family gamma) and a spec file (family = gamma) set the same keys
    through bl_job_set, so a value means the same and is refused with the same message in
-   both; only WHERE differs ("--family" or "pumps.spec:12"). */
+   both; only WHERE differs ("--family" or "pumps.spec:12").  The keys are those of the one
+   option table (options.h). */
 #ifndef BALLAST_JOB_H
 #define BALLAST_JOB_H
 #include <stddef.h>
@@ -26,8 +27,7 @@ typedef struct bl_job {
   size_t nref;
   int intercept;
   int method_given;        /* --method was set */
-  int model_keys;          /* a single-model key was set: method, family, link, variance,
-                              transform, shift, dispersion */
+  int model_keys;          /* a single-model key (BL_OPTION_MODEL, options.h) was set */
   bl_fit_opts fit;
   bl_table_opts table;
   size_t folds;
@@ -43,19 +43,18 @@ void bl_job_clear (bl_job *j);
 /* Deep copy SRC into DST (initialized or cleared).  BL_OK or BL_ENOMEM. */
 int bl_job_copy (bl_job *dst, const bl_job *src, bl_err *err);
 
-/* Whether KEY is one of the job's keys (for spec files: "unknown key"). */
+/* Whether KEY is one of the job's keys, the entries of the option table (options.c: its
+   key, where it is taken, its setter and its help): for spec files, "unknown key". */
 int bl_job_has_key (const char *key);
-/* Whether KEY takes no value on the command line (no-intercept, decimal-comma). */
+/* Whether KEY takes no value on the command line (a BL_OPTION_FLAG: no-intercept,
+   decimal-comma). */
 int bl_job_key_is_flag (const char *key);
 
-/* Set KEY to VALUE.  Keys: data, response, terms, no-intercept, method, family, link,
-   weights, offset, categorical (a comma list, replacing), reference (COL=LEVEL, comma lists
-   accumulate), dispersion, level, se, variance, transform, shift, delimiter, decimal-comma,
-   max-iter, epsilon, solver, threads, candidates, folds, seed, against (the terms of a
-   smaller nested model to test the fit against), theta (negative binomial, fixed), power
-   (Tweedie: a number in (1, 2), or est).  Flags take VALUE NULL, or
-   yes/no/true/false/1/0.  A bad value is BL_ESPEC with ERR->where = WHERE and a message that
-   quotes it; BL_ENOMEM.  Term syntax is checked by bl_job_parse_terms, not here. */
+/* Set KEY, a key of the option table, to VALUE through the key's setter.  Flags take VALUE
+   NULL, or yes/no/true/false/1/0; categorical is a comma list that replaces the previous one,
+   reference (COL=LEVEL, comma lists) accumulates.  A bad value is BL_ESPEC with
+   ERR->where = WHERE and a message that quotes it ("unknown key 'K'" and "'K' needs a value"
+   first); BL_ENOMEM.  Term syntax is checked by bl_job_parse_terms, not here. */
 int bl_job_set (bl_job *j, const char *key, const char *value, const char *where,
                 bl_err *err);
 

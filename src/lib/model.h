@@ -1,4 +1,6 @@
-/* model.h -- a fitted model saved as JSON, read back, and used to predict on new data. */
+/* model.h -- a fitted model saved as JSON (model_write.c), read back (model_read.c), and
+   used to predict on new data (predict.c), with the predictions written as CSV
+   (predict_csv.c). */
 #ifndef BALLAST_MODEL_H
 #define BALLAST_MODEL_H
 #include <stdio.h>
@@ -55,18 +57,25 @@ bl_prediction *bl_model_predict (const bl_model *m, const bl_table *t, double le
                                  bl_err *err);
 void bl_prediction_free (bl_prediction *p);
 
+/* Options of bl_prediction_write_csv; bl_prediction_csv_opts_init gives no kept columns
+   and no median. */
+typedef struct bl_prediction_csv_opts {
+  const char *const *keep;            /* NKEEP columns of T written after the predictions */
+  size_t nkeep;
+  int median;                         /* nonzero: a `median` column after pred_hi */
+} bl_prediction_csv_opts;
+void bl_prediction_csv_opts_init (bl_prediction_csv_opts *opt);
+
 /* Write P, the predictions for the rows of T, as CSV to OUT: a header, then one record per
    row of T in order with the columns row (1-based data row), mean, mean_lo, mean_hi,
-   pred_lo, pred_hi, and then the NKEEP columns named in KEEP as T holds them (numbers %.17g,
-   categorical levels as text; missing cells empty; fields quoted per RFC 4180 when needed).
-   Non-finite numbers are written inf, -inf, or an empty field for NAN.  A KEEP name that T
-   lacks, or that repeats an output column, is BL_EDATA (where = "FILE:1") before anything is
-   written.  BL_OK, or BL_EIO when a write failed. */
+   pred_lo, pred_hi, then median when OPT->median is set (predict --median), and then the
+   OPT->nkeep columns named in OPT->keep as T holds them (numbers %.17g, categorical levels
+   as text; missing cells empty; fields quoted per RFC 4180 when needed).  OPT NULL takes
+   the defaults.  Non-finite numbers are written inf, -inf, or an empty field for NAN.  A
+   kept name that T lacks, or that repeats an output column, is BL_EDATA (where = "FILE:1")
+   before anything is written.  BL_OK, or BL_EIO when a write failed. */
 int bl_prediction_write_csv (FILE *out, const bl_prediction *p, const bl_table *t,
-                             const char *const *keep, size_t nkeep, bl_err *err);
-/* The same with a `median` column after pred_hi when MEDIAN is nonzero (predict --median). */
-int bl_prediction_write_csv2 (FILE *out, const bl_prediction *p, const bl_table *t,
-                              const char *const *keep, size_t nkeep, int median, bl_err *err);
+                             const bl_prediction_csv_opts *opt, bl_err *err);
 
 /* Table options for reading new data for M: its categorical columns forced categorical.
    The pointers stay valid until bl_model_free. */

@@ -64,7 +64,7 @@ bl_nested_test (const bl_fit *big, const bl_table *t, const bl_terms *small,
     st = BL_ENOMEM;
     goto done;
   }
-  if (!(fs = bl_fit_glm (sub, fo, err))) {
+  if (!(fs = bl_fit_new (sub, fo, err))) {
     st = err ? err->code : BL_EDATA;
     goto done;
   }

@@ -12,6 +12,7 @@
 #include <stdio.h>
 #include <string.h>
 #include "alloc.h"
+#include "options.h"
 #include "source.h"
 #include "spec.h"
 
@@ -21,10 +22,11 @@ struct bl_spec {
   size_t njobs, cap;
 };
 
-/* Every known key is shorter than this (the longest is "decimal-comma"). */
+/* Every known key is shorter than this (the longest is "decimal-comma"; check_options.c
+   checks the table against it). */
 #define KEY_MAX 24
-/* More than the number of keys bl_job_set knows; a section repeats none of them. */
-#define SECTION_KEYS_MAX 64
+/* More than the number of keys in the option table; a section repeats none of them. */
+#define SECTION_KEYS_MAX BL_OPTION_MAX
 
 /* The keys one section has set, with their lines (for "given twice"). */
 typedef struct seen_keys {
@@ -565,6 +567,7 @@ read_all (const char *path, size_t *len, bl_err *err)
   bl_source *src = bl_source_open (path, err);
   size_t n = 0, cap = 0;
   char *buf = NULL;
+  int ok = 0;
   if (!src)
     return NULL;
   for (;;) {
@@ -573,61 +576,61 @@ read_all (const char *path, size_t *len, bl_err *err)
     if (n > BL_SPEC_MAX_BYTES) {
       bl_fail (err, BL_ESPEC, path, "the spec file is larger than %zu MiB (the limit)",
                BL_SPEC_MAX_BYTES >> 20);
-      goto fail;
+      goto done;
     }
     if (cap - n < 4096) {
       const size_t ncap = cap ? 2 * cap : 65536;
       char *b = ncap > cap ? bl_realloc (buf, ncap) : NULL;
       if (!b) {
         bl_fail (err, BL_ENOMEM, path, "out of memory");
-        goto fail;
+        goto done;
       }
       buf = b;
       cap = ncap;
     }
     got = bl_source_read (src, buf + n, cap - n, &status, err);
     if (status != BL_OK)
-      goto fail;
+      goto done;
     if (got == 0)
       break;
     n += got;
   }
-  bl_source_free (src);
   *len = n;
-  return buf;
-fail:
+  ok = 1;
+done:
   bl_source_free (src);
-  bl_free (buf);
-  return NULL;
+  if (!ok) {
+    bl_free (buf);
+    buf = NULL;
+  }
+  return buf;
 }
 
 bl_spec *
 bl_spec_read (const char *path, bl_err *err)
 {
   const char *slash;
-  char *text, *dir;
-  size_t len = 0;
-  bl_spec *s;
+  char *text = NULL, *dir = NULL;
+  size_t len = 0, dl;
+  bl_spec *s = NULL;
   if (!path) {
     bl_fail (err, BL_EIO, "spec", "no file name");
     return NULL;
   }
   if (!(text = read_all (path, &len, err)))
-    return NULL;
+    goto done;
   /* The folder of PATH: "" when PATH has none (relative data paths are then already
      relative to it), "/" for a file at the root. */
   slash = strrchr (path, '/');
-  {
-    const size_t dl = slash ? (slash == path ? 1 : (size_t) (slash - path)) : 0;
-    if (!(dir = bl_malloc (dl + 1))) {
-      bl_free (text);
-      bl_fail (err, BL_ENOMEM, path, "out of memory");
-      return NULL;
-    }
-    memcpy (dir, path, dl);
-    dir[dl] = '\0';
+  dl = slash ? (slash == path ? 1 : (size_t) (slash - path)) : 0;
+  if (!(dir = bl_malloc (dl + 1))) {
+    bl_fail (err, BL_ENOMEM, path, "out of memory");
+    goto done;
   }
+  memcpy (dir, path, dl);
+  dir[dl] = '\0';
   s = bl_spec_read_mem (text, len, path, dir, err);
+done:
   bl_free (dir);
   bl_free (text);
   return s;

@@ -2,10 +2,8 @@
 
    Format (doc/spec-format.md): plain text, UTF-8; '#' starts a comment line (and a comment
    after white space at the end of a value line); blank lines are ignored; a section header
-   is "[defaults]" or "[job NAME]"; every other line is "key = value" with the keys of
-   bl_job_set (job.h): data, response, terms, categorical, reference, weights, offset,
-   candidates, method, family, link, variance, transform, shift, dispersion, se, level, folds,
-   seed, delimiter, decimal-comma, no-intercept, max-iter, epsilon, solver, threads.  A job
+   is "[defaults]" or "[job NAME]"; every other line is "key = value" with a key of the
+   option table (options.h), set through bl_job_set (job.h), in either section.  A job
    starts from a copy of [defaults] (which must come first, at most once) and its own keys
    replace those values (reference accumulates).  Relative data paths resolve against the
    spec file's folder.

@@ -282,7 +282,11 @@ predict_on (const bl_model *m, const uint8_t *csv, size_t len)
       keep[nkeep++] = bl_table_colname (t, j);
     if (null) {
       bl_err e2 = { 0 };
-      (void) bl_prediction_write_csv (null, p, t, keep, nkeep, &e2);
+      bl_prediction_csv_opts copt;
+      bl_prediction_csv_opts_init (&copt);
+      copt.keep = keep;
+      copt.nkeep = nkeep;
+      (void) bl_prediction_write_csv (null, p, t, &copt, &e2);
       fclose (null);
     }
     bl_prediction_free (p);

@@ -1,4 +1,4 @@
-/* wls.c -- weighted least squares: known weights, and a variance function with its power
+/* fit_wls.c -- weighted least squares: known weights, and a variance function with its power
    fixed or estimated by maximum likelihood.
 
    Model: y_i is Normal(mu_i, sigma^2 v_i / a_i), mu = X b, a_i the prior weights and
@@ -26,9 +26,10 @@
 #include <string.h>
 #include <gsl/gsl_errno.h>
 #include <gsl/gsl_linalg.h>
-#include <gsl/gsl_min.h>
 #include "alloc.h"
-#include "fit_impl.h"
+#include "fit_engine.h"
+#include "fit_glm.h"
+#include "profile.h"
 
 #define BLOCK 1024
 #define LOG_2PI 1.8378770664093454835606594728112
@@ -80,64 +81,37 @@ colk_loglik (double K, void *arg)
   return isfinite (l) ? l : -HUGE_VAL;
 }
 
-static double colk_neg (double K, void *arg) { return -colk_loglik (K, arg); }
+/* The search for K: Brent's method to 1e-10 in K, at most 200 profile fits, stopping when
+   an iteration makes no more progress (GSL's Brent steps are at least sqrt(DBL_EPSILON) |K|
+   long, so for |K| above about 0.01 the bracket never gets within 1e-10; once an iteration
+   leaves both ends where they were K no longer changes: stop there rather than spend the
+   rest of the 200 profile fits). */
+static const bl_profile_tol colk_tol = { 1e-10, 0.0, 200, 1 };
+#define COLK_GRID_STEP 0.5        /* grid step of the profile in K */
+#define COLK_GRID_MAX 64          /* grid points at most */
 
 static int
 colk_estimate (colk *c, double *K_out, double *se_out)
 {
-  const double step = 0.5;
-  const size_t ng = (size_t) lround ((BL_WLS_POWER_MAX - BL_WLS_POWER_MIN) / step) + 1;
-  double best = -HUGE_VAL, Kb = 0.0, lo, hi, K;
-  size_t m = 0;
-  double vals[64], grid[64];
-  for (size_t k = 0; k < ng && k < 64; k++) {
-    grid[k] = BL_WLS_POWER_MIN + step * (double) k;
-    vals[k] = colk_loglik (grid[k], c);
-    if (c->status != BL_OK)
-      return c->status;
-    if (vals[k] > best) {
-      best = vals[k];
-      m = k;
-    }
-  }
-  if (!(best > -HUGE_VAL))
+  const double step = COLK_GRID_STEP;
+  const size_t ng0 = (size_t) lround ((BL_WLS_POWER_MAX - BL_WLS_POWER_MIN) / step) + 1;
+  const size_t ng = ng0 < COLK_GRID_MAX ? ng0 : COLK_GRID_MAX;
+  double K;
+  size_t m;
+  double vals[COLK_GRID_MAX], grid[COLK_GRID_MAX];
+  m = bl_profile_grid (colk_loglik, c, BL_WLS_POWER_MIN, step, ng, grid, vals, &c->status);
+  if (c->status != BL_OK)
+    return c->status;
+  if (!(vals[m] > -HUGE_VAL))
     return bl_fail (c->err, BL_ENOCONV, "--variance", "the profile likelihood of the power "
                     "could not be evaluated anywhere in [%g, %g]", BL_WLS_POWER_MIN,
                     BL_WLS_POWER_MAX);
-  if (m == 0 || m + 1 == ng)
+  if (m == 0 || m + 1 == ng0)
     return bl_fail (c->err, BL_ENOCONV, "--variance", "the variance power runs to the end of "
                     "its range [%g, %g]: it is not identified by these data",
                     BL_WLS_POWER_MIN, BL_WLS_POWER_MAX);
-  Kb = grid[m];
-  lo = grid[m - 1];
-  hi = grid[m + 1];
-  K = Kb;
-  {
-    gsl_function F = { colk_neg, c };
-    gsl_min_fminimizer *s = gsl_min_fminimizer_alloc (gsl_min_fminimizer_brent);
-    if (!s)
-      return bl_fail (c->err, BL_ENOMEM, "wls", "out of memory");
-    if (vals[m] > vals[m - 1] && vals[m] > vals[m + 1]
-        && gsl_min_fminimizer_set_with_values (s, &F, Kb, -vals[m], lo, -vals[m - 1], hi,
-                                               -vals[m + 1]) == GSL_SUCCESS) {
-      for (int it = 0; it < 200; it++) {
-        const double lo0 = gsl_min_fminimizer_x_lower (s), hi0 = gsl_min_fminimizer_x_upper (s);
-        if (gsl_min_fminimizer_iterate (s) != GSL_SUCCESS)
-          break;
-        K = gsl_min_fminimizer_x_minimum (s);
-        if (gsl_min_test_interval (gsl_min_fminimizer_x_lower (s),
-                                   gsl_min_fminimizer_x_upper (s), 1e-10, 0.0) == GSL_SUCCESS)
-          break;
-        /* GSL's Brent steps are at least sqrt(DBL_EPSILON) |K| long, so for |K| above about
-           0.01 the bracket never gets within 1e-10; once an iteration leaves both ends where
-           they were it makes no more progress (and K no longer changes): stop there rather
-           than spend the rest of the 200 profile fits */
-        if (gsl_min_fminimizer_x_lower (s) == lo0 && gsl_min_fminimizer_x_upper (s) == hi0)
-          break;
-      }
-    }
-    gsl_min_fminimizer_free (s);
-  }
+  if (bl_profile_refine (colk_loglik, c, grid, vals, ng, m, &colk_tol, &K) != BL_OK)
+    return bl_fail (c->err, BL_ENOMEM, "wls", "out of memory");
   if (c->status != BL_OK)
     return c->status;
   {
@@ -261,6 +235,82 @@ mlk_hessian (mlk *m, const double *th, size_t q, double *H, double *tp, double *
   return 0;
 }
 
+/* Newton's method for the minimum of -l from theta TH (value *FV_IO, gradient G), with the
+   work arrays of fit_fitted_power (H, HC q x q; TP, GP, GM, STEP length q).  On return TH,
+   G and *FV_IO are at the last accepted point and *ITER_OUT counts the iterations.  Returns 1
+   when converged, 0 when not (a Hessian that could not be formed or factored, or the
+   iteration cap). */
+static int
+mlk_newton (mlk *m, double *th, size_t q, double *G, double *H, double *Hc, double *tp,
+            double *gp, double *gm, double *step, double *fv_io, size_t *iter_out)
+{
+  size_t iter;
+  int converged = 0;
+  double fv = *fv_io;
+  gsl_matrix_view Hv;
+  gsl_vector_view sv;
+  for (iter = 0; iter < 200 && !converged; iter++) {
+    double gmax = 0.0, slope = 0.0, t = 1.0, fn = HUGE_VAL;
+    for (size_t k = 0; k < q; k++)
+      gmax = fabs (G[k]) > gmax ? fabs (G[k]) : gmax;
+    if (gmax <= 1e-9) {
+      converged = 1;
+      break;
+    }
+    if (mlk_hessian (m, th, q, H, tp, gp, gm) != 0)
+      return 0;
+    /* Newton step H s = -G; when H is not positive definite, add a multiple of I
+       (Levenberg 1944, Quart. Appl. Math. 2, 164-168). */
+    for (double lam = 0.0;; lam = lam ? 10.0 * lam : 1e-6) {
+      int ok;
+      {
+        memcpy (Hc, H, q * q * sizeof *Hc);
+        for (size_t k = 0; k < q; k++)
+          Hc[k + k * q] += lam;
+        Hv = gsl_matrix_view_array (Hc, q, q);
+        ok = gsl_linalg_cholesky_decomp1 (&Hv.matrix) == GSL_SUCCESS;
+        if (ok) {
+          for (size_t k = 0; k < q; k++)
+            step[k] = -G[k];
+          sv = gsl_vector_view_array (step, q);
+          ok = gsl_linalg_cholesky_svx (&Hv.matrix, &sv.vector) == GSL_SUCCESS;
+        }
+      }
+      if (ok)
+        break;
+      if (lam > 1e12)
+        return 0;
+    }
+    for (size_t k = 0; k < q; k++)
+      slope += G[k] * step[k];
+    /* backtracking line search (Armijo condition) */
+    for (int h = 0; h < 60; h++, t *= 0.5) {
+      for (size_t k = 0; k < q; k++)
+        tp[k] = th[k] + t * step[k];
+      fn = mlk_eval (m, tp, gp, NULL);
+      if (fn <= fv + 1e-4 * t * slope)
+        break;
+    }
+    if (!(fn < HUGE_VAL) || fn > fv) {
+      /* no decrease possible: at the optimum to rounding, or stuck */
+      converged = gmax <= 1e-5;
+      break;
+    }
+    {
+      double smax = 0.0;
+      for (size_t k = 0; k < q; k++)
+        smax = fabs (t * step[k]) > smax ? fabs (t * step[k]) : smax;
+      memcpy (th, tp, q * sizeof *th);
+      memcpy (G, gp, q * sizeof *G);
+      *fv_io = fv = fn;
+      if (smax <= 1e-12)
+        converged = 1;
+    }
+  }
+  *iter_out = iter;
+  return converged;
+}
+
 static void
 fail_row (const bl_design *d, size_t row, bl_err *err, const char *what, double mu)
 {
@@ -284,7 +334,6 @@ fit_fitted_power (const bl_design *d, const bl_fit_opts *opt, const bl_fit_opts 
   double *th = NULL, *G = NULL, *H = NULL, *Hc = NULL, *tp = NULL, *gp = NULL, *gm = NULL;
   double *step = NULL;
   gsl_matrix_view Hv;
-  gsl_vector_view sv;
 
   memset (&m, 0, sizeof m);
   m.cancel = o->irls.cancel;
@@ -386,64 +435,7 @@ fit_fitted_power (const bl_design *d, const bl_fit_opts *opt, const bl_fit_opts 
       fail_row (d, bad, err, "the starting", m.mu[bad]);
       goto fail;
     }
-    for (iter = 0; iter < 200 && !converged; iter++) {
-      double gmax = 0.0, slope = 0.0, t = 1.0, fn = HUGE_VAL;
-      for (size_t k = 0; k < q; k++)
-        gmax = fabs (G[k]) > gmax ? fabs (G[k]) : gmax;
-      if (gmax <= 1e-9) {
-        converged = 1;
-        break;
-      }
-      if (mlk_hessian (&m, th, q, H, tp, gp, gm) != 0)
-        goto diverged;
-      /* Newton step H s = -G; when H is not positive definite, add a multiple of I
-         (Levenberg 1944, Quart. Appl. Math. 2, 164-168). */
-      for (double lam = 0.0;; lam = lam ? 10.0 * lam : 1e-6) {
-        int ok;
-        {
-          memcpy (Hc, H, q * q * sizeof *Hc);
-          for (size_t k = 0; k < q; k++)
-            Hc[k + k * q] += lam;
-          Hv = gsl_matrix_view_array (Hc, q, q);
-          ok = gsl_linalg_cholesky_decomp1 (&Hv.matrix) == GSL_SUCCESS;
-          if (ok) {
-            for (size_t k = 0; k < q; k++)
-              step[k] = -G[k];
-            sv = gsl_vector_view_array (step, q);
-            ok = gsl_linalg_cholesky_svx (&Hv.matrix, &sv.vector) == GSL_SUCCESS;
-          }
-        }
-        if (ok)
-          break;
-        if (lam > 1e12)
-          goto diverged;
-      }
-      for (size_t k = 0; k < q; k++)
-        slope += G[k] * step[k];
-      /* backtracking line search (Armijo condition) */
-      for (int h = 0; h < 60; h++, t *= 0.5) {
-        for (size_t k = 0; k < q; k++)
-          tp[k] = th[k] + t * step[k];
-        fn = mlk_eval (&m, tp, gp, NULL);
-        if (fn <= fv + 1e-4 * t * slope)
-          break;
-      }
-      if (!(fn < HUGE_VAL) || fn > fv) {
-        /* no decrease possible: at the optimum to rounding, or stuck */
-        converged = gmax <= 1e-5;
-        break;
-      }
-      {
-        double smax = 0.0;
-        for (size_t k = 0; k < q; k++)
-          smax = fabs (t * step[k]) > smax ? fabs (t * step[k]) : smax;
-        memcpy (th, tp, q * sizeof *th);
-        memcpy (G, gp, q * sizeof *G);
-        fv = fn;
-        if (smax <= 1e-12)
-          converged = 1;
-      }
-    }
+    converged = mlk_newton (&m, th, q, G, H, Hc, tp, gp, gm, step, &fv, &iter);
     if (!converged)
       goto diverged;
     /* the observed information at the maximum */
@@ -536,7 +528,7 @@ bl_fit_wls_run (const bl_design *d, const bl_fit_opts *opt, bl_err *err)
   const double *a = bl_design_prior_w (d);
   bl_fit_opts o = *opt;
   bl_fit *f = NULL;
-  if ((opt->fam && opt->fam != &bl_family_gaussian)
+  if ((opt->fam && !bl_family_has (opt->fam, BL_FAM_NORMAL))
       || (opt->link && opt->link != &bl_link_identity)) {
     bl_fail (err, BL_ESPEC, "--method", "wls is least squares with the identity link: leave "
              "out --family and --link");

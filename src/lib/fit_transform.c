@@ -1,4 +1,4 @@
-/* transform.c -- ordinary least squares of a transformed response, reported on the original
+/* fit_transform.c -- ordinary least squares of a transformed response, reported on the original
    scale of y.
 
    With z = h(y) normal with mean x'b and variance sigma^2 / a, the density of y is the
@@ -16,12 +16,10 @@
 #include <math.h>
 #include <stdio.h>
 #include <string.h>
-#include <gsl/gsl_cdf.h>
-#include <gsl/gsl_errno.h>
-#include <gsl/gsl_min.h>
-#include <gsl/gsl_roots.h>
 #include "alloc.h"
-#include "fit_impl.h"
+#include "fit_engine.h"
+#include "fit_glm.h"
+#include "profile.h"
 
 typedef struct prof_ctx {
   const bl_design *d;
@@ -31,7 +29,6 @@ typedef struct prof_ctx {
   double *z;                  /* work: the transformed response */
   int status;                 /* first hard error (ENOMEM), else BL_OK */
   bl_err *err;
-  double thr;                 /* interval threshold, for the root finder */
 } prof_ctx;
 
 /* Box-Cox (y^L - 1) / L = expm1(L log y) / L, and log y at L = 0. */
@@ -81,37 +78,6 @@ nomem (prof_ctx *c)
     c->status = bl_fail (c->err, BL_ENOMEM, "transform", "out of memory");
 }
 
-static double neg_profile (double lambda, void *arg) { return -profile (lambda, arg); }
-static double
-profile_gap (double lambda, void *arg)
-{
-  prof_ctx *c = arg;
-  return profile (lambda, arg) - c->thr;
-}
-
-/* Root of profile - thr between A and B (profile - thr changes sign there). */
-static double
-interval_end (prof_ctx *c, double a, double b)
-{
-  gsl_function F = { profile_gap, c };
-  gsl_root_fsolver *s = gsl_root_fsolver_alloc (gsl_root_fsolver_brent);
-  double r = NAN;
-  if (!s)
-    return nomem (c), NAN;       /* not an open interval: the run fails */
-  if (gsl_root_fsolver_set (s, &F, a < b ? a : b, a < b ? b : a) == GSL_SUCCESS) {
-    for (int it = 0; it < 200; it++) {
-      if (gsl_root_fsolver_iterate (s) != GSL_SUCCESS)
-        break;
-      r = gsl_root_fsolver_root (s);
-      if (gsl_root_test_interval (gsl_root_fsolver_x_lower (s), gsl_root_fsolver_x_upper (s),
-                                  1e-12, 0.0) == GSL_SUCCESS)
-        break;
-    }
-  }
-  gsl_root_fsolver_free (s);
-  return r;
-}
-
 /* The smearing sums of fit F (bl_fit_transform_info), in row order. */
 static void
 smear_sums (bl_fit *f)
@@ -132,39 +98,95 @@ smear_sums (bl_fit *f)
   f->tr.smear_min = emin;
 }
 
-/* lambda-hat: the best grid point, refined by Brent's method inside its neighbours. */
-static double
-refine_max (prof_ctx *c, const double *grid, const double *val, size_t ng, size_t m)
+/* The searches of the Box-Cox profile: the maximum by Brent's method to 1e-10 in lambda, at
+   most 200 profile fits, stopping when an iteration makes no more progress (Brent's steps are
+   at least sqrt(DBL_EPSILON) |x| (GSL), so the bracket of a lambda above about 0.01 never
+   gets within 1e-10: stop once an iteration leaves both ends where they were, x no longer
+   changes); the interval ends by Brent's root bracketing to 1e-12, at most 200 fits each. */
+static const bl_profile_tol boxcox_max_tol = { 1e-10, 0.0, 200, 1 };
+static const bl_profile_tol boxcox_root_tol = { 1e-12, 0.0, 200, 0 };
+
+/* lambda estimated: the profile on a grid over [BL_BOXCOX_MIN, BL_BOXCOX_MAX], its maximum
+   and 95% interval, the practical power, and the fit at lambda-hat carrying the profile.
+   *LAMBDA_OUT is lambda-hat.  NULL with ERR set on failure. */
+static bl_fit *
+boxcox_estimate (prof_ctx *pc, double *lambda_out, bl_err *err)
 {
-  gsl_function F = { neg_profile, c };
-  gsl_min_fminimizer *s;
-  double x = grid[m];
-  if (m == 0 || m + 1 == ng)
-    return x;                            /* the maximum is at an end of [-3, 3] */
-  if (!(val[m] > val[m - 1] && val[m] > val[m + 1]))
-    return x;
-  s = gsl_min_fminimizer_alloc (gsl_min_fminimizer_brent);
-  if (!s)
-    return nomem (c), x;         /* not the grid point as if refined: the run fails */
-  if (gsl_min_fminimizer_set_with_values (s, &F, grid[m], -val[m], grid[m - 1], -val[m - 1],
-                                          grid[m + 1], -val[m + 1]) == GSL_SUCCESS) {
-    for (int it = 0; it < 200; it++) {
-      const double lo0 = gsl_min_fminimizer_x_lower (s), hi0 = gsl_min_fminimizer_x_upper (s);
-      if (gsl_min_fminimizer_iterate (s) != GSL_SUCCESS)
-        break;
-      x = gsl_min_fminimizer_x_minimum (s);
-      if (gsl_min_test_interval (gsl_min_fminimizer_x_lower (s), gsl_min_fminimizer_x_upper (s),
-                                 1e-10, 0.0) == GSL_SUCCESS)
-        break;
-      /* Brent's steps are at least sqrt(DBL_EPSILON) |x| (GSL), so the bracket of a lambda
-         above about 0.01 never gets within 1e-10: stop once an iteration leaves both ends
-         where they were (no more progress; x no longer changes) */
-      if (gsl_min_fminimizer_x_lower (s) == lo0 && gsl_min_fminimizer_x_upper (s) == hi0)
-        break;
+  const bl_design *d = pc->d;
+  const size_t n = bl_design_n (d);
+  double lambda;
+  bl_fit *f;
+  const size_t ng = (size_t) lround ((BL_BOXCOX_MAX - BL_BOXCOX_MIN) / BL_BOXCOX_GRID) + 1;
+  double *grid = bl_mallocn (ng, sizeof *grid), *val = bl_mallocn (ng, sizeof *val);
+  double top, lo = NAN, hi = NAN, practical = NAN, best_l = -HUGE_VAL;
+  size_t m = 0;
+  if (!grid || !val) {
+    bl_free (grid);
+    bl_free (val);
+    bl_fail (err, BL_ENOMEM, "transform", "out of memory");
+    return NULL;
+  }
+  m = bl_profile_grid (profile, pc, BL_BOXCOX_MIN, BL_BOXCOX_GRID, ng, grid, val, NULL);
+  if (pc->status != BL_OK || !(val[m] > -HUGE_VAL)) {
+    bl_free (grid);
+    bl_free (val);
+    if (pc->status == BL_OK)
+      bl_fail (err, BL_ENOCONV, "--transform", "the Box-Cox profile likelihood could not be "
+               "evaluated at any power in [%g, %g]", BL_BOXCOX_MIN, BL_BOXCOX_MAX);
+    return NULL;
+  }
+  /* lambda-hat: the best grid point, refined by Brent's method inside its neighbours (the
+     grid point itself when the maximum is at an end of [-3, 3]); a solver GSL could not
+     allocate is an error, not the grid point as if refined */
+  if (bl_profile_refine (profile, pc, grid, val, ng, m, &boxcox_max_tol, &lambda) != BL_OK)
+    nomem (pc);
+  top = profile (lambda, pc);
+  if (top < val[m]) {            /* keep the grid point if refining did not improve it */
+    lambda = grid[m];
+    top = val[m];
+  }
+  /* the interval: a solver GSL could not allocate is an error, not an open interval */
+  if (bl_profile_interval (profile, pc, grid, val, ng, m, lambda,
+                           bl_profile_threshold (top, BL_PROFILE_LEVEL), &boxcox_root_tol,
+                           &lo, &hi) != BL_OK)
+    nomem (pc);
+  /* The practical power: the multiple of 0.5 inside the interval nearest lambda-hat, ties
+     to the higher profile (common practice, no source). */
+  {
+    const double a = isfinite (lo) ? lo : BL_BOXCOX_MIN, b = isfinite (hi) ? hi : BL_BOXCOX_MAX;
+    for (double cand = ceil (2.0 * a) / 2.0; cand <= b + 1e-12; cand += 0.5) {
+      const double dist = fabs (cand - lambda);
+      const double pv = profile (cand, pc);
+      if (!isfinite (practical) || dist < fabs (practical - lambda) - 1e-12
+          || (fabs (dist - fabs (practical - lambda)) <= 1e-12 && pv > best_l)) {
+        practical = cand == 0.0 ? 0.0 : cand;   /* ceil of a small negative is -0 */
+        best_l = pv;
+      }
     }
   }
-  gsl_min_fminimizer_free (s);
-  return x;
+  if (pc->status != BL_OK) {
+    bl_free (grid);
+    bl_free (val);
+    return NULL;
+  }
+  boxcox (pc->ys, n, lambda, pc->z);
+  f = bl_fit_core (d, pc->z, NULL, pc->opt, 0, err);
+  if (!f) {
+    bl_free (grid);
+    bl_free (val);
+    return NULL;
+  }
+  f->prof_lambda = grid;
+  f->prof_loglik = val;
+  f->tr.nprofile = ng;
+  f->tr.profile_lambda = grid;
+  f->tr.profile_loglik = val;
+  f->tr.lambda_lo = lo;
+  f->tr.lambda_hi = hi;
+  f->tr.lambda_practical = practical;
+  f->tr.lambda_estimated = 1;
+  *lambda_out = lambda;
+  return f;
 }
 
 bl_fit *
@@ -182,7 +204,7 @@ bl_fit_transform_run (const bl_design *d, const bl_fit_opts *opt, bl_err *err)
   const char *name = opt->transform == BL_TRANSFORM_LOG ? "log"
                      : opt->transform == BL_TRANSFORM_SQRT ? "sqrt" : "boxcox";
 
-  if ((opt->fam && opt->fam != &bl_family_gaussian)
+  if ((opt->fam && !bl_family_has (opt->fam, BL_FAM_NORMAL))
       || (opt->link && opt->link != &bl_link_identity)) {
     bl_fail (err, BL_ESPEC, "--transform", "a transformed response is fitted by ordinary "
              "least squares: leave out --family and --link");
@@ -242,85 +264,8 @@ bl_fit_transform_run (const bl_design *d, const bl_fit_opts *opt, bl_err *err)
   pc.err = err;
 
   if (opt->transform == BL_TRANSFORM_BOXCOX && opt->lambda_est) {
-    const size_t ng = (size_t) lround ((BL_BOXCOX_MAX - BL_BOXCOX_MIN) / BL_BOXCOX_GRID) + 1;
-    double *grid = bl_mallocn (ng, sizeof *grid), *val = bl_mallocn (ng, sizeof *val);
-    double top, lo = NAN, hi = NAN, practical = NAN, best_l = -HUGE_VAL;
-    size_t m = 0;
-    if (!grid || !val) {
-      bl_free (grid);
-      bl_free (val);
-      goto nomem;
-    }
-    for (size_t k = 0; k < ng; k++) {
-      grid[k] = BL_BOXCOX_MIN + BL_BOXCOX_GRID * (double) k;
-      val[k] = profile (grid[k], &pc);
-      if (val[k] > val[m])
-        m = k;
-    }
-    if (pc.status != BL_OK || !(val[m] > -HUGE_VAL)) {
-      bl_free (grid);
-      bl_free (val);
-      if (pc.status == BL_OK)
-        bl_fail (err, BL_ENOCONV, "--transform", "the Box-Cox profile likelihood could not be "
-                 "evaluated at any power in [%g, %g]", BL_BOXCOX_MIN, BL_BOXCOX_MAX);
+    if (!(f = boxcox_estimate (&pc, &lambda, err)))
       goto fail;
-    }
-    lambda = refine_max (&pc, grid, val, ng, m);
-    top = profile (lambda, &pc);
-    if (top < val[m]) {            /* keep the grid point if refining did not improve it */
-      lambda = grid[m];
-      top = val[m];
-    }
-    pc.thr = top - 0.5 * gsl_cdf_chisq_Pinv (0.95, 1.0);
-    /* Scan outward from lambda-hat; the bracket's inner end is the last grid point still
-       above the threshold, or lambda-hat itself. */
-    for (size_t k = m + 1; k-- > 0;)
-      if (grid[k] < lambda && val[k] < pc.thr) {
-        lo = interval_end (&pc, grid[k], (k + 1 < ng && grid[k + 1] < lambda) ? grid[k + 1]
-                                                                              : lambda);
-        break;
-      }
-    for (size_t k = m; k < ng; k++)
-      if (grid[k] > lambda && val[k] < pc.thr) {
-        hi = interval_end (&pc, (k >= 1 && grid[k - 1] > lambda) ? grid[k - 1] : lambda,
-                           grid[k]);
-        break;
-      }
-    /* The practical power: the multiple of 0.5 inside the interval nearest lambda-hat, ties
-       to the higher profile (common practice, no source). */
-    {
-      const double a = isfinite (lo) ? lo : BL_BOXCOX_MIN, b = isfinite (hi) ? hi : BL_BOXCOX_MAX;
-      for (double cand = ceil (2.0 * a) / 2.0; cand <= b + 1e-12; cand += 0.5) {
-        const double dist = fabs (cand - lambda);
-        const double pv = profile (cand, &pc);
-        if (!isfinite (practical) || dist < fabs (practical - lambda) - 1e-12
-            || (fabs (dist - fabs (practical - lambda)) <= 1e-12 && pv > best_l)) {
-          practical = cand == 0.0 ? 0.0 : cand;   /* ceil of a small negative is -0 */
-          best_l = pv;
-        }
-      }
-    }
-    if (pc.status != BL_OK) {
-      bl_free (grid);
-      bl_free (val);
-      goto fail;
-    }
-    boxcox (ys, n, lambda, z);
-    f = bl_fit_core (d, z, NULL, &o, 0, err);
-    if (!f) {
-      bl_free (grid);
-      bl_free (val);
-      goto fail;
-    }
-    f->prof_lambda = grid;
-    f->prof_loglik = val;
-    f->tr.nprofile = ng;
-    f->tr.profile_lambda = grid;
-    f->tr.profile_loglik = val;
-    f->tr.lambda_lo = lo;
-    f->tr.lambda_hi = hi;
-    f->tr.lambda_practical = practical;
-    f->tr.lambda_estimated = 1;
   } else {
     if (opt->transform == BL_TRANSFORM_LOG)
       for (size_t i = 0; i < n; i++)

@@ -1,4 +1,4 @@
-/* vcov.c -- heteroscedasticity-consistent (sandwich) covariance for every method.
+/* fit_vcov.c -- heteroscedasticity-consistent (sandwich) covariance for every method.
 
    With B = X'WX (W the working weights at the fit, prior weights included), the working
    residual r_i = (y_i - mu_i) / (dmu/deta)_i and the leverage h_i = w_i x_i' B^-1 x_i:
@@ -12,8 +12,8 @@
 #include <stdio.h>
 #include <string.h>
 #include "alloc.h"
-#include "diag.h"
-#include "fit_impl.h"
+#include "fit_engine.h"
+#include "order.h"
 
 #define BLOCK 1024
 
