@@ -15,7 +15,6 @@
 #include <errno.h>
 #include <float.h>
 #include <math.h>
-#include <pthread.h>
 #include <stdint.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -1429,41 +1428,16 @@ typedef struct spec {
   int ok;                     /* the whole part was taken */
   int all_decided;            /* every type known: the one-pass record form applies */
   /* The worker thread, started at the first parallel step of a read and kept until its end
-     (one thread per read, not one per step): a step is handed over under LOCK (JOB set,
-     GO signalled) and its end awaited (JOB cleared, DONE signalled).  The mutex orders
-     every write to W before the worker reads it, and the worker's rows before the merge. */
-  pthread_t tid;
-  pthread_mutex_t lock;
-  pthread_cond_t go, done;
-  int have_sync;              /* lock, go and done are initialized */
-  int running;                /* the thread exists */
-  int job, quit;
+     (one thread per read, not one per step): each step is one task of the partner
+     (thread.h), whose hand-over orders every write to W before the worker reads it, and the
+     worker's rows before the merge. */
+  bl_partner partner;
 } spec;
-
-/* Stop the worker thread, if there is one, and free what its synchronization holds. */
-static void
-spec_stop (spec *w)
-{
-  if (w->running) {
-    pthread_mutex_lock (&w->lock);
-    w->quit = 1;
-    pthread_cond_signal (&w->go);
-    pthread_mutex_unlock (&w->lock);
-    pthread_join (w->tid, NULL);
-    w->running = 0;
-  }
-  if (w->have_sync) {
-    pthread_cond_destroy (&w->done);
-    pthread_cond_destroy (&w->go);
-    pthread_mutex_destroy (&w->lock);
-    w->have_sync = 0;
-  }
-}
 
 static void
 spec_free (spec *w)
 {
-  spec_stop (w);
+  bl_partner_stop (&w->partner);
   for (size_t j = 0; j < w->ncols; j++)
     if (w->raw)
       bl_free (w->raw[j]);
@@ -1534,7 +1508,7 @@ spec_prepare (spec *w, const reader *rd, bl_table *t, size_t rows1, size_t rows2
 
 /* The worker: parse all of w->rd.buf, or give up (w->ok = 0) at the first thing it cannot
    take.  Lines count from 0 at the split. */
-static void *
+static void
 spec_run (void *arg)
 {
   spec *w = arg;
@@ -1548,12 +1522,12 @@ spec_run (void *arg)
   nl = w->first_nl;
   w->off = r = w->base + nl;
   if (r > w->cap || w->cap - r < w->rows)
-    return NULL;
+    return;
   lim = r + w->rows;
   while (p < end) {
     size_t nf, next = line;
     if (*p == '\n' || *p == '\r' || r == lim)
-      return NULL;
+      return;
     if (w->all_decided) {       /* the one-pass form of fast_record, into the worker's rows */
       const char *q = p;
       size_t j;
@@ -1590,7 +1564,7 @@ spec_run (void *arg)
       const char *const rec = p;
       if (parse_record (rd, &p, &next, &nf, &scratch) != REC_DONE || nf != w->ncols
           || (size_t) (p - rec) > rd->max_record)
-        return NULL;            /* the sequential parse gives the error */
+        return;            /* the sequential parse gives the error */
     }
     for (size_t j = 0; j < nf; j++) {
       const field *f = &rd->f[j];
@@ -1605,7 +1579,7 @@ spec_run (void *arg)
         continue;
       }
       if (f->dquote)
-        return NULL;            /* holds a quote: never a number nor a missing marker */
+        return;            /* holds a quote: never a number nor a missing marker */
       while (m && is_blank (*v))
         v++, m--;
       while (m && is_blank (v[m - 1]))
@@ -1613,7 +1587,7 @@ spec_run (void *arg)
       if (is_missing (v, m))
         x = NAN;
       else if (parse_number ((char *) v, m, rd->mark, &x, tmp, sizeof tmp) != NUM_OK)
-        return NULL;
+        return;
       w->num[j][r] = x;
     }
     w->line[r++] = w->line0 + line;
@@ -1622,28 +1596,6 @@ spec_run (void *arg)
   w->nrows = r - w->off;
   w->lines = line;
   w->ok = 1;
-  return NULL;
-}
-
-/* The worker thread: one step per JOB, until QUIT. */
-static void *
-spec_loop (void *arg)
-{
-  spec *w = arg;
-  pthread_mutex_lock (&w->lock);
-  for (;;) {
-    while (!w->job && !w->quit)
-      pthread_cond_wait (&w->go, &w->lock);
-    if (w->quit)
-      break;
-    pthread_mutex_unlock (&w->lock);
-    spec_run (w);
-    pthread_mutex_lock (&w->lock);
-    w->job = 0;
-    pthread_cond_signal (&w->done);
-  }
-  pthread_mutex_unlock (&w->lock);
-  return NULL;
 }
 
 /* Hand the prepared step to the worker thread, starting it at the first step.  Returns 1
@@ -1652,44 +1604,10 @@ spec_loop (void *arg)
 static int
 spec_begin (spec *w)
 {
-  if (!w->have_sync) {
-    if (pthread_mutex_init (&w->lock, NULL) != 0)
-      return 0;
-    if (pthread_cond_init (&w->go, NULL) != 0) {
-      pthread_mutex_destroy (&w->lock);
-      return 0;
-    }
-    if (pthread_cond_init (&w->done, NULL) != 0) {
-      pthread_cond_destroy (&w->go);
-      pthread_mutex_destroy (&w->lock);
-      return 0;
-    }
-    w->have_sync = 1;
-  }
-  pthread_mutex_lock (&w->lock);
-  w->job = 1;
-  w->quit = 0;
-  if (!w->running) {
-    w->running = bl_thread_start (&w->tid, spec_loop, w) == 0;
-    if (!w->running) {
-      w->job = 0;
-      pthread_mutex_unlock (&w->lock);
-      return 0;
-    }
-  }
-  pthread_cond_signal (&w->go);
-  pthread_mutex_unlock (&w->lock);
+  if (bl_partner_start (&w->partner) != 0)
+    return 0;
+  bl_partner_post (&w->partner, spec_run, w);
   return 1;
-}
-
-/* Wait until the worker has ended its step. */
-static void
-spec_end (spec *w)
-{
-  pthread_mutex_lock (&w->lock);
-  while (w->job)
-    pthread_cond_wait (&w->done, &w->lock);
-  pthread_mutex_unlock (&w->lock);
 }
 
 /* Append the worker's rows to T; BASE_LINE is the line of the split.  The worker's lines
@@ -1800,7 +1718,7 @@ par_step (reader *rd, bl_table *t, const bl_table_opts *opt, pstate *ps, spec *w
   rd->len = save_len;
   rd->eof = save_eof;
   if (started)
-    spec_end (w);
+    bl_partner_wait (&w->partner);
   t->frozen = 0;
   if (st != BL_CONTINUE)
     return st;
