@@ -1,7 +1,7 @@
 /* batch.c -- run a spec's jobs into an output folder (see batch.h).
 
-   Jobs run on opts.jobs threads, each taking the next job index; every result is kept by
-   index and the summary, the report and all file contents depend only on the spec and the
+   Jobs run on opts.jobs threads of the pool (thread.h), job I on worker I mod jobs; every
+   result is kept by index and the summary, the report and all file contents depend only on the spec and the
    data, never on the number of threads or the order in which jobs finish. */
 #define _GNU_SOURCE 1            /* open_memstream, O_DIRECTORY, O_NOFOLLOW, mkdirat */
 #include <dirent.h>
@@ -22,6 +22,7 @@
 #include "job_run.h"
 #include "jsonw.h"
 #include "report.h"
+#include "thread.h"
 #include "ballast.h"
 
 
@@ -37,7 +38,7 @@ typedef struct run_ctx {
   bl_batch_row *rows;
   job_out *outs;
   pthread_mutex_t lock;
-  size_t next, done;
+  size_t done;
   int fatal;                  /* BL_ENOMEM or BL_ECANCEL seen */
   bl_err fatal_err;
   struct timespec t0;
@@ -498,32 +499,32 @@ done:
   bl_terms_free (offset);
 }
 
-static void *
-worker (void *arg)
+/* A task of the pool (thread.h): job I, unless the run has already stopped (out of memory
+   or cancelled); then it returns 1 and the pool begins no more jobs. */
+static int
+worker (void *arg, size_t i, unsigned k)
 {
   run_ctx *rc = arg;
-  for (;;) {
-    size_t i, done;
-    struct timespec t;
-    pthread_mutex_lock (&rc->lock);
-    if (rc->next >= bl_spec_njobs (rc->spec) || rc->fatal
-        || (rc->opt->cancel && *rc->opt->cancel)) {
-      pthread_mutex_unlock (&rc->lock);
-      return NULL;
-    }
-    i = rc->next++;
+  size_t done;
+  struct timespec t;
+  (void) k;
+  pthread_mutex_lock (&rc->lock);
+  if (rc->fatal || (rc->opt->cancel && *rc->opt->cancel)) {
     pthread_mutex_unlock (&rc->lock);
-    run_job (rc, i);
-    pthread_mutex_lock (&rc->lock);
-    done = ++rc->done;
-    clock_gettime (CLOCK_MONOTONIC, &t);
-    if (rc->opt->progress && !rc->fatal)
-      rc->opt->progress (rc->opt->progress_ctx, done, bl_spec_njobs (rc->spec),
-                         bl_spec_get (rc->spec, i)->name,
-                         (double) (t.tv_sec - rc->t0.tv_sec)
-                         + 1e-9 * (double) (t.tv_nsec - rc->t0.tv_nsec));
-    pthread_mutex_unlock (&rc->lock);
+    return 1;
   }
+  pthread_mutex_unlock (&rc->lock);
+  run_job (rc, i);
+  pthread_mutex_lock (&rc->lock);
+  done = ++rc->done;
+  clock_gettime (CLOCK_MONOTONIC, &t);
+  if (rc->opt->progress && !rc->fatal)
+    rc->opt->progress (rc->opt->progress_ctx, done, bl_spec_njobs (rc->spec),
+                       bl_spec_get (rc->spec, i)->name,
+                       (double) (t.tv_sec - rc->t0.tv_sec)
+                       + 1e-9 * (double) (t.tv_nsec - rc->t0.tv_nsec));
+  pthread_mutex_unlock (&rc->lock);
+  return 0;
 }
 
 /* CSV field: quoted when it holds a delimiter, a quote or a line break (RFC 4180). */
@@ -648,8 +649,7 @@ bl_batch_run (const bl_spec *spec, const char *outdir, const bl_batch_opts *opt,
   run_ctx rc;
   const size_t nj = bl_spec_njobs (spec);
   unsigned nt = opt->jobs ? opt->jobs : 1;
-  pthread_t th[16];
-  unsigned started = 0;
+  bl_pool_opts po;
   int st = BL_OK;
   struct stat sb;
 
@@ -685,18 +685,9 @@ bl_batch_run (const bl_spec *spec, const char *outdir, const bl_batch_opts *opt,
   }
   pthread_mutex_init (&rc.lock, NULL);
   clock_gettime (CLOCK_MONOTONIC, &rc.t0);
-  if (nt > 16)
-    nt = 16;
-  if (nt > nj)
-    nt = nj ? (unsigned) nj : 1;
-  for (unsigned t = 1; t < nt; t++)
-    if (pthread_create (&th[t], NULL, worker, &rc) == 0)
-      started = t;
-    else
-      break;
-  worker (&rc);
-  for (unsigned t = 1; t <= started; t++)
-    pthread_join (th[t], NULL);
+  bl_pool_opts_init (&po);
+  po.threads = nt;            /* at most BL_POOL_MAX (16), and no more than the jobs */
+  bl_pool_run (&po, nj, worker, &rc, NULL);
   pthread_mutex_destroy (&rc.lock);
   if (rc.fatal) {
     st = rc.fatal;

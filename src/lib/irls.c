@@ -13,11 +13,11 @@
    number of threads. */
 #include <float.h>
 #include <math.h>
-#include <pthread.h>
 #include <stdio.h>
 #include <string.h>
 #include "alloc.h"
 #include "irls.h"
+#include "thread.h"
 
 typedef struct part {
   size_t row0, row1;         /* rows [row0, row1) */
@@ -55,14 +55,10 @@ struct bl_irls_work {
   size_t iter, halvings;
   int have_prev;             /* beta_prev is a valid point to halve towards */
   int exact;                 /* gaussian identity: one solve is the answer */
-  /* The second worker: started once per workspace, so that passes create no threads. */
-  int worker;                /* 1 when the worker thread runs */
-  pthread_t th;
-  pthread_mutex_t lock;
-  pthread_cond_t go, done;
-  int job;                   /* 0 idle, 1 a pass to run, 2 quit */
-  int job_done;
-  struct pass_arg *job_arg;
+  /* The second worker: started once per workspace, so that passes create no threads; each
+     pass hands it one share of the partitions (thread.h, the partner). */
+  int worker;                /* 1 when the partner thread runs */
+  bl_partner partner;
 };
 
 
@@ -80,29 +76,11 @@ bl_irls_opts_init (bl_irls_opts *opt)
 
 static void pass_thread_run (pass_arg *pa);
 
-/* The worker: wait for a pass, run its share of the partitions, report, repeat. */
-static void *
-worker_main (void *arg)
+/* The partner's task: the second share of a pass's partitions. */
+static void
+worker_task (void *arg)
 {
-  bl_irls_work *ws = arg;
-  for (;;) {
-    pass_arg *pa;
-    pthread_mutex_lock (&ws->lock);
-    while (ws->job == 0)
-      pthread_cond_wait (&ws->go, &ws->lock);
-    if (ws->job == 2) {
-      pthread_mutex_unlock (&ws->lock);
-      return NULL;
-    }
-    pa = ws->job_arg;
-    pthread_mutex_unlock (&ws->lock);
-    pass_thread_run (pa);
-    pthread_mutex_lock (&ws->lock);
-    ws->job = 0;
-    ws->job_done = 1;
-    pthread_cond_signal (&ws->done);
-    pthread_mutex_unlock (&ws->lock);
-  }
+  pass_thread_run (arg);
 }
 
 void
@@ -110,16 +88,8 @@ bl_irls_work_free (bl_irls_work *ws)
 {
   if (!ws)
     return;
-  if (ws->worker) {
-    pthread_mutex_lock (&ws->lock);
-    ws->job = 2;
-    pthread_cond_signal (&ws->go);
-    pthread_mutex_unlock (&ws->lock);
-    pthread_join (ws->th, NULL);
-    pthread_mutex_destroy (&ws->lock);
-    pthread_cond_destroy (&ws->go);
-    pthread_cond_destroy (&ws->done);
-  }
+  if (ws->worker)
+    bl_partner_stop (&ws->partner);
   bl_free (ws->beta);
   bl_free (ws->beta_prev);
   bl_free (ws->beta_next);
@@ -195,20 +165,7 @@ bl_irls_work_new (const bl_irls_model *model, const bl_irls_opts *opt, bl_err *e
   }
   if (ws->opt.threads > 1 && ws->nparts > 1) {
     /* Without a second thread the same partitions run on one: same results, slower. */
-    if (pthread_mutex_init (&ws->lock, NULL) == 0) {
-      if (pthread_cond_init (&ws->go, NULL) == 0) {
-        if (pthread_cond_init (&ws->done, NULL) == 0) {
-          if (pthread_create (&ws->th, NULL, worker_main, ws) == 0)
-            ws->worker = 1;
-          else
-            pthread_cond_destroy (&ws->done);
-        }
-        if (!ws->worker)
-          pthread_cond_destroy (&ws->go);
-      }
-      if (!ws->worker)
-        pthread_mutex_destroy (&ws->lock);
-    }
+    ws->worker = bl_partner_start (&ws->partner) == 0;
   }
   if (ws->solver == BL_SOLVER_EXTENDED) {
     ws->A = bl_mallocn (n * q, sizeof (long double));
@@ -353,22 +310,13 @@ pass (bl_irls_work *ws, const double *beta, int accumulate, size_t *bad_row)
     args[t].nthreads = nt;
   }
   if (nt > 1 && ws->worker) {
-    pthread_mutex_lock (&ws->lock);
-    ws->job_arg = &args[1];
-    ws->job_done = 0;
-    ws->job = 1;
-    pthread_cond_signal (&ws->go);
-    pthread_mutex_unlock (&ws->lock);
+    bl_partner_post (&ws->partner, worker_task, &args[1]);
   } else if (nt > 1) {
     pass_thread_run (&args[1]);   /* no worker: its share here, the same partitions */
   }
   pass_thread_run (&args[0]);
-  if (nt > 1 && ws->worker) {
-    pthread_mutex_lock (&ws->lock);
-    while (!ws->job_done)
-      pthread_cond_wait (&ws->done, &ws->lock);
-    pthread_mutex_unlock (&ws->lock);
-  }
+  if (nt > 1 && ws->worker)
+    bl_partner_wait (&ws->partner);
   for (size_t k = 0; k < ws->nparts; k++) {
     if (ws->parts[k].bad) {
       *bad_row = ws->parts[k].bad_row;

@@ -12,7 +12,6 @@
 #include <errno.h>
 #include <fcntl.h>
 #include <limits.h>
-#include <pthread.h>
 #include <stdint.h>
 #include <string.h>
 #include <sys/stat.h>
@@ -27,19 +26,17 @@
 /* The most one read(2) call is asked for (well under SSIZE_MAX everywhere). */
 #define READ_MAX ((size_t) 1 << 30)
 
-/* Buffers filled by the producer thread of bl_source_prefetch.  Slots head .. head+count-1
-   (mod nbuf) hold data; the consumer owns the head slot's bytes while count > 0, the
-   producer owns the slot it fills, and the mutex orders the hand-overs. */
+/* Buffers filled by the producer thread of bl_source_prefetch, passed to the reader through
+   a slot queue (thread.h): the consumer owns the head slot's bytes until it releases it, the
+   producer owns the slot it claimed. */
 typedef struct ring {
   pthread_t tid;
-  pthread_mutex_t mu;
-  pthread_cond_t filled, freed;
+  bl_slots q;
+  int have_q;                 /* Q is initialized */
   unsigned char **buf;
   size_t *len;
   size_t nbuf, size;
-  size_t head, count, off;    /* off: bytes of the head slot already handed out */
-  int finished;               /* the producer stopped: at the end, or src->status failed */
-  int stop;                   /* bl_source_free asks the producer to stop */
+  size_t off;                 /* bytes of the head slot already handed out */
 } ring;
 
 struct bl_source {
@@ -377,32 +374,20 @@ producer (void *arg)
   bl_source *src = arg;
   ring *r = src->ring;
   for (;;) {
-    size_t slot, got;
+    size_t got;
     int st;
-    pthread_mutex_lock (&r->mu);
-    while (r->count == r->nbuf && !r->stop)
-      pthread_cond_wait (&r->freed, &r->mu);
-    if (r->stop) {
-      r->finished = 1;
-      pthread_mutex_unlock (&r->mu);
-      return NULL;
-    }
-    slot = (r->head + r->count) % r->nbuf;
-    pthread_mutex_unlock (&r->mu);
+    const size_t slot = bl_slots_claim (&r->q);
+    if (slot == SIZE_MAX)
+      return NULL;            /* bl_source_free asked it to stop */
     got = gz_read (src, r->buf[slot], r->size, &st, NULL);   /* failure: sticky in src */
     if (st == BL_OK && got == 0)
       src->done = 1;
-    pthread_mutex_lock (&r->mu);
-    if (st != BL_OK || got == 0)
-      r->finished = 1;
-    else {
-      r->len[slot] = got;
-      r->count++;
-    }
-    pthread_cond_signal (&r->filled);
-    pthread_mutex_unlock (&r->mu);
-    if (st != BL_OK || got == 0)
+    if (st != BL_OK || got == 0) {
+      bl_slots_finish (&r->q);
       return NULL;
+    }
+    r->len[slot] = got;
+    bl_slots_publish (&r->q);
   }
 }
 
@@ -415,30 +400,21 @@ ring_read (bl_source *src, void *buf, size_t cap, int *status, bl_err *err)
   *status = BL_OK;
   if (cap == 0)
     return 0;
-  pthread_mutex_lock (&r->mu);
-  while (r->count == 0 && !r->finished)
-    pthread_cond_wait (&r->filled, &r->mu);
-  if (r->count == 0) {          /* the producer has ended: its status is final */
+  slot = bl_slots_next (&r->q);
+  if (slot == SIZE_MAX) {       /* the producer has ended: its status is final */
     *status = src->status;
     if (*status != BL_OK && err)
       *err = src->saved;
-    pthread_mutex_unlock (&r->mu);
     return 0;
   }
-  slot = r->head;
-  pthread_mutex_unlock (&r->mu);
   n = r->len[slot] - r->off;
   if (n > cap)
     n = cap;
   memcpy (buf, r->buf[slot] + r->off, n);
   r->off += n;
   if (r->off == r->len[slot]) {
-    pthread_mutex_lock (&r->mu);
     r->off = 0;
-    r->head = (r->head + 1) % r->nbuf;
-    r->count--;
-    pthread_cond_signal (&r->freed);
-    pthread_mutex_unlock (&r->mu);
+    bl_slots_release (&r->q);
   }
   return n;
 }
@@ -451,6 +427,8 @@ ring_free (ring *r)
   if (r->buf)
     for (size_t k = 0; k < r->nbuf; k++)
       bl_free (r->buf[k]);
+  if (r->have_q)
+    bl_slots_destroy (&r->q);
   bl_free (r->buf);
   bl_free (r->len);
   bl_free (r);
@@ -478,27 +456,14 @@ bl_source_prefetch (bl_source *src, size_t nbuf, size_t size, bl_err *err)
       ring_free (r);
       return bl_fail (err, BL_ENOMEM, src->name, "out of memory reading the input");
     }
-  if (pthread_mutex_init (&r->mu, NULL) != 0) {
+  if (bl_slots_init (&r->q, nbuf) != 0) {
     ring_free (r);
     return BL_OK;               /* stays synchronous */
   }
-  if (pthread_cond_init (&r->filled, NULL) != 0) {
-    pthread_mutex_destroy (&r->mu);
-    ring_free (r);
-    return BL_OK;
-  }
-  if (pthread_cond_init (&r->freed, NULL) != 0) {
-    pthread_cond_destroy (&r->filled);
-    pthread_mutex_destroy (&r->mu);
-    ring_free (r);
-    return BL_OK;
-  }
+  r->have_q = 1;
   src->ring = r;
   if (bl_thread_start (&r->tid, producer, src) != 0) {
     src->ring = NULL;
-    pthread_cond_destroy (&r->freed);
-    pthread_cond_destroy (&r->filled);
-    pthread_mutex_destroy (&r->mu);
     ring_free (r);
   }
   return BL_OK;
@@ -565,14 +530,8 @@ bl_source_free (bl_source *src)
     return;
   if (src->ring) {
     ring *r = src->ring;
-    pthread_mutex_lock (&r->mu);
-    r->stop = 1;
-    pthread_cond_signal (&r->freed);
-    pthread_mutex_unlock (&r->mu);
-    pthread_join (r->tid, NULL);
-    pthread_cond_destroy (&r->freed);
-    pthread_cond_destroy (&r->filled);
-    pthread_mutex_destroy (&r->mu);
+    bl_slots_stop (&r->q);
+    bl_thread_join (r->tid);
     ring_free (r);
   }
   if (src->z_ready)
