@@ -608,7 +608,7 @@ mode_fit (const char *path, unsigned threads, const char *tag, const char *dir)
   fopt.link = &bl_link_log;
   fopt.irls.threads = threads;
   t0 = now ();
-  fit = bl_fit_glm (d, &fopt, &err);
+  fit = bl_fit_new (d, &fopt, &err);
   t_fit = now () - t0;
   if (!fit)
     fail_err (&err);
@@ -621,7 +621,7 @@ mode_fit (const char *path, unsigned threads, const char *tag, const char *dir)
       || fwrite (&st->deviance, sizeof (double), 1, f) != 1 || fclose (f) != 0)
     die (binpath, "cannot write");
   fprintf (stderr, "  %s, threads %u: %zu rows x %zu columns of X; read %.2f s, design %.2f s; "
-           "bl_fit_glm %.2f s, %zu iterations, %zu halvings, solver %s, deviance %.10g\n",
+           "bl_fit_new %.2f s, %zu iterations, %zu halvings, solver %s, deviance %.10g\n",
            path, threads, n, p, t_read, t_design, t_fit, st->iterations, st->halvings,
            st->solver, st->deviance);
   fprintf (stderr, "  peak memory after the fit %.1f MB (at start %.1f MB); parsed numeric "
@@ -631,7 +631,7 @@ mode_fit (const char *path, unsigned threads, const char *tag, const char *dir)
   printf ("%s.peak_bytes %.0f\n%s.parsed_bytes %.0f\n%s.read_s %.6f\n%s.solver %s\n", tag,
           hwm_fit, tag, parsed, tag, t_read, tag, st->solver);
   /* the summary figures' share of the fit: the dispersion MLE and the log-likelihood, timed
-     alone on the fit's own means (the same calls bl_fit_glm makes after IRLS) */
+     alone on the fit's own means (the same calls bl_fit_new makes after IRLS) */
   {
     double phi = NAN, t_phi, t_ll;
     t0 = now ();
@@ -643,7 +643,7 @@ mode_fit (const char *path, unsigned threads, const char *tag, const char *dir)
     (void) bl_family_loglik (&bl_family_gamma, bl_design_y (d), bl_fit_mu (fit),
                              bl_design_prior_w (d), n, phi);
     t_ll = now () - t0;
-    fprintf (stderr, "  inside bl_fit_glm: bl_family_phi_ml %.3f s, bl_family_loglik %.3f s\n",
+    fprintf (stderr, "  inside bl_fit_new: bl_family_phi_ml %.3f s, bl_family_loglik %.3f s\n",
              t_phi, t_ll);
     printf ("%s.phi_ml_s %.6f\n%s.loglik_s %.6f\n", tag, t_phi, tag, t_ll);
   }
@@ -874,13 +874,13 @@ mode_report (const char *path, const char *dir)
   printf ("\nalso measured (not judged):\n");
   printf ("  gzip -dc > /dev/null %.3f s (gzip ingest / gzip -dc = %.2f)\n",
           get (&r, "gz.gzip_s"), get (&r, "gz.read_s") / get (&r, "gz.gzip_s"));
-  printf ("  bl_fit_glm wall: %.2f s threads 2, %.2f s threads 1 (%g iterations, %g halvings),"
+  printf ("  bl_fit_new wall: %.2f s threads 2, %.2f s threads 1 (%g iterations, %g halvings),"
           " solver %s\n", get (&r, "big_t2.fit_s"), get (&r, "big_t1.fit_s"),
           get (&r, "big_t2.iterations"), get (&r, "big_t2.halvings"),
           get_s (&r, "big_t2.solver") ? get_s (&r, "big_t2.solver") : "?");
-  printf ("  bl_fit_glm wall / iterations: %.3f s threads 2 (includes init, finish, summary)\n",
+  printf ("  bl_fit_new wall / iterations: %.3f s threads 2 (includes init, finish, summary)\n",
           get (&r, "big_t2.fit_s") / get (&r, "big_t2.iterations"));
-  printf ("  bl_fit_glm threads 2 outside IRLS (init + iterates + finish = %.3f s): %.3f s, of "
+  printf ("  bl_fit_new threads 2 outside IRLS (init + iterates + finish = %.3f s): %.3f s, of "
           "which bl_family_phi_ml %.3f s and bl_family_loglik %.3f s\n",
           get (&r, "big_t2.irls_total_s"), get (&r, "big_t2.fit_s") - get (&r,
           "big_t2.irls_total_s"), get (&r, "big_t2.phi_ml_s"), get (&r, "big_t2.loglik_s"));
@@ -891,7 +891,7 @@ mode_report (const char *path, const char *dir)
           "scale, the Householder passes do 2np^2 flops and do)\n", get (&r, "big_t1.n") / 1e3,
           get (&r, "big_t1.p"), get (&r, "big_t1.iter_s"),
           get (&r, "big_t1.iter_s") / get (&r, "big_t1.syrk_s"), get (&r, "big_t1.syrk_s"));
-  printf ("  p = 50 fit: %g iterations, bl_fit_glm %.2f s; %.0fk rows, not 2M, to keep the "
+  printf ("  p = 50 fit: %g iterations, bl_fit_new %.2f s; %.0fk rows, not 2M, to keep the "
           "run short\n", get (&r, "p50_t2.iterations"), get (&r, "p50_t2.fit_s"),
           get (&r, "p50_t2.n") / 1e3);
   printf ("  peak memory: threads 1 %.1f MB; 200k-row fit %.1f MB; p = 50 fit %.1f MB "

@@ -3,7 +3,7 @@
    Every comparison goes through the public pipeline (bl_table_read_mem -> bl_terms_parse ->
    bl_design_new -> bl_compare_run), on data simulated in the test with GSL generators and
    fixed seeds.  The checks, each with its source beside it:
-   - reference: each candidate's AIC against bl_fit_glm's for the same model on the same rows
+   - reference: each candidate's AIC against bl_fit_new's for the same model on the same rows
      (consistency: `ballast fit` reports the same number); the discretized log-likelihood of a
      gaussian candidate against sum log(Phi((y + 1/2 - mu) / s) - Phi((y - 1/2 - mu) / s))
      with GSL's normal CDF; the cross-validated RMSE of "ls" against a K-fold computation
@@ -155,7 +155,7 @@ opts_for_id (const char *id, bl_fit_opts *o)
 
 /* ---------------------------------------------------------------- reference */
 
-/* Consistency: every candidate's AIC is exactly the AIC bl_fit_glm gives for the same model on
+/* Consistency: every candidate's AIC is exactly the AIC bl_fit_new gives for the same model on
    the same rows (what `ballast fit` reports), for continuous positive data of three kinds. */
 START_TEST (compare_aic_equals_fit)
 {
@@ -177,7 +177,7 @@ START_TEST (compare_aic_equals_fit)
       if (!k->applicable)
         continue;
       opts_for_id (k->id, &fo);
-      f = bl_fit_glm (j.d, &fo, &err);
+      f = bl_fit_new (j.d, &fo, &err);
       ck_assert_msg (f != NULL, "aic %s: %s", k->id, err.msg);
       ck_assert_msg (k->converged == bl_fit_stats_get (f)->converged, "aic %s: converged",
                      k->id);
@@ -227,7 +227,7 @@ START_TEST (compare_discrete_loglik)
     const double *y = bl_design_y (j.d), *mu;
     double s;
     opts_for_id ("ls", &fo);
-    f = bl_fit_glm (j.d, &fo, &err);
+    f = bl_fit_new (j.d, &fo, &err);
     ck_assert_ptr_nonnull (f);
     mu = bl_fit_mu (f);
     s = sqrt (bl_fit_stats_get (f)->phi_ml);
@@ -445,7 +445,7 @@ START_TEST (compare_boxcox_practical)
       ck_assert_msg (k->lambda == 2.0 && k->converged, "box-cox practical: lambda %g",
                      k->lambda);
       opts_for_id (k->id, &fo);
-      f = bl_fit_glm (j.d, &fo, &err);
+      f = bl_fit_new (j.d, &fo, &err);
       ck_assert_ptr_nonnull (f);
       ck_assert_msg (k->aic == bl_fit_stats_get (f)->aic, "box-cox practical: aic");
       ck_assert_uint_eq (k->k, bl_fit_stats_get (j.f ? j.f : f)->k);

@@ -1,7 +1,7 @@
 /* check_diag.c -- residuals and the variance checks (diag.h), end to end.
 
    Every fit goes through the public pipeline (bl_table_read_mem -> bl_terms_parse ->
-   bl_design_new -> bl_fit_glm), on data simulated in the test with GSL generators and fixed
+   bl_design_new -> bl_fit_new), on data simulated in the test with GSL generators and fixed
    seeds.  The checks, each with its source beside it:
    - reference: the Breusch-Pagan, Koenker and White statistics recomputed by direct least
      squares with GSL (gsl_multifit_linear) and gsl_cdf_chisq_Q; quantile residuals against
@@ -795,7 +795,7 @@ START_TEST (diag_error_not_converged)
   fo.fam = &bl_family_gamma;
   fo.link = &bl_link_log;
   fo.irls.max_iter = 1;
-  j.f = bl_fit_glm (j.d, &fo, &err);
+  j.f = bl_fit_new (j.d, &fo, &err);
   ck_assert_ptr_nonnull (j.f);
   ck_assert_msg (!bl_fit_stats_get (j.f)->converged, "not converged: it converged");
   bl_diag_opts_init (&dopt);

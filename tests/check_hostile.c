@@ -1,6 +1,6 @@
 /* check_hostile.c -- hostile input at the library level: a regular file that changes while
    bl_table_read reads it (a thread appends to it or touches its modification time), and the
-   fits that have no estimate or no double to hold their figures (bl_fit_glm refuses them with
+   fits that have no estimate or no double to hold their figures (bl_fit_new refuses them with
    BL_EDATA naming the file and the term).  The command-line side of every hostile case is in
    tests/cli/hostile.sh. */
 #define _POSIX_C_SOURCE 200809L   /* futimens, UTIME_OMIT, nanosleep */
@@ -220,7 +220,7 @@ END_TEST
 
 /* A poisson fit with one level whose counts are all 0 (y = 0 on the 10 rows of level c): no
    maximum-likelihood estimate exists (Santos Silva & Tenreyro 2010, Economics Letters 107,
-   310-312: a regressor that is 0 wherever y > 0), so bl_fit_glm refuses with BL_EDATA naming
+   310-312: a regressor that is 0 wherever y > 0), so bl_fit_new refuses with BL_EDATA naming
    the source and the indicator 'g=c' (fit.c, check_mean_boundary), for poisson and the
    negative binomial, and for the gaussian with the log link; the gaussian with the identity
    link has an estimate (the level's mean, 0) and fits. */
@@ -242,12 +242,12 @@ START_TEST (hostile_all_zero_level)
     bl_fit_opts_init (&fo);
     fo.fam = fams[k];
     fo.link = links[k];
-    f = bl_fit_glm (j.d, &fo, &err);
+    f = bl_fit_new (j.d, &fo, &err);
     test_expect_fail (f, &err, BL_EDATA, "mem.csv", "'g=c' cannot be estimated",
                       "no maximum-likelihood estimate exists", fams[k]->name);
   }
   bl_fit_opts_init (&fo);
-  f = bl_fit_glm (j.d, &fo, &err);
+  f = bl_fit_new (j.d, &fo, &err);
   ck_assert_msg (f && bl_fit_stats_get (f)->converged, "gaussian identity: no fit (%s)",
                  err.msg);
   ck_assert_msg (isfinite (bl_fit_beta (f)[2]) && isfinite (bl_fit_se (f)[2]),
@@ -276,7 +276,7 @@ START_TEST (hostile_tiny_response)
     test_buf_printf (&csv, "%se-300,%d\n", y[i], x[i]);
   test_job_csv (&j, &csv, NULL, 0, "y", "x", NULL, NULL);
   bl_fit_opts_init (&fo);
-  f = bl_fit_glm (j.d, &fo, &err);
+  f = bl_fit_new (j.d, &fo, &err);
   test_expect_fail (f, &err, BL_EDATA, "mem.csv", "'y' is out of range for double precision",
                     "residual sum of squares", "y near 1e-300");
   test_job_free (&j);

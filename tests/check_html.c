@@ -2,7 +2,7 @@
    and the plot data it takes from diag.h (bl_variance_power).
 
    Every comparison goes through the public pipeline (bl_table_read_mem -> bl_terms_parse ->
-   bl_design_new -> bl_compare_run or bl_fit_glm), on gamma data simulated in the test with
+   bl_design_new -> bl_compare_run or bl_fit_new), on gamma data simulated in the test with
    GSL generators and fixed seeds.  The checks, each with its source beside it:
    - reference: the variance power's plot points against group means computed here and its
      slope and intercept against GSL's gsl_fit_linear on those points;
@@ -107,7 +107,7 @@ job_single (job *j, size_t n)
   bl_fit_opts_init (&fo);
   fo.fam = &bl_family_gamma;
   fo.link = &bl_link_log;
-  j->f = bl_fit_glm (j->d, &fo, &err);
+  j->f = bl_fit_new (j->d, &fo, &err);
   ck_assert_msg (j->f != NULL, "fit: %s", err.msg);
   ck_assert (bl_fit_stats_get (j->f)->converged);
 }
@@ -530,7 +530,7 @@ START_TEST (html_errors_noconv)
   fo.fam = &bl_family_gamma;
   fo.link = &bl_link_log;
   fo.irls.max_iter = 1;
-  j.f = bl_fit_glm (j.d, &fo, &err);
+  j.f = bl_fit_new (j.d, &fo, &err);
   ck_assert_msg (j.f != NULL, "fit: %s", err.msg);
   ck_assert (!bl_fit_stats_get (j.f)->converged);
   ck_assert_int_eq (bl_variance_power (j.f, &pw, &err), BL_ENOCONV);

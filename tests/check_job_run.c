@@ -5,7 +5,7 @@
    through the public pipeline (bl_table_read_mem -> bl_terms_parse -> bl_design_new).  The
    checks, each with its source beside it:
    - identities: a fit job, a diagnose job and a compare job give, bit for bit, what calling
-     the library functions directly gives (bl_fit_glm, bl_nested_test, bl_diag_new,
+     the library functions directly gives (bl_fit_new, bl_nested_test, bl_diag_new,
      bl_compare_run), and their plot series are the direct calls' in the documented order
      of draws (job_run.h: the spread ratio's null first, then the quantile residuals from the
      same stream; the residual table from a fresh stream of the same seed);
@@ -328,7 +328,7 @@ END_TEST
 
 /* ---------------------------------------------------------------- errors */
 
-/* The model fails (y = 0 under gamma): no result; code, where and message as bl_fit_glm's. */
+/* The model fails (y = 0 under gamma): no result; code, where and message as bl_fit_new's. */
 START_TEST (job_run_error_model)
 {
   static const char *const kv[] = { "family", "gamma", NULL };
@@ -340,7 +340,7 @@ START_TEST (job_run_error_model)
   bl_fit *f;
   data (&tj, 120, 1);
   job_make (&j, 1, kv);
-  f = bl_fit_glm (tj.d, &j.fit, &direct);
+  f = bl_fit_new (tj.d, &j.fit, &direct);
   ck_assert_ptr_null (f);
   {
     const bl_job_input in = { tj.t, tj.d, tj.off, NULL };

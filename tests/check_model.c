@@ -114,7 +114,7 @@ job_run (job *j, const char *csv, const char *resp, const char *terms, const cha
   dopt.variance = fo->variance == BL_VARIANCE_COLUMN ? fo->variance_col : NULL;
   j->d = bl_design_new (j->t, resp, j->terms, &dopt, &err);
   ck_assert_msg (j->d != NULL, "%s: design: %s: %s", name, err.where, err.msg);
-  j->f = bl_fit_glm (j->d, fo, &err);
+  j->f = bl_fit_new (j->d, fo, &err);
   ck_assert_msg (j->f != NULL, "%s: fit: %s: %s", name, err.where, err.msg);
   ck_assert_msg (bl_fit_stats_get (j->f)->converged, "%s: not converged: %s", name,
                  bl_fit_status (j->f)->msg);

@@ -264,7 +264,7 @@ const bl_fit *
 test_job_fit (test_job *j, const bl_fit_opts *fo, const char *what)
 {
   bl_err err = { 0 };
-  j->f = bl_fit_glm (j->d, fo, &err);
+  j->f = bl_fit_new (j->d, fo, &err);
   ck_assert_msg (j->f != NULL, "%s: fit: %s: %s", what, err.where, err.msg);
   ck_assert_msg (bl_fit_stats_get (j->f)->converged, "%s: did not converge: %s", what,
                  bl_fit_status (j->f)->msg);
@@ -283,7 +283,7 @@ test_job_fit_glm (test_job *j, const bl_family *fam, const bl_link *lnk,
     bl_fit_opts_init (&fo);
   fo.fam = fam;
   fo.link = lnk;
-  j->f = bl_fit_glm (j->d, &fo, &err);
+  j->f = bl_fit_new (j->d, &fo, &err);
   ck_assert_msg (j->f != NULL, "fit %s/%s: %s: %s", fam->name, lnk->name, err.where, err.msg);
   ck_assert_msg (bl_fit_stats_get (j->f)->converged, "fit %s/%s did not converge: %s",
                  fam->name, lnk->name, bl_fit_status (j->f)->msg);
@@ -474,7 +474,7 @@ static int
 fit_loop_run (void *ctx, bl_err *err)
 {
   fit_loop *c = ctx;
-  c->f = bl_fit_glm (c->d, c->fo, err);
+  c->f = bl_fit_new (c->d, c->fo, err);
   return c->f ? BL_OK : err->code;
 }
 
@@ -497,7 +497,7 @@ test_alloc_fail_fit (const char *what, const bl_design *d, const bl_fit_opts *fo
                      unsigned long max_n)
 {
   bl_err err = { 0 };
-  bl_fit *ref = bl_fit_glm (d, fo, &err);
+  bl_fit *ref = bl_fit_new (d, fo, &err);
   fit_loop c = { what, d, fo, ref, NULL };
   unsigned long n;
   ck_assert_msg (ref != NULL, "%s: reference fit: %s: %s", what, err.where, err.msg);

@@ -186,7 +186,7 @@ unsigned long test_alloc_fail_loop (const char *what, test_alloc_run_fn run,
    again from the same design and options (the computation is deterministic). */
 void test_fit_same (const bl_fit *a, const bl_fit *b, const char *what);
 
-/* The allocation-failure loop of bl_fit_glm (D, FO): a reference fit without injection
+/* The allocation-failure loop of bl_fit_new (D, FO): a reference fit without injection
    (asserted converged), then test_alloc_fail_loop with every successful attempt asserted
    test_fit_same as the reference.  Returns the loop's N (0 without --enable-alloc-fail). */
 unsigned long test_alloc_fail_fit (const char *what, const bl_design *d, const bl_fit_opts *fo,

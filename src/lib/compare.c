@@ -1,6 +1,6 @@
 /* compare.c -- candidates on one row set, scored on the original response's scale.
 
-   Every candidate is fitted by bl_fit_glm with the options `ballast fit` would use, so its
+   Every candidate is fitted by bl_fit_new with the options `ballast fit` would use, so its
    AIC is the one `fit` reports.  Scores:
    - AIC = -2 l + 2 k (Akaike 1974), delta to the best, Akaike weights exp(-delta/2) / sum
      (Burnham & Anderson 2002, Model Selection and Multimodel Inference, 2nd ed., 2.9);
@@ -304,7 +304,7 @@ cv_fold (const bl_design *d, const bl_fit_opts *o, const size_t *fold, size_t g,
   sub = bl_design_subset (d, sel, m, err);
   if (!sub)
     return BL_ENOMEM;
-  ft = bl_fit_glm (sub, o, &e);
+  ft = bl_fit_new (sub, o, &e);
   if ((ft ? bl_fit_status (ft)->code : e.code) == BL_ENOMEM) {
     /* exhaustion is the caller's error, not a note about the fold (compare.h) */
     st = bl_fail (err, BL_ENOMEM, "compare", "out of memory");
@@ -542,7 +542,7 @@ fit_candidate (bl_compare *c, size_t i, const bl_design *d, const bl_compare_opt
     return NOTE (k, "%s", why);
   }
   fit_opts_for (opt, sp, c->lam[i], &o);
-  k->fit = bl_fit_glm (d, &o, &e);
+  k->fit = bl_fit_new (d, &o, &e);
   if (!k->fit) {
     if (e.code == BL_ENOMEM)
       return bl_fail (err, BL_ENOMEM, "compare", "out of memory");

@@ -70,10 +70,3 @@ bl_fit_new (const bl_design *d, const bl_fit_opts *opt, bl_err *err)
   }
   return f;
 }
-
-/* The former name of bl_fit_new, kept until its callers are renamed. */
-bl_fit *
-bl_fit_glm (const bl_design *d, const bl_fit_opts *opt, bl_err *err)
-{
-  return bl_fit_new (d, opt, err);
-}

@@ -133,8 +133,6 @@ typedef struct bl_fit_stats {
    when IRLS did not converge or diverged the fit's status (bl_fit_status) holds the error and
    the stats have converged = 0 and no coefficients to stand behind.  D must outlive the fit. */
 bl_fit *bl_fit_new (const bl_design *d, const bl_fit_opts *opt, bl_err *err);
-/* The former name of bl_fit_new (it fits every method, not only GLMs); to be removed. */
-bl_fit *bl_fit_glm (const bl_design *d, const bl_fit_opts *opt, bl_err *err);
 void bl_fit_free (bl_fit *fit);
 
 /* The fit's status: BL_OK, or the error that stopped it (ENOCONV, ECANCEL) with its message. */

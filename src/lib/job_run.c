@@ -251,7 +251,7 @@ run_model (bl_job_result *r, const bl_job *job, const bl_job_input *in,
   } else {
     bl_fit_opts fo = job->fit;
     fo.irls.cancel = opt->cancel;
-    if (!(r->fit = bl_fit_glm (in->design, &fo, err)))
+    if (!(r->fit = bl_fit_new (in->design, &fo, err)))
       return err ? err->code : BL_ENOMEM;
     r->model = bl_fit_stats_get (r->fit)->converged ? r->fit : NULL;
   }

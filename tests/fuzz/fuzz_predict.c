@@ -162,7 +162,7 @@ fit_builtin (const bl_table *t, const builtin *b, size_t k)
   dopt.weights = b->weights;
   dopt.variance = b->var == BL_VARIANCE_COLUMN ? b->var_col : NULL;
   if (!(d = bl_design_new (t, b->resp, terms, &dopt, &err))
-      || !(f = bl_fit_glm (d, &fo, &err))) {
+      || !(f = bl_fit_new (d, &fo, &err))) {
     snprintf (msg, sizeof msg, "model %zu: %s: %s", k, err.where, err.msg);
     fail ("init", msg);
   }
