@@ -93,6 +93,12 @@ bl_family_cdf (const bl_family *f, double y, double mu, double a, double phi, do
 }
 
 double
+bl_family_quantile_mu_max (const bl_family *f)
+{
+  return f->quantile_mu_max > 0.0 ? f->quantile_mu_max : HUGE_VAL;
+}
+
+double
 bl_family_quantile (const bl_family *f, double prob, double mu, double a, double phi,
                     double par)
 {

@@ -52,6 +52,9 @@ double bl_family_cdf (const bl_family *f, double y, double mu, double a, double 
    continuous one F^-1(PROB) (the Tweedie: 0 when PROB <= P(Y = 0)). */
 double bl_family_quantile (const bl_family *f, double prob, double mu, double a, double phi,
                            double par);
+/* The largest mean whose quantiles the family can compute (the poisson's: GSL counts in an
+   unsigned int), HUGE_VAL when there is no such limit. */
+double bl_family_quantile_mu_max (const bl_family *f);
 
 extern const bl_family bl_family_gaussian;
 extern const bl_family bl_family_poisson;

@@ -25,6 +25,7 @@ struct bl_family {
   int discrete;             /* = BL_FAM_DISCRETE: transitional, for the callers that still
                                read the fields (family.h) */
   double var_power;         /* K when V(mu) = mu^K with K fixed (0, 1, 2, 3); else NAN */
+  double quantile_mu_max;   /* the largest mean the quantile hook can serve; 0: no limit */
   int (*y_ok) (double y);                       /* y inside the support */
   int (*valid_mu) (double mu);                  /* mu inside the mean space */
   double (*mustart) (double y, double ybar);    /* a starting mean inside the mean space */

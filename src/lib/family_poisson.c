@@ -54,6 +54,7 @@ const bl_family bl_family_poisson = {
   .par_name = NULL, .default_link = &bl_link_log,
   .flags = BL_FAM_DISCRETE | BL_FAM_OVERDISP | BL_FAM_ZERO_GROUP, .par_kind = BL_FAMPAR_NONE,
   .phi_free = 0, .discrete = 1, .var_power = 1.0,
+  .quantile_mu_max = (double) UINT_MAX / 4.0,     /* GSL's poisson CDF takes an unsigned k */
   .y_ok = bl_family_y_nonneg, .valid_mu = bl_family_mu_pos, .mustart = poi_start,
   .var = poi_var, .unit_dev = poi_dev, .logpdf = poi_logpdf, .cdf = poi_cdf,
   .quantile = poi_quantile, .phi_ml = NULL, .loglik_unit = NULL

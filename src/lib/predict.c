@@ -25,8 +25,9 @@
      by the naive inverse h^-1(z) - shift, which is monotone;
    - new observation, poisson: the alpha/2 and 1 - alpha/2 quantiles of Poisson(mu); gamma:
      of Gamma(shape a / phi, scale mu phi / a); inverse gaussian: of IG(mu, lambda = a / phi),
-     phi the ML dispersion.  These treat mu and phi as known: parameter uncertainty is not
-     included (common practice, no source). */
+     phi the ML dispersion; each family's quantile hook (family_*.c) computes them.  These
+     treat mu and phi as known: parameter uncertainty is not included (common practice, no
+     source). */
 #include <float.h>
 #include <limits.h>
 #include <math.h>
@@ -34,14 +35,11 @@
 #include <stdio.h>
 #include <string.h>
 #include <gsl/gsl_cdf.h>
-#include <gsl/gsl_sf_erf.h>
 #include "alloc.h"
 #include "design.h"
 #include "model_impl.h"
-#include "tweedie.h"
 
 #define BLOCK 256                 /* rows of X filled at a time */
-#define IG_BISECT_MAX 400         /* bisection steps of the inverse gaussian quantile */
 
 void
 bl_prediction_free (bl_prediction *p)
@@ -222,139 +220,13 @@ smeared (const bl_model *m, double xb, double *mean, double *deriv)
   *deriv = (double) (ds / (long double) m->nres);
 }
 
-/* Smallest integer k >= 0 with CDF(k) >= P, from the start K0 (a normal approximation):
-   doubling steps away from it until the answer is bracketed, then bisection over the
-   integers, so that an extreme level or a large mean costs some 2 log2(k) evaluations
-   rather than one per unit (the quantile's definition; common practice, no source).  The
-   CDF is nondecreasing in k.  Returns HUGE_VAL when no k below UINT_MAX/2 reaches P. */
-static double
-discrete_quantile (double p, double k0, double (*cdf) (unsigned k, const double *par),
-                   const double *par)
-{
-  const double kmax = (double) UINT_MAX / 2.0;
-  double lo, hi, step = 1.0;   /* invariant: CDF(lo) < p <= CDF(hi), or lo = -1 */
-  if (!(k0 >= 0.0))
-    k0 = 0.0;
-  if (k0 > kmax)
-    k0 = kmax;
-  k0 = floor (k0);
-  if (cdf ((unsigned) k0, par) >= p) {
-    hi = k0;
-    lo = k0 - step;
-    while (lo >= 0.0 && cdf ((unsigned) lo, par) >= p) {
-      hi = lo;
-      step *= 2.0;
-      lo = hi - step;
-    }
-    if (lo < 0.0)
-      lo = -1.0;
-  } else {
-    lo = k0;
-    hi = k0 + step;
-    while (cdf ((unsigned) hi, par) < p) {
-      if (hi >= kmax)
-        return HUGE_VAL;
-      lo = hi;
-      step *= 2.0;
-      hi = lo + step < kmax ? lo + step : kmax;
-    }
-  }
-  while (hi - lo > 1.0) {
-    const double mid = floor (lo + (hi - lo) / 2.0);
-    if (mid >= 0.0 && cdf ((unsigned) mid, par) >= p)
-      hi = mid;
-    else
-      lo = mid;
-  }
-  return hi;
-}
-
-static double
-poisson_cdf (unsigned k, const double *par)
-{
-  return gsl_cdf_poisson_P (k, par[0]);
-}
-
-static double
-negbin_cdf (unsigned k, const double *par)
-{
-  return gsl_cdf_negative_binomial_P (k, par[0], par[1]);
-}
-
-/* Smallest k with P(X <= k) >= P for X Poisson(MU) (the CDF from GSL). */
-static double
-poisson_quantile (double p, double mu)
-{
-  double k;
-  if (!(p < 1.0))
-    return HUGE_VAL;          /* the level rounds 1 - alpha/2 to 1: no finite quantile */
-  k = floor (mu + gsl_cdf_ugaussian_Pinv (p) * sqrt (mu));
-  if (!(k < (double) UINT_MAX / 2.0))
-    return k;
-  return discrete_quantile (p, k, poisson_cdf, &mu);
-}
-
-/* The same for the negative binomial NB(theta, theta / (theta + mu)) (GSL's CDF). */
-static double
-negbin_quantile (double p, double mu, double th)
-{
-  const double par[2] = { th / (th + mu), th };
-  double k;
-  if (!(p < 1.0))
-    return HUGE_VAL;
-  k = floor (mu + gsl_cdf_ugaussian_Pinv (p) * sqrt (mu + mu * mu / th));
-  if (!(k < (double) UINT_MAX / 2.0))
-    return k;
-  return discrete_quantile (p, k, negbin_cdf, par);
-}
-
-/*
- * CDF of the inverse gaussian IG(mu, lambda) (Chhikara & Folks 1989, The Inverse Gaussian
- * Distribution, eq. 2.12; Johnson, Kotz & Balakrishnan 1994, Continuous Univariate
- * Distributions 1, ch. 15):
- *   F(x) = Phi(sqrt(lambda/x) (x/mu - 1)) + exp(2 lambda/mu) Phi(-sqrt(lambda/x) (x/mu + 1)),
- * the second term as exp(2 lambda/mu + log Phi(-z)) with log Phi(-z) = log erfc(z/sqrt 2) -
- * log 2, so that it does not overflow for large lambda/mu.
- */
-static double
-invgauss_cdf (double x, double mu, double lambda)
-{
-  const double r = sqrt (lambda / x);
-  const double z1 = r * (x / mu - 1.0), z2 = r * (x / mu + 1.0);
-  if (x <= 0.0)
-    return 0.0;
-  return gsl_cdf_ugaussian_P (z1)
-         + exp (2.0 * lambda / mu + gsl_sf_log_erfc (z2 / M_SQRT2) - M_LN2);
-}
-
-/* The P quantile of IG(mu, lambda) by bisection on its CDF (monotone), bracketed by
-   doubling from mu. */
-static double
-invgauss_quantile (double p, double mu, double lambda)
-{
-  double lo = 0.0, hi = mu;
-  for (int k = 0; k < 2000 && invgauss_cdf (hi, mu, lambda) < p; k++) {
-    lo = hi;
-    hi *= 2.0;
-  }
-  for (int k = 0; k < IG_BISECT_MAX && hi - lo > 4.0 * DBL_EPSILON * hi; k++) {
-    const double mid = 0.5 * (lo + hi);
-    if (invgauss_cdf (mid, mu, lambda) < p)
-      lo = mid;
-    else
-      hi = mid;
-  }
-  return 0.5 * (lo + hi);
-}
-
-
 /*
  * The prediction interval [*LO, *HI] of a new observation at mean MU, linear predictor ETA
  * with standard error SE, prior weight A and variance function value V (1 unless the
  * family is normal): the one place that dispatches on the family for it (see the head of
  * this file for the formulas).  The normal interval takes the coefficients' uncertainty in;
  * the others are the alpha/2 and 1 - alpha/2 quantiles of the family at mu and the ML
- * dispersion, taken as known.  family-specific: moves to the family quantile hook.
+ * dispersion, taken as known (bl_family_quantile).
  * BL_OK, or BL_EDATA (where = W) when the mean is out of reach of the quantile.
  */
 static int
@@ -368,29 +240,13 @@ quantile_row (const bl_model *m, double q, double alpha, double eta, double mu, 
     const double sp = sqrt (m->phi_pearson * v / a + dmu * dmu * se * se);
     *lo = mu - q * sp;
     *hi = mu + q * sp;
-  } else if (bl_family_par_kind (f) == BL_FAMPAR_THETA) {
-    *lo = negbin_quantile (p1, mu, m->fam_par);
-    *hi = negbin_quantile (p2, mu, m->fam_par);
-  } else if (bl_family_par_kind (f) == BL_FAMPAR_POWER) {
-    *lo = bl_tweedie_quantile (p1, mu, m->phi_ml / a, m->fam_par);
-    *hi = bl_tweedie_quantile (p2, mu, m->phi_ml / a, m->fam_par);
-  } else if (bl_family_has (f, BL_FAM_DISCRETE)) {
-    /* poisson: GSL's CDF takes an unsigned count */
-    if (mu > (double) UINT_MAX / 4.0)
-      return bl_fail (err, BL_EDATA, w, "the predicted mean %g is too large for Poisson "
-                      "quantiles", mu);
-    *lo = poisson_quantile (p1, mu);
-    *hi = poisson_quantile (p2, mu);
-  } else if (strcmp (bl_family_name (f), "gamma") == 0) {
-    /* family-specific: moves to the family quantile hook (no property tells the gamma
-       family from the inverse gaussian) */
-    const double shape = a / m->phi_ml, scale = mu * m->phi_ml / a;
-    *lo = gsl_cdf_gamma_Pinv (p1, shape, scale);
-    *hi = gsl_cdf_gamma_Pinv (p2, shape, scale);
   } else {
-    const double lambda = a / m->phi_ml;
-    *lo = invgauss_quantile (p1, mu, lambda);
-    *hi = invgauss_quantile (p2, mu, lambda);
+    /* the family's own quantiles (the quantile hook of its descriptor) */
+    if (mu > bl_family_quantile_mu_max (f))
+      return bl_fail (err, BL_EDATA, w, "the predicted mean %g is too large for %s "
+                      "quantiles", mu, bl_family_noun (f));
+    *lo = bl_family_quantile (f, p1, mu, a, m->phi_ml, m->fam_par);
+    *hi = bl_family_quantile (f, p2, mu, a, m->phi_ml, m->fam_par);
   }
   return BL_OK;
 }
