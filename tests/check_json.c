@@ -1,8 +1,8 @@
-/* check_json.c -- the streaming JSON writer (jsonw.h, jw_*): what every JSON document of
+/* check_json.c -- the streaming JSON writer (json.h, bl_json_*): what every JSON document of
    ballast (reports, batch summaries, saved models) relies on.
 
    Each test writes through the writer into a temporary file and compares the bytes with the
-   text expected from jsonw.h's contract, written out here by hand; documents are also parsed
+   text expected from json.h's contract, written out here by hand; documents are also parsed
    back with Jansson, an independent reader, so that "valid JSON" is not only our own claim.
    - basics: layout (two spaces a level, ", " between members, empty containers as {} and
      []), nesting and commas, keys escaped like values, null strings, sizes, booleans;
@@ -11,8 +11,8 @@
    - escaping: quotes, backslashes, the named escapes \n \r \t, every other control
      character as \u00XX (RFC 8259, section 7), bytes >= 0x7f copied unchanged (UTF-8 passes
      through; the writer does not validate it);
-   - errors: a failed write is reported by jw_finish and stays reported (sticky), and
-     nesting beyond JW_MAX_DEPTH is reported. */
+   - errors: a failed write is reported by bl_json_finish and stays reported (sticky), and
+     nesting beyond BL_JSON_MAX_DEPTH is reported. */
 #include <check.h>
 #include <float.h>
 #include <math.h>
@@ -21,7 +21,7 @@
 #include <stdlib.h>
 #include <string.h>
 #include <jansson.h>
-#include "jsonw.h"
+#include "json.h"
 #include "testutil.h"
 
 /* ---------------------------------------------------------------- helpers */
@@ -29,7 +29,7 @@
 /* A writer on a temporary file, read back as text. */
 typedef struct capture {
   FILE *f;
-  bl_jsonw w;
+  bl_json w;
   char text[8192];
 } capture;
 
@@ -38,7 +38,7 @@ cap_open (capture *c)
 {
   c->f = tmpfile ();
   ck_assert_msg (c->f != NULL, "tmpfile failed");
-  jw_init (&c->w, c->f);
+  bl_json_init (&c->w, c->f);
 }
 
 /* Finish the document, assert that no write failed, and return the bytes written. */
@@ -46,7 +46,7 @@ static const char *
 cap_text (capture *c)
 {
   size_t n;
-  ck_assert_int_eq (jw_finish (&c->w), 0);
+  ck_assert_int_eq (bl_json_finish (&c->w), 0);
   ck_assert_int_eq (fflush (c->f), 0);
   rewind (c->f);
   n = fread (c->text, 1, sizeof c->text - 1, c->f);
@@ -73,9 +73,9 @@ static const char *
 string_doc (capture *c, const char *s)
 {
   cap_open (c);
-  jw_obj (&c->w, NULL);
-  jw_str (&c->w, "s", s);
-  jw_obj_end (&c->w);
+  bl_json_obj (&c->w, NULL);
+  bl_json_str (&c->w, "s", s);
+  bl_json_obj_end (&c->w);
   return cap_text (c);
 }
 
@@ -107,29 +107,29 @@ START_TEST (json_layout_nesting_commas)
     "}\n";
   json_t *root;
   cap_open (&c);
-  jw_obj (&c.w, NULL);
-  jw_str (&c.w, "a", "x");
-  jw_arr (&c.w, "b");
-  jw_num (&c.w, NULL, 1.5);
-  jw_null (&c.w, NULL);
-  jw_obj (&c.w, NULL);
-  jw_obj_end (&c.w);
-  jw_arr (&c.w, NULL);
-  jw_bool (&c.w, NULL, 7);                  /* any nonzero is true */
-  jw_arr_end (&c.w);
-  jw_arr_end (&c.w);
-  jw_obj (&c.w, "c");
-  jw_bool (&c.w, "t", 1);
-  jw_bool (&c.w, "f", 0);
-  jw_size (&c.w, "n", (size_t) 4294967303ull);
-  jw_size (&c.w, "z", 0);
-  jw_str (&c.w, "s", NULL);
-  jw_obj_end (&c.w);
-  jw_arr (&c.w, "e");
-  jw_arr_end (&c.w);
-  jw_obj (&c.w, "o");
-  jw_obj_end (&c.w);
-  jw_obj_end (&c.w);
+  bl_json_obj (&c.w, NULL);
+  bl_json_str (&c.w, "a", "x");
+  bl_json_arr (&c.w, "b");
+  bl_json_num (&c.w, NULL, 1.5);
+  bl_json_null (&c.w, NULL);
+  bl_json_obj (&c.w, NULL);
+  bl_json_obj_end (&c.w);
+  bl_json_arr (&c.w, NULL);
+  bl_json_bool (&c.w, NULL, 7);                  /* any nonzero is true */
+  bl_json_arr_end (&c.w);
+  bl_json_arr_end (&c.w);
+  bl_json_obj (&c.w, "c");
+  bl_json_bool (&c.w, "t", 1);
+  bl_json_bool (&c.w, "f", 0);
+  bl_json_size (&c.w, "n", (size_t) 4294967303ull);
+  bl_json_size (&c.w, "z", 0);
+  bl_json_str (&c.w, "s", NULL);
+  bl_json_obj_end (&c.w);
+  bl_json_arr (&c.w, "e");
+  bl_json_arr_end (&c.w);
+  bl_json_obj (&c.w, "o");
+  bl_json_obj_end (&c.w);
+  bl_json_obj_end (&c.w);
   ck_assert_str_eq (cap_text (&c), want);
   root = parse (c.text);
   ck_assert_uint_eq (json_object_size (root), 5);
@@ -145,21 +145,21 @@ START_TEST (json_top_level_array_and_scalars)
 {
   capture c;
   cap_open (&c);
-  jw_arr (&c.w, NULL);
-  jw_str (&c.w, NULL, "p");
-  jw_num (&c.w, NULL, -2.385);
-  jw_arr_end (&c.w);
+  bl_json_arr (&c.w, NULL);
+  bl_json_str (&c.w, NULL, "p");
+  bl_json_num (&c.w, NULL, -2.385);
+  bl_json_arr_end (&c.w);
   ck_assert_str_eq (cap_text (&c), "[\n  \"p\",\n  -2.3849999999999998\n]\n");
-  /* an empty document's only byte is the newline of jw_finish */
+  /* an empty document's only byte is the newline of bl_json_finish */
   cap_open (&c);
   ck_assert_str_eq (cap_text (&c), "\n");
   /* a top-level scalar, as the writer allows */
   cap_open (&c);
-  jw_num (&c.w, NULL, 0.125);
+  bl_json_num (&c.w, NULL, 0.125);
   ck_assert_str_eq (cap_text (&c), "0.125\n");
   /* sizes are written whole (%zu), even past what a double holds exactly */
   cap_open (&c);
-  jw_size (&c.w, NULL, SIZE_MAX);
+  bl_json_size (&c.w, NULL, SIZE_MAX);
   {
     char want[32];
     snprintf (want, sizeof want, "%zu\n", (size_t) SIZE_MAX);
@@ -173,9 +173,9 @@ START_TEST (json_keys_escaped_like_values)
   capture c;
   json_t *root;
   cap_open (&c);
-  jw_obj (&c.w, NULL);
-  jw_str (&c.w, "a\"b\\c\n", "v");
-  jw_obj_end (&c.w);
+  bl_json_obj (&c.w, NULL);
+  bl_json_str (&c.w, "a\"b\\c\n", "v");
+  bl_json_obj_end (&c.w);
   ck_assert_str_eq (cap_text (&c), "{\n  \"a\\\"b\\\\c\\n\": \"v\"\n}\n");
   root = parse (c.text);
   ck_assert_str_eq (json_string_value (json_object_get (root, "a\"b\\c\n")), "v");
@@ -198,10 +198,10 @@ START_TEST (json_numbers_round_trip)
   char *line, *save = NULL;
   size_t k = 0;
   cap_open (&c);
-  jw_arr (&c.w, NULL);
+  bl_json_arr (&c.w, NULL);
   for (size_t i = 0; i < n; i++)
-    jw_num (&c.w, NULL, x[i]);
-  jw_arr_end (&c.w);
+    bl_json_num (&c.w, NULL, x[i]);
+  bl_json_arr_end (&c.w);
   cap_text (&c);
   root = parse (c.text);
   ck_assert_uint_eq (json_array_size (root), n);
@@ -243,21 +243,21 @@ START_TEST (json_negative_zero_and_nonfinite)
 {
   capture c;
   cap_open (&c);
-  jw_arr (&c.w, NULL);
-  jw_num (&c.w, NULL, -0.0);
-  jw_num (&c.w, NULL, 0.0);
-  jw_num (&c.w, NULL, NAN);
-  jw_num (&c.w, NULL, -NAN);
-  jw_num (&c.w, NULL, HUGE_VAL);
-  jw_num (&c.w, NULL, -HUGE_VAL);
-  jw_arr_end (&c.w);
+  bl_json_arr (&c.w, NULL);
+  bl_json_num (&c.w, NULL, -0.0);
+  bl_json_num (&c.w, NULL, 0.0);
+  bl_json_num (&c.w, NULL, NAN);
+  bl_json_num (&c.w, NULL, -NAN);
+  bl_json_num (&c.w, NULL, HUGE_VAL);
+  bl_json_num (&c.w, NULL, -HUGE_VAL);
+  bl_json_arr_end (&c.w);
   ck_assert_str_eq (cap_text (&c),
                     "[\n  0,\n  0,\n  null,\n  null,\n  null,\n  null\n]\n");
   /* with a key as well */
   cap_open (&c);
-  jw_obj (&c.w, NULL);
-  jw_num (&c.w, "inf", INFINITY);
-  jw_obj_end (&c.w);
+  bl_json_obj (&c.w, NULL);
+  bl_json_num (&c.w, "inf", INFINITY);
+  bl_json_obj_end (&c.w);
   ck_assert_str_eq (cap_text (&c), "{\n  \"inf\": null\n}\n");
 }
 END_TEST
@@ -349,14 +349,14 @@ START_TEST (json_failed_write_reported)
 {
   char path[600];
   FILE *f = read_only_stream (path, sizeof path);
-  bl_jsonw w;
-  jw_init (&w, f);
-  jw_obj (&w, NULL);
+  bl_json w;
+  bl_json_init (&w, f);
+  bl_json_obj (&w, NULL);
   ck_assert_int_ne (w.err, 0);              /* the first write already failed */
-  jw_str (&w, "k", "\xc3\xa9");             /* the byte-copy path fails the same way */
-  jw_num (&w, "x", 2.385);
-  jw_obj_end (&w);
-  ck_assert_int_ne (jw_finish (&w), 0);
+  bl_json_str (&w, "k", "\xc3\xa9");             /* the byte-copy path fails the same way */
+  bl_json_num (&w, "x", 2.385);
+  bl_json_obj_end (&w);
+  ck_assert_int_ne (bl_json_finish (&w), 0);
   fclose (f);
   remove (path);
 }
@@ -368,16 +368,16 @@ START_TEST (json_failed_write_is_sticky)
      finished there: the later writes succeed, but cannot clear the failure */
   char path[600];
   FILE *bad = read_only_stream (path, sizeof path), *good = tmpfile ();
-  bl_jsonw w;
+  bl_json w;
   ck_assert_ptr_nonnull (good);
-  jw_init (&w, bad);
-  jw_obj (&w, NULL);
+  bl_json_init (&w, bad);
+  bl_json_obj (&w, NULL);
   ck_assert_int_ne (w.err, 0);
   w.f = good;
-  jw_str (&w, "k", "v");
-  jw_num (&w, "x", 2.385);
-  jw_obj_end (&w);
-  ck_assert_int_ne (jw_finish (&w), 0);
+  bl_json_str (&w, "k", "v");
+  bl_json_num (&w, "x", 2.385);
+  bl_json_obj_end (&w);
+  ck_assert_int_ne (bl_json_finish (&w), 0);
   ck_assert_int_eq (ferror (good), 0);      /* the good stream took every later byte */
   ck_assert_int_gt (ftell (good), 0);
   fclose (good);
@@ -392,15 +392,15 @@ START_TEST (json_disk_full_reported)
      that each write reaches the device).  Skipped where /dev/full does not exist; the
      read-only stream tests cover the same code on every system. */
   FILE *full = fopen ("/dev/full", "w");
-  bl_jsonw w;
+  bl_json w;
   if (!full)
     return;
   ck_assert_int_eq (setvbuf (full, NULL, _IONBF, 0), 0);
-  jw_init (&w, full);
-  jw_arr (&w, NULL);
-  jw_size (&w, NULL, 3);
-  jw_arr_end (&w);
-  ck_assert_int_ne (jw_finish (&w), 0);
+  bl_json_init (&w, full);
+  bl_json_arr (&w, NULL);
+  bl_json_size (&w, NULL, 3);
+  bl_json_arr_end (&w);
+  ck_assert_int_ne (bl_json_finish (&w), 0);
   fclose (full);
 }
 END_TEST
@@ -408,20 +408,20 @@ END_TEST
 START_TEST (json_depth_limit_reported)
 {
   capture c;
-  /* JW_MAX_DEPTH - 1 open levels are fine ... */
+  /* BL_JSON_MAX_DEPTH - 1 open levels are fine ... */
   cap_open (&c);
-  for (int i = 0; i < JW_MAX_DEPTH - 1; i++)
-    jw_arr (&c.w, NULL);
-  for (int i = 0; i < JW_MAX_DEPTH - 1; i++)
-    jw_arr_end (&c.w);
+  for (int i = 0; i < BL_JSON_MAX_DEPTH - 1; i++)
+    bl_json_arr (&c.w, NULL);
+  for (int i = 0; i < BL_JSON_MAX_DEPTH - 1; i++)
+    bl_json_arr_end (&c.w);
   cap_text (&c);
   json_decref (parse (c.text));
-  /* ... one more is an error that jw_finish reports */
+  /* ... one more is an error that bl_json_finish reports */
   cap_open (&c);
-  for (int i = 0; i < JW_MAX_DEPTH; i++)
-    jw_arr (&c.w, NULL);
+  for (int i = 0; i < BL_JSON_MAX_DEPTH; i++)
+    bl_json_arr (&c.w, NULL);
   ck_assert_int_ne (c.w.err, 0);
-  ck_assert_int_ne (jw_finish (&c.w), 0);
+  ck_assert_int_ne (bl_json_finish (&c.w), 0);
   fclose (c.f);
 }
 END_TEST

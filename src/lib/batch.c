@@ -20,7 +20,7 @@
 #include "batch.h"
 #include "diag.h"
 #include "job_run.h"
-#include "jsonw.h"
+#include "report_impl.h"
 #include "report.h"
 #include "thread.h"
 #include "ballast.h"
@@ -361,14 +361,14 @@ job_files (run_ctx *rc, const bl_spec_job *sj, const bl_job_result *res, const b
     else if (fit)
       st = bl_report_fit_json (mb.f, fit, &info, e);
     else {
-      bl_jsonw w;
-      jw_init (&w, mb.f);
-      jw_obj (&w, NULL);
-      jw_str (&w, "job", sj->name);
-      jw_str (&w, "status", "failed");
-      jw_str (&w, "error", row->message);
-      jw_obj_end (&w);
-      st = jw_finish (&w) ? BL_EIO : BL_OK;
+      bl_json w;
+      bl_json_init (&w, mb.f);
+      bl_json_obj (&w, NULL);
+      bl_json_str (&w, "job", sj->name);
+      bl_json_str (&w, "status", "failed");
+      bl_json_str (&w, "error", row->message);
+      bl_json_obj_end (&w);
+      st = bl_json_finish (&w) ? BL_EIO : BL_OK;
     }
     st = render_status (&mb, st, where, "result.json", e);
     if (st == BL_ENOMEM)
@@ -561,7 +561,7 @@ write_summaries (run_ctx *rc, bl_err *err)
 {
   const size_t nj = bl_spec_njobs (rc->spec);
   membuf mj = { NULL, 0, NULL }, mc = { NULL, 0, NULL }, mh = { NULL, 0, NULL };
-  bl_jsonw w;
+  bl_json w;
   size_t failed = 0;
   int st = BL_OK;
   const char **sections = NULL;
@@ -571,27 +571,27 @@ write_summaries (run_ctx *rc, bl_err *err)
   }
   /* summary.json */
   bl_report_head_json (&w, mj.f, bl_version (), NULL, NULL);
-  jw_str (&w, "spec", bl_spec_stem (rc->spec));
-  jw_arr (&w, "jobs");
+  bl_json_str (&w, "spec", bl_spec_stem (rc->spec));
+  bl_json_arr (&w, "jobs");
   for (size_t i = 0; i < nj; i++) {
     const bl_batch_row *r = &rc->rows[i];
     failed += !r->ok;
-    jw_obj (&w, NULL);
-    jw_str (&w, "job", r->job);
-    jw_str (&w, "status", r->ok ? "done" : "failed");
-    jw_str (&w, "method", r->method);
-    jw_str (&w, "winner", r->winner[0] ? r->winner : NULL);
-    jw_num (&w, "aic", r->aic);
-    jw_num (&w, "delta", r->delta);
-    jw_num (&w, "spread_ratio", r->spread_ratio);
-    jw_size (&w, "n", r->n);
-    jw_str (&w, "message", r->message);
-    jw_obj_end (&w);
+    bl_json_obj (&w, NULL);
+    bl_json_str (&w, "job", r->job);
+    bl_json_str (&w, "status", r->ok ? "done" : "failed");
+    bl_json_str (&w, "method", r->method);
+    bl_json_str (&w, "winner", r->winner[0] ? r->winner : NULL);
+    bl_json_num (&w, "aic", r->aic);
+    bl_json_num (&w, "delta", r->delta);
+    bl_json_num (&w, "spread_ratio", r->spread_ratio);
+    bl_json_size (&w, "n", r->n);
+    bl_json_str (&w, "message", r->message);
+    bl_json_obj_end (&w);
   }
-  jw_arr_end (&w);
-  jw_size (&w, "failed", failed);
-  jw_obj_end (&w);
-  if (jw_finish (&w) != 0 || mem_close (&mj) != 0) {
+  bl_json_arr_end (&w);
+  bl_json_size (&w, "failed", failed);
+  bl_json_obj_end (&w);
+  if (bl_json_finish (&w) != 0 || mem_close (&mj) != 0) {
     st = bl_fail (err, BL_ENOMEM, "run", "out of memory rendering 'summary.json'");
     goto out;
   }

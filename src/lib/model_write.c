@@ -1,6 +1,6 @@
 /* model_write.c -- a fitted model saved as JSON (doc/model-format.md): bl_model_write.
 
-   Writing uses the streaming writer (jsonw.h, numbers %.17g, so every double reads back
+   Writing uses the streaming writer (json.h, numbers %.17g, so every double reads back
    bit for bit); model_read.c reads the file back with Jansson and checks it. */
 #include <errno.h>
 #include <math.h>
@@ -8,7 +8,7 @@
 #include <string.h>
 #include "ballast.h"
 #include "design.h"
-#include "jsonw.h"
+#include "json.h"
 #include "model_impl.h"
 
 static const char *
@@ -33,7 +33,7 @@ variance_name (bl_variance k)
    stride-th residual (the subsample of bl_fit_backtransform above BL_SMEAR_MAX, here with
    BL_MODEL_RESIDUALS_MAX). */
 static void
-write_smearing (bl_jsonw *w, const bl_fit *fit)
+write_smearing (bl_json *w, const bl_fit *fit)
 {
   const size_t n = bl_fit_stats_get (fit)->n;
   const double *y = bl_fit_y (fit), *mu = bl_fit_mu (fit);
@@ -42,18 +42,18 @@ write_smearing (bl_jsonw *w, const bl_fit *fit)
   const bl_fit_transform_info *tr = bl_fit_transform (fit);
   const long double se = tr->smear_sum_exp, s1 = tr->smear_sum, s2 = tr->smear_sum_sq;
   const double emin = n ? tr->smear_min : HUGE_VAL;
-  jw_obj (w, "smearing");
-  jw_size (w, "n", n);
-  jw_size (w, "stride", stride);
-  jw_num (w, "mean_exp", n ? (double) (se / (long double) n) : NAN);
-  jw_num (w, "mean", n ? (double) (s1 / (long double) n) : NAN);
-  jw_num (w, "mean_sq", n ? (double) (s2 / (long double) n) : NAN);
-  jw_num (w, "min", emin);
-  jw_arr (w, "residuals");
+  bl_json_obj (w, "smearing");
+  bl_json_size (w, "n", n);
+  bl_json_size (w, "stride", stride);
+  bl_json_num (w, "mean_exp", n ? (double) (se / (long double) n) : NAN);
+  bl_json_num (w, "mean", n ? (double) (s1 / (long double) n) : NAN);
+  bl_json_num (w, "mean_sq", n ? (double) (s2 / (long double) n) : NAN);
+  bl_json_num (w, "min", emin);
+  bl_json_arr (w, "residuals");
   for (size_t i = 0; i < n; i += stride)
-    jw_num (w, NULL, y[i] - mu[i]);
-  jw_arr_end (w);
-  jw_obj_end (w);
+    bl_json_num (w, NULL, y[i] - mu[i]);
+  bl_json_arr_end (w);
+  bl_json_obj_end (w);
 }
 
 
@@ -78,109 +78,109 @@ variance_column (const bl_fit_variance_info *vi, char *varcol, size_t cap, bl_er
 /* What the new data must hold: source, response, intercept, terms, offset, weights, the
    categorical columns with their levels and references, and the column labels. */
 static void
-write_design (bl_jsonw *w, const bl_design *d, const bl_terms *terms, const bl_terms *offset,
+write_design (bl_json *w, const bl_design *d, const bl_terms *terms, const bl_terms *offset,
               const char *weights)
 {
-  jw_str (w, "source", bl_design_source (d));
-  jw_str (w, "response", bl_design_response (d));
-  jw_bool (w, "intercept", bl_design_has_intercept (d));
-  jw_arr (w, "terms");
+  bl_json_str (w, "source", bl_design_source (d));
+  bl_json_str (w, "response", bl_design_response (d));
+  bl_json_bool (w, "intercept", bl_design_has_intercept (d));
+  bl_json_arr (w, "terms");
   for (size_t i = 0; i < bl_terms_count (terms); i++)
-    jw_str (w, NULL, bl_terms_get (terms, i)->label);
-  jw_arr_end (w);
-  jw_str (w, "offset", offset ? bl_terms_get (offset, 0)->label : NULL);
-  jw_str (w, "weights", weights);
-  jw_arr (w, "categorical");
+    bl_json_str (w, NULL, bl_terms_get (terms, i)->label);
+  bl_json_arr_end (w);
+  bl_json_str (w, "offset", offset ? bl_terms_get (offset, 0)->label : NULL);
+  bl_json_str (w, "weights", weights);
+  bl_json_arr (w, "categorical");
   for (size_t i = 0; i < bl_design_ncat (d); i++) {
-    jw_obj (w, NULL);
-    jw_str (w, "column", bl_design_cat_column (d, i));
-    jw_arr (w, "levels");
+    bl_json_obj (w, NULL);
+    bl_json_str (w, "column", bl_design_cat_column (d, i));
+    bl_json_arr (w, "levels");
     for (size_t k = 0; k < bl_design_cat_nlevels (d, i); k++)
-      jw_str (w, NULL, bl_design_cat_level (d, i, k));
-    jw_arr_end (w);
-    jw_str (w, "reference", bl_design_cat_reference (d, i));
-    jw_obj_end (w);
+      bl_json_str (w, NULL, bl_design_cat_level (d, i, k));
+    bl_json_arr_end (w);
+    bl_json_str (w, "reference", bl_design_cat_reference (d, i));
+    bl_json_obj_end (w);
   }
-  jw_arr_end (w);
-  jw_arr (w, "columns");
+  bl_json_arr_end (w);
+  bl_json_arr (w, "columns");
   for (size_t j = 0; j < bl_design_p (d); j++)
-    jw_str (w, NULL, bl_design_label (d, j));
-  jw_arr_end (w);
+    bl_json_str (w, NULL, bl_design_label (d, j));
+  bl_json_arr_end (w);
 }
 
 /* The kind of model: method, family and link (with the family's parameter), variance
    function, transform and its smearing residuals. */
 static void
-write_kinds (bl_jsonw *w, const bl_fit *fit, const char *varcol)
+write_kinds (bl_json *w, const bl_fit *fit, const char *varcol)
 {
   const bl_fit_transform_info *tr = bl_fit_transform (fit);
   const bl_fit_variance_info *vi = bl_fit_variance (fit);
   const bl_family *fam = bl_fit_family (fit);
-  jw_str (w, "method", bl_method_name (bl_fit_method (fit)));
-  jw_str (w, "family", bl_family_name (fam));
-  jw_str (w, "link", bl_fit_link (fit)->name);
+  bl_json_str (w, "method", bl_method_name (bl_fit_method (fit)));
+  bl_json_str (w, "family", bl_family_name (fam));
+  bl_json_str (w, "link", bl_fit_link (fit)->name);
   if (bl_family_par_name (fam))
-    jw_num (w, "family_par", bl_fit_family_par (fit));
+    bl_json_num (w, "family_par", bl_fit_family_par (fit));
   else
-    jw_null (w, "family_par");
-  jw_obj (w, "variance");
-  jw_str (w, "kind", variance_name (vi->kind));
-  jw_str (w, "column", vi->kind == BL_VARIANCE_COLUMN ? varcol : NULL);
+    bl_json_null (w, "family_par");
+  bl_json_obj (w, "variance");
+  bl_json_str (w, "kind", variance_name (vi->kind));
+  bl_json_str (w, "column", vi->kind == BL_VARIANCE_COLUMN ? varcol : NULL);
   if (vi->kind == BL_VARIANCE_NONE)
-    jw_null (w, "power");
+    bl_json_null (w, "power");
   else
-    jw_num (w, "power", vi->power);
-  jw_str (w, "expr", vi->expr);
-  jw_obj_end (w);
-  jw_obj (w, "transform");
-  jw_str (w, "kind", transform_name (tr->kind));
+    bl_json_num (w, "power", vi->power);
+  bl_json_str (w, "expr", vi->expr);
+  bl_json_obj_end (w);
+  bl_json_obj (w, "transform");
+  bl_json_str (w, "kind", transform_name (tr->kind));
   if (tr->kind == BL_TRANSFORM_BOXCOX)
-    jw_num (w, "lambda", tr->lambda);
+    bl_json_num (w, "lambda", tr->lambda);
   else
-    jw_null (w, "lambda");
-  jw_num (w, "shift", tr->kind == BL_TRANSFORM_NONE ? 0.0 : tr->shift);
-  jw_obj_end (w);
+    bl_json_null (w, "lambda");
+  bl_json_num (w, "shift", tr->kind == BL_TRANSFORM_NONE ? 0.0 : tr->shift);
+  bl_json_obj_end (w);
   if (tr->kind != BL_TRANSFORM_NONE)
     write_smearing (w, fit);
   else
-    jw_null (w, "smearing");
+    bl_json_null (w, "smearing");
 }
 
 /* The estimates: coefficients (null when aliased), covariance, dispersions, counts, level. */
 static void
-write_estimates (bl_jsonw *w, const bl_fit *fit)
+write_estimates (bl_json *w, const bl_fit *fit)
 {
   const bl_fit_stats *st = bl_fit_stats_get (fit);
   const double *beta = bl_fit_beta (fit), *cov = bl_fit_cov (fit);
   const int *aliased = bl_fit_aliased (fit);
   const size_t p = bl_design_p (bl_fit_design (fit));
-  jw_arr (w, "coef");
+  bl_json_arr (w, "coef");
   for (size_t j = 0; j < p; j++)
     if (aliased[j])
-      jw_null (w, NULL);
+      bl_json_null (w, NULL);
     else
-      jw_num (w, NULL, beta[j]);
-  jw_arr_end (w);
-  jw_arr (w, "cov");
+      bl_json_num (w, NULL, beta[j]);
+  bl_json_arr_end (w);
+  bl_json_arr (w, "cov");
   for (size_t j = 0; j < p; j++) {
-    jw_arr (w, NULL);
+    bl_json_arr (w, NULL);
     for (size_t k = 0; k < p; k++)
       if (aliased[j] || aliased[k])
-        jw_null (w, NULL);
+        bl_json_null (w, NULL);
       else
-        jw_num (w, NULL, cov[j + k * p]);
-    jw_arr_end (w);
+        bl_json_num (w, NULL, cov[j + k * p]);
+    bl_json_arr_end (w);
   }
-  jw_arr_end (w);
-  jw_str (w, "se_kind", st->se_kind);
-  jw_num (w, "dispersion", st->phi_used);
-  jw_num (w, "phi_pearson", st->phi_pearson);
-  jw_num (w, "phi_ml", st->phi_ml);
-  jw_size (w, "n", st->n);
-  jw_size (w, "rank", st->rank);
-  jw_size (w, "dof_resid", st->dof_resid);
-  jw_bool (w, "wald_is_t", st->wald_is_t);
-  jw_num (w, "level", st->level);
+  bl_json_arr_end (w);
+  bl_json_str (w, "se_kind", st->se_kind);
+  bl_json_num (w, "dispersion", st->phi_used);
+  bl_json_num (w, "phi_pearson", st->phi_pearson);
+  bl_json_num (w, "phi_ml", st->phi_ml);
+  bl_json_size (w, "n", st->n);
+  bl_json_size (w, "rank", st->rank);
+  bl_json_size (w, "dof_resid", st->dof_resid);
+  bl_json_bool (w, "wald_is_t", st->wald_is_t);
+  bl_json_num (w, "level", st->level);
 }
 
 int
@@ -189,7 +189,7 @@ bl_model_write (FILE *out, const bl_fit *fit, const bl_terms *terms, const bl_te
 {
   const bl_fit_variance_info *vi = bl_fit_variance (fit);
   char varcol[sizeof vi->expr];
-  bl_jsonw w;
+  bl_json w;
   int status;
 
   if (!bl_fit_stats_get (fit)->converged)
@@ -197,16 +197,16 @@ bl_model_write (FILE *out, const bl_fit *fit, const bl_terms *terms, const bl_te
                     "save");
   if ((status = variance_column (vi, varcol, sizeof varcol, err)) != BL_OK)
     return status;
-  jw_init (&w, out);
-  jw_obj (&w, NULL);
-  jw_str (&w, "format", BL_MODEL_FORMAT_NAME);
-  jw_size (&w, "format_version", BL_MODEL_FORMAT);
-  jw_str (&w, "ballast_version", bl_version ());
+  bl_json_init (&w, out);
+  bl_json_obj (&w, NULL);
+  bl_json_str (&w, "format", BL_MODEL_FORMAT_NAME);
+  bl_json_size (&w, "format_version", BL_MODEL_FORMAT);
+  bl_json_str (&w, "ballast_version", bl_version ());
   write_design (&w, bl_fit_design (fit), terms, offset, weights);
   write_kinds (&w, fit, varcol);
   write_estimates (&w, fit);
-  jw_obj_end (&w);
-  if (jw_finish (&w) || fflush (out) != 0)
+  bl_json_obj_end (&w);
+  if (bl_json_finish (&w) || fflush (out) != 0)
     return bl_fail (err, BL_EIO, "model", "write failed: %s", strerror (errno));
   return BL_OK;
 }

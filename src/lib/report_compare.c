@@ -1,7 +1,7 @@
 /* report_compare.c -- the ranked table of candidates, as JSON or as text. */
 #include <math.h>
 #include <string.h>
-#include "jsonw.h"
+#include "report_impl.h"
 #include "report.h"
 
 int
@@ -10,72 +10,72 @@ bl_report_compare_json (FILE *out, const bl_compare *c, const bl_design *d,
 {
   const long win = bl_compare_winner (c);
   const bl_warnings *adv = bl_compare_advice (c);
-  bl_jsonw w;
+  bl_json w;
   bl_report_head_json (&w, out, info->tool_version, d, info->source);
-  jw_str (&w, "response", bl_design_response (d));
-  jw_bool (&w, "integer_y", bl_compare_integer_y (c));
-  jw_str (&w, "rank_by", bl_compare_rank_by (c));
-  jw_bool (&w, "ranked_by_group", bl_compare_zero_groups (c));
-  jw_size (&w, "folds", bl_compare_folds (c));
-  jw_size (&w, "seed", (size_t) bl_compare_seed (c));
-  jw_arr (&w, "candidates");
+  bl_json_str (&w, "response", bl_design_response (d));
+  bl_json_bool (&w, "integer_y", bl_compare_integer_y (c));
+  bl_json_str (&w, "rank_by", bl_compare_rank_by (c));
+  bl_json_bool (&w, "ranked_by_group", bl_compare_zero_groups (c));
+  bl_json_size (&w, "folds", bl_compare_folds (c));
+  bl_json_size (&w, "seed", (size_t) bl_compare_seed (c));
+  bl_json_arr (&w, "candidates");
   for (size_t i = 0; i < bl_compare_count (c); i++) {
     const bl_candidate *k = bl_compare_get (c, i);
-    jw_obj (&w, NULL);
-    jw_str (&w, "id", k->id);
-    jw_str (&w, "description", k->description);
-    jw_str (&w, "method", k->method);
-    jw_str (&w, "family", k->family);
-    jw_str (&w, "link", k->link);
-    jw_str (&w, "transform", k->transform);
-    jw_num (&w, "lambda", k->lambda);
-    jw_num (&w, "variance_power", k->variance_power);
-    jw_num (&w, "theta", k->theta);
-    jw_num (&w, "power", k->power);
+    bl_json_obj (&w, NULL);
+    bl_json_str (&w, "id", k->id);
+    bl_json_str (&w, "description", k->description);
+    bl_json_str (&w, "method", k->method);
+    bl_json_str (&w, "family", k->family);
+    bl_json_str (&w, "link", k->link);
+    bl_json_str (&w, "transform", k->transform);
+    bl_json_num (&w, "lambda", k->lambda);
+    bl_json_num (&w, "variance_power", k->variance_power);
+    bl_json_num (&w, "theta", k->theta);
+    bl_json_num (&w, "power", k->power);
     if (k->group)
-      jw_str (&w, "group", k->group);
-    jw_bool (&w, "applicable", k->applicable);
-    jw_size (&w, "n", k->n);
+      bl_json_str (&w, "group", k->group);
+    bl_json_bool (&w, "applicable", k->applicable);
+    bl_json_size (&w, "n", k->n);
     if (k->converged) {
-      jw_size (&w, "k", k->k);
-      jw_size (&w, "rank", k->rank);
+      bl_json_size (&w, "k", k->k);
+      bl_json_size (&w, "rank", k->rank);
     } else {
-      jw_null (&w, "k");
-      jw_null (&w, "rank");
+      bl_json_null (&w, "k");
+      bl_json_null (&w, "rank");
     }
-    jw_num (&w, "loglik", k->loglik);
-    jw_num (&w, "aic", k->aic);
-    jw_num (&w, "aicc", k->aicc);
-    jw_num (&w, "bic", k->bic);
-    jw_num (&w, "loglik_discrete", k->loglik_discrete);
-    jw_num (&w, "aic_discrete", k->aic_discrete);
-    jw_num (&w, "delta_aic", k->delta_aic);
-    jw_num (&w, "akaike_weight", k->akaike_weight);
-    jw_num (&w, "cv_rmse", k->cv_rmse);
-    jw_num (&w, "cv_mae", k->cv_mae);
-    jw_num (&w, "spread_ratio", k->spread_ratio);
-    jw_num (&w, "spread_null95", k->spread_null95);
-    jw_num (&w, "normality_stat", k->normality_stat);
-    jw_num (&w, "normality_p", k->normality_p);
-    jw_bool (&w, "converged", k->converged);
+    bl_json_num (&w, "loglik", k->loglik);
+    bl_json_num (&w, "aic", k->aic);
+    bl_json_num (&w, "aicc", k->aicc);
+    bl_json_num (&w, "bic", k->bic);
+    bl_json_num (&w, "loglik_discrete", k->loglik_discrete);
+    bl_json_num (&w, "aic_discrete", k->aic_discrete);
+    bl_json_num (&w, "delta_aic", k->delta_aic);
+    bl_json_num (&w, "akaike_weight", k->akaike_weight);
+    bl_json_num (&w, "cv_rmse", k->cv_rmse);
+    bl_json_num (&w, "cv_mae", k->cv_mae);
+    bl_json_num (&w, "spread_ratio", k->spread_ratio);
+    bl_json_num (&w, "spread_null95", k->spread_null95);
+    bl_json_num (&w, "normality_stat", k->normality_stat);
+    bl_json_num (&w, "normality_p", k->normality_p);
+    bl_json_bool (&w, "converged", k->converged);
     if (k->rank_position)
-      jw_size (&w, "position", k->rank_position);
+      bl_json_size (&w, "position", k->rank_position);
     else
-      jw_null (&w, "position");
-    jw_arr (&w, "notes");
+      bl_json_null (&w, "position");
+    bl_json_arr (&w, "notes");
     for (size_t j = 0; j < k->notes.n; j++)
-      jw_str (&w, NULL, k->notes.msg[j]);
-    jw_arr_end (&w);
-    jw_obj_end (&w);
+      bl_json_str (&w, NULL, k->notes.msg[j]);
+    bl_json_arr_end (&w);
+    bl_json_obj_end (&w);
   }
-  jw_arr_end (&w);
-  jw_str (&w, "recommended", win >= 0 ? bl_compare_get (c, (size_t) win)->id : NULL);
-  jw_arr (&w, "advice");
+  bl_json_arr_end (&w);
+  bl_json_str (&w, "recommended", win >= 0 ? bl_compare_get (c, (size_t) win)->id : NULL);
+  bl_json_arr (&w, "advice");
   for (size_t j = 0; j < adv->n; j++)
-    jw_str (&w, NULL, adv->msg[j]);
-  jw_arr_end (&w);
-  jw_obj_end (&w);
-  if (jw_finish (&w) || fflush (out) != 0)
+    bl_json_str (&w, NULL, adv->msg[j]);
+  bl_json_arr_end (&w);
+  bl_json_obj_end (&w);
+  if (bl_json_finish (&w) || fflush (out) != 0)
     return bl_fail (err, BL_EIO, "output", "write failed");
   return BL_OK;
 }

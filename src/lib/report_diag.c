@@ -1,25 +1,25 @@
 /* report_diag.c -- diagnostics and the residual table: const results in, text out. */
 #include <math.h>
 #include <string.h>
-#include "jsonw.h"
+#include "report_impl.h"
 #include "report.h"
 
 /* The "data" object shared by every JSON document. */
 static void
-test_json (bl_jsonw *w, const char *key, const bl_diag_test *t)
+test_json (bl_json *w, const char *key, const bl_diag_test *t)
 {
-  jw_obj (w, key);
+  bl_json_obj (w, key);
   if (t->done) {
-    jw_num (w, "stat", t->stat);
-    jw_size (w, "dof", t->dof);
-    jw_num (w, "p", t->p);
+    bl_json_num (w, "stat", t->stat);
+    bl_json_size (w, "dof", t->dof);
+    bl_json_num (w, "p", t->p);
   } else {
-    jw_null (w, "stat");
-    jw_null (w, "dof");
-    jw_null (w, "p");
-    jw_str (w, "skipped", t->why);
+    bl_json_null (w, "stat");
+    bl_json_null (w, "dof");
+    bl_json_null (w, "p");
+    bl_json_str (w, "skipped", t->why);
   }
-  jw_obj_end (w);
+  bl_json_obj_end (w);
 }
 
 int
@@ -28,87 +28,87 @@ bl_report_diag_json (FILE *out, const bl_fit *fit, const bl_diag *dg,
 {
   const bl_diag_result *r = bl_diag_get (dg);
   const bl_design *d = bl_fit_design (fit);
-  bl_jsonw w;
+  bl_json w;
   bl_report_head_json (&w, out, info->tool_version, d, info->source);
-  jw_obj (&w, "model");
-  jw_str (&w, "method", bl_method_name (bl_fit_method (fit)));
-  jw_str (&w, "family", bl_fit_family (fit)->name);
-  jw_str (&w, "link", bl_fit_link (fit)->name);
-  jw_str (&w, "transform", bl_fit_transform (fit)->name);
-  jw_str (&w, "response", bl_design_response (d));
-  jw_obj_end (&w);
-  jw_str (&w, "residual", "pearson");
+  bl_json_obj (&w, "model");
+  bl_json_str (&w, "method", bl_method_name (bl_fit_method (fit)));
+  bl_json_str (&w, "family", bl_fit_family (fit)->name);
+  bl_json_str (&w, "link", bl_fit_link (fit)->name);
+  bl_json_str (&w, "transform", bl_fit_transform (fit)->name);
+  bl_json_str (&w, "response", bl_design_response (d));
+  bl_json_obj_end (&w);
+  bl_json_str (&w, "residual", "pearson");
   test_json (&w, "breusch_pagan", &r->breusch_pagan);
   test_json (&w, "koenker", &r->koenker);
   test_json (&w, "white", &r->white);
-  jw_obj (&w, "spread");
-  jw_num (&w, "ratio", r->spread.ratio);
-  jw_num (&w, "null95", r->spread.null95);
-  jw_bool (&w, "flag", r->spread.flag);
-  jw_num (&w, "flag_at", BL_DIAG_SPREAD_FLAG);
+  bl_json_obj (&w, "spread");
+  bl_json_num (&w, "ratio", r->spread.ratio);
+  bl_json_num (&w, "null95", r->spread.null95);
+  bl_json_bool (&w, "flag", r->spread.flag);
+  bl_json_num (&w, "flag_at", BL_DIAG_SPREAD_FLAG);
   if (r->spread.why[0])
-    jw_str (&w, "why_null", r->spread.why);
-  jw_arr (&w, "groups");
+    bl_json_str (&w, "why_null", r->spread.why);
+  bl_json_arr (&w, "groups");
   for (size_t g = 0; g < r->spread.ngroups; g++) {
-    jw_obj (&w, NULL);
-    jw_size (&w, "n", r->spread.groups[g].n);
-    jw_num (&w, "fitted_mean", r->spread.groups[g].fitted_mean);
-    jw_num (&w, "rms", r->spread.groups[g].rms);
-    jw_obj_end (&w);
+    bl_json_obj (&w, NULL);
+    bl_json_size (&w, "n", r->spread.groups[g].n);
+    bl_json_num (&w, "fitted_mean", r->spread.groups[g].fitted_mean);
+    bl_json_num (&w, "rms", r->spread.groups[g].rms);
+    bl_json_obj_end (&w);
   }
-  jw_arr_end (&w);
-  jw_obj_end (&w);
-  jw_obj (&w, "variance_power");
-  jw_num (&w, "estimate", r->power.estimate);
-  jw_num (&w, "se", r->power.se);
-  jw_num (&w, "lo", r->power.lo);
-  jw_num (&w, "hi", r->power.hi);
-  jw_size (&w, "groups_used", r->power.groups_used);
-  jw_size (&w, "groups_left_out", r->power.groups_left_out);
+  bl_json_arr_end (&w);
+  bl_json_obj_end (&w);
+  bl_json_obj (&w, "variance_power");
+  bl_json_num (&w, "estimate", r->power.estimate);
+  bl_json_num (&w, "se", r->power.se);
+  bl_json_num (&w, "lo", r->power.lo);
+  bl_json_num (&w, "hi", r->power.hi);
+  bl_json_size (&w, "groups_used", r->power.groups_used);
+  bl_json_size (&w, "groups_left_out", r->power.groups_left_out);
   if (!r->power.done)
-    jw_str (&w, "why_null", r->power.why);
-  jw_obj_end (&w);
-  jw_str (&w, "suggested_family", r->power.suggested);
+    bl_json_str (&w, "why_null", r->power.why);
+  bl_json_obj_end (&w);
+  bl_json_str (&w, "suggested_family", r->power.suggested);
   if (info->by) {
     const bl_bf *b = info->by;
-    jw_obj (&w, "by");
-    jw_str (&w, "column", b->column);
-    jw_str (&w, "test", "brown-forsythe");
-    jw_num (&w, "stat", b->stat);
-    jw_size (&w, "dof", b->dof);
-    jw_size (&w, "dof2", b->dof2);
-    jw_num (&w, "p", b->p);
-    jw_arr (&w, "groups");
+    bl_json_obj (&w, "by");
+    bl_json_str (&w, "column", b->column);
+    bl_json_str (&w, "test", "brown-forsythe");
+    bl_json_num (&w, "stat", b->stat);
+    bl_json_size (&w, "dof", b->dof);
+    bl_json_size (&w, "dof2", b->dof2);
+    bl_json_num (&w, "p", b->p);
+    bl_json_arr (&w, "groups");
     for (size_t g = 0; g < b->ngroups; g++) {
-      jw_obj (&w, NULL);
-      jw_str (&w, "level", b->groups[g].level);
-      jw_size (&w, "n", b->groups[g].n);
-      jw_num (&w, "median", b->groups[g].median);
-      jw_num (&w, "spread", b->groups[g].spread);
-      jw_obj_end (&w);
+      bl_json_obj (&w, NULL);
+      bl_json_str (&w, "level", b->groups[g].level);
+      bl_json_size (&w, "n", b->groups[g].n);
+      bl_json_num (&w, "median", b->groups[g].median);
+      bl_json_num (&w, "spread", b->groups[g].spread);
+      bl_json_obj_end (&w);
     }
-    jw_arr_end (&w);
-    jw_obj_end (&w);
+    bl_json_arr_end (&w);
+    bl_json_obj_end (&w);
   }
-  jw_obj (&w, "lack_of_fit");
-  jw_bool (&w, "flag", r->lof.flag);
-  jw_num (&w, "z", BL_DIAG_LOF_Z);
-  jw_arr (&w, "groups");
+  bl_json_obj (&w, "lack_of_fit");
+  bl_json_bool (&w, "flag", r->lof.flag);
+  bl_json_num (&w, "z", BL_DIAG_LOF_Z);
+  bl_json_arr (&w, "groups");
   for (size_t g = 0; g < r->lof.ngroups; g++) {
     const bl_lof_group *q = &r->lof.groups[g];
-    jw_obj (&w, NULL);
-    jw_str (&w, "against", q->against);
-    jw_size (&w, "n", q->n);
-    jw_num (&w, "x_mean", q->x_mean);
-    jw_num (&w, "resid_mean", q->resid_mean);
-    jw_num (&w, "se", q->se);
-    jw_bool (&w, "flag", q->flag);
-    jw_obj_end (&w);
+    bl_json_obj (&w, NULL);
+    bl_json_str (&w, "against", q->against);
+    bl_json_size (&w, "n", q->n);
+    bl_json_num (&w, "x_mean", q->x_mean);
+    bl_json_num (&w, "resid_mean", q->resid_mean);
+    bl_json_num (&w, "se", q->se);
+    bl_json_bool (&w, "flag", q->flag);
+    bl_json_obj_end (&w);
   }
-  jw_arr_end (&w);
-  jw_obj_end (&w);
-  jw_obj_end (&w);
-  if (jw_finish (&w) || fflush (out) != 0)
+  bl_json_arr_end (&w);
+  bl_json_obj_end (&w);
+  bl_json_obj_end (&w);
+  if (bl_json_finish (&w) || fflush (out) != 0)
     return bl_fail (err, BL_EIO, "output", "write failed");
   return BL_OK;
 }

@@ -1,10 +1,10 @@
-/* jsonw.c -- the streaming JSON writer (see jsonw.h). */
+/* json.c -- the streaming JSON writer (see json.h). */
 #include <math.h>
 #include <stdio.h>
-#include "jsonw.h"
+#include "json.h"
 
 void
-jw_init (bl_jsonw *w, FILE *f)
+bl_json_init (bl_json *w, FILE *f)
 {
   w->f = f;
   w->depth = 0;
@@ -13,21 +13,21 @@ jw_init (bl_jsonw *w, FILE *f)
 }
 
 static void
-put (bl_jsonw *w, const char *s)
+put (bl_json *w, const char *s)
 {
   if (fputs (s, w->f) == EOF)
     w->err = 1;
 }
 
 static void
-indent (bl_jsonw *w)
+indent (bl_json *w)
 {
   for (int i = 0; i < w->depth; i++)
     put (w, "  ");
 }
 
 static void
-put_string (bl_jsonw *w, const char *s)
+put_string (bl_json *w, const char *s)
 {
   put (w, "\"");
   for (const unsigned char *c = (const unsigned char *) s; *c; c++) {
@@ -52,7 +52,7 @@ put_string (bl_jsonw *w, const char *s)
 
 /* Separator, newline, indentation and "key": before a member. */
 static void
-member (bl_jsonw *w, const char *key)
+member (bl_json *w, const char *key)
 {
   if (w->depth > 0) {
     put (w, w->count[w->depth] ? ",\n" : "\n");
@@ -66,11 +66,11 @@ member (bl_jsonw *w, const char *key)
 }
 
 static void
-open_level (bl_jsonw *w, const char *key, const char *bracket)
+open_level (bl_json *w, const char *key, const char *bracket)
 {
   member (w, key);
   put (w, bracket);
-  if (w->depth + 1 < JW_MAX_DEPTH) {
+  if (w->depth + 1 < BL_JSON_MAX_DEPTH) {
     w->depth++;
     w->count[w->depth] = 0;
   } else {
@@ -79,7 +79,7 @@ open_level (bl_jsonw *w, const char *key, const char *bracket)
 }
 
 static void
-close_level (bl_jsonw *w, const char *bracket)
+close_level (bl_json *w, const char *bracket)
 {
   const int had = w->count[w->depth];
   if (w->depth > 0)
@@ -91,13 +91,13 @@ close_level (bl_jsonw *w, const char *bracket)
   put (w, bracket);
 }
 
-void jw_obj (bl_jsonw *w, const char *key) { open_level (w, key, "{"); }
-void jw_obj_end (bl_jsonw *w) { close_level (w, "}"); }
-void jw_arr (bl_jsonw *w, const char *key) { open_level (w, key, "["); }
-void jw_arr_end (bl_jsonw *w) { close_level (w, "]"); }
+void bl_json_obj (bl_json *w, const char *key) { open_level (w, key, "{"); }
+void bl_json_obj_end (bl_json *w) { close_level (w, "}"); }
+void bl_json_arr (bl_json *w, const char *key) { open_level (w, key, "["); }
+void bl_json_arr_end (bl_json *w) { close_level (w, "]"); }
 
 void
-jw_str (bl_jsonw *w, const char *key, const char *val)
+bl_json_str (bl_json *w, const char *key, const char *val)
 {
   member (w, key);
   if (val)
@@ -107,7 +107,7 @@ jw_str (bl_jsonw *w, const char *key, const char *val)
 }
 
 void
-jw_num (bl_jsonw *w, const char *key, double val)
+bl_json_num (bl_json *w, const char *key, double val)
 {
   char buf[40];
   member (w, key);
@@ -122,7 +122,7 @@ jw_num (bl_jsonw *w, const char *key, double val)
 }
 
 void
-jw_size (bl_jsonw *w, const char *key, size_t val)
+bl_json_size (bl_json *w, const char *key, size_t val)
 {
   char buf[32];
   member (w, key);
@@ -131,21 +131,21 @@ jw_size (bl_jsonw *w, const char *key, size_t val)
 }
 
 void
-jw_bool (bl_jsonw *w, const char *key, int val)
+bl_json_bool (bl_json *w, const char *key, int val)
 {
   member (w, key);
   put (w, val ? "true" : "false");
 }
 
 void
-jw_null (bl_jsonw *w, const char *key)
+bl_json_null (bl_json *w, const char *key)
 {
   member (w, key);
   put (w, "null");
 }
 
 int
-jw_finish (bl_jsonw *w)
+bl_json_finish (bl_json *w)
 {
   put (w, "\n");
   return w->err;
