@@ -16,16 +16,17 @@ static void
 print_help (FILE *f)
 {
   const char *group = NULL;
-  for (size_t i = 0; i < bl_option_count (); i++) {
-    const bl_option *const o = bl_option_at (i);
+  for (size_t i = 0; i < bl_job_key_count (); i++) {
+    const char *og, *arg, *help;
     int col;
-    if (!(o->flags & BL_OPTION_CLI) || !o->help)
+    bl_job_key_help (i, &og, &arg, &help);
+    if (!(bl_job_key_flags (i) & BL_OPTION_CLI) || !help)
       continue;
-    if (!group || strcmp (group, o->group) != 0)
-      fprintf (f, "%s%s:\n", group ? "\n" : "", o->group);
-    group = o->group;
-    col = fprintf (f, "  --%s%s%s", o->key, o->arg ? " " : "", o->arg ? o->arg : "");
-    for (const char *t = o->help; *t; t++) {
+    if (!group || strcmp (group, og) != 0)
+      fprintf (f, "%s%s:\n", group ? "\n" : "", og);
+    group = og;
+    col = fprintf (f, "  --%s%s%s", bl_job_key_name (i), arg ? " " : "", arg ? arg : "");
+    for (const char *t = help; *t; t++) {
       for (; col < HELP_COLUMN; col++)
         fputc (' ', f);
       fputc (*t, f);
@@ -39,12 +40,11 @@ void
 cli_model_long_opts (struct option *long_opts, const struct option *own)
 {
   size_t n = 0;
-  for (size_t i = 0; i < bl_option_count (); i++) {
-    const bl_option *const o = bl_option_at (i);
-    if (!(o->flags & BL_OPTION_CLI))
+  for (size_t i = 0; i < bl_job_key_count (); i++) {
+    if (!(bl_job_key_flags (i) & BL_OPTION_CLI))
       continue;
-    long_opts[n].name = o->key;
-    long_opts[n].has_arg = o->kind == BL_OPTION_FLAG ? no_argument : required_argument;
+    long_opts[n].name = bl_job_key_name (i);
+    long_opts[n].has_arg = bl_job_key_takes_value (i) ? required_argument : no_argument;
     long_opts[n].flag = NULL;
     long_opts[n++].val = CLI_OPT_BASE + (int) i;
   }
@@ -53,20 +53,18 @@ cli_model_long_opts (struct option *long_opts, const struct option *own)
   memset (&long_opts[n], 0, sizeof long_opts[n]);
 }
 
-/* The option table's entry of getopt code C, or NULL when C is not a shared option. */
-static const bl_option *
+/* The key of getopt code C, or NULL when C is not a shared option. */
+static const char *
 key_of (int c)
 {
-  const bl_option *const o = c >= CLI_OPT_BASE ? bl_option_at ((size_t) (c - CLI_OPT_BASE))
-                                               : NULL;
-  return o && (o->flags & BL_OPTION_CLI) ? o : NULL;
+  const size_t i = c >= CLI_OPT_BASE ? (size_t) (c - CLI_OPT_BASE) : bl_job_key_count ();
+  return bl_job_key_flags (i) & BL_OPTION_CLI ? bl_job_key_name (i) : NULL;
 }
 
 int
 cli_model_option_has (int c, unsigned flags)
 {
-  const bl_option *const o = key_of (c);
-  return o && (o->flags & flags) == flags;
+  return key_of (c) && (bl_job_key_flags ((size_t) (c - CLI_OPT_BASE)) & flags) == flags;
 }
 
 void
@@ -94,13 +92,13 @@ cli_model_free (cli_model *m)
 int
 cli_model_option (cli_model *m, int c, const char *arg, const char *cmd)
 {
-  const bl_option *const o = key_of (c);
+  const char *const key = key_of (c);
   char where[64];
   bl_err err;
-  if (!o)
+  if (!key)
     return -1;
-  snprintf (where, sizeof where, "--%s", o->key);
-  if (bl_job_set (&m->job, o->key, arg, where, &err) != BL_OK)
+  snprintf (where, sizeof where, "--%s", key);
+  if (bl_job_set (&m->job, key, arg, where, &err) != BL_OK)
     return cli_lib_error (cmd, &err);
   return 0;
 }

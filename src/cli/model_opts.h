@@ -4,10 +4,9 @@
 #define BALLAST_MODEL_OPTS_H
 #include <getopt.h>
 #include "ballast.h"
-#include "options.h"
 
 /* getopt codes: a shared option is CLI_OPT_BASE + the index of its key in the option table
-   (options.h); a subcommand numbers its own options from OPT_FIRST_OWN. */
+   (bl_job_key_count, job.h); a subcommand numbers its own options from OPT_FIRST_OWN. */
 enum {
   CLI_OPT_BASE = 256,
   OPT_FIRST_OWN = CLI_OPT_BASE + BL_OPTION_MAX,

@@ -69,6 +69,38 @@ nomem:
   return bl_fail (err, BL_ENOMEM, "job", "out of memory");
 }
 
+size_t bl_job_key_count (void) { return bl_option_count (); }
+
+const char *
+bl_job_key_name (size_t i)
+{
+  const bl_option *const o = bl_option_at (i);
+  return o ? o->key : NULL;
+}
+
+unsigned
+bl_job_key_flags (size_t i)
+{
+  const bl_option *const o = bl_option_at (i);
+  return o ? o->flags : 0u;
+}
+
+int
+bl_job_key_takes_value (size_t i)
+{
+  const bl_option *const o = bl_option_at (i);
+  return o && o->kind != BL_OPTION_FLAG;
+}
+
+void
+bl_job_key_help (size_t i, const char **group, const char **arg, const char **help)
+{
+  const bl_option *const o = bl_option_at (i);
+  *group = o ? o->group : NULL;
+  *arg = o ? o->arg : NULL;
+  *help = o ? o->help : NULL;
+}
+
 int
 bl_job_has_key (const char *key)
 {

@@ -43,6 +43,33 @@ void bl_job_clear (bl_job *j);
 /* Deep copy SRC into DST (initialized or cleared).  BL_OK or BL_ENOMEM. */
 int bl_job_copy (bl_job *dst, const bl_job *src, bl_err *err);
 
+
+/* ---- The job's keys, one table for the command line, spec files and --help (options.c).
+   A front end lists them by index I < bl_job_key_count () in --help order. */
+/* The table holds fewer keys than this (spec.c sizes its per-section record by it, the CLI
+   its getopt array and codes). */
+#define BL_OPTION_MAX 64
+/* Where a key is taken and what it means to the commands (bit set). */
+enum {
+  BL_OPTION_CLI = 1u << 0,         /* a shared option of fit, diagnose and compare (--KEY); a
+                                      key without it is a spec key only, its command-line form
+                                      being elsewhere (the DATA argument; compare's own
+                                      --candidates, --folds and --seed) */
+  BL_OPTION_MODEL = 1u << 1,       /* a single-model key: a spec job that sets one fits one
+                                      model, and it cannot be combined with candidates */
+  BL_OPTION_METHOD = 1u << 2,      /* chooses the method: diagnose fits OLS without one */
+  BL_OPTION_CANDIDATE = 1u << 3    /* compare's candidates choose it: compare refuses it */
+};
+
+size_t bl_job_key_count (void);
+const char *bl_job_key_name (size_t i);            /* "family"; NULL when I is out of range */
+unsigned bl_job_key_flags (size_t i);              /* BL_OPTION_...; 0 out of range */
+int bl_job_key_takes_value (size_t i);             /* 1: --KEY VALUE; 0: a flag */
+/* The key's --help: its section ("model"), the value's placeholder after --KEY (NULL for a
+   flag) and its text (lines separated by '\n', without the last one); all NULL for a key
+   that is not a shared command-line option. */
+void bl_job_key_help (size_t i, const char **group, const char **arg, const char **help);
+
 /* Whether KEY is one of the job's keys, the entries of the option table (options.c: its
    key, where it is taken, its setter and its help): for spec files, "unknown key". */
 int bl_job_has_key (const char *key);

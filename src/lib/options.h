@@ -12,33 +12,19 @@
 #define BALLAST_OPTIONS_H
 #include <stddef.h>
 #include "error.h"
+#include "job.h"                 /* the BL_OPTION_ flags */
 #ifdef __cplusplus
 extern "C" {
 #endif
 
 struct bl_job;                     /* job.h */
 
-/* The table holds fewer keys than this (spec.c sizes its per-section record by it, the CLI
-   its getopt array and codes). */
-#define BL_OPTION_MAX 64
 
 typedef enum bl_option_kind {
   BL_OPTION_VALUE = 0,             /* one value: --KEY VALUE on the command line, key = VALUE */
   BL_OPTION_FLAG                   /* no value on the command line (--KEY; set to yes); in a
                                       spec, key = yes|no|true|false|1|0 */
 } bl_option_kind;
-
-/* Where a key is taken and what it means to the commands (bit set). */
-enum {
-  BL_OPTION_CLI = 1u << 0,         /* a shared option of fit, diagnose and compare (--KEY); a
-                                      key without it is a spec key only, its command-line form
-                                      being elsewhere (the DATA argument; compare's own
-                                      --candidates, --folds and --seed) */
-  BL_OPTION_MODEL = 1u << 1,       /* a single-model key: a spec job that sets one fits one
-                                      model, and it cannot be combined with candidates */
-  BL_OPTION_METHOD = 1u << 2,      /* chooses the method: diagnose fits OLS without one */
-  BL_OPTION_CANDIDATE = 1u << 3    /* compare's candidates choose it: compare refuses it */
-};
 
 typedef struct bl_option bl_option;
 
