@@ -24,8 +24,7 @@
 #include <string.h>
 #include <sys/stat.h>
 #include <unistd.h>
-#include "batch.h"
-#include "spec.h"
+#include "job.h"
 #include "testutil.h"
 
 /* ---------------------------------------------------------------- helpers */

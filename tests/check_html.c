@@ -24,7 +24,8 @@
 #include <gsl/gsl_randist.h>
 #include <gsl/gsl_rng.h>
 #include "alloc.h"
-#include "batch.h"
+#include "job.h"
+#include "report_impl.h"
 #include "compare.h"
 #include "design.h"
 #include "diag.h"

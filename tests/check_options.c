@@ -14,7 +14,6 @@
 #include "job.h"
 #include "link.h"
 #include "options.h"
-#include "spec.h"
 #include "testutil.h"
 
 #ifndef BL_TEST_SRCDIR

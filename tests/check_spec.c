@@ -10,7 +10,7 @@
 #include <string.h>
 #include <unistd.h>
 #include "alloc.h"
-#include "spec.h"
+#include "job.h"
 #include "testutil.h"
 
 #ifndef BL_TEST_SRCDIR

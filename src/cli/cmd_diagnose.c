@@ -5,7 +5,7 @@
 #include <string.h>
 #include "ballast.h"
 #include "cli.h"
-#include "job_run.h"
+#include "job.h"
 #include "model_opts.h"
 
 static const char usage_head[] =

@@ -4,7 +4,7 @@
 #include <string.h>
 #include "ballast.h"
 #include "cli.h"
-#include "job_run.h"
+#include "job.h"
 #include "model.h"
 #include "model_opts.h"
 

@@ -3,6 +3,7 @@
    the new data hold the response, out-of-sample scores. */
 #include <getopt.h>
 #include <stdio.h>
+#include <stdlib.h>
 #include <string.h>
 #include "ballast.h"
 #include "cli.h"
@@ -92,7 +93,7 @@ cmd_predict (int argc, char **argv)
         rc = cli_usage_error ("predict", "--keep", "more than %d --keep options", MAX_KEEP);
         goto done;
       }
-      if (!(keepbuf[nbuf] = bl_strdup (optarg))) {
+      if (!(keepbuf[nbuf] = strdup (optarg))) {
         cli_error ("predict", "out of memory");
         goto done;
       }
@@ -160,7 +161,7 @@ cmd_predict (int argc, char **argv)
   }
 done:
   for (size_t i = 0; i < nbuf; i++)
-    bl_free (keepbuf[i]);
+    free (keepbuf[i]);
   bl_prediction_free (pr);
   bl_table_free (t);
   bl_model_free (m);

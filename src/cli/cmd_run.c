@@ -5,7 +5,7 @@
 #include <string.h>
 #include <unistd.h>
 #include "ballast.h"
-#include "batch.h"
+#include "job.h"
 #include "cli.h"
 
 static const char usage[] =

@@ -3,26 +3,18 @@
 #ifndef BALLAST_BALLAST_H
 #define BALLAST_BALLAST_H
 #include "version.h"
-#include "alloc.h"
 #include "error.h"
-#include "source.h"
 #include "table.h"
 #include "terms.h"
 #include "design.h"
 #include "family.h"
 #include "link.h"
-#include "lsq.h"
-#include "irls.h"
 #include "fit.h"
 #include "report.h"
 #include "diag.h"
 #include "compare.h"
 #include "job.h"
-#include "spec.h"
-#include "batch.h"
 #include "model.h"
-#include "nested.h"
-#include "tweedie.h"
 #ifdef __cplusplus
 extern "C" {
 #endif

@@ -17,13 +17,12 @@
 #include <time.h>
 #include <unistd.h>
 #include "alloc.h"
-#include "batch.h"
+#include "job.h"
 #include "diag.h"
-#include "job_run.h"
 #include "report_impl.h"
 #include "report.h"
 #include "thread.h"
-#include "ballast.h"
+#include "version.h"
 
 
 typedef struct job_out {

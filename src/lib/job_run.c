@@ -8,7 +8,7 @@
 #include <string.h>
 #include <gsl/gsl_rng.h>
 #include "alloc.h"
-#include "job_run.h"
+#include "job.h"
 
 struct bl_job_result {
   bl_fit *fit;

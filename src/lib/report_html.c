@@ -20,8 +20,8 @@
 #include <math.h>
 #include <stdio.h>
 #include <string.h>
-#include "batch.h"
-#include "job_run.h"
+#include "job.h"
+#include "report_impl.h"
 #include "report_svg.h"
 
 /* ---------------------------------------------------------------- sections */

@@ -14,7 +14,7 @@
 #include "alloc.h"
 #include "options.h"
 #include "source.h"
-#include "spec.h"
+#include "job.h"
 
 struct bl_spec {
   char *stem;

@@ -15,7 +15,6 @@
 #include <strings.h>
 #include <gsl/gsl_errno.h>
 #include "job.h"
-#include "spec.h"
 #include "terms.h"
 
 #define DIR "/nonexistent-fuzz-dir"
