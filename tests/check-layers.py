@@ -77,11 +77,17 @@ def main():
     # calls, from the objects' symbol tables
     if objdir:
         objs = {}
-        for o in glob.glob(os.path.join(objdir, "*.o")) + glob.glob(
-                os.path.join(objdir, ".libs", "*.o")):
-            stem = os.path.splitext(os.path.basename(o))[0]
-            stem = re.sub(r"^(libballast(_core)?_la-)", "", stem)
-            objs.setdefault(stem, o)
+        for path in files:
+            stem = os.path.splitext(os.path.basename(path))[0]
+            if not path.endswith(".c"):
+                continue
+            # the object of each current source (a stale object of a removed or renamed
+            # file is never read): libtool's PIC object, the newest of its possible names
+            cands = [os.path.join(objdir, d, pre + stem + ".o")
+                     for d in (".libs", "") for pre in ("libballast_core_la-", "")]
+            cands = [c for c in cands if os.path.exists(c)]
+            if cands:
+                objs[stem] = max(cands, key=os.path.getmtime)
         defined, undef = {}, {}
         for stem, o in objs.items():
             out = subprocess.run(["nm", o], capture_output=True, text=True).stdout

@@ -30,6 +30,7 @@
 #include "alloc.h"
 #include "design.h"
 #include "diag.h"
+#include "order.h"
 #include "fit.h"
 #include "report.h"
 #include "table.h"
@@ -334,9 +335,10 @@ START_TEST (diag_quantile_continuous)
       }
       worst = d > worst ? d : worst;
     }
-    fprintf (stderr, "quantile residuals %s: largest difference %.3g\n", fam[K]->name, worst);
+    fprintf (stderr, "quantile residuals %s: largest difference %.3g\n",
+             bl_family_name (fam[K]), worst);
     ck_assert_msg (worst <= (K == 2 ? 1e-10 : 1e-9), "quantile %s: worst difference %.3g",
-                   fam[K]->name, worst);
+                   bl_family_name (fam[K]), worst);
     test_job_free (&j);
     free (csv.s);
   }
@@ -670,7 +672,7 @@ START_TEST (diag_resid_table_identities)
       job_fit (&j, BL_METHOD_GLM, fam[K], &bl_link_log);
     st = bl_fit_stats_get (j.f);
     t = bl_resid_table_new (j.f, r, NULL, &err);
-    ck_assert_msg (t != NULL, "resid table %s: %s", fam[K]->name, err.msg);
+    ck_assert_msg (t != NULL, "resid table %s: %s", bl_family_name (fam[K]), err.msg);
     ck_assert_uint_eq (t->n, N);
     {
       gsl_matrix *A = gsl_matrix_alloc (N, 4), *Qm = gsl_matrix_alloc (N, N);
@@ -693,8 +695,8 @@ START_TEST (diag_resid_table_identities)
         lev += t->leverage[i];
         dev += t->deviance[i] * t->deviance[i];
       }
-      ck_assert_msg (worst <= 1e-12, "resid table %s: leverage vs QR %.3g", fam[K]->name,
-                     worst);
+      ck_assert_msg (worst <= 1e-12, "resid table %s: leverage vs QR %.3g",
+                     bl_family_name (fam[K]), worst);
       gsl_matrix_free (A);
       gsl_matrix_free (Qm);
       gsl_matrix_free (R);
@@ -702,19 +704,20 @@ START_TEST (diag_resid_table_identities)
     }
     ck_assert_uint_eq (st->rank, 4);
     ck_assert_msg (fabs (lev - (double) st->rank) <= 1e-10, "resid table %s: sum h %.15g",
-                   fam[K]->name, lev);
+                   bl_family_name (fam[K]), lev);
     ck_assert_msg (test_rel_safe (dev, st->deviance) <= 1e-12,
-                   "resid table %s: sum d^2 %.17g vs D %.17g", fam[K]->name, dev, st->deviance);
+                   "resid table %s: sum d^2 %.17g vs D %.17g", bl_family_name (fam[K]), dev,
+                   st->deviance);
     for (size_t i = 0; i < N; i++) {
       const double y = bl_fit_y (j.f)[i], mu = bl_fit_mu (j.f)[i];
       const double phi = K == 1 ? 1.0 : st->phi_pearson, h = t->leverage[i];
       const double cook = t->pearson[i] * t->pearson[i] * h / (phi * 4.0 * (1 - h) * (1 - h));
       ck_assert_msg (test_rel_safe (t->cooks[i], cook) <= 1e-12, "resid table %s: cooks[%zu]",
-                     fam[K]->name, i);
-      ck_assert_msg (t->response[i] == y - mu, "resid table %s: response[%zu]", fam[K]->name,
-                     i);
+                     bl_family_name (fam[K]), i);
+      ck_assert_msg (t->response[i] == y - mu, "resid table %s: response[%zu]",
+                     bl_family_name (fam[K]), i);
       ck_assert_msg ((t->deviance[i] >= 0) == (y >= mu), "resid table %s: sign[%zu]",
-                     fam[K]->name, i);
+                     bl_family_name (fam[K]), i);
     }
     if (K == 2) {                    /* Cook's deletion definition, for OLS (prior weights) */
       const double *wts = bl_fit_prior_w (j.f);

@@ -31,6 +31,7 @@
 #include <gsl/gsl_sf_gamma.h>
 #include <gsl/gsl_sf_psi.h>
 #include "family.h"
+#include "family_impl.h"      /* the descriptor's fields, checked against its flags */
 #include "link.h"
 #include "testutil.h"
 #include "tweedie.h"

@@ -244,7 +244,7 @@ START_TEST (hostile_all_zero_level)
     fo.link = links[k];
     f = bl_fit_new (j.d, &fo, &err);
     test_expect_fail (f, &err, BL_EDATA, "mem.csv", "'g=c' cannot be estimated",
-                      "no maximum-likelihood estimate exists", fams[k]->name);
+                      "no maximum-likelihood estimate exists", bl_family_name (fams[k]));
   }
   bl_fit_opts_init (&fo);
   f = bl_fit_new (j.d, &fo, &err);

@@ -29,6 +29,7 @@
 #include "compare.h"
 #include "design.h"
 #include "diag.h"
+#include "order.h"
 #include "fit.h"
 #include "table.h"
 #include "terms.h"

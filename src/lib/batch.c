@@ -282,7 +282,7 @@ row_fill (bl_batch_row *row, const bl_job_result *res, const char *where, bl_err
       row_fail (row, bl_fit_status (fit));
       return BL_OK;
     }
-    snprintf (row->winner, sizeof row->winner, "%s/%s", bl_fit_family (fit)->name,
+    snprintf (row->winner, sizeof row->winner, "%s/%s", bl_family_name (bl_fit_family (fit)),
               bl_fit_link (fit)->name);
     row->aic = bl_fit_stats_get (fit)->aic;
     row->spread_ratio = bl_job_result_spread_ratio (res);

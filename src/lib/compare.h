@@ -43,11 +43,11 @@ typedef struct bl_compare_opts {
   bl_fit_opts fit;                 /* level, irls limits, se kind: shared by candidates */
 } bl_compare_opts;
 
-void bl_compare_opts_init (bl_compare_opts *opt);
+BL_API void bl_compare_opts_init (bl_compare_opts *opt);
 
 /* Check a candidate list for syntax (unknown ids, duplicates, bad ls-bc=L): BL_ESPEC naming
    "--candidates" and the entry, found before any work. */
-int bl_compare_check_list (const char *list, bl_err *err);
+BL_API int bl_compare_check_list (const char *list, bl_err *err);
 
 typedef struct bl_candidate {
   char id[40];
@@ -78,20 +78,20 @@ typedef struct bl_compare bl_compare;
    is left out with a note), score and rank them.  NULL with ERR only for BL_ENOMEM, a bad
    list (BL_ESPEC) or BL_ECANCEL (opt->fit.irls.cancel set: polled between candidates and
    folds and inside each fit); a candidate that fails stays in the table with its reason. */
-bl_compare *bl_compare_run (const bl_design *d, const bl_compare_opts *opt, bl_err *err);
-void bl_compare_free (bl_compare *c);
+BL_API bl_compare *bl_compare_run (const bl_design *d, const bl_compare_opts *opt, bl_err *err);
+BL_API void bl_compare_free (bl_compare *c);
 
-size_t bl_compare_count (const bl_compare *c);
-const bl_candidate *bl_compare_get (const bl_compare *c, size_t i);
-const char *bl_compare_rank_by (const bl_compare *c);    /* "aic" or "aic_discrete" */
+BL_API size_t bl_compare_count (const bl_compare *c);
+BL_API const bl_candidate *bl_compare_get (const bl_compare *c, size_t i);
+BL_API const char *bl_compare_rank_by (const bl_compare *c);    /* "aic" or "aic_discrete" */
 /* Index of the winner, or -1 when nothing converged. */
-long bl_compare_winner (const bl_compare *c);
-const bl_warnings *bl_compare_advice (const bl_compare *c);
-size_t bl_compare_folds (const bl_compare *c);
-unsigned long bl_compare_seed (const bl_compare *c);
-int bl_compare_integer_y (const bl_compare *c);
+BL_API long bl_compare_winner (const bl_compare *c);
+BL_API const bl_warnings *bl_compare_advice (const bl_compare *c);
+BL_API size_t bl_compare_folds (const bl_compare *c);
+BL_API unsigned long bl_compare_seed (const bl_compare *c);
+BL_API int bl_compare_integer_y (const bl_compare *c);
 /* Nonzero when y has exact zeros and non-integer values (ranking by group). */
-int bl_compare_zero_groups (const bl_compare *c);
+BL_API int bl_compare_zero_groups (const bl_compare *c);
 
 #ifdef __cplusplus
 }

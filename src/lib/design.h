@@ -53,7 +53,7 @@ typedef struct bl_design_opts {
   int missing_error;
 } bl_design_opts;
 
-void bl_design_opts_init (bl_design_opts *opt);
+BL_API void bl_design_opts_init (bl_design_opts *opt);
 
 /* Build the row set and the recipe for X.
 
@@ -77,58 +77,58 @@ void bl_design_opts_init (bl_design_opts *opt);
    one indicator per non-reference level, labelled "C=LEVEL" in level order; cross(a,b) gives
    every product of a's columns with b's columns, labelled "cross(A,B)" with A and B the
    component labels (cross(site=B,age)). */
-bl_design *bl_design_new (const bl_table *t, const char *response, const bl_terms *terms,
-                          const bl_design_opts *opt, bl_err *err);
-void bl_design_free (bl_design *d);
+BL_API bl_design *bl_design_new (const bl_table *t, const char *response, const bl_terms *terms,
+                                 const bl_design_opts *opt, bl_err *err);
+BL_API void bl_design_free (bl_design *d);
 
-size_t bl_design_n (const bl_design *d);          /* rows used */
-size_t bl_design_p (const bl_design *d);          /* columns of X */
-const char *bl_design_label (const bl_design *d, size_t j);
-int bl_design_has_intercept (const bl_design *d);
-const char *bl_design_response (const bl_design *d);
+BL_API size_t bl_design_n (const bl_design *d);          /* rows used */
+BL_API size_t bl_design_p (const bl_design *d);          /* columns of X */
+BL_API const char *bl_design_label (const bl_design *d, size_t j);
+BL_API int bl_design_has_intercept (const bl_design *d);
+BL_API const char *bl_design_response (const bl_design *d);
 
 /* Vectors over the rows used (length n), valid until bl_design_free. */
-const double *bl_design_y (const bl_design *d);
-const double *bl_design_offset (const bl_design *d);   /* NULL when there is no offset */
-const double *bl_design_prior_w (const bl_design *d);  /* NULL when all weights are 1 */
-const double *bl_design_varcol (const bl_design *d);   /* NULL unless opts.variance */
+BL_API const double *bl_design_y (const bl_design *d);
+BL_API const double *bl_design_offset (const bl_design *d);   /* NULL when there is no offset */
+BL_API const double *bl_design_prior_w (const bl_design *d);  /* NULL when all weights are 1 */
+BL_API const double *bl_design_varcol (const bl_design *d);   /* NULL unless opts.variance */
 
 /* Fill rows [ROW0, ROW0 + NR) of X into OUT column-major with leading dimension LD >= NR:
    X[row0 + i, j] goes to OUT[j * LD + i].  Allocates nothing; thread-safe on a const design. */
-void bl_design_fill (const bl_design *d, size_t row0, size_t nr, double *out, size_t ld);
+BL_API void bl_design_fill (const bl_design *d, size_t row0, size_t nr, double *out, size_t ld);
 
 /* The same in long double: derived terms (log, pow, ...) of designs with at most
    BL_DESIGN_LD_ROWS rows are kept in long double too, so the extended-precision solver gets
    them without a double rounding; larger designs widen the doubles. */
 #define BL_DESIGN_LD_ROWS 250000
-void bl_design_fill_ld (const bl_design *d, size_t row0, size_t nr, long double *out,
-                        size_t ld);
+BL_API void bl_design_fill_ld (const bl_design *d, size_t row0, size_t nr, long double *out,
+                               size_t ld);
 
 /* A design over the M rows SEL[0..M-1] of D (indices into D's used rows, in the order given):
    same columns, labels and levels (no re-coding, so coefficients mean the same), with its own
    copies of y, offset, weights and derived terms.  For cross-validation folds.  D's table
    must outlive the subset; D itself need not.  NULL with BL_ENOMEM on exhaustion. */
-bl_design *bl_design_subset (const bl_design *d, const size_t *sel, size_t m, bl_err *err);
+BL_API bl_design *bl_design_subset (const bl_design *d, const size_t *sel, size_t m, bl_err *err);
 
 /* The categorical columns the terms use, in order of first use, with the levels that have
    indicator columns (in column order) and the reference level left out: what a saved model
    needs to rebuild the same columns on new data (bl_design_levels).  Strings stay valid until
    bl_design_free. */
-size_t bl_design_ncat (const bl_design *d);
-const char *bl_design_cat_column (const bl_design *d, size_t i);
-size_t bl_design_cat_nlevels (const bl_design *d, size_t i);
-const char *bl_design_cat_level (const bl_design *d, size_t i, size_t k);
-const char *bl_design_cat_reference (const bl_design *d, size_t i);
+BL_API size_t bl_design_ncat (const bl_design *d);
+BL_API const char *bl_design_cat_column (const bl_design *d, size_t i);
+BL_API size_t bl_design_cat_nlevels (const bl_design *d, size_t i);
+BL_API const char *bl_design_cat_level (const bl_design *d, size_t i, size_t k);
+BL_API const char *bl_design_cat_reference (const bl_design *d, size_t i);
 
 /* Row bookkeeping. */
-size_t bl_design_rows_read (const bl_design *d);       /* table rows */
-const bl_table *bl_design_table (const bl_design *d);  /* the table it was built from */
-size_t bl_design_table_row (const bl_design *d, size_t i);  /* table row of used row i */
-size_t bl_design_line (const bl_design *d, size_t i);  /* source line of used row i */
-const char *bl_design_source (const bl_design *d);     /* the table's name */
-size_t bl_design_ndrop (const bl_design *d);           /* number of distinct drop reasons */
+BL_API size_t bl_design_rows_read (const bl_design *d);       /* table rows */
+BL_API const bl_table *bl_design_table (const bl_design *d);  /* the table it was built from */
+BL_API size_t bl_design_table_row (const bl_design *d, size_t i);  /* table row of used row i */
+BL_API size_t bl_design_line (const bl_design *d, size_t i);  /* source line of used row i */
+BL_API const char *bl_design_source (const bl_design *d);     /* the table's name */
+BL_API size_t bl_design_ndrop (const bl_design *d);           /* number of distinct drop reasons */
 /* Drop reason I: its text ("missing 'age'"), and *COUNT rows. */
-const char *bl_design_drop_reason (const bl_design *d, size_t i, size_t *count);
+BL_API const char *bl_design_drop_reason (const bl_design *d, size_t i, size_t *count);
 
 #ifdef __cplusplus
 }

@@ -8,7 +8,6 @@
 #include <gsl/gsl_rng.h>
 #include "error.h"
 #include "fit.h"
-#include "order.h"            /* bl_order_by, formerly declared here */
 #include "table.h"
 #ifdef __cplusplus
 extern "C" {
@@ -33,7 +32,7 @@ typedef struct bl_diag_opts {
                                        checks (BL_ECANCEL); NULL (default) for none */
 } bl_diag_opts;
 
-void bl_diag_opts_init (bl_diag_opts *opt);
+BL_API void bl_diag_opts_init (bl_diag_opts *opt);
 
 typedef struct bl_diag_test {
   int done;                         /* 0: skipped, see why */
@@ -91,7 +90,7 @@ typedef struct bl_diag_result {
 /* Pearson residuals of FIT into R (length n): (y - mu) sqrt(a / V(mu)) with the fit's own
    response, means and prior weights, which makes them sqrt(w) r for WLS and the
    transformed-scale residual for transformed OLS (one definition everywhere). */
-void bl_pearson_residuals (const bl_fit *fit, double *r);
+BL_API void bl_pearson_residuals (const bl_fit *fit, double *r);
 
 /* The spread ratio of residuals R (length n) grouped by FITTED: G = BL_DIAG_GROUPS groups (fewer
    when a group would hold fewer than BL_DIAG_MIN_GROUP rows); group g holds sorted rows
@@ -99,19 +98,19 @@ void bl_pearson_residuals (const bl_fit *fit, double *r);
    quantile under constant variance for these group sizes, simulated with RNG: under normal
    residuals of common variance, n_g rms_g^2 / sigma^2 is chi-square on n_g (common practice,
    no source).  Fills OUT (free with bl_spread_clear). */
-int bl_spread_compute (const double *fitted, const double *r, size_t n, gsl_rng *rng,
-                       size_t reps, bl_spread *out, bl_err *err);
-void bl_spread_clear (bl_spread *s);
+BL_API int bl_spread_compute (const double *fitted, const double *r, size_t n, gsl_rng *rng,
+                              size_t reps, bl_spread *out, bl_err *err);
+BL_API void bl_spread_clear (bl_spread *s);
 
 /* The variance power of FIT alone (as bl_diag_new computes it, with its plot points) into
    OUT.  Returns BL_OK (OUT->done says whether there was an estimate, OUT->why why not),
    BL_ENOCONV when FIT did not converge, or BL_ENOMEM; OUT is filled in every case. */
-int bl_variance_power (const bl_fit *fit, bl_power *out, bl_err *err);
+BL_API int bl_variance_power (const bl_fit *fit, bl_power *out, bl_err *err);
 
 /* All checks on FIT.  NULL with ERR on failure. */
-bl_diag *bl_diag_new (const bl_fit *fit, const bl_diag_opts *opt, bl_err *err);
-void bl_diag_free (bl_diag *d);
-const bl_diag_result *bl_diag_get (const bl_diag *d);
+BL_API bl_diag *bl_diag_new (const bl_fit *fit, const bl_diag_opts *opt, bl_err *err);
+BL_API void bl_diag_free (bl_diag *d);
+BL_API const bl_diag_result *bl_diag_get (const bl_diag *d);
 
 /* The residual table: per row the response, Pearson, deviance, working and randomized
    quantile residuals (Dunn & Smyth 1996, J. Comput. Graph. Statist. 5, 236-244; the discrete
@@ -121,17 +120,17 @@ typedef struct bl_resid_table {
   size_t n;
   double *response, *pearson, *deviance, *working, *quantile, *leverage, *cooks;
 } bl_resid_table;
-bl_resid_table *bl_resid_table_new (const bl_fit *fit, gsl_rng *rng,
-                                    volatile sig_atomic_t *cancel, bl_err *err);
-void bl_resid_table_free (bl_resid_table *t);
+BL_API bl_resid_table *bl_resid_table_new (const bl_fit *fit, gsl_rng *rng,
+                                           volatile sig_atomic_t *cancel, bl_err *err);
+BL_API void bl_resid_table_free (bl_resid_table *t);
 
 /* Quantile residuals alone (as in the table) into Q (length n). */
-int bl_quantile_residuals (const bl_fit *fit, gsl_rng *rng, double *q, bl_err *err);
+BL_API int bl_quantile_residuals (const bl_fit *fit, gsl_rng *rng, double *q, bl_err *err);
 
 /* Kolmogorov-Smirnov test of X (length n, sorted in place) against the standard normal:
    D = sup |F_n - Phi| and its asymptotic p-value with Stephens' (1970) correction,
    lambda = (sqrt n + 0.12 + 0.11 / sqrt n) D, p = 2 sum (-1)^(k-1) exp(-2 k^2 lambda^2). */
-void bl_ks_normal (double *x, size_t n, double *d, double *p);
+BL_API void bl_ks_normal (double *x, size_t n, double *d, double *p);
 
 /* Equal spread across the levels of a categorical column: the Brown-Forsythe (1974, JASA
    69, 364-367) test, the one-way ANOVA F of z_i = |r_i - median of r in i's group| with r
@@ -153,9 +152,9 @@ typedef struct bl_bf {
 /* Group FIT's rows by the categorical column COL of T (the fit's own table).  BL_ESPEC when
    COL is missing or not categorical ("--by"), BL_EDATA when a used row has no level there
    (naming its line) or fewer than two groups have rows, BL_ENOMEM. */
-int bl_brown_forsythe (const bl_fit *fit, const bl_table *t, const char *col, bl_bf *out,
-                       bl_err *err);
-void bl_bf_clear (bl_bf *b);
+BL_API int bl_brown_forsythe (const bl_fit *fit, const bl_table *t, const char *col, bl_bf *out,
+                              bl_err *err);
+BL_API void bl_bf_clear (bl_bf *b);
 
 #ifdef __cplusplus
 }

@@ -2,6 +2,7 @@
 #ifndef BALLAST_ERROR_H
 #define BALLAST_ERROR_H
 #include <stddef.h>
+#include "version.h"
 #ifdef __cplusplus
 extern "C" {
 #endif
@@ -30,17 +31,17 @@ typedef struct bl_err {
 
 /* Fill ERR (which may be NULL) with CODE, WHERE (may be NULL) and the printf-style message,
    and return CODE, so that failing is one statement.  A breakpoint here stops at every error. */
-int bl_fail (bl_err *err, int code, const char *where, const char *fmt, ...)
+BL_API int bl_fail (bl_err *err, int code, const char *where, const char *fmt, ...)
 #if defined(__GNUC__)
-  __attribute__ ((format (printf, 4, 5)))
+         __attribute__ ((format (printf, 4, 5)))
 #endif
-  ;
+         ;
 
 /* Reset ERR to BL_OK with empty strings.  Accepts NULL. */
-void bl_err_clear (bl_err *err);
+BL_API void bl_err_clear (bl_err *err);
 
 /* A short static description of a status code ("out of memory", ...). */
-const char *bl_strerror (int code);
+BL_API const char *bl_strerror (int code);
 
 /* A growable list of warnings, owned by whatever result holds it.  Messages are copied. */
 typedef struct bl_warnings {
@@ -49,13 +50,13 @@ typedef struct bl_warnings {
 } bl_warnings;
 
 /* Append a printf-style warning.  Returns BL_OK or BL_ENOMEM (the list is unchanged then). */
-int bl_warnings_add (bl_warnings *w, const char *fmt, ...)
+BL_API int bl_warnings_add (bl_warnings *w, const char *fmt, ...)
 #if defined(__GNUC__)
-  __attribute__ ((format (printf, 2, 3)))
+         __attribute__ ((format (printf, 2, 3)))
 #endif
-  ;
+         ;
 /* Free every message; leaves an empty list.  Accepts NULL. */
-void bl_warnings_clear (bl_warnings *w);
+BL_API void bl_warnings_clear (bl_warnings *w);
 
 #ifdef __cplusplus
 }

@@ -28,12 +28,12 @@ typedef struct bl_family bl_family;
    Tweedie power; ignored by the others), A the row's prior weight and PHI the dispersion of a
    row with prior weight 1 (the row's own dispersion is phi / a): each call is one row, so a
    per-row phi_i is passed as it is. */
-double bl_family_var (const bl_family *f, double mu, double par);             /* V(mu) */
-double bl_family_dev (const bl_family *f, double y, double mu, double par);   /* d(y, mu) */
+BL_API double bl_family_var (const bl_family *f, double mu, double par);             /* V(mu) */
+BL_API double bl_family_dev (const bl_family *f, double y, double mu, double par);   /* d(y, mu) */
 /* Log density of y (the log probability for a discrete family); PHI is ignored when the
    dispersion is fixed. */
-double bl_family_logpdf (const bl_family *f, double y, double mu, double a, double phi,
-                         double par);
+BL_API double bl_family_logpdf (const bl_family *f, double y, double mu, double a, double phi,
+                                double par);
 
 /* Where a family's CDF has two roundings of one scale (the gamma: scale = mu phi / a, or
    mu / shape with shape = a / phi), FORM picks one, so that the comparer's discretized
@@ -45,28 +45,28 @@ typedef enum bl_family_scale { BL_FAM_SCALE_MUL = 0, BL_FAM_SCALE_DIV = 1 } bl_f
 /* P(Y <= y) at (mu, a, phi, par): for a discrete family at the integer part of y (0 for
    y < 0); 0 for y <= 0 when the support is y > 0; for the Tweedie the point mass at 0
    included.  Sources in each family's file. */
-double bl_family_cdf (const bl_family *f, double y, double mu, double a, double phi,
-                      double par, bl_family_scale form);
+BL_API double bl_family_cdf (const bl_family *f, double y, double mu, double a, double phi,
+                             double par, bl_family_scale form);
 /* The PROB quantile at (mu, a, phi, par): for a discrete family the least integer k with
    P(Y <= k) >= PROB (HUGE_VAL when PROB >= 1 or no k below UINT_MAX / 2 reaches it); for a
    continuous one F^-1(PROB) (the Tweedie: 0 when PROB <= P(Y = 0)). */
-double bl_family_quantile (const bl_family *f, double prob, double mu, double a, double phi,
-                           double par);
+BL_API double bl_family_quantile (const bl_family *f, double prob, double mu, double a, double phi,
+                                  double par);
 /* The largest mean whose quantiles the family can compute (the poisson's: GSL counts in an
    unsigned int), HUGE_VAL when there is no such limit. */
-double bl_family_quantile_mu_max (const bl_family *f);
+BL_API double bl_family_quantile_mu_max (const bl_family *f);
 
-extern const bl_family bl_family_gaussian;
-extern const bl_family bl_family_poisson;
-extern const bl_family bl_family_gamma;
-extern const bl_family bl_family_invgauss;
+extern BL_API const bl_family bl_family_gaussian;
+extern BL_API const bl_family bl_family_poisson;
+extern BL_API const bl_family bl_family_gamma;
+extern BL_API const bl_family bl_family_invgauss;
 /* Negative binomial NB2, Var = mu + mu^2 / theta (par = theta > 0), and Tweedie compound
    Poisson-gamma, Var = phi mu^p (par = p in (1, 2)). */
-extern const bl_family bl_family_negbin;
-extern const bl_family bl_family_tweedie;
+extern BL_API const bl_family bl_family_negbin;
+extern BL_API const bl_family bl_family_tweedie;
 
 /* The family named NAME, or NULL. */
-const bl_family *bl_family_find (const char *name);
+BL_API const bl_family *bl_family_find (const char *name);
 
 /* ---- The family table and the descriptor's properties.  Code outside the family modules
    asks these, never compares a family's address or name: what a family means to a fitter,
@@ -74,11 +74,11 @@ const bl_family *bl_family_find (const char *name);
    family's own file and its tests only. */
 
 /* The families in table order (the order of --help and of error messages): I < count. */
-size_t bl_family_count (void);
-const bl_family *bl_family_at (size_t i);
+BL_API size_t bl_family_count (void);
+BL_API const bl_family *bl_family_at (size_t i);
 /* The names of every family joined by SEP ("gaussian|poisson|..."), written to BUF of LEN
    bytes (always NUL-terminated).  Returns the length the whole list needs, as snprintf. */
-size_t bl_family_names (char *buf, size_t len, const char *sep);
+BL_API size_t bl_family_names (char *buf, size_t len, const char *sep);
 
 /* Properties, as a bit set (bl_family_has (f, BL_FAM_...)). */
 enum {
@@ -96,7 +96,7 @@ enum {
                                    (the one its shape parameter was estimated with), not at
                                    the Pearson estimate */
 };
-int bl_family_has (const bl_family *f, unsigned flag);
+BL_API int bl_family_has (const bl_family *f, unsigned flag);
 
 /* The family's shape parameter, estimated by its own engine in the fitting layer. */
 typedef enum bl_family_par {
@@ -104,23 +104,23 @@ typedef enum bl_family_par {
   BL_FAMPAR_THETA,              /* negative binomial theta, Var = mu + mu^2 / theta */
   BL_FAMPAR_POWER               /* Tweedie power p, Var = phi mu^p */
 } bl_family_par;
-bl_family_par bl_family_par_kind (const bl_family *f);
+BL_API bl_family_par bl_family_par_kind (const bl_family *f);
 
-const char *bl_family_name (const bl_family *f);          /* "gamma" */
-const char *bl_family_support (const bl_family *f);       /* "y > 0" */
-const char *bl_family_par_name (const bl_family *f);      /* "theta", "power" or NULL */
-const bl_link *bl_family_default_link (const bl_family *f);
-int bl_family_y_ok (const bl_family *f, double y);        /* y inside the support */
-int bl_family_mu_ok (const bl_family *f, double mu);      /* mu inside the mean space */
-double bl_family_mustart (const bl_family *f, double y, double ybar);
+BL_API const char *bl_family_name (const bl_family *f);          /* "gamma" */
+BL_API const char *bl_family_support (const bl_family *f);       /* "y > 0" */
+BL_API const char *bl_family_par_name (const bl_family *f);      /* "theta", "power" or NULL */
+BL_API const bl_link *bl_family_default_link (const bl_family *f);
+BL_API int bl_family_y_ok (const bl_family *f, double y);        /* y inside the support */
+BL_API int bl_family_mu_ok (const bl_family *f, double mu);      /* mu inside the mean space */
+BL_API double bl_family_mustart (const bl_family *f, double y, double ybar);
 /* The family in a sentence ("poisson", "the negative binomial", "Tweedie"), and the
    complement of its support for messages ("y <= 0", "y < 0"; NULL when every real y is in
    it). */
-const char *bl_family_noun (const bl_family *f);
-const char *bl_family_outside (const bl_family *f);
+BL_API const char *bl_family_noun (const bl_family *f);
+BL_API const char *bl_family_outside (const bl_family *f);
 /* K when the variance function is the fixed power mu^K (gaussian 0, poisson 1, gamma 2,
    inverse gaussian 3); NAN for a family whose variance has a shape parameter. */
-double bl_family_var_power (const bl_family *f);
+BL_API double bl_family_var_power (const bl_family *f);
 
 /* Maximum-likelihood dispersion of FAM given the fitted means (the family's own hook).  Y,
    MU have length N; A (prior weights) may be NULL for all ones; DEV is the deviance sum
@@ -132,15 +132,16 @@ double bl_family_var_power (const bl_family *f);
    - Tweedie: D / n (its engine, famfit.c, maximizes the series likelihood itself).
    Returns BL_OK, or BL_EDATA when D == 0 (the dispersion MLE is 0: a perfect fit), or
    BL_ENOCONV when the gamma equation cannot be solved. */
-int bl_family_phi_ml (const bl_family *fam, const double *y, const double *mu, const double *a,
-                      size_t n, double dev, double *phi, bl_err *err);
+BL_API int bl_family_phi_ml (const bl_family *fam, const double *y, const double *mu,
+                             const double *a, size_t n, double dev, double *phi,
+                             bl_err *err);
 
 /* Log-likelihood sum_i logpdf(y_i, mu_i, a_i, phi), summed in long double. */
-double bl_family_loglik (const bl_family *fam, const double *y, const double *mu,
-                         const double *a, size_t n, double phi);
+BL_API double bl_family_loglik (const bl_family *fam, const double *y, const double *mu,
+                                const double *a, size_t n, double phi);
 /* The same for a family with a parameter. */
-double bl_family_loglik_p (const bl_family *fam, const double *y, const double *mu,
-                           const double *a, size_t n, double phi, double par);
+BL_API double bl_family_loglik_p (const bl_family *fam, const double *y, const double *mu,
+                                  const double *a, size_t n, double phi, double par);
 
 #ifdef __cplusplus
 }

@@ -95,7 +95,7 @@ typedef struct bl_fit_opts {
   bl_irls_opts irls;
 } bl_fit_opts;
 
-void bl_fit_opts_init (bl_fit_opts *opt);
+BL_API void bl_fit_opts_init (bl_fit_opts *opt);
 
 typedef struct bl_fit bl_fit;     /* opaque; defined in fit_impl.h */
 
@@ -132,45 +132,45 @@ typedef struct bl_fit_stats {
    them), BL_ESPEC for an invalid combination of options, BL_ENOMEM.  Otherwise returns a fit;
    when IRLS did not converge or diverged the fit's status (bl_fit_status) holds the error and
    the stats have converged = 0 and no coefficients to stand behind.  D must outlive the fit. */
-bl_fit *bl_fit_new (const bl_design *d, const bl_fit_opts *opt, bl_err *err);
-void bl_fit_free (bl_fit *fit);
+BL_API bl_fit *bl_fit_new (const bl_design *d, const bl_fit_opts *opt, bl_err *err);
+BL_API void bl_fit_free (bl_fit *fit);
 
 /* The fit's status: BL_OK, or the error that stopped it (ENOCONV, ECANCEL) with its message. */
-const bl_err *bl_fit_status (const bl_fit *fit);
-const bl_fit_stats *bl_fit_stats_get (const bl_fit *fit);
-const bl_warnings *bl_fit_warnings (const bl_fit *fit);
-const bl_design *bl_fit_design (const bl_fit *fit);
-const bl_family *bl_fit_family (const bl_fit *fit);
-const bl_link *bl_fit_link (const bl_fit *fit);
-bl_method bl_fit_method (const bl_fit *fit);
-const char *bl_method_name (bl_method m);
+BL_API const bl_err *bl_fit_status (const bl_fit *fit);
+BL_API const bl_fit_stats *bl_fit_stats_get (const bl_fit *fit);
+BL_API const bl_warnings *bl_fit_warnings (const bl_fit *fit);
+BL_API const bl_design *bl_fit_design (const bl_fit *fit);
+BL_API const bl_family *bl_fit_family (const bl_fit *fit);
+BL_API const bl_link *bl_fit_link (const bl_fit *fit);
+BL_API bl_method bl_fit_method (const bl_fit *fit);
+BL_API const char *bl_method_name (bl_method m);
 
 /* Coefficient table, length p each, valid until bl_fit_free.  Aliased and non-existent
    entries are NAN. */
-const double *bl_fit_beta (const bl_fit *fit);
-const double *bl_fit_se (const bl_fit *fit);
-const double *bl_fit_wald (const bl_fit *fit);
-const double *bl_fit_pvalue (const bl_fit *fit);
-const double *bl_fit_lo (const bl_fit *fit);
-const double *bl_fit_hi (const bl_fit *fit);
-const int *bl_fit_aliased (const bl_fit *fit);
+BL_API const double *bl_fit_beta (const bl_fit *fit);
+BL_API const double *bl_fit_se (const bl_fit *fit);
+BL_API const double *bl_fit_wald (const bl_fit *fit);
+BL_API const double *bl_fit_pvalue (const bl_fit *fit);
+BL_API const double *bl_fit_lo (const bl_fit *fit);
+BL_API const double *bl_fit_hi (const bl_fit *fit);
+BL_API const int *bl_fit_aliased (const bl_fit *fit);
 /* Covariance matrix (p x p column-major; aliased rows/columns NAN), the factor times phi_used. */
-const double *bl_fit_cov (const bl_fit *fit);
+BL_API const double *bl_fit_cov (const bl_fit *fit);
 /* Fitted means and linear predictors over the design's rows (length n).  For a transformed
    response both are on the transformed scale. */
-const double *bl_fit_mu (const bl_fit *fit);
-const double *bl_fit_eta (const bl_fit *fit);
+BL_API const double *bl_fit_mu (const bl_fit *fit);
+BL_API const double *bl_fit_eta (const bl_fit *fit);
 /* The response actually fitted (transformed when there is a transform), the prior weights
    (NULL for all ones; WLS: the final weights a_i / v_i), and the IRLS working weights. */
-const double *bl_fit_y (const bl_fit *fit);
-const double *bl_fit_prior_w (const bl_fit *fit);
-const double *bl_fit_working_w (const bl_fit *fit);
-const bl_fit_transform_info *bl_fit_transform (const bl_fit *fit);
-const bl_fit_variance_info *bl_fit_variance (const bl_fit *fit);
-const char *bl_se_kind_name (bl_se_kind k);
+BL_API const double *bl_fit_y (const bl_fit *fit);
+BL_API const double *bl_fit_prior_w (const bl_fit *fit);
+BL_API const double *bl_fit_working_w (const bl_fit *fit);
+BL_API const bl_fit_transform_info *bl_fit_transform (const bl_fit *fit);
+BL_API const bl_fit_variance_info *bl_fit_variance (const bl_fit *fit);
+BL_API const char *bl_se_kind_name (bl_se_kind k);
 /* The family parameter the fit used (negative binomial theta, also when theta ran to
    infinity and was capped; the Tweedie power), or 0 for the other families. */
-double bl_fit_family_par (const bl_fit *fit);
+BL_API double bl_fit_family_par (const bl_fit *fit);
 
 /* The mean of y on its original scale at the linear predictor XB of a transformed fit: with
    SMEAR nonzero, Duan's (1983) smearing estimator (1/n) sum h^-1(XB + e_i) over the fit's
@@ -178,17 +178,17 @@ double bl_fit_family_par (const bl_fit *fit);
    k-th in row order, k = ceil(n / BL_SMEAR_MAX)); otherwise the naive back-transform h^-1(XB), a median.  The shift, if any, is
    undone.  For an untransformed fit, XB itself. */
 #define BL_SMEAR_MAX 5000
-double bl_fit_backtransform (const bl_fit *fit, double xb, int smear);
+BL_API double bl_fit_backtransform (const bl_fit *fit, double xb, int smear);
 
 /* ---- Accessors for the readers of a fit (diag.c, compare.c), implemented in fit_access.c.
    Pointers stay valid until bl_fit_free. */
-size_t bl_fit_n (const bl_fit *fit);              /* rows fitted */
-size_t bl_fit_p (const bl_fit *fit);              /* columns of the design */
+BL_API size_t bl_fit_n (const bl_fit *fit);              /* rows fitted */
+BL_API size_t bl_fit_p (const bl_fit *fit);              /* columns of the design */
 /* (X'WX)^-1 at the fit, p x p column-major; aliased rows and columns 0. */
-const double *bl_fit_cov_unscaled (const bl_fit *fit);
+BL_API const double *bl_fit_cov_unscaled (const bl_fit *fit);
 /* The response on its original scale (length n): the design's y for a transformed fit,
    otherwise the response fitted (bl_fit_y). */
-const double *bl_fit_y_original (const bl_fit *fit);
+BL_API const double *bl_fit_y_original (const bl_fit *fit);
 /* ---- end of the accessors for the readers of a fit */
 
 #ifdef __cplusplus

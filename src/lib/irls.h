@@ -65,42 +65,42 @@ typedef struct bl_irls_opts {
   volatile sig_atomic_t *cancel;   /* polled once per block; NULL for none */
 } bl_irls_opts;
 
-void bl_irls_opts_init (bl_irls_opts *opt);
+BL_API void bl_irls_opts_init (bl_irls_opts *opt);
 
 typedef struct bl_irls_work bl_irls_work;
 
 /* Allocate a workspace for MODEL's sizes and solver choice (OPT->solver, resolved from n and p
    when AUTO).  NULL with ERR = BL_ENOMEM on exhaustion. */
-bl_irls_work *bl_irls_work_new (const bl_irls_model *model, const bl_irls_opts *opt,
-                                bl_err *err);
-void bl_irls_work_free (bl_irls_work *ws);
+BL_API bl_irls_work *bl_irls_work_new (const bl_irls_model *model, const bl_irls_opts *opt,
+                                       bl_err *err);
+BL_API void bl_irls_work_free (bl_irls_work *ws);
 
 /* INITIALIZE: starting means from y, the first weighted solve.  BL_OK or an error
    (BL_EDATA: the starting means are outside the mean space; BL_ECANCEL). */
-int bl_irls_init (bl_irls_work *ws, bl_err *err);
+BL_API int bl_irls_init (bl_irls_work *ws, bl_err *err);
 /* ITERATE: one step: the linear predictor at the proposed coefficients, step halving while the
    deviance rises or mu leaves the mean space, then the next weighted solve.  BL_OK, or
    BL_ENOCONV (diverged: halving could not find a valid step), BL_ECANCEL. */
-int bl_irls_iterate (bl_irls_work *ws, bl_err *err);
+BL_API int bl_irls_iterate (bl_irls_work *ws, bl_err *err);
 /* TEST: BL_OK when |D_old - D| <= epsrel (|D| + 0.1), else BL_CONTINUE. */
-int bl_irls_test (const bl_irls_work *ws);
+BL_API int bl_irls_test (const bl_irls_work *ws);
 /* Finish after a successful TEST: one more pass at the last solve's coefficients so that the
    reported coefficients, means, deviance and covariance factor all belong to one point. */
-int bl_irls_finish (bl_irls_work *ws, bl_err *err);
+BL_API int bl_irls_finish (bl_irls_work *ws, bl_err *err);
 
 /* Run INITIALIZE, ITERATE/TEST up to max_iter, and FINISH.  BL_ENOCONV when the limit is
    reached ("no convergence in N iterations"). */
-int bl_irls_run (bl_irls_work *ws, bl_err *err);
+BL_API int bl_irls_run (bl_irls_work *ws, bl_err *err);
 
 /* Results, valid until the next call on WS or bl_irls_work_free. */
-const double *bl_irls_beta (const bl_irls_work *ws);      /* length p; aliased entries 0 */
-const bl_lsq_sol *bl_irls_sol (const bl_irls_work *ws);   /* rank, aliased, cov factor */
-const double *bl_irls_mu (const bl_irls_work *ws);        /* length n */
-const double *bl_irls_eta (const bl_irls_work *ws);       /* length n */
-double bl_irls_deviance (const bl_irls_work *ws);
-size_t bl_irls_iterations (const bl_irls_work *ws);
-size_t bl_irls_halvings (const bl_irls_work *ws);         /* total step halvings */
-bl_solver bl_irls_solver (const bl_irls_work *ws);        /* the kernel used */
+BL_API const double *bl_irls_beta (const bl_irls_work *ws);      /* length p; aliased entries 0 */
+BL_API const bl_lsq_sol *bl_irls_sol (const bl_irls_work *ws);   /* rank, aliased, cov factor */
+BL_API const double *bl_irls_mu (const bl_irls_work *ws);        /* length n */
+BL_API const double *bl_irls_eta (const bl_irls_work *ws);       /* length n */
+BL_API double bl_irls_deviance (const bl_irls_work *ws);
+BL_API size_t bl_irls_iterations (const bl_irls_work *ws);
+BL_API size_t bl_irls_halvings (const bl_irls_work *ws);         /* total step halvings */
+BL_API bl_solver bl_irls_solver (const bl_irls_work *ws);        /* the kernel used */
 
 #ifdef __cplusplus
 }

@@ -45,11 +45,11 @@ typedef struct bl_job {
 } bl_job;
 
 /* Defaults: intercept on, the fit and table defaults, BL_COMPARE_FOLDS, BL_COMPARE_SEED. */
-void bl_job_init (bl_job *j);
+BL_API void bl_job_init (bl_job *j);
 /* Free the strings.  The job can be reused after bl_job_init. */
-void bl_job_clear (bl_job *j);
+BL_API void bl_job_clear (bl_job *j);
 /* Deep copy SRC into DST (initialized or cleared).  BL_OK or BL_ENOMEM. */
-int bl_job_copy (bl_job *dst, const bl_job *src, bl_err *err);
+BL_API int bl_job_copy (bl_job *dst, const bl_job *src, bl_err *err);
 
 
 /* ---- The job's keys, one table for the command line, spec files and --help (options.c).
@@ -69,51 +69,51 @@ enum {
   BL_OPTION_CANDIDATE = 1u << 3    /* compare's candidates choose it: compare refuses it */
 };
 
-size_t bl_job_key_count (void);
-const char *bl_job_key_name (size_t i);            /* "family"; NULL when I is out of range */
-unsigned bl_job_key_flags (size_t i);              /* BL_OPTION_...; 0 out of range */
-int bl_job_key_takes_value (size_t i);             /* 1: --KEY VALUE; 0: a flag */
+BL_API size_t bl_job_key_count (void);
+BL_API const char *bl_job_key_name (size_t i);     /* "family"; NULL when I is out of range */
+BL_API unsigned bl_job_key_flags (size_t i);       /* BL_OPTION_...; 0 out of range */
+BL_API int bl_job_key_takes_value (size_t i);             /* 1: --KEY VALUE; 0: a flag */
 /* The key's --help: its section ("model"), the value's placeholder after --KEY (NULL for a
    flag) and its text (lines separated by '\n', without the last one); all NULL for a key
    that is not a shared command-line option. */
-void bl_job_key_help (size_t i, const char **group, const char **arg, const char **help);
+BL_API void bl_job_key_help (size_t i, const char **group, const char **arg, const char **help);
 
 /* Whether KEY is one of the job's keys, the entries of the option table (options.c: its
    key, where it is taken, its setter and its help): for spec files, "unknown key". */
-int bl_job_has_key (const char *key);
+BL_API int bl_job_has_key (const char *key);
 /* Whether KEY takes no value on the command line (a BL_OPTION_FLAG: no-intercept,
    decimal-comma). */
-int bl_job_key_is_flag (const char *key);
+BL_API int bl_job_key_is_flag (const char *key);
 
 /* Set KEY, a key of the option table, to VALUE through the key's setter.  Flags take VALUE
    NULL, or yes/no/true/false/1/0; categorical is a comma list that replaces the previous one,
    reference (COL=LEVEL, comma lists) accumulates.  A bad value is BL_ESPEC with
    ERR->where = WHERE and a message that quotes it ("unknown key 'K'" and "'K' needs a value"
    first); BL_ENOMEM.  Term syntax is checked by bl_job_parse_terms, not here. */
-int bl_job_set (bl_job *j, const char *key, const char *value, const char *where,
-                bl_err *err);
+BL_API int bl_job_set (bl_job *j, const char *key, const char *value, const char *where,
+                       bl_err *err);
 
 /* Check the combination after every key is set, and resolve implied choices (a variance
    function implies wls, a transform ols).  SINGLE: the job fits one model (fit, diagnose)
    rather than a comparison.  BL_ESPEC naming the option ("--variance") or WHERE_SPEC when
    not NULL (a spec file's job line). */
-int bl_job_finish (bl_job *j, int single, const char *where_spec, bl_err *err);
+BL_API int bl_job_finish (bl_job *j, int single, const char *where_spec, bl_err *err);
 
 /* Parse the terms and the offset (syntax only).  *TERMS and *OFFSET are NULL when not given;
    the caller frees them.  BL_ESPEC with where "--terms"/"--offset" or WHERE_SPEC. */
-int bl_job_parse_terms (const bl_job *j, const char *where_spec, bl_terms **terms,
-                        bl_terms **offset, bl_err *err);
+BL_API int bl_job_parse_terms (const bl_job *j, const char *where_spec, bl_terms **terms,
+                               bl_terms **offset, bl_err *err);
 
 /* The design options the job implies (OFFSET parsed as above). */
-void bl_job_design_opts (const bl_job *j, const bl_terms *offset, bl_design_opts *dopt);
+BL_API void bl_job_design_opts (const bl_job *j, const bl_terms *offset, bl_design_opts *dopt);
 
 /* Read the table and build the design (terms parsed as above).  Only the columns the job
    names are kept (see bl_table_opts.keep); bl_job_load_with keeps column ALSO too (may be
    NULL), for a caller that needs one more (diagnose --by). */
-int bl_job_load_with (const bl_job *j, const bl_terms *terms, const bl_terms *offset,
-                      const char *also, bl_table **table, bl_design **design, bl_err *err);
-int bl_job_load (const bl_job *j, const bl_terms *terms, const bl_terms *offset,
-                 bl_table **table, bl_design **design, bl_err *err);
+BL_API int bl_job_load_with (const bl_job *j, const bl_terms *terms, const bl_terms *offset,
+                             const char *also, bl_table **table, bl_design **design, bl_err *err);
+BL_API int bl_job_load (const bl_job *j, const bl_terms *terms, const bl_terms *offset,
+                        bl_table **table, bl_design **design, bl_err *err);
 
 
 /* ---- the batch spec file: a [defaults] section and one [job NAME] section per job.
@@ -151,20 +151,20 @@ typedef struct bl_spec bl_spec;      /* opaque */
    BL_SPEC_NAME_MAX bytes, not "summary" or "index" (the report's own names, in any case and
    with any extension: "summary.csv", "Index.html").  Names
    must also be unique ignoring ASCII case.  1 when NAME is a valid name on its own. */
-int bl_spec_name_ok (const char *name);
+BL_API int bl_spec_name_ok (const char *name);
 
 /* Read and check PATH.  NULL with ERR filled: BL_EIO (cannot read the file), BL_ESPEC (see
    above), BL_ENOMEM. */
-bl_spec *bl_spec_read (const char *path, bl_err *err);
+BL_API bl_spec *bl_spec_read (const char *path, bl_err *err);
 /* The same from memory; NAME is used in messages and DIR resolves relative data paths. */
-bl_spec *bl_spec_read_mem (const char *text, size_t len, const char *name, const char *dir,
-                           bl_err *err);
-void bl_spec_free (bl_spec *s);
+BL_API bl_spec *bl_spec_read_mem (const char *text, size_t len, const char *name, const char *dir,
+                                  bl_err *err);
+BL_API void bl_spec_free (bl_spec *s);
 
-size_t bl_spec_njobs (const bl_spec *s);
-const bl_spec_job *bl_spec_get (const bl_spec *s, size_t i);   /* in file order */
+BL_API size_t bl_spec_njobs (const bl_spec *s);
+BL_API const bl_spec_job *bl_spec_get (const bl_spec *s, size_t i);   /* in file order */
 /* The spec's file name without folder and extension ("demo" for data/demo.spec). */
-const char *bl_spec_stem (const bl_spec *s);
+BL_API const char *bl_spec_stem (const bl_spec *s);
 
 
 /* ---- one job from its settings to its results: the fit or the comparison, the
@@ -193,7 +193,7 @@ typedef struct bl_job_run_opts {
 } bl_job_run_opts;
 
 /* Task BL_JOB_FIT, seed BL_DIAG_SEED, no plots, no by, no cancel flag. */
-void bl_job_run_opts_init (bl_job_run_opts *opt);
+BL_API void bl_job_run_opts_init (bl_job_run_opts *opt);
 
 /* The inputs, as bl_job_load made them from the job (the caller keeps them alive while the
    result lives: the result's fits point into the design). */
@@ -236,9 +236,9 @@ typedef struct bl_job_plots {
    residuals.  A single model that did not converge has no series (P->main NULL).  BL_OK,
    BL_ENOMEM, or BL_ECANCEL (where "report") once CANCEL (may be NULL) is set; P is cleared
    on failure.  Free with bl_job_plots_clear, which accepts a zeroed P. */
-int bl_job_plots_init (bl_job_plots *p, const bl_compare *c, const bl_fit *fit,
-                       unsigned long seed, volatile sig_atomic_t *cancel, bl_err *err);
-void bl_job_plots_clear (bl_job_plots *p);
+BL_API int bl_job_plots_init (bl_job_plots *p, const bl_compare *c, const bl_fit *fit,
+                              unsigned long seed, volatile sig_atomic_t *cancel, bl_err *err);
+BL_API void bl_job_plots_clear (bl_job_plots *p);
 
 typedef struct bl_job_result bl_job_result;   /* opaque; defined in job_run.c */
 
@@ -252,30 +252,32 @@ typedef struct bl_job_result bl_job_result;   /* opaque; defined in job_run.c */
      what is done (the fit's warnings) before the error.
    A single model that does not converge is not a failure: the result holds it, and the
    stages that need a converged model are skipped (the checks then fail with BL_ENOCONV). */
-int bl_job_run (const bl_job *job, const bl_job_input *in, const bl_job_run_opts *opt,
-                bl_job_result **out, bl_err *err);
-void bl_job_result_free (bl_job_result *r);
+BL_API int bl_job_run (const bl_job *job, const bl_job_input *in, const bl_job_run_opts *opt,
+                       bl_job_result **out, bl_err *err);
+BL_API void bl_job_result_free (bl_job_result *r);
 
 /* Accessors; pointers stay valid until bl_job_result_free. */
-const bl_fit *bl_job_result_fit (const bl_job_result *r);          /* single model, or NULL */
-const bl_compare *bl_job_result_compare (const bl_job_result *r);  /* comparison, or NULL */
+/* the single model, or NULL */
+BL_API const bl_fit *bl_job_result_fit (const bl_job_result *r);
+/* the comparison, or NULL */
+BL_API const bl_compare *bl_job_result_compare (const bl_job_result *r);
 /* The model whose residuals are reported: the single model when it converged, the
    comparison's winner; NULL when there is none. */
-const bl_fit *bl_job_result_model (const bl_job_result *r);
-const bl_diag *bl_job_result_diag (const bl_job_result *r);        /* diagnose, or NULL */
-const bl_nested *bl_job_result_nested (const bl_job_result *r);    /* tested, or NULL */
-const bl_bf *bl_job_result_by (const bl_job_result *r);            /* opts.by, or NULL */
+BL_API const bl_fit *bl_job_result_model (const bl_job_result *r);
+BL_API const bl_diag *bl_job_result_diag (const bl_job_result *r);        /* diagnose, or NULL */
+BL_API const bl_nested *bl_job_result_nested (const bl_job_result *r);    /* tested, or NULL */
+BL_API const bl_bf *bl_job_result_by (const bl_job_result *r);            /* opts.by, or NULL */
 /* The single model's spread ratio (from the plot series), NAN when not computed or when it
    does not exist (fewer than 40 rows). */
-double bl_job_result_spread_ratio (const bl_job_result *r);
-const bl_job_plots *bl_job_result_plots (const bl_job_result *r);  /* opts.plots, or NULL */
-unsigned long bl_job_result_seed (const bl_job_result *r);
+BL_API double bl_job_result_spread_ratio (const bl_job_result *r);
+BL_API const bl_job_plots *bl_job_result_plots (const bl_job_result *r);  /* opts.plots, or NULL */
+BL_API unsigned long bl_job_result_seed (const bl_job_result *r);
 
 /* The residual table of the result's model (bl_resid_table_new), its quantile residuals
    drawn with a generator seeded with the run's seed.  NULL with ERR: no model (BL_EINTERNAL),
    BL_ENOMEM, BL_ECANCEL once CANCEL (may be NULL) is set.  Free with bl_resid_table_free. */
-bl_resid_table *bl_job_resid_table (const bl_job_result *r, volatile sig_atomic_t *cancel,
-                                    bl_err *err);
+BL_API bl_resid_table *bl_job_resid_table (const bl_job_result *r, volatile sig_atomic_t *cancel,
+                                           bl_err *err);
 
 
 /* ---- run the jobs of a spec file into an output folder.
@@ -304,7 +306,7 @@ typedef struct bl_batch_row {
 
 /* The seed of a job: derived from its name (FNV-1a of the name, mixed with the base seed),
    so results do not depend on the order or number of jobs. */
-unsigned long bl_batch_seed (const char *job, unsigned long base);
+BL_API unsigned long bl_batch_seed (const char *job, unsigned long base);
 
 typedef struct bl_batch_opts {
   unsigned jobs;                    /* jobs run at once (1 or more) */
@@ -315,7 +317,7 @@ typedef struct bl_batch_opts {
   void *progress_ctx;
 } bl_batch_opts;
 
-void bl_batch_opts_init (bl_batch_opts *opt);
+BL_API void bl_batch_opts_init (bl_batch_opts *opt);
 
 /* Run every job of SPEC into OUTDIR (created when missing).  ROWS (length njobs) receives the
    summary lines in spec order.  Returns BL_OK when every job ran (some may have failed: see
@@ -324,8 +326,8 @@ void bl_batch_opts_init (bl_batch_opts *opt);
    failed for it): ERR->where names the job ("job 'NAME'", or "run" for the summaries), no
    more jobs start, and the summaries are not written; every file already written is
    complete, and a job's result.json and residuals.csv are both written or neither. */
-int bl_batch_run (const bl_spec *spec, const char *outdir, const bl_batch_opts *opt,
-                  bl_batch_row *rows, bl_err *err);
+BL_API int bl_batch_run (const bl_spec *spec, const char *outdir, const bl_batch_opts *opt,
+                         bl_batch_row *rows, bl_err *err);
 
 #ifdef __cplusplus
 }

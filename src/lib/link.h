@@ -1,6 +1,7 @@
 /* link.h -- link functions: identity, log, inverse, sqrt.  Each is one static const descriptor. */
 #ifndef BALLAST_LINK_H
 #define BALLAST_LINK_H
+#include "version.h"
 #ifdef __cplusplus
 extern "C" {
 #endif
@@ -13,13 +14,13 @@ typedef struct bl_link {
   int (*valid_eta) (double eta);       /* nonzero when g^-1(eta) is defined and finite */
 } bl_link;
 
-extern const bl_link bl_link_identity;
-extern const bl_link bl_link_log;
-extern const bl_link bl_link_inverse;
-extern const bl_link bl_link_sqrt;      /* for counts: poisson, negative binomial */
+extern BL_API const bl_link bl_link_identity;
+extern BL_API const bl_link bl_link_log;
+extern BL_API const bl_link bl_link_inverse;
+extern BL_API const bl_link bl_link_sqrt;      /* for counts: poisson, negative binomial */
 
 /* The link named NAME, or NULL. */
-const bl_link *bl_link_find (const char *name);
+BL_API const bl_link *bl_link_find (const char *name);
 
 #ifdef __cplusplus
 }

@@ -24,15 +24,15 @@ extern "C" {
    column labels, method, family, link, offset, weights, variance function and K, transform
    with lambda and shift, smearing residuals, coefficients, covariance, dispersion, dof_resid,
    level.  BL_OK or BL_EIO; BL_EDATA when the fit did not converge (nothing to save). */
-int bl_model_write (FILE *out, const bl_fit *fit, const bl_terms *terms,
-                    const bl_terms *offset, const char *weights, bl_err *err);
+BL_API int bl_model_write (FILE *out, const bl_fit *fit, const bl_terms *terms,
+                           const bl_terms *offset, const char *weights, bl_err *err);
 
 typedef struct bl_model bl_model;
 
 /* Read a model file.  NULL with ERR: BL_EIO (unreadable), BL_EDATA (not a ballast model, a
    newer format, or inconsistent: where = "FILE" and the key), BL_ENOMEM. */
-bl_model *bl_model_read (const char *path, bl_err *err);
-void bl_model_free (bl_model *m);
+BL_API bl_model *bl_model_read (const char *path, bl_err *err);
+BL_API void bl_model_free (bl_model *m);
 
 /* Predictions for every row of T, in order.  Each array has length nrows(T). */
 typedef struct bl_prediction {
@@ -53,9 +53,9 @@ typedef struct bl_prediction {
    fit's level; anything else is BL_ESPEC.  The intervals and scores are those of
    doc/model-format.md ("Prediction"); the prediction intervals of the poisson, gamma and
    inverse gaussian families leave out the uncertainty of the coefficients. */
-bl_prediction *bl_model_predict (const bl_model *m, const bl_table *t, double level,
-                                 bl_err *err);
-void bl_prediction_free (bl_prediction *p);
+BL_API bl_prediction *bl_model_predict (const bl_model *m, const bl_table *t, double level,
+                                        bl_err *err);
+BL_API void bl_prediction_free (bl_prediction *p);
 
 /* Options of bl_prediction_write_csv; bl_prediction_csv_opts_init gives no kept columns
    and no median. */
@@ -64,7 +64,7 @@ typedef struct bl_prediction_csv_opts {
   size_t nkeep;
   int median;                         /* nonzero: a `median` column after pred_hi */
 } bl_prediction_csv_opts;
-void bl_prediction_csv_opts_init (bl_prediction_csv_opts *opt);
+BL_API void bl_prediction_csv_opts_init (bl_prediction_csv_opts *opt);
 
 /* Write P, the predictions for the rows of T, as CSV to OUT: a header, then one record per
    row of T in order with the columns row (1-based data row), mean, mean_lo, mean_hi,
@@ -74,22 +74,22 @@ void bl_prediction_csv_opts_init (bl_prediction_csv_opts *opt);
    the defaults.  Non-finite numbers are written inf, -inf, or an empty field for NAN.  A
    kept name that T lacks, or that repeats an output column, is BL_EDATA (where = "FILE:1")
    before anything is written.  BL_OK, or BL_EIO when a write failed. */
-int bl_prediction_write_csv (FILE *out, const bl_prediction *p, const bl_table *t,
-                             const bl_prediction_csv_opts *opt, bl_err *err);
+BL_API int bl_prediction_write_csv (FILE *out, const bl_prediction *p, const bl_table *t,
+                                    const bl_prediction_csv_opts *opt, bl_err *err);
 
 /* Table options for reading new data for M: its categorical columns forced categorical.
    The pointers stay valid until bl_model_free. */
-void bl_model_table_opts (const bl_model *m, bl_table_opts *opt);
+BL_API void bl_model_table_opts (const bl_model *m, bl_table_opts *opt);
 
 /* Accessors of a model read back; pointers valid until bl_model_free.  bl_model_beta has
    length bl_model_p (NAN for aliased columns), bl_model_cov is p x p column-major (NAN in
    aliased rows and columns); bl_model_level is the confidence level of the fit. */
-size_t bl_model_p (const bl_model *m);
-const char *bl_model_label (const bl_model *m, size_t j);
-const double *bl_model_beta (const bl_model *m);
-const double *bl_model_cov (const bl_model *m);
-const char *bl_model_response (const bl_model *m);
-double bl_model_level (const bl_model *m);
+BL_API size_t bl_model_p (const bl_model *m);
+BL_API const char *bl_model_label (const bl_model *m, size_t j);
+BL_API const double *bl_model_beta (const bl_model *m);
+BL_API const double *bl_model_cov (const bl_model *m);
+BL_API const char *bl_model_response (const bl_model *m);
+BL_API double bl_model_level (const bl_model *m);
 
 #ifdef __cplusplus
 }

@@ -6,7 +6,7 @@
 #include <math.h>
 #include <stdio.h>
 #include <string.h>
-#include "ballast.h"
+#include "version.h"
 #include "design.h"
 #include "json.h"
 #include "model_impl.h"

@@ -32,9 +32,9 @@ typedef struct bl_nested {
    Errors: BL_ESPEC when the smaller model is not nested (a column of it is not a column of
    BIG, or its rank is not smaller), BL_EDATA when it cannot be fitted on BIG's rows,
    BL_ENOCONV, BL_ENOMEM. */
-int bl_nested_test (const bl_fit *big, const bl_table *t, const bl_terms *small,
-                    const bl_design_opts *dopt, const bl_fit_opts *fo, bl_nested *out,
-                    bl_err *err);
+BL_API int bl_nested_test (const bl_fit *big, const bl_table *t, const bl_terms *small,
+                           const bl_design_opts *dopt, const bl_fit_opts *fo, bl_nested *out,
+                           bl_err *err);
 
 #ifdef __cplusplus
 }

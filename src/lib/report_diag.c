@@ -32,7 +32,7 @@ bl_report_diag_json (FILE *out, const bl_fit *fit, const bl_diag *dg,
   bl_report_head_json (&w, out, info->tool_version, d, info->source);
   bl_json_obj (&w, "model");
   bl_json_str (&w, "method", bl_method_name (bl_fit_method (fit)));
-  bl_json_str (&w, "family", bl_fit_family (fit)->name);
+  bl_json_str (&w, "family", bl_family_name (bl_fit_family (fit)));
   bl_json_str (&w, "link", bl_fit_link (fit)->name);
   bl_json_str (&w, "transform", bl_fit_transform (fit)->name);
   bl_json_str (&w, "response", bl_design_response (d));
@@ -132,7 +132,7 @@ bl_report_diag_text (FILE *o, const bl_fit *fit, const bl_diag *dg,
   fprintf (o, "  data        %s: %zu rows used of %zu\n", info->source, bl_design_n (d),
            bl_design_rows_read (d));
   fprintf (o, "  model       %s, %s family, %s link%s%s; residuals: Pearson\n",
-           bl_method_name (bl_fit_method (fit)), bl_fit_family (fit)->name,
+           bl_method_name (bl_fit_method (fit)), bl_family_name (bl_fit_family (fit)),
            bl_fit_link (fit)->name, bl_fit_transform (fit)->name ? ", transform " : "",
            bl_fit_transform (fit)->name ? bl_fit_transform (fit)->name : "");
   fputs ("\n  First, the mean model (variance tests also fire when it is wrong)\n", o);

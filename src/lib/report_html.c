@@ -194,7 +194,7 @@ model_name (const bl_fit *f, char *buf, size_t cap)
     snprintf (buf, cap, "ordinary least squares of %s(y)%s", t->name,
               t->kind == BL_TRANSFORM_BOXCOX ? " (Box-Cox)" : "");
   else
-    snprintf (buf, cap, "%s family, %s link (%s)", bl_fit_family (f)->name,
+    snprintf (buf, cap, "%s family, %s link (%s)", bl_family_name (bl_fit_family (f)),
               bl_fit_link (f)->name, bl_fit_method (f) == BL_METHOD_OLS
               ? "ordinary least squares" : "maximum likelihood by IRLS");
   return buf;

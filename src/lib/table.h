@@ -54,7 +54,7 @@ typedef struct bl_table_opts {
 
 /* Fill OPT with the defaults (delimiter 0, decimal_comma 0, no categorical, max_levels
    BL_TABLE_MAX_LEVELS, threads BL_TABLE_THREADS, cancel NULL, chunk BL_TABLE_CHUNK). */
-void bl_table_opts_init (bl_table_opts *opt);
+BL_API void bl_table_opts_init (bl_table_opts *opt);
 
 /* Read a whole table from PATH ("-" for standard input; gzip detected by magic bytes).
    OPT may be NULL for the defaults.  The first record is the header: column names must be
@@ -73,33 +73,33 @@ void bl_table_opts_init (bl_table_opts *opt);
    BL_EDATA naming the line where the field began.  A file with no header is BL_EDATA.
 
    Returns NULL and fills ERR on failure (nothing is kept). */
-bl_table *bl_table_read (const char *path, const bl_table_opts *opt, bl_err *err);
+BL_API bl_table *bl_table_read (const char *path, const bl_table_opts *opt, bl_err *err);
 
 /* The same from LEN bytes at BUF; NAME is used in messages (as the file name). */
-bl_table *bl_table_read_mem (const void *buf, size_t len, const char *name,
-                             const bl_table_opts *opt, bl_err *err);
+BL_API bl_table *bl_table_read_mem (const void *buf, size_t len, const char *name,
+                                    const bl_table_opts *opt, bl_err *err);
 
 /* Free the table and everything it owns.  Accepts NULL. */
-void bl_table_free (bl_table *t);
+BL_API void bl_table_free (bl_table *t);
 
 /* Accessors.  Pointers returned stay valid until bl_table_free; the caller must not modify
    or free them. */
-const char *bl_table_source (const bl_table *t);   /* the name used in messages */
-size_t bl_table_nrows (const bl_table *t);         /* data records (header excluded) */
-size_t bl_table_ncols (const bl_table *t);
-const char *bl_table_colname (const bl_table *t, size_t j);
+BL_API const char *bl_table_source (const bl_table *t);   /* the name used in messages */
+BL_API size_t bl_table_nrows (const bl_table *t);         /* data records (header excluded) */
+BL_API size_t bl_table_ncols (const bl_table *t);
+BL_API const char *bl_table_colname (const bl_table *t, size_t j);
 /* Index of the column named NAME (exact byte match), or -1. */
-long bl_table_find (const bl_table *t, const char *name);
-int bl_table_is_numeric (const bl_table *t, size_t j);
+BL_API long bl_table_find (const bl_table *t, const char *name);
+BL_API int bl_table_is_numeric (const bl_table *t, size_t j);
 /* Numeric column J (length nrows): NAN marks a missing cell.  NULL for a categorical column. */
-const double *bl_table_num (const bl_table *t, size_t j);
+BL_API const double *bl_table_num (const bl_table *t, size_t j);
 /* Categorical column J: level codes 0..nlevels-1 (levels sorted in byte order, as strcmp),
    -1 for a missing cell.  NULL for a numeric column. */
-const int32_t *bl_table_codes (const bl_table *t, size_t j);
-size_t bl_table_nlevels (const bl_table *t, size_t j);
-const char *bl_table_level (const bl_table *t, size_t j, size_t k);
+BL_API const int32_t *bl_table_codes (const bl_table *t, size_t j);
+BL_API size_t bl_table_nlevels (const bl_table *t, size_t j);
+BL_API const char *bl_table_level (const bl_table *t, size_t j, size_t k);
 /* The 1-based physical line on which data record ROW (0-based) starts, for messages. */
-size_t bl_table_line (const bl_table *t, size_t row);
+BL_API size_t bl_table_line (const bl_table *t, size_t row);
 
 #ifdef __cplusplus
 }

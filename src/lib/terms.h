@@ -45,22 +45,22 @@ typedef struct bl_terms bl_terms;    /* opaque list; defined in terms.c */
    and what was expected ("at character 12: expected ')' after 'hours'").  An empty list, an
    empty term, a duplicate term (same canonical label) and a non-finite power are BL_ESPEC.
    Returns NULL on failure. */
-bl_terms *bl_terms_parse (const char *text, const char *where, bl_err *err);
+BL_API bl_terms *bl_terms_parse (const char *text, const char *where, bl_err *err);
 
 /* Free the list and its trees.  Accepts NULL. */
-void bl_terms_free (bl_terms *terms);
+BL_API void bl_terms_free (bl_terms *terms);
 
-size_t bl_terms_count (const bl_terms *terms);
+BL_API size_t bl_terms_count (const bl_terms *terms);
 /* Term I (0-based); valid until bl_terms_free. */
-const bl_term *bl_terms_get (const bl_terms *terms, size_t i);
+BL_API const bl_term *bl_terms_get (const bl_terms *terms, size_t i);
 
 /* Write the canonical text of the whole list, terms joined by ", ", into BUF (always
    NUL-terminated).  Returns the length it needed (as snprintf). */
-size_t bl_terms_text (const bl_terms *terms, char *buf, size_t cap);
+BL_API size_t bl_terms_text (const bl_terms *terms, char *buf, size_t cap);
 
 /* Format a finite double as the shortest decimal that reads back to the same value (as used
    in labels: pow(d,2), pow(d,0.5)).  BUF needs 32 bytes. */
-void bl_format_shortest (double x, char buf[32]);
+BL_API void bl_format_shortest (double x, char buf[32]);
 
 #ifdef __cplusplus
 }

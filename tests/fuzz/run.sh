@@ -37,13 +37,9 @@ cflags="$cflags -I$bld -I$top/src/lib"
 cflags="$cflags $(pkg-config --cflags gsl zlib jansson)"
 libs="$(pkg-config --libs gsl zlib jansson) -lpthread -lm"
 
-# The library's sources as Makefile.am lists them, and model.c (predict's reader).
-srcs=$(sed -n '/^libballast_la_SOURCES/,/^[^	 ]/p' "$top/Makefile.am" \
+# The library's sources as Makefile.am lists them.
+srcs=$(sed -n '/^libballast_core_la_SOURCES/,/^[^	 ]/p' "$top/Makefile.am" \
        | tr ' \\\t=' '\n\n\n\n' | grep '^src/lib/.*\.c$' | sort -u)
-case " $(echo $srcs) " in
-  *" src/lib/model.c "*) ;;
-  *) [ -f "$top/src/lib/model.c" ] && srcs="$srcs src/lib/model.c" ;;
-esac
 # An object is rebuilt when its source or any library header is newer (headers change
 # structures that other files' objects lay out).
 newest_h=$(ls -t "$top"/src/lib/*.h "$bld/config.h" | head -n 1)
