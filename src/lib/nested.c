@@ -84,7 +84,7 @@ bl_nested_test (const bl_fit *big, const bl_table *t, const bl_terms *small,
     out->dof = sb->rank - ss->rank;
     out->deviance_small = ss->deviance;
     out->deviance_big = sb->deviance;
-    if (bl_fit_family (big)->par_name && fo->fam_par_est) {
+    if (bl_family_par_name (bl_fit_family (big)) && fo->fam_par_est) {
       /* The family's parameter (negative binomial theta, the Tweedie power) is estimated in
          each model separately, so the two deviances are measured at different parameters and
          do not subtract: the likelihood ratio 2 (l_big - l_small), both maximized over the
@@ -94,7 +94,8 @@ bl_nested_test (const bl_fit *big, const bl_table *t, const bl_terms *small,
       out->form = "chisq";
       out->stat = lr;
       out->p = isfinite (lr) ? gsl_cdf_chisq_Q (lr > 0.0 ? lr : 0.0, (double) out->dof) : NAN;
-    } else if (!bl_fit_family (big)->phi_free && !fo->dispersion_pearson) {
+    } else if (!bl_family_has (bl_fit_family (big), BL_FAM_PHI_FREE)
+               && !fo->dispersion_pearson) {
       out->form = "chisq";
       out->stat = dd;
       out->p = gsl_cdf_chisq_Q (dd > 0.0 ? dd : 0.0, (double) out->dof);
