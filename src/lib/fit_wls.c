@@ -30,6 +30,7 @@
 #include "fit_engine.h"
 #include "fit_glm.h"
 #include "profile.h"
+#include "rowblock.h"
 
 #define BLOCK 1024
 #define LOG_2PI 1.8378770664093454835606594728112
@@ -168,8 +169,8 @@ mlk_eval (mlk *m, const double *th, double *G, size_t *bad_row)
   if (m->cancel && *m->cancel)
     return HUGE_VAL;
   /* first pass: means, S and sum log w */
-  for (size_t r0 = 0; r0 < n; r0 += BLOCK) {
-    const size_t nb = n - r0 < BLOCK ? n - r0 : BLOCK;
+  BL_ROWBLOCK_FOR (rb, 0, n, BLOCK) {
+    const size_t r0 = rb.row0, nb = rb.n;
     bl_design_fill (m->d, r0, nb, m->X, BLOCK);
     for (size_t i = 0; i < nb; i++) {
       double mu = 0.0;
@@ -196,8 +197,8 @@ mlk_eval (mlk *m, const double *th, double *G, size_t *bad_row)
     const double nS = (double) n / (double) S;
     long double dK = 0.0L;
     memset (G, 0, (r + (m->est ? 1 : 0)) * sizeof (double));
-    for (size_t r0 = 0; r0 < n; r0 += BLOCK) {
-      const size_t nb = n - r0 < BLOCK ? n - r0 : BLOCK;
+    BL_ROWBLOCK_FOR (rb, 0, n, BLOCK) {
+      const size_t r0 = rb.row0, nb = rb.n;
       bl_design_fill (m->d, r0, nb, m->X, BLOCK);
       for (size_t i = 0; i < nb; i++) {
         const double mu = m->mu[r0 + i], ai = m->a ? m->a[r0 + i] : 1.0;
