@@ -110,9 +110,9 @@ job_fit (job *j, const bl_family *fam, double par)
   fo.fam_par_est = isnan (par);
   fo.fam_par = par;
   j->f = bl_fit_new (j->d, &fo, &err);
-  ck_assert_msg (j->f != NULL, "fit %s: %s: %s", fam->name, err.where, err.msg);
+  ck_assert_msg (j->f != NULL, "fit %s: %s: %s", bl_family_name (fam), err.where, err.msg);
   ck_assert_msg (bl_fit_stats_get (j->f)->converged, "fit %s did not converge: %s",
-                 fam->name, bl_fit_status (j->f)->msg);
+                 bl_family_name (fam), bl_fit_status (j->f)->msg);
   return j->f;
 }
 

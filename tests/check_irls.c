@@ -281,12 +281,12 @@ engine_fixed_point (const bl_design *d, const bl_family *fam, const bl_link *lnk
   bl_irls_opts_init (&io);
   ws = bl_irls_work_new (&m, &io, &err);
   ck_assert_msg (ws != NULL, "engine: %s", err.msg);
-  ck_assert_msg (bl_irls_init (ws, &err) == BL_OK, "engine init %s/%s: %s", fam->name,
+  ck_assert_msg (bl_irls_init (ws, &err) == BL_OK, "engine init %s/%s: %s", bl_family_name (fam),
                  lnk->name, err.msg);
   for (it = 0; it < 300; it++) {
     memcpy (prev, bl_irls_beta (ws), p * sizeof (double));
-    ck_assert_msg (bl_irls_iterate (ws, &err) == BL_OK, "engine step %s/%s: %s", fam->name,
-                   lnk->name, err.msg);
+    ck_assert_msg (bl_irls_iterate (ws, &err) == BL_OK, "engine step %s/%s: %s",
+                   bl_family_name (fam), lnk->name, err.msg);
     if (it > 0 && memcmp (prev, bl_irls_beta (ws), p * sizeof (double)) == 0)
       break;
   }
@@ -367,7 +367,7 @@ START_TEST (irls_scipy_mle)
     wdev = test_rel (st->deviance, r[c].dev);
     wphi = test_rel (st->phi_ml, r[c].phi_ml);
     wx2 = test_rel (st2->pearson, r[c].x2);
-    phip_ref = fam->phi_free ? r[c].phi_p : r[c].x2 / 57.0;
+    phip_ref = bl_family_has (fam, BL_FAM_PHI_FREE) ? r[c].phi_p : r[c].x2 / 57.0;
     wphip = test_rel (st2->phi_pearson, phip_ref);
     fprintf (stderr, "glm_mle %-16s %-8s worst diff: engine beta %.1e (%zu steps); default "
              "fit beta %.1e (%zu iter) loglik %.1e deviance %.1e phi_ml %.1e; tight fit "
@@ -383,7 +383,7 @@ START_TEST (irls_scipy_mle)
                    st2->pearson, r[c].x2);
     ck_assert_msg (wphip <= 1e-8, "%s %s phi_pearson %.17g, ref %.17g", r[c].fam, r[c].link,
                    st2->phi_pearson, phip_ref);
-    if (!fam->phi_free)
+    if (!bl_family_has (fam, BL_FAM_PHI_FREE))
       ck_assert_msg (st2->phi_used == r[c].phi_p, "%s %s phi_used %.17g, ref %.17g", r[c].fam,
                      r[c].link, st2->phi_used, r[c].phi_p);
     test_job_free (&j);
@@ -391,8 +391,8 @@ START_TEST (irls_scipy_mle)
   }
   for (size_t k = 0; k < 4; k++)
     for (size_t l = 0; l < 3; l++)
-      ck_assert_msg (seen[k][l] == 1, "glm_mle.txt: pair %s %s seen %d times", fams[k]->name,
-                     lnks[l]->name, seen[k][l]);
+      ck_assert_msg (seen[k][l] == 1, "glm_mle.txt: pair %s %s seen %d times",
+                     bl_family_name (fams[k]), lnks[l]->name, seen[k][l]);
 }
 END_TEST
 
@@ -471,15 +471,16 @@ START_TEST (irls_intercept_only)
       for (size_t i = 0; i < n; i++) {
         worst = test_rel (mu[i], ybar) > worst ? test_rel (mu[i], ybar) : worst;
         ck_assert_msg (test_rel (mu[i], ybar) <= 1e-10, "%s/%s intercept-only mu[%zu] = %.17g, "
-                       "weighted mean %.17g", fams[k]->name, lnks[l]->name, i, mu[i], ybar);
+                       "weighted mean %.17g", bl_family_name (fams[k]), lnks[l]->name, i, mu[i],
+                       ybar);
       }
       ck_assert_msg (test_rel (st->deviance, st->deviance_null) <= 1e-10, "%s/%s intercept-only "
-                     "deviance %.17g, null %.17g", fams[k]->name, lnks[l]->name, st->deviance,
-                     st->deviance_null);
+                     "deviance %.17g, null %.17g", bl_family_name (fams[k]), lnks[l]->name,
+                     st->deviance, st->deviance_null);
       ck_assert_msg (test_rel (bl_fit_beta (j.f)[0], lnks[l]->g (ybar)) <= 1e-10, "%s/%s b0",
-                     fams[k]->name, lnks[l]->name);
-      fprintf (stderr, "intercept-only %-16s %-8s worst rel diff of mu %.1e\n", fams[k]->name,
-               lnks[l]->name, worst);
+                     bl_family_name (fams[k]), lnks[l]->name);
+      fprintf (stderr, "intercept-only %-16s %-8s worst rel diff of mu %.1e\n",
+               bl_family_name (fams[k]), lnks[l]->name, worst);
       test_job_free (&j);
     }
 }
@@ -541,18 +542,18 @@ START_TEST (irls_loglik_gsl)
       mu = bl_fit_mu (j.f);
       ck_assert (a != NULL);
       ref = gsl_loglik (k, y, mu, a, n, st->phi_ml);
-      fprintf (stderr, "loglik vs gsl %-16s %-8s rel diff %.1e\n", fams[k]->name,
+      fprintf (stderr, "loglik vs gsl %-16s %-8s rel diff %.1e\n", bl_family_name (fams[k]),
                lnks[l]->name, test_rel (st->loglik, ref));
       ck_assert_msg (test_rel (st->loglik, ref) <= 1e-10,
-                     "%s/%s loglik %.17g, gsl densities %.17g", fams[k]->name, lnks[l]->name,
-                     st->loglik, ref);
+                     "%s/%s loglik %.17g, gsl densities %.17g", bl_family_name (fams[k]),
+                     lnks[l]->name, st->loglik, ref);
       ck_assert_msg (st->aic == -2.0 * st->loglik + 2.0 * (double) st->k, "%s/%s aic",
-                     fams[k]->name, lnks[l]->name);
+                     bl_family_name (fams[k]), lnks[l]->name);
       ck_assert_uint_eq (st->k, 3 + (k == 1 ? 0 : 1));
       if (k != 1) {
         ck_assert_msg (gsl_loglik (k, y, mu, a, n, st->phi_ml * 1.001) < ref
                        && gsl_loglik (k, y, mu, a, n, st->phi_ml / 1.001) < ref,
-                       "%s/%s phi_ml %.17g is not the maximum over phi", fams[k]->name,
+                       "%s/%s phi_ml %.17g is not the maximum over phi", bl_family_name (fams[k]),
                        lnks[l]->name, st->phi_ml);
       }
       test_job_free (&j);
@@ -610,17 +611,17 @@ START_TEST (irls_weights_replicate)
         const double d = fabs (bwt[c] - brp[c]) / (fabs (brp[c]) + se[c]);
         worst = d > worst ? d : worst;
         ck_assert_msg (d <= 1e-9, "%s/%s beta[%zu] weighted %.17g, replicated %.17g",
-                       fams[k]->name, lnks[l]->name, c, bwt[c], brp[c]);
+                       bl_family_name (fams[k]), lnks[l]->name, c, bwt[c], brp[c]);
       }
       ck_assert_msg (test_rel (sw->deviance, sr->deviance) <= 1e-10, "%s/%s deviance weighted "
-                     "%.17g, replicated %.17g", fams[k]->name, lnks[l]->name, sw->deviance,
-                     sr->deviance);
+                     "%.17g, replicated %.17g", bl_family_name (fams[k]), lnks[l]->name,
+                     sw->deviance, sr->deviance);
       if (k == 1)
         ck_assert_msg (test_rel (sw->loglik, sr->loglik) <= 1e-10, "poisson/%s loglik weighted "
                        "%.17g, replicated %.17g", lnks[l]->name, sw->loglik, sr->loglik);
       fprintf (stderr, "weights vs replication %-16s %-8s beta %.1e deviance %.1e%s\n",
-               fams[k]->name, lnks[l]->name, worst, test_rel (sw->deviance, sr->deviance),
-               k == 1 ? "" : " (loglik not compared)");
+               bl_family_name (fams[k]), lnks[l]->name, worst,
+               test_rel (sw->deviance, sr->deviance), k == 1 ? "" : " (loglik not compared)");
       test_job_free (&jw);
       test_job_free (&jr);
     }
@@ -822,17 +823,17 @@ START_TEST (irls_error_aliased)
     test_job_fit_glm (&j, fams[k], &bl_link_log, NULL);
     st = bl_fit_stats_get (j.f);
     al = bl_fit_aliased (j.f);
-    ck_assert_msg (st->rank == 3 && st->p == 4, "%s alias: rank %zu p %zu", fams[k]->name,
-                   st->rank, st->p);
+    ck_assert_msg (st->rank == 3 && st->p == 4, "%s alias: rank %zu p %zu",
+                   bl_family_name (fams[k]), st->rank, st->p);
     ck_assert_msg (!al[0] && !al[1] && !al[2] && al[3], "%s alias: flags %d %d %d %d",
-                   fams[k]->name, al[0], al[1], al[2], al[3]);
+                   bl_family_name (fams[k]), al[0], al[1], al[2], al[3]);
     ck_assert_msg (isnan (bl_fit_beta (j.f)[3]) && isnan (bl_fit_se (j.f)[3]), "%s alias: "
-                   "beta[3] %g", fams[k]->name, bl_fit_beta (j.f)[3]);
+                   "beta[3] %g", bl_family_name (fams[k]), bl_fit_beta (j.f)[3]);
     for (size_t c = 0; c < 3; c++)
       ck_assert_msg (isfinite (bl_fit_beta (j.f)[c]) && bl_fit_se (j.f)[c] > 0.0, "%s alias: "
-                     "beta[%zu] %g", fams[k]->name, c, bl_fit_beta (j.f)[c]);
+                     "beta[%zu] %g", bl_family_name (fams[k]), c, bl_fit_beta (j.f)[c]);
     ck_assert_msg (test_fit_has_warning (j.f, "'x3' is aliased"), "%s alias: no warning",
-                   fams[k]->name);
+                   bl_family_name (fams[k]));
     ck_assert_uint_eq (st->dof_resid, 5);
     test_job_free (&j);
   }
@@ -1000,15 +1001,15 @@ START_TEST (irls_simulation_recovery)
     for (size_t c = 0; c < 3; c++) {
       const double z = (b[c] - sims[s].b[c]) / se[c];
       fprintf (stderr, "simulation %-16s b%zu = %.5f (true %.2f, se %.5f, z %+.2f)\n",
-               fams[sims[s].k]->name, c, b[c], sims[s].b[c], se[c], z);
+               bl_family_name (fams[sims[s].k]), c, b[c], sims[s].b[c], se[c], z);
       ck_assert_msg (fabs (z) <= 4.0, "simulation %s b%zu = %.6f, true %.3f, se %.6f",
-                     fams[sims[s].k]->name, c, b[c], sims[s].b[c], se[c]);
+                     bl_family_name (fams[sims[s].k]), c, b[c], sims[s].b[c], se[c]);
     }
     if (sims[s].k != 1) {
-      fprintf (stderr, "simulation %-16s phi_ml = %.5f (true %.3f)\n", fams[sims[s].k]->name,
-               st->phi_ml, sims[s].phi);
+      fprintf (stderr, "simulation %-16s phi_ml = %.5f (true %.3f)\n",
+               bl_family_name (fams[sims[s].k]), st->phi_ml, sims[s].phi);
       ck_assert_msg (test_rel (st->phi_ml, sims[s].phi) <= 0.03, "simulation %s phi_ml %.6f, true "
-                     "%.3f", fams[sims[s].k]->name, st->phi_ml, sims[s].phi);
+                     "%.3f", bl_family_name (fams[sims[s].k]), st->phi_ml, sims[s].phi);
     }
     test_job_free (&j);
     free (csv);

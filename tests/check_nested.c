@@ -96,7 +96,7 @@ job_fit (job *j, const bl_fit_opts *fo)
 {
   bl_err err = { 0 };
   j->f = bl_fit_new (j->d, fo, &err);
-  ck_assert_msg (j->f != NULL, "fit %s: %s: %s", fo->fam ? fo->fam->name : "gaussian",
+  ck_assert_msg (j->f != NULL, "fit %s: %s: %s", fo->fam ? bl_family_name (fo->fam) : "gaussian",
                  err.where, err.msg);
   ck_assert_msg (bl_fit_stats_get (j->f)->converged, "fit did not converge: %s",
                  bl_fit_status (j->f)->msg);
@@ -475,19 +475,19 @@ START_TEST (cluster_direct_check)
       free (x2);
     }
     ck_assert_msg (bl_fit_stats_get (f)->clusters == 13, "cluster %s: clusters %zu",
-                   fam->name, bl_fit_stats_get (f)->clusters);
+                   bl_family_name (fam), bl_fit_stats_get (f)->clusters);
     ck_assert_msg (strcmp (bl_fit_stats_get (f)->se_kind, "cluster") == 0,
-                   "cluster %s: se_kind %s", fam->name, bl_fit_stats_get (f)->se_kind);
+                   "cluster %s: se_kind %s", bl_family_name (fam), bl_fit_stats_get (f)->se_kind);
     for (size_t q = 0; q < 9; q++) {
       ck_assert_msg (rel (bl_fit_cov (f)[q], cov[q]) <= 1e-10, "cluster %s cov[%zu]: %.17g, "
-                     "direct %.17g", fam->name, q, bl_fit_cov (f)[q], cov[q]);
+                     "direct %.17g", bl_family_name (fam), q, bl_fit_cov (f)[q], cov[q]);
       ck_assert_msg (rel (bl_fit_cov (fn)[q], bl_fit_cov (f)[q]) <= 1e-14,
-                     "cluster %s numeric column cov[%zu]: %.17g, categorical %.17g", fam->name,
-                     q, bl_fit_cov (fn)[q], bl_fit_cov (f)[q]);
+                     "cluster %s numeric column cov[%zu]: %.17g, categorical %.17g",
+                     bl_family_name (fam), q, bl_fit_cov (fn)[q], bl_fit_cov (f)[q]);
     }
     for (size_t q = 0; q < 3; q++)
       ck_assert_msg (rel (bl_fit_se (f)[q], sqrt (cov[q + 3 * q])) <= 1e-10,
-                     "cluster %s se[%zu]", fam->name, q);
+                     "cluster %s se[%zu]", bl_family_name (fam), q);
     job_free (&j);
     job_free (&jn);
     free (csv.s);
@@ -526,7 +526,7 @@ START_TEST (cluster_one_per_cluster_is_hc1)
                    bl_fit_stats_get (fc)->n);
     for (size_t q = 0; q < 16; q++)
       ck_assert_msg (rel (bl_fit_cov (fc)[q], bl_fit_cov (fh)[q]) <= 1e-12,
-                     "one per cluster %s cov[%zu]: %.17g, hc1 %.17g", fo.fam->name, q,
+                     "one per cluster %s cov[%zu]: %.17g, hc1 %.17g", bl_family_name (fo.fam), q,
                      bl_fit_cov (fc)[q], bl_fit_cov (fh)[q]);
     job_free (&jc);
     job_free (&jh);
@@ -661,19 +661,20 @@ START_TEST (bf_direct)
     ck_assert_msg (bl_brown_forsythe (f, j.t, "g", &bf, &err) == BL_OK, "bf: %s: %s",
                    err.where, err.msg);
     ck_assert_msg (bf.dof == 3 && bf.dof2 == n - 4 && bf.ngroups == 4, "bf %s: dof %zu %zu "
-                   "groups %zu", fam->name, bf.dof, bf.dof2, bf.ngroups);
+                   "groups %zu", bl_family_name (fam), bf.dof, bf.dof2, bf.ngroups);
     ck_assert_msg (strcmp (bf.column, "g") == 0, "bf column '%s'", bf.column);
-    ck_assert_msg (rel (bf.stat, F) <= 1e-12, "bf %s: F %.17g, direct %.17g", fam->name,
+    ck_assert_msg (rel (bf.stat, F) <= 1e-12, "bf %s: F %.17g, direct %.17g", bl_family_name (fam),
                    bf.stat, F);
-    ck_assert_msg (rel (bf.p, pv) <= 1e-10, "bf %s: p %.17g, direct %.17g", fam->name, bf.p,
-                   pv);
+    ck_assert_msg (rel (bf.p, pv) <= 1e-10, "bf %s: p %.17g, direct %.17g", bl_family_name (fam),
+                   bf.p, pv);
     for (size_t g = 0; g < bf.ngroups; g++) {
       const size_t k = (size_t) (strchr ("pqrs", bf.groups[g].level[0]) - "pqrs");
-      ck_assert_msg (k < 4 && bf.groups[g].n == cnt[k], "bf %s group %s: n %zu", fam->name,
-                     bf.groups[g].level, bf.groups[g].n);
+      ck_assert_msg (k < 4 && bf.groups[g].n == cnt[k], "bf %s group %s: n %zu",
+                     bl_family_name (fam), bf.groups[g].level, bf.groups[g].n);
       ck_assert_msg (rel (bf.groups[g].median, med[k]) <= 1e-12
                      && rel (bf.groups[g].spread, spread[k]) <= 1e-12,
-                     "bf %s group %s: median %.17g (%.17g) spread %.17g (%.17g)", fam->name,
+                     "bf %s group %s: median %.17g (%.17g) spread %.17g (%.17g)",
+                     bl_family_name (fam),
                      bf.groups[g].level, bf.groups[g].median, med[k], bf.groups[g].spread,
                      spread[k]);
     }

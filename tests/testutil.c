@@ -284,9 +284,10 @@ test_job_fit_glm (test_job *j, const bl_family *fam, const bl_link *lnk,
   fo.fam = fam;
   fo.link = lnk;
   j->f = bl_fit_new (j->d, &fo, &err);
-  ck_assert_msg (j->f != NULL, "fit %s/%s: %s: %s", fam->name, lnk->name, err.where, err.msg);
+  ck_assert_msg (j->f != NULL, "fit %s/%s: %s: %s", bl_family_name (fam), lnk->name, err.where,
+                 err.msg);
   ck_assert_msg (bl_fit_stats_get (j->f)->converged, "fit %s/%s did not converge: %s",
-                 fam->name, lnk->name, bl_fit_status (j->f)->msg);
+                 bl_family_name (fam), lnk->name, bl_fit_status (j->f)->msg);
   return j->f;
 }
 

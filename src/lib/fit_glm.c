@@ -18,6 +18,7 @@
 #include <string.h>
 #include "alloc.h"
 #include "fit_glm.h"
+#include "rowblock.h"
 
 static void
 design_fill (const void *ctx, size_t row0, size_t nr, double *out, size_t ld)
@@ -115,8 +116,8 @@ scan_candidates (const bl_design *d, const double *y, const long *grp, cand *c, 
   const size_t n = bl_design_n (d), p = bl_design_p (d), ncat = bl_design_ncat (d);
   const size_t nc = p + ncat;
   const size_t ld = BL_IRLS_BLOCK;
-  for (size_t r0 = 0; r0 < n; r0 += ld) {
-    const size_t nb = n - r0 < ld ? n - r0 : ld;
+  BL_ROWBLOCK_FOR (rb, 0, n, ld) {
+    const size_t r0 = rb.row0, nb = rb.n;
     bl_design_fill (d, r0, nb, buf, ld);
     for (size_t i = 0; i < nb; i++) {
       const int yp = y[r0 + i] != 0.0;
@@ -466,8 +467,8 @@ summary_coefs (bl_fit *f, const bl_irls_work *ws, bl_err *err)
       double xmax = 0.0, *blk = bl_mallocn (BL_IRLS_BLOCK * p, sizeof *blk);
       if (!blk)
         return bl_fail (err, BL_ENOMEM, "fit", "out of memory");
-      for (size_t r0 = 0; r0 < n; r0 += BL_IRLS_BLOCK) {
-        const size_t nb = n - r0 < BL_IRLS_BLOCK ? n - r0 : BL_IRLS_BLOCK;
+      BL_ROWBLOCK_FOR (rb, 0, n, BL_IRLS_BLOCK) {
+        const size_t r0 = rb.row0, nb = rb.n;
         bl_design_fill (d, r0, nb, blk, BL_IRLS_BLOCK);
         for (size_t i = 0; i < nb; i++)
           if (fabs (blk[i + j * BL_IRLS_BLOCK]) > xmax)

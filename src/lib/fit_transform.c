@@ -189,6 +189,79 @@ boxcox_estimate (prof_ctx *pc, double *lambda_out, bl_err *err)
   return f;
 }
 
+/* The checks before a transformed fit of D: the options that cannot be combined with a
+   transform, a Box-Cox power in range, and y + C0 > 0 on every row (NAME the transform, for
+   the messages).  Returns BL_OK, or the failure with ERR saying why. */
+static int
+transform_check (const bl_design *d, const bl_fit_opts *opt, double c0, const char *name,
+                 bl_err *err)
+{
+  const size_t n = bl_design_n (d);
+  const double *y = bl_design_y (d);
+  const double lambda = opt->lambda;
+  size_t bad = 0, first = 0;
+
+  if ((opt->fam && !bl_family_has (opt->fam, BL_FAM_NORMAL))
+      || (opt->link && opt->link != &bl_link_identity))
+    return bl_fail (err, BL_ESPEC, "--transform", "a transformed response is fitted by "
+                    "ordinary least squares: leave out --family and --link");
+  if (opt->method == BL_METHOD_WLS)
+    return bl_fail (err, BL_ESPEC, "--transform", "--method wls and --transform cannot be "
+                    "combined (prior --weights may be given)");
+  if (bl_design_offset (d))
+    return bl_fail (err, BL_ESPEC, "--offset", "an offset applies to GLMs only, not to a "
+                    "transformed response");
+  if (opt->transform == BL_TRANSFORM_BOXCOX && !opt->lambda_est
+      && !(lambda >= BL_BOXCOX_MIN && lambda <= BL_BOXCOX_MAX))
+    return bl_fail (err, BL_ESPEC, "--transform", "the Box-Cox power must lie in [%g, %g], "
+                    "not %g", BL_BOXCOX_MIN, BL_BOXCOX_MAX, lambda);
+  for (size_t i = 0; i < n; i++)
+    if (!(y[i] + c0 > 0.0) && bad++ == 0)
+      first = i;
+  if (bad) {
+    char where[1100];
+    snprintf (where, sizeof where, "%s:%zu", bl_design_source (d), bl_design_line (d, first));
+    if (opt->shift_given)
+      return bl_fail (err, BL_EDATA, where, "'%s' + %g has %zu value%s <= 0 (first: %.17g); "
+                      "the %s transform needs y + shift > 0", bl_design_response (d), c0, bad,
+                      bad == 1 ? "" : "s", y[first] + c0, name);
+    return bl_fail (err, BL_EDATA, where, "'%s' has %zu value%s <= 0 (first: %.17g); the %s "
+                    "transform needs y > 0 (give --shift C to transform y + C)",
+                    bl_design_response (d), bad, bad == 1 ? "" : "s", y[first], name);
+  }
+  return BL_OK;
+}
+
+/* Mark F as the fit of the transformed response (NAME, power LAMBDA, shift C0) and move its
+   log-likelihood to the original scale by the log-Jacobian of the change of variable
+   (SUMLOG = sum log(y_i + c0) over the N rows). */
+static void
+transform_mark (bl_fit *f, const bl_fit_opts *opt, double lambda, double c0, const char *name,
+                double sumlog, size_t n)
+{
+  double jac = 0.0;
+  /* The log-Jacobian of the change of variable. */
+  switch (opt->transform) {
+  case BL_TRANSFORM_LOG: jac = -sumlog; break;
+  case BL_TRANSFORM_SQRT: jac = -(double) n * M_LN2 - 0.5 * sumlog; break;
+  default: jac = (lambda - 1.0) * sumlog; break;
+  }
+  f->tr.kind = opt->transform;
+  f->tr.name = name;
+  f->tr.lambda = opt->transform == BL_TRANSFORM_BOXCOX ? lambda : NAN;
+  f->tr.shift_given = opt->shift_given;
+  f->tr.shift = c0;
+  smear_sums (f);
+  f->method = BL_METHOD_OLS;
+  if (f->st.converged) {
+    f->st.loglik_transformed = f->st.loglik;
+    if (isfinite (f->st.loglik))
+      bl_fit_set_loglik (f, f->st.loglik + jac, f->st.k + (f->tr.lambda_estimated ? 1u : 0u));
+    else
+      f->st.k += f->tr.lambda_estimated ? 1u : 0u;
+  }
+}
+
 bl_fit *
 bl_fit_transform_run (const bl_design *d, const bl_fit_opts *opt, bl_err *err)
 {
@@ -197,51 +270,14 @@ bl_fit_transform_run (const bl_design *d, const bl_fit_opts *opt, bl_err *err)
   const double c0 = opt->shift_given ? opt->shift : 0.0;
   bl_fit_opts o = *opt;
   prof_ctx pc;
-  double *ys = NULL, *z = NULL, lambda = opt->lambda, jac = 0.0;
+  double *ys = NULL, *z = NULL, lambda = opt->lambda;
   long double sl = 0.0L;
-  size_t bad = 0, first = 0;
   bl_fit *f = NULL;
   const char *name = opt->transform == BL_TRANSFORM_LOG ? "log"
                      : opt->transform == BL_TRANSFORM_SQRT ? "sqrt" : "boxcox";
 
-  if ((opt->fam && !bl_family_has (opt->fam, BL_FAM_NORMAL))
-      || (opt->link && opt->link != &bl_link_identity)) {
-    bl_fail (err, BL_ESPEC, "--transform", "a transformed response is fitted by ordinary "
-             "least squares: leave out --family and --link");
+  if (transform_check (d, opt, c0, name, err) != BL_OK)
     return NULL;
-  }
-  if (opt->method == BL_METHOD_WLS) {
-    bl_fail (err, BL_ESPEC, "--transform", "--method wls and --transform cannot be combined "
-             "(prior --weights may be given)");
-    return NULL;
-  }
-  if (bl_design_offset (d)) {
-    bl_fail (err, BL_ESPEC, "--offset", "an offset applies to GLMs only, not to a transformed "
-             "response");
-    return NULL;
-  }
-  if (opt->transform == BL_TRANSFORM_BOXCOX && !opt->lambda_est
-      && !(lambda >= BL_BOXCOX_MIN && lambda <= BL_BOXCOX_MAX)) {
-    bl_fail (err, BL_ESPEC, "--transform", "the Box-Cox power must lie in [%g, %g], not %g",
-             BL_BOXCOX_MIN, BL_BOXCOX_MAX, lambda);
-    return NULL;
-  }
-  for (size_t i = 0; i < n; i++)
-    if (!(y[i] + c0 > 0.0) && bad++ == 0)
-      first = i;
-  if (bad) {
-    char where[1100];
-    snprintf (where, sizeof where, "%s:%zu", bl_design_source (d), bl_design_line (d, first));
-    if (opt->shift_given)
-      bl_fail (err, BL_EDATA, where, "'%s' + %g has %zu value%s <= 0 (first: %.17g); the %s "
-               "transform needs y + shift > 0", bl_design_response (d), c0, bad,
-               bad == 1 ? "" : "s", y[first] + c0, name);
-    else
-      bl_fail (err, BL_EDATA, where, "'%s' has %zu value%s <= 0 (first: %.17g); the %s "
-               "transform needs y > 0 (give --shift C to transform y + C)",
-               bl_design_response (d), bad, bad == 1 ? "" : "s", y[first], name);
-    return NULL;
-  }
   ys = bl_mallocn (n, sizeof *ys);
   z = bl_mallocn (n, sizeof *z);
   if (!ys || !z)
@@ -265,7 +301,7 @@ bl_fit_transform_run (const bl_design *d, const bl_fit_opts *opt, bl_err *err)
 
   if (opt->transform == BL_TRANSFORM_BOXCOX && opt->lambda_est) {
     if (!(f = boxcox_estimate (&pc, &lambda, err)))
-      goto fail;
+      goto done;
   } else {
     if (opt->transform == BL_TRANSFORM_LOG)
       for (size_t i = 0; i < n; i++)
@@ -277,43 +313,23 @@ bl_fit_transform_run (const bl_design *d, const bl_fit_opts *opt, bl_err *err)
       boxcox (ys, n, lambda, z);
     f = bl_fit_core (d, z, NULL, &o, 0, err);
     if (!f)
-      goto fail;
+      goto done;
   }
-  /* The log-Jacobian of the change of variable. */
-  switch (opt->transform) {
-  case BL_TRANSFORM_LOG: jac = -pc.sumlog; break;
-  case BL_TRANSFORM_SQRT: jac = -(double) n * M_LN2 - 0.5 * pc.sumlog; break;
-  default: jac = (lambda - 1.0) * pc.sumlog; break;
-  }
-  f->tr.kind = opt->transform;
-  f->tr.name = name;
-  f->tr.lambda = opt->transform == BL_TRANSFORM_BOXCOX ? lambda : NAN;
-  f->tr.shift_given = opt->shift_given;
-  f->tr.shift = c0;
-  smear_sums (f);
-  f->method = BL_METHOD_OLS;
-  if (f->st.converged) {
-    f->st.loglik_transformed = f->st.loglik;
-    if (isfinite (f->st.loglik))
-      bl_fit_set_loglik (f, f->st.loglik + jac, f->st.k + (f->tr.lambda_estimated ? 1u : 0u));
-    else
-      f->st.k += f->tr.lambda_estimated ? 1u : 0u;
-  }
+  transform_mark (f, opt, lambda, c0, name, pc.sumlog, n);
   if (opt->shift_given
       && bl_warnings_add (&f->warn, "the response was shifted by %g before the %s transform; "
                           "every result depends on that choice", c0, name) != BL_OK) {
     bl_fit_free (f);
+    f = NULL;
     goto nomem;
   }
+  goto done;
+nomem:
+  bl_fail (err, BL_ENOMEM, "transform", "out of memory");
+done:
   bl_free (ys);
   bl_free (z);
   return f;
-nomem:
-  bl_fail (err, BL_ENOMEM, "transform", "out of memory");
-fail:
-  bl_free (ys);
-  bl_free (z);
-  return NULL;
 }
 
 /* h^-1 for the fit's transform at Z (on the transformed scale), before the shift is undone. */

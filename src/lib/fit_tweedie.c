@@ -136,11 +136,12 @@ tw_profile (double p, void *arg)
 }
 
 /* The searches of the power's profile: the maximum by Brent's method to 1e-6 in p, at most
-   100 profile fits, without the stall test of the other searches (adding it is left to the
-   statistics issue); the interval ends by Brent's root bracketing to 1e-6, at most 100 fits
-   each.  A solver that GSL cannot allocate is skipped: the grid point stands for the
-   maximum, and that end of the interval is open. */
-static const bl_profile_tol tw_power_tol = { 1e-6, 0.0, 100, 0 };
+   100 profile fits, stopping as the other searches do when an iteration leaves both ends of
+   the bracket where they were (p no longer changes: the rest of the fits would be spent for
+   nothing); the interval ends by Brent's root bracketing to 1e-6, at most 100 fits each.
+   A solver that GSL cannot allocate is skipped: the grid point stands for the maximum, and
+   that end of the interval is open. */
+static const bl_profile_tol tw_power_tol = { 1e-6, 0.0, 100, 1 };
 static const bl_profile_tol tw_root_tol = { 1e-6, 0.0, 100, 0 };
 #define TW_GRID_MAX 32            /* grid points at most */
 

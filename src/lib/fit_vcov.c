@@ -14,6 +14,7 @@
 #include "alloc.h"
 #include "fit_engine.h"
 #include "order.h"
+#include "rowblock.h"
 
 #define BLOCK 1024
 
@@ -34,8 +35,8 @@ bl_fit_sandwich (bl_fit *f, bl_se_kind kind, bl_err *err)
   }
   if (kind == BL_SE_HC1)
     hc1 = f->st.dof_resid > 0 ? (double) n / (double) f->st.dof_resid : NAN;
-  for (size_t r0 = 0; r0 < n; r0 += BLOCK) {
-    const size_t nb = n - r0 < BLOCK ? n - r0 : BLOCK;
+  BL_ROWBLOCK_FOR (rb, 0, n, BLOCK) {
+    const size_t r0 = rb.row0, nb = rb.n;
     bl_design_fill (f->d, r0, nb, X, BLOCK);
     for (size_t i = 0; i < nb; i++) {
       const size_t row = r0 + i;
@@ -205,8 +206,8 @@ bl_fit_sandwich_cluster (bl_fit *f, const bl_table *t, const char *col, bl_err *
     st = bl_fail (err, BL_ENOMEM, "sandwich", "out of memory");
     goto done;
   }
-  for (size_t r0 = 0; r0 < n; r0 += BLOCK) {
-    const size_t nb = n - r0 < BLOCK ? n - r0 : BLOCK;
+  BL_ROWBLOCK_FOR (rb, 0, n, BLOCK) {
+    const size_t r0 = rb.row0, nb = rb.n;
     bl_design_fill (f->d, r0, nb, X, BLOCK);
     for (size_t i = 0; i < nb; i++) {
       const size_t row = r0 + i;

@@ -30,6 +30,7 @@
 #include "fit_engine.h"
 #include "fit_glm.h"
 #include "profile.h"
+#include "rowblock.h"
 
 #define BLOCK 1024
 #define LOG_2PI 1.8378770664093454835606594728112
@@ -137,6 +138,10 @@ typedef struct mlk {
   double *X;                 /* one block, BLOCK x p */
   double *beta;              /* full-length coefficients, work */
   double *mu;                /* length n: the means at the last evaluation */
+  size_t q;                  /* parameters in theta: r, plus 1 when K is estimated */
+  double *th, *G;            /* theta and the gradient of -l there, length q */
+  double *H, *Hc;            /* Hessian of -l (then its inverse) and a copy, q x q */
+  double *tp, *gp, *gm, *step;   /* Newton's work: a point, two gradients, the step */
   volatile sig_atomic_t *cancel;   /* the fits' cancel flag (irls.h); NULL for none */
 } mlk;
 
@@ -164,8 +169,8 @@ mlk_eval (mlk *m, const double *th, double *G, size_t *bad_row)
   if (m->cancel && *m->cancel)
     return HUGE_VAL;
   /* first pass: means, S and sum log w */
-  for (size_t r0 = 0; r0 < n; r0 += BLOCK) {
-    const size_t nb = n - r0 < BLOCK ? n - r0 : BLOCK;
+  BL_ROWBLOCK_FOR (rb, 0, n, BLOCK) {
+    const size_t r0 = rb.row0, nb = rb.n;
     bl_design_fill (m->d, r0, nb, m->X, BLOCK);
     for (size_t i = 0; i < nb; i++) {
       double mu = 0.0;
@@ -192,8 +197,8 @@ mlk_eval (mlk *m, const double *th, double *G, size_t *bad_row)
     const double nS = (double) n / (double) S;
     long double dK = 0.0L;
     memset (G, 0, (r + (m->est ? 1 : 0)) * sizeof (double));
-    for (size_t r0 = 0; r0 < n; r0 += BLOCK) {
-      const size_t nb = n - r0 < BLOCK ? n - r0 : BLOCK;
+    BL_ROWBLOCK_FOR (rb, 0, n, BLOCK) {
+      const size_t r0 = rb.row0, nb = rb.n;
       bl_design_fill (m->d, r0, nb, m->X, BLOCK);
       for (size_t i = 0; i < nb; i++) {
         const double mu = m->mu[r0 + i], ai = m->a ? m->a[r0 + i] : 1.0;
@@ -236,7 +241,7 @@ mlk_hessian (mlk *m, const double *th, size_t q, double *H, double *tp, double *
 }
 
 /* Newton's method for the minimum of -l from theta TH (value *FV_IO, gradient G), with the
-   work arrays of fit_fitted_power (H, HC q x q; TP, GP, GM, STEP length q).  On return TH,
+   work arrays of mlk (H, HC q x q; TP, GP, GM, STEP length q).  On return TH,
    G and *FV_IO are at the last accepted point and *ITER_OUT counts the iterations.  Returns 1
    when converged, 0 when not (a Hessian that could not be formed or factored, or the
    iteration cap). */
@@ -320,20 +325,220 @@ fail_row (const bl_design *d, size_t row, bl_err *err, const char *what, double 
            "positive fitted values (try a GLM with a log link)", what, mu);
 }
 
+/* The starting power of fitted^K from the OLS fit F: the slope of log r^2 on log mu (the
+   log-residual regression of Carroll & Ruppert 1988, section 3.3), kept within [-2, 5];
+   K0 when fewer than three rows have mu > 0 and r != 0. */
+static double
+start_power (const bl_fit *f, const double *a, size_t n, double K0)
+{
+  double K = K0;
+  long double sx = 0, sy = 0, sxx = 0, sxy = 0;
+  size_t cnt = 0;
+  for (size_t i = 0; i < n; i++) {
+    const double r = f->y[i] - f->mu[i];
+    if (f->mu[i] > 0.0 && r != 0.0) {
+      const double x = log (f->mu[i]), yy = log (r * r * (a ? a[i] : 1.0));
+      sx += x; sy += yy; sxx += x * x; sxy += x * yy;
+      cnt++;
+    }
+  }
+  if (cnt > 2 && sxx * cnt - sx * sx > 0) {
+    K = (double) ((cnt * sxy - sx * sy) / (cnt * sxx - sx * sx));
+    K = K < -2.0 ? -2.0 : K > 5.0 ? 5.0 : K;
+  }
+  return K;
+}
+
+/* Feasible WLS at the power K: weights a / mu^K from the fitted means of *FP, refit, until
+   the coefficients settle (or OPT->wls_max_iter refits).  W (length n) is the weights' work.
+   *FP is replaced by each refit (the old fit freed); *IT_OUT counts the refits and
+   *SETTLED_OUT says whether they settled.  Returns 0, or -1 on failure or cancellation (ERR
+   says why, unless cancelled; *FP is left for the caller to free). */
+static int
+feasible_wls (const bl_design *d, const bl_fit_opts *opt, const bl_fit_opts *o,
+              const double *a, double K, double *w, bl_fit **fp, size_t *it_out,
+              int *settled_out, bl_err *err)
+{
+  const size_t n = bl_design_n (d), p = bl_design_p (d);
+  const volatile sig_atomic_t *cancel = o->irls.cancel;
+  bl_fit *f = *fp, *g;
+  size_t it;
+  *settled_out = 0;
+  for (it = 0; it < opt->wls_max_iter; it++) {
+    double change = 0.0;
+    for (size_t i = 0; i < n; i++) {
+      if (!(f->mu[i] > 0.0)) {
+        fail_row (d, i, err, "feasible WLS:", f->mu[i]);
+        return -1;
+      }
+      w[i] = (a ? a[i] : 1.0) * exp (-K * log (f->mu[i]));
+    }
+    g = bl_fit_core (d, NULL, w, o, 1, err);
+    if (!g || (cancel && *cancel)) {     /* cancelled: reported by bl_fit_wls_run */
+      bl_fit_free (g);
+      return -1;
+    }
+    for (size_t j = 0; j < p; j++)
+      if (!g->aliased[j] && !f->aliased[j]) {
+        const double dch = fabs (g->beta[j] - f->beta[j]) / (fabs (g->beta[j]) + g->se[j]);
+        if (dch > change)
+          change = dch;
+      }
+    bl_fit_free (f);
+    *fp = f = g;
+    if (change <= 1e-10) {
+      *settled_out = 1;
+      it++;
+      break;
+    }
+  }
+  *it_out = it;
+  return 0;
+}
+
+/* Make M's work for the joint maximization from the feasible WLS fit F at the power K: the
+   free columns, the start and scale of theta, the block and the Newton arrays.  Returns 0,
+   or -1 when memory runs out (what was made is freed by mlk_free). */
+static int
+mlk_setup (mlk *m, const bl_design *d, const bl_fit_opts *opt, const double *a,
+           const bl_fit *f, double K)
+{
+  const size_t n = bl_design_n (d), p = bl_design_p (d);
+  size_t q;
+  m->d = d;
+  m->n = n;
+  m->p = p;
+  m->y = bl_design_y (d);
+  m->a = a;
+  m->est = opt->power_est;
+  m->K_fixed = opt->power;
+  m->col = bl_mallocn (p, sizeof (size_t));
+  m->b0 = bl_mallocn (p + 1, sizeof (double));
+  m->s = bl_mallocn (p + 1, sizeof (double));
+  m->X = bl_mallocn ((size_t) BLOCK * p, sizeof (double));
+  m->beta = bl_mallocn (p, sizeof (double));
+  m->mu = bl_mallocn (n, sizeof (double));
+  if (!m->col || !m->b0 || !m->s || !m->X || !m->beta || !m->mu)
+    return -1;
+  for (size_t j = 0; j < p; j++)
+    if (!f->aliased[j]) {
+      m->col[m->r] = j;
+      m->b0[m->r] = f->beta[j];
+      m->s[m->r] = (f->se[j] > 0.0 && isfinite (f->se[j])) ? f->se[j] : 1.0;
+      m->r++;
+    }
+  if (m->est) {
+    m->b0[m->r] = K;
+    m->s[m->r] = 0.1;
+  }
+  m->q = q = m->r + (m->est ? 1 : 0);
+  m->th = bl_calloc (q, sizeof *m->th);
+  m->G = bl_mallocn (q, sizeof *m->G);
+  m->H = bl_mallocn (q * q, sizeof *m->H);
+  m->Hc = bl_mallocn (q * q, sizeof *m->Hc);
+  m->tp = bl_mallocn (q, sizeof *m->tp);
+  m->gp = bl_mallocn (q, sizeof *m->gp);
+  m->gm = bl_mallocn (q, sizeof *m->gm);
+  m->step = bl_mallocn (q, sizeof *m->step);
+  if (!m->th || !m->G || !m->H || !m->Hc || !m->tp || !m->gp || !m->gm || !m->step)
+    return -1;
+  return 0;
+}
+
+static void
+mlk_free (mlk *m)
+{
+  bl_free (m->col);
+  bl_free (m->b0);
+  bl_free (m->s);
+  bl_free (m->X);
+  bl_free (m->beta);
+  bl_free (m->mu);
+  bl_free (m->th);
+  bl_free (m->G);
+  bl_free (m->H);
+  bl_free (m->Hc);
+  bl_free (m->tp);
+  bl_free (m->gp);
+  bl_free (m->gm);
+  bl_free (m->step);
+}
+
+/* Maximize l(b, K) by mlk_newton from theta = 0, then invert the observed information at
+   the maximum into M->H.  On success returns 0 with *FV_OUT = -l at the maximum and
+   *ITER_OUT the Newton iterations; else -1 with ERR saying why. */
+static int
+mlk_maximize (mlk *m, double *fv_out, size_t *iter_out, bl_err *err)
+{
+  const size_t q = m->q;
+  size_t bad = 0;
+  double fv = mlk_eval (m, m->th, m->G, &bad);
+  gsl_matrix_view Hv;
+  if (fv >= HUGE_VAL) {
+    fail_row (m->d, bad, err, "the starting", m->mu[bad]);
+    return -1;
+  }
+  /* the observed information at the maximum */
+  if (!mlk_newton (m, m->th, q, m->G, m->H, m->Hc, m->tp, m->gp, m->gm, m->step, &fv,
+                   iter_out)
+      || mlk_hessian (m, m->th, q, m->H, m->tp, m->gp, m->gm) != 0) {
+    bl_fail (err, BL_ENOCONV, "--variance", "the maximization of the likelihood over the "
+             "coefficients%s did not converge", m->est ? " and the power K" : "");
+    return -1;
+  }
+  Hv = gsl_matrix_view_array (m->H, q, q);
+  if (gsl_linalg_cholesky_decomp1 (&Hv.matrix) != GSL_SUCCESS
+      || gsl_linalg_cholesky_invert (&Hv.matrix) != GSL_SUCCESS) {
+    bl_fail (err, BL_ENOCONV, "--variance", "the likelihood has no proper maximum in (b, K): "
+             "its information matrix is not positive definite");
+    return -1;
+  }
+  *fv_out = fv;
+  return 0;
+}
+
+/* Fill F, refitted with the weights W at the maximum of M (power K, -l = FV, ITER Newton
+   iterations, inverse information in M->H): coefficients, means, deviance, dispersion,
+   covariance of (b, K), likelihood. */
+static void
+mlk_fill (const mlk *m, bl_fit *f, const double *w, double K, double fv, size_t iter)
+{
+  const size_t n = m->n, p = m->p, q = m->q;
+  long double dev = 0.0L;
+  for (size_t j = 0; j < p; j++)
+    f->beta[j] = f->aliased[j] ? NAN : m->beta[j];
+  for (size_t i = 0; i < n; i++) {
+    const double r = f->y[i] - m->mu[i];
+    f->mu[i] = f->eta[i] = m->mu[i];
+    dev += w[i] * r * r;
+  }
+  f->st.deviance = f->st.pearson = (double) dev;
+  f->st.phi_pearson = f->st.dof_resid ? f->st.pearson / (double) f->st.dof_resid : NAN;
+  f->st.phi_ml = f->st.deviance / (double) n;
+  f->st.phi_used = f->st.phi_pearson;
+  for (size_t j = 0; j < p * p; j++)
+    f->cov[j] = NAN;
+  for (size_t j = 0; j < m->r; j++)
+    for (size_t k = 0; k < m->r; k++)
+      f->cov[m->col[j] + m->col[k] * p] = m->H[j + k * q] * m->s[j] * m->s[k];
+  bl_fit_wald_table (f);
+  bl_fit_set_loglik (f, -fv, f->st.rank + 1 + (m->est ? 1u : 0u));
+  f->var.power = K;
+  f->var.power_se = m->est ? sqrt (m->H[m->r + m->r * q]) * m->s[m->r] : NAN;
+  f->st.iterations = iter;
+}
+
 static bl_fit *
 fit_fitted_power (const bl_design *d, const bl_fit_opts *opt, const bl_fit_opts *o,
                   const double *a, bl_err *err)
 {
-  const size_t n = bl_design_n (d), p = bl_design_p (d);
+  const size_t n = bl_design_n (d);
   double *w = bl_mallocn (n, sizeof *w);
-  double K = opt->power_est ? 1.0 : opt->power;
+  double K = opt->power_est ? 1.0 : opt->power, fv;
   bl_fit *f = NULL, *g = NULL;
-  size_t it = 0, q;
+  size_t it = 0, iter;
   int settled = 0;
   mlk m;
-  double *th = NULL, *G = NULL, *H = NULL, *Hc = NULL, *tp = NULL, *gp = NULL, *gm = NULL;
-  double *step = NULL;
-  gsl_matrix_view Hv;
 
   memset (&m, 0, sizeof m);
   m.cancel = o->irls.cancel;
@@ -345,145 +550,27 @@ fit_fitted_power (const bl_design *d, const bl_fit_opts *opt, const bl_fit_opts 
   f = bl_fit_core (d, NULL, a, o, 1, err);
   if (!f)
     goto fail;
-  if (opt->power_est) {
-    long double sx = 0, sy = 0, sxx = 0, sxy = 0;
-    size_t cnt = 0;
-    for (size_t i = 0; i < n; i++) {
-      const double r = f->y[i] - f->mu[i];
-      if (f->mu[i] > 0.0 && r != 0.0) {
-        const double x = log (f->mu[i]), yy = log (r * r * (a ? a[i] : 1.0));
-        sx += x; sy += yy; sxx += x * x; sxy += x * yy;
-        cnt++;
-      }
-    }
-    if (cnt > 2 && sxx * cnt - sx * sx > 0) {
-      K = (double) ((cnt * sxy - sx * sy) / (cnt * sxx - sx * sx));
-      K = K < -2.0 ? -2.0 : K > 5.0 ? 5.0 : K;
-    }
-  }
-  for (it = 0; it < opt->wls_max_iter; it++) {
-    double change = 0.0;
-    for (size_t i = 0; i < n; i++) {
-      if (!(f->mu[i] > 0.0)) {
-        fail_row (d, i, err, "feasible WLS:", f->mu[i]);
-        goto fail;
-      }
-      w[i] = (a ? a[i] : 1.0) * exp (-K * log (f->mu[i]));
-    }
-    g = bl_fit_core (d, NULL, w, o, 1, err);
-    if (!g || (m.cancel && *m.cancel))       /* cancelled: reported by bl_fit_wls_run */
-      goto fail;
-    for (size_t j = 0; j < p; j++)
-      if (!g->aliased[j] && !f->aliased[j]) {
-        const double dch = fabs (g->beta[j] - f->beta[j]) / (fabs (g->beta[j]) + g->se[j]);
-        if (dch > change)
-          change = dch;
-      }
-    bl_fit_free (f);
-    f = g;
-    g = NULL;
-    if (change <= 1e-10) {
-      settled = 1;
-      it++;
-      break;
-    }
-  }
+  if (opt->power_est)
+    K = start_power (f, a, n, K);
+  if (feasible_wls (d, opt, o, a, K, w, &f, &it, &settled, err) != 0)
+    goto fail;
 
   /* Joint maximum likelihood over (b, K) from the feasible WLS point. */
-  m.d = d;
-  m.n = n;
-  m.p = p;
-  m.y = bl_design_y (d);
-  m.a = a;
-  m.est = opt->power_est;
-  m.K_fixed = opt->power;
-  m.col = bl_mallocn (p, sizeof (size_t));
-  m.b0 = bl_mallocn (p + 1, sizeof (double));
-  m.s = bl_mallocn (p + 1, sizeof (double));
-  m.X = bl_mallocn ((size_t) BLOCK * p, sizeof (double));
-  m.beta = bl_mallocn (p, sizeof (double));
-  m.mu = bl_mallocn (n, sizeof (double));
-  if (!m.col || !m.b0 || !m.s || !m.X || !m.beta || !m.mu)
+  if (mlk_setup (&m, d, opt, a, f, K) != 0)
     goto nomem;
-  for (size_t j = 0; j < p; j++)
-    if (!f->aliased[j]) {
-      m.col[m.r] = j;
-      m.b0[m.r] = f->beta[j];
-      m.s[m.r] = (f->se[j] > 0.0 && isfinite (f->se[j])) ? f->se[j] : 1.0;
-      m.r++;
-    }
-  if (m.est) {
-    m.b0[m.r] = K;
-    m.s[m.r] = 0.1;
-  }
-  q = m.r + (m.est ? 1 : 0);
-  th = bl_calloc (q, sizeof *th);
-  G = bl_mallocn (q, sizeof *G);
-  H = bl_mallocn (q * q, sizeof *H);
-  Hc = bl_mallocn (q * q, sizeof *Hc);
-  tp = bl_mallocn (q, sizeof *tp);
-  gp = bl_mallocn (q, sizeof *gp);
-  gm = bl_mallocn (q, sizeof *gm);
-  step = bl_mallocn (q, sizeof *step);
-  if (!th || !G || !H || !Hc || !tp || !gp || !gm || !step)
-    goto nomem;
-  {
-    size_t bad = 0, iter;
-    double fv = mlk_eval (&m, th, G, &bad);
-    int converged = 0;
-    if (fv >= HUGE_VAL) {
-      fail_row (d, bad, err, "the starting", m.mu[bad]);
-      goto fail;
-    }
-    converged = mlk_newton (&m, th, q, G, H, Hc, tp, gp, gm, step, &fv, &iter);
-    if (!converged)
-      goto diverged;
-    /* the observed information at the maximum */
-    if (mlk_hessian (&m, th, q, H, tp, gp, gm) != 0)
-      goto diverged;
-    Hv = gsl_matrix_view_array (H, q, q);
-    if (gsl_linalg_cholesky_decomp1 (&Hv.matrix) != GSL_SUCCESS
-        || gsl_linalg_cholesky_invert (&Hv.matrix) != GSL_SUCCESS) {
-      bl_fail (err, BL_ENOCONV, "--variance", "the likelihood has no proper maximum in (b, K): "
-               "its information matrix is not positive definite");
-      goto fail;
-    }
-    /* Fill the fit at the maximum: weights, means, deviance, likelihood, covariance. */
-    K = mlk_params (&m, th);
-    mlk_eval (&m, th, NULL, NULL);
-    for (size_t i = 0; i < n; i++)
-      w[i] = (a ? a[i] : 1.0) * exp (-K * log (m.mu[i]));
-    g = bl_fit_core (d, NULL, w, o, 0, err);
-    if (!g)
-      goto fail;
-    bl_fit_free (f);
-    f = g;
-    g = NULL;
-    {
-      long double dev = 0.0L;
-      for (size_t j = 0; j < p; j++)
-        f->beta[j] = f->aliased[j] ? NAN : m.beta[j];
-      for (size_t i = 0; i < n; i++) {
-        const double r = f->y[i] - m.mu[i];
-        f->mu[i] = f->eta[i] = m.mu[i];
-        dev += w[i] * r * r;
-      }
-      f->st.deviance = f->st.pearson = (double) dev;
-      f->st.phi_pearson = f->st.dof_resid ? f->st.pearson / (double) f->st.dof_resid : NAN;
-      f->st.phi_ml = f->st.deviance / (double) n;
-      f->st.phi_used = f->st.phi_pearson;
-      for (size_t j = 0; j < p * p; j++)
-        f->cov[j] = NAN;
-      for (size_t j = 0; j < m.r; j++)
-        for (size_t k = 0; k < m.r; k++)
-          f->cov[m.col[j] + m.col[k] * p] = H[j + k * q] * m.s[j] * m.s[k];
-      bl_fit_wald_table (f);
-      bl_fit_set_loglik (f, -fv, f->st.rank + 1 + (m.est ? 1u : 0u));
-      f->var.power = K;
-      f->var.power_se = m.est ? sqrt (H[m.r + m.r * q]) * m.s[m.r] : NAN;
-      f->st.iterations = iter;
-    }
-  }
+  if (mlk_maximize (&m, &fv, &iter, err) != 0)
+    goto fail;
+  /* Fill the fit at the maximum: weights, means, deviance, likelihood, covariance. */
+  K = mlk_params (&m, m.th);
+  mlk_eval (&m, m.th, NULL, NULL);
+  for (size_t i = 0; i < n; i++)
+    w[i] = (a ? a[i] : 1.0) * exp (-K * log (m.mu[i]));
+  g = bl_fit_core (d, NULL, w, o, 0, err);
+  if (!g)
+    goto fail;
+  bl_fit_free (f);
+  f = g;
+  mlk_fill (&m, f, w, K, fv, iter);
   f->var.wls_iterations = it;
   if (!settled
       && bl_warnings_add (&f->warn, "feasible WLS did not settle in %zu reweighting steps; "
@@ -491,32 +578,14 @@ fit_fitted_power (const bl_design *d, const bl_fit_opts *opt, const bl_fit_opts 
                           opt->wls_max_iter) != BL_OK)
     goto nomem;
   goto done;
-diverged:
-  bl_fail (err, BL_ENOCONV, "--variance", "the maximization of the likelihood over the "
-           "coefficients%s did not converge", m.est ? " and the power K" : "");
-  goto fail;
 nomem:
   bl_fail (err, BL_ENOMEM, "wls", "out of memory");
 fail:
   bl_fit_free (f);
-  bl_fit_free (g);
   f = NULL;
 done:
   bl_free (w);
-  bl_free (m.col);
-  bl_free (m.b0);
-  bl_free (m.s);
-  bl_free (m.X);
-  bl_free (m.beta);
-  bl_free (m.mu);
-  bl_free (th);
-  bl_free (G);
-  bl_free (H);
-  bl_free (Hc);
-  bl_free (tp);
-  bl_free (gp);
-  bl_free (gm);
-  bl_free (step);
+  mlk_free (&m);
   return f;
 }
 

@@ -17,6 +17,7 @@
 #include <string.h>
 #include "alloc.h"
 #include "irls.h"
+#include "rowblock.h"
 #include "thread.h"
 
 typedef struct part {
@@ -200,8 +201,8 @@ pass_part (bl_irls_work *ws, part *pt, const double *beta, int accumulate, doubl
   pt->bad = 0;
   if (pt->R)
     memset (pt->R, 0, q * q * sizeof (double));
-  for (size_t r0 = pt->row0; r0 < pt->row1; r0 += BL_IRLS_BLOCK) {
-    const size_t nb = (pt->row1 - r0 < BL_IRLS_BLOCK) ? pt->row1 - r0 : BL_IRLS_BLOCK;
+  BL_ROWBLOCK_FOR (rb, pt->row0, pt->row1, BL_IRLS_BLOCK) {
+    const size_t r0 = rb.row0, nb = rb.n;
     double *const eta = ws->eta + r0, *const mu = ws->mu + r0, *const zc = buf + p * ld;
     double *const sw = buf + q * ld;     /* sqrt(w_i) of the block */
     long double dsum = 0.0L;
@@ -386,8 +387,8 @@ bl_irls_init (bl_irls_work *ws, bl_err *err)
      scaling is exact and the streamed sums cannot overflow (common practice, no source). */
   for (size_t j = 0; j < p; j++)
     ws->scale[j] = 0.0;
-  for (size_t r0 = 0; r0 < n; r0 += BL_IRLS_BLOCK) {
-    const size_t nb = (n - r0 < BL_IRLS_BLOCK) ? n - r0 : BL_IRLS_BLOCK;
+  BL_ROWBLOCK_FOR (rb, 0, n, BL_IRLS_BLOCK) {
+    const size_t r0 = rb.row0, nb = rb.n;
     m->fill (m->ctx, r0, nb, ws->buf[0], ws->ld);
     for (size_t j = 0; j < p; j++)
       for (size_t i = 0; i < nb; i++) {

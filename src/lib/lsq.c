@@ -9,6 +9,7 @@
 #endif
 #include "alloc.h"
 #include "lsq.h"
+#include "rowblock.h"
 
 /* The blocked fold (fold_wy): from BL_LSQ_WY_MIN columns on, panels of WY_PANEL columns,
    the columns right of a panel updated WY_CHUNK at a time, row slices of FOLD_ROWS.  Measured
@@ -93,8 +94,8 @@ bl_lsq_fold (double *R, size_t q, double *A, size_t nb, size_t lda)
   if (q >= BL_LSQ_WY_MIN && nb <= INT_MAX && lda <= INT_MAX) {
     /* Row slices of FOLD_ROWS: each slice's products stay in cache, and are small enough
        that the BLAS runs them on the calling thread (no nested threading). */
-    for (size_t r0 = 0; r0 < nb; r0 += FOLD_ROWS)
-      fold_wy (R, q, A + r0, nb - r0 < FOLD_ROWS ? nb - r0 : FOLD_ROWS, lda);
+    BL_ROWBLOCK_FOR (rb, 0, nb, FOLD_ROWS)
+      fold_wy (R, q, A + rb.row0, rb.n, lda);
     return;
   }
 #endif

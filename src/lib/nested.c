@@ -6,6 +6,50 @@
 #include "alloc.h"
 #include "nested.h"
 
+/* The test of the fitted smaller model FS against BIG (FO the fits' options) into OUT:
+   the likelihood ratio when the family's parameter was estimated in each, the deviance
+   difference when the dispersion is fixed, else the F ratio.  Returns BL_OK, or BL_ESPEC
+   when FS's rank is not below BIG's. */
+static int
+nested_stat (const bl_fit *big, const bl_fit *fs, const bl_fit_opts *fo, bl_nested *out,
+             bl_err *err)
+{
+  const bl_fit_stats *sb = bl_fit_stats_get (big);
+  const bl_fit_stats *ss = bl_fit_stats_get (fs);
+  const double dd = ss->deviance - sb->deviance;
+  if (ss->rank >= sb->rank)
+    return bl_fail (err, BL_ESPEC, "--against", "the smaller model's rank (%zu) is not below "
+                    "the larger model's (%zu): nothing to test", ss->rank, sb->rank);
+  out->dof = sb->rank - ss->rank;
+  out->deviance_small = ss->deviance;
+  out->deviance_big = sb->deviance;
+  if (bl_family_par_name (bl_fit_family (big)) && fo->fam_par_est) {
+    /* The family's parameter (negative binomial theta, the Tweedie power) is estimated in
+       each model separately, so the two deviances are measured at different parameters and
+       do not subtract: the likelihood ratio 2 (l_big - l_small), both maximized over the
+       parameter, is chi-square on the rank difference (Wilks 1938, Ann. Math. Statist. 9,
+       60-62; the parameter is common to both models and cancels from the dof). */
+    const double lr = 2.0 * (sb->loglik - ss->loglik);
+    out->form = "chisq";
+    out->stat = lr;
+    out->p = isfinite (lr) ? gsl_cdf_chisq_Q (lr > 0.0 ? lr : 0.0, (double) out->dof) : NAN;
+  } else if (!bl_family_has (bl_fit_family (big), BL_FAM_PHI_FREE)
+             && !fo->dispersion_pearson) {
+    out->form = "chisq";
+    out->stat = dd;
+    out->p = gsl_cdf_chisq_Q (dd > 0.0 ? dd : 0.0, (double) out->dof);
+  } else {
+    out->form = "F";
+    out->dof2 = sb->dof_resid;
+    out->stat = (dd / (double) out->dof) / sb->phi_pearson;
+    out->p = out->dof2 > 0 && isfinite (out->stat)
+             ? gsl_cdf_fdist_Q (out->stat > 0.0 ? out->stat : 0.0, (double) out->dof,
+                                (double) out->dof2)
+             : NAN;
+  }
+  return BL_OK;
+}
+
 int
 bl_nested_test (const bl_fit *big, const bl_table *t, const bl_terms *small,
                 const bl_design_opts *dopt, const bl_fit_opts *fo, bl_nested *out,
@@ -73,41 +117,7 @@ bl_nested_test (const bl_fit *big, const bl_table *t, const bl_terms *small,
                   bl_fit_status (fs)->msg);
     goto done;
   }
-  {
-    const bl_fit_stats *ss = bl_fit_stats_get (fs);
-    const double dd = ss->deviance - sb->deviance;
-    if (ss->rank >= sb->rank) {
-      st = bl_fail (err, BL_ESPEC, "--against", "the smaller model's rank (%zu) is not below "
-                    "the larger model's (%zu): nothing to test", ss->rank, sb->rank);
-      goto done;
-    }
-    out->dof = sb->rank - ss->rank;
-    out->deviance_small = ss->deviance;
-    out->deviance_big = sb->deviance;
-    if (bl_fit_family (big)->par_name && fo->fam_par_est) {
-      /* The family's parameter (negative binomial theta, the Tweedie power) is estimated in
-         each model separately, so the two deviances are measured at different parameters and
-         do not subtract: the likelihood ratio 2 (l_big - l_small), both maximized over the
-         parameter, is chi-square on the rank difference (Wilks 1938, Ann. Math. Statist. 9,
-         60-62; the parameter is common to both models and cancels from the dof). */
-      const double lr = 2.0 * (sb->loglik - ss->loglik);
-      out->form = "chisq";
-      out->stat = lr;
-      out->p = isfinite (lr) ? gsl_cdf_chisq_Q (lr > 0.0 ? lr : 0.0, (double) out->dof) : NAN;
-    } else if (!bl_fit_family (big)->phi_free && !fo->dispersion_pearson) {
-      out->form = "chisq";
-      out->stat = dd;
-      out->p = gsl_cdf_chisq_Q (dd > 0.0 ? dd : 0.0, (double) out->dof);
-    } else {
-      out->form = "F";
-      out->dof2 = sb->dof_resid;
-      out->stat = (dd / (double) out->dof) / sb->phi_pearson;
-      out->p = out->dof2 > 0 && isfinite (out->stat)
-               ? gsl_cdf_fdist_Q (out->stat > 0.0 ? out->stat : 0.0, (double) out->dof,
-                                  (double) out->dof2)
-               : NAN;
-    }
-  }
+  st = nested_stat (big, fs, fo, out, err);
 done:
   bl_fit_free (fs);
   bl_design_free (sub);
