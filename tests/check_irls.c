@@ -22,6 +22,7 @@
 #include "alloc.h"
 #include "design.h"
 #include "fit.h"
+#include "irls.h"
 #include "table.h"
 #include "terms.h"
 #include "testutil.h"

@@ -27,7 +27,6 @@
 #include "diag.h"
 #include "fit.h"
 #include "job.h"
-#include "nested.h"
 #include "table.h"
 #include "terms.h"
 #include "testutil.h"

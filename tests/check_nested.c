@@ -26,7 +26,6 @@
 #include "design.h"
 #include "diag.h"
 #include "fit.h"
-#include "nested.h"
 #include "table.h"
 #include "terms.h"
 #include "testutil.h"

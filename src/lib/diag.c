@@ -7,6 +7,7 @@
 #include <gsl/gsl_randist.h>
 #include "alloc.h"
 #include "diag.h"
+#include "irls.h"                 /* the auxiliary regressions of the variance tests */
 #include "order.h"
 
 struct bl_diag {

@@ -20,10 +20,6 @@ extern "C" {
    the functions below. */
 typedef struct bl_family bl_family;
 
-/* transitional: until every caller uses the accessors (fit.c, irls.c, model.c and some tests
-   still read fields), the descriptor stays visible here. */
-#include "family_impl.h"
-
 /* The per-row functions.  PAR is the family's shape parameter (negative binomial theta,
    Tweedie power; ignored by the others), A the row's prior weight and PHI the dispersion of a
    row with prior weight 1 (the row's own dispersion is phi / a): each call is one row, so a

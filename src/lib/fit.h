@@ -2,15 +2,54 @@
    every method. */
 #ifndef BALLAST_FIT_H
 #define BALLAST_FIT_H
+#include <signal.h>
 #include <stddef.h>
 #include "design.h"
 #include "error.h"
 #include "family.h"
-#include "irls.h"
 #include "link.h"
+#include "table.h"
+#include "terms.h"
 #ifdef __cplusplus
 extern "C" {
 #endif
+
+/* ---- The numerical controls of a fit: the least-squares kernel and the IRLS iteration
+   (lsq.c and irls.c implement them; they are options of every fit, bl_fit_opts.irls). */
+#define BL_LSQ_SMALL_NQ2 4.0e6    /* n q^2 at most this: the extended-precision kernel */
+typedef enum bl_solver {
+  BL_SOLVER_AUTO = 0,   /* extended when n q^2 <= BL_LSQ_SMALL_NQ2, else streamed */
+  BL_SOLVER_EXTENDED,   /* long double Householder QR of the whole matrix */
+  BL_SOLVER_STREAMED    /* double Householder updating QR over row blocks */
+} bl_solver;
+
+/* Name of a solver as reported in JSON: "qr-extended", "qr-streamed". */
+BL_API const char *bl_solver_name (bl_solver s);
+
+#define BL_IRLS_EPSREL 1e-10      /* convergence: |D_old - D| <= eps (|D| + 0.1) */
+#define BL_IRLS_MAX_ITER 50
+#define BL_IRLS_MAX_HALVINGS 40
+/* After the deviance test passes, up to BL_IRLS_MAX_POLISH more scoring steps are taken while
+   some coefficient still moves by more than BL_IRLS_EPSBETA (|beta_j| + se_j): the deviance
+   is second order in beta, so its test alone stops non-canonical fits about 1e-6 standard
+   errors short of the maximum.  The steps stop early at the rounding floor (a change that no
+   longer shrinks).  Convergence itself is decided by the deviance test. */
+#define BL_IRLS_EPSBETA 1e-11
+#define BL_IRLS_MAX_POLISH 30
+#define BL_IRLS_BLOCK 2048        /* rows per block */
+#define BL_IRLS_PARTS 16          /* fixed row partitions (thread-count independent) */
+
+typedef struct bl_irls_opts {
+  double epsrel;             /* BL_IRLS_EPSREL */
+  size_t max_iter;           /* BL_IRLS_MAX_ITER */
+  size_t max_halvings;       /* BL_IRLS_MAX_HALVINGS */
+  double rank_tol;           /* BL_LSQ_RANK_TOL */
+  bl_solver solver;          /* BL_SOLVER_AUTO */
+  unsigned threads;          /* worker threads for the streamed kernel; default 2 */
+  volatile sig_atomic_t *cancel;   /* polled once per block; NULL for none */
+} bl_irls_opts;
+
+BL_API void bl_irls_opts_init (bl_irls_opts *opt);
 
 typedef enum bl_method { BL_METHOD_GLM = 0, BL_METHOD_OLS, BL_METHOD_WLS } bl_method;
 
@@ -190,6 +229,33 @@ BL_API const double *bl_fit_cov_unscaled (const bl_fit *fit);
    otherwise the response fitted (bl_fit_y). */
 BL_API const double *bl_fit_y_original (const bl_fit *fit);
 /* ---- end of the accessors for the readers of a fit */
+
+/* ---- The likelihood-ratio test of a smaller model nested in a fitted one, on the same rows
+   (nested.c). */
+
+typedef struct bl_nested {
+  char terms[1024];            /* the smaller model's terms, canonical text */
+  const char *form;            /* "chisq" (dispersion fixed) or "F" (dispersion estimated) */
+  double stat, p;
+  size_t dof, dof2;            /* dof2: the F test's denominator dof (0 for chisq) */
+  double deviance_small, deviance_big;
+} bl_nested;
+
+/* Fit the model with SMALL's terms (and the intercept, offset and weights of BIG's design,
+   from DOPT) to exactly BIG's rows of T, with BIG's options FO, and test it against BIG
+   (McCullagh & Nelder 1989, section 4.4.3): with the dispersion fixed (poisson),
+   D_small - D_big is chi-square on rank_big - rank_small degrees of freedom; with it
+   estimated, F = ((D_small - D_big) / dof) / phi_big, phi_big the larger model's Pearson
+   dispersion, on (dof, n - rank_big).  When the family's parameter (negative binomial theta,
+   Tweedie power) is estimated in each model, the deviances are at different parameter
+   values, so the statistic is the likelihood ratio 2 (l_big - l_small), chi-square on the
+   rank difference.
+   Errors: BL_ESPEC when the smaller model is not nested (a column of it is not a column of
+   BIG, or its rank is not smaller), BL_EDATA when it cannot be fitted on BIG's rows,
+   BL_ENOCONV, BL_ENOMEM. */
+BL_API int bl_nested_test (const bl_fit *big, const bl_table *t, const bl_terms *small,
+                           const bl_design_opts *dopt, const bl_fit_opts *fo, bl_nested *out,
+                           bl_err *err);
 
 #ifdef __cplusplus
 }

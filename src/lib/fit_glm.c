@@ -18,6 +18,7 @@
 #include <string.h>
 #include "alloc.h"
 #include "fit_glm.h"
+#include "irls.h"
 #include "rowblock.h"
 
 static void

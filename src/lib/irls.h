@@ -11,23 +11,11 @@
 #include "error.h"
 #include "family.h"
 #include "link.h"
+#include "fit.h"                  /* bl_irls_opts, BL_IRLS_... */
 #include "lsq.h"
 #ifdef __cplusplus
 extern "C" {
 #endif
-
-#define BL_IRLS_EPSREL 1e-10      /* convergence: |D_old - D| <= eps (|D| + 0.1) */
-#define BL_IRLS_MAX_ITER 50
-#define BL_IRLS_MAX_HALVINGS 40
-/* After the deviance test passes, up to BL_IRLS_MAX_POLISH more scoring steps are taken while
-   some coefficient still moves by more than BL_IRLS_EPSBETA (|beta_j| + se_j): the deviance
-   is second order in beta, so its test alone stops non-canonical fits about 1e-6 standard
-   errors short of the maximum.  The steps stop early at the rounding floor (a change that no
-   longer shrinks).  Convergence itself is decided by the deviance test. */
-#define BL_IRLS_EPSBETA 1e-11
-#define BL_IRLS_MAX_POLISH 30
-#define BL_IRLS_BLOCK 2048        /* rows per block */
-#define BL_IRLS_PARTS 16          /* fixed row partitions (thread-count independent) */
 
 /* Fill rows [row0, row0 + nr) of X column-major into out (leading dimension ld). */
 typedef void (*bl_fill_fn) (const void *ctx, size_t row0, size_t nr, double *out, size_t ld);
@@ -35,7 +23,7 @@ typedef void (*bl_fill_fn) (const void *ctx, size_t row0, size_t nr, double *out
    the extended kernel uses it, so that a term such as pow(x,10) is not first rounded to
    double (on Filip that rounding alone limits the LRE to about 7). */
 typedef void (*bl_fill_ld_fn) (const void *ctx, size_t row0, size_t nr, long double *out,
-                               size_t ld);
+                        size_t ld);
 
 typedef struct bl_irls_model {
   const bl_family *fam;
@@ -55,52 +43,41 @@ typedef struct bl_irls_model {
   size_t (*line) (const void *ctx, size_t i);
 } bl_irls_model;
 
-typedef struct bl_irls_opts {
-  double epsrel;             /* BL_IRLS_EPSREL */
-  size_t max_iter;           /* BL_IRLS_MAX_ITER */
-  size_t max_halvings;       /* BL_IRLS_MAX_HALVINGS */
-  double rank_tol;           /* BL_LSQ_RANK_TOL */
-  bl_solver solver;          /* BL_SOLVER_AUTO */
-  unsigned threads;          /* worker threads for the streamed kernel; default 2 */
-  volatile sig_atomic_t *cancel;   /* polled once per block; NULL for none */
-} bl_irls_opts;
-
-BL_API void bl_irls_opts_init (bl_irls_opts *opt);
 
 typedef struct bl_irls_work bl_irls_work;
 
 /* Allocate a workspace for MODEL's sizes and solver choice (OPT->solver, resolved from n and p
    when AUTO).  NULL with ERR = BL_ENOMEM on exhaustion. */
-BL_API bl_irls_work *bl_irls_work_new (const bl_irls_model *model, const bl_irls_opts *opt,
-                                       bl_err *err);
-BL_API void bl_irls_work_free (bl_irls_work *ws);
+bl_irls_work *bl_irls_work_new (const bl_irls_model *model, const bl_irls_opts *opt,
+                                bl_err *err);
+void bl_irls_work_free (bl_irls_work *ws);
 
 /* INITIALIZE: starting means from y, the first weighted solve.  BL_OK or an error
    (BL_EDATA: the starting means are outside the mean space; BL_ECANCEL). */
-BL_API int bl_irls_init (bl_irls_work *ws, bl_err *err);
+int bl_irls_init (bl_irls_work *ws, bl_err *err);
 /* ITERATE: one step: the linear predictor at the proposed coefficients, step halving while the
    deviance rises or mu leaves the mean space, then the next weighted solve.  BL_OK, or
    BL_ENOCONV (diverged: halving could not find a valid step), BL_ECANCEL. */
-BL_API int bl_irls_iterate (bl_irls_work *ws, bl_err *err);
+int bl_irls_iterate (bl_irls_work *ws, bl_err *err);
 /* TEST: BL_OK when |D_old - D| <= epsrel (|D| + 0.1), else BL_CONTINUE. */
-BL_API int bl_irls_test (const bl_irls_work *ws);
+int bl_irls_test (const bl_irls_work *ws);
 /* Finish after a successful TEST: one more pass at the last solve's coefficients so that the
    reported coefficients, means, deviance and covariance factor all belong to one point. */
-BL_API int bl_irls_finish (bl_irls_work *ws, bl_err *err);
+int bl_irls_finish (bl_irls_work *ws, bl_err *err);
 
 /* Run INITIALIZE, ITERATE/TEST up to max_iter, and FINISH.  BL_ENOCONV when the limit is
    reached ("no convergence in N iterations"). */
-BL_API int bl_irls_run (bl_irls_work *ws, bl_err *err);
+int bl_irls_run (bl_irls_work *ws, bl_err *err);
 
 /* Results, valid until the next call on WS or bl_irls_work_free. */
-BL_API const double *bl_irls_beta (const bl_irls_work *ws);      /* length p; aliased entries 0 */
-BL_API const bl_lsq_sol *bl_irls_sol (const bl_irls_work *ws);   /* rank, aliased, cov factor */
-BL_API const double *bl_irls_mu (const bl_irls_work *ws);        /* length n */
-BL_API const double *bl_irls_eta (const bl_irls_work *ws);       /* length n */
-BL_API double bl_irls_deviance (const bl_irls_work *ws);
-BL_API size_t bl_irls_iterations (const bl_irls_work *ws);
-BL_API size_t bl_irls_halvings (const bl_irls_work *ws);         /* total step halvings */
-BL_API bl_solver bl_irls_solver (const bl_irls_work *ws);        /* the kernel used */
+const double *bl_irls_beta (const bl_irls_work *ws);      /* length p; aliased entries 0 */
+const bl_lsq_sol *bl_irls_sol (const bl_irls_work *ws);   /* rank, aliased, cov factor */
+const double *bl_irls_mu (const bl_irls_work *ws);        /* length n */
+const double *bl_irls_eta (const bl_irls_work *ws);       /* length n */
+double bl_irls_deviance (const bl_irls_work *ws);
+size_t bl_irls_iterations (const bl_irls_work *ws);
+size_t bl_irls_halvings (const bl_irls_work *ws);         /* total step halvings */
+bl_solver bl_irls_solver (const bl_irls_work *ws);        /* the kernel used */
 
 #ifdef __cplusplus
 }

@@ -18,7 +18,6 @@
 #include "diag.h"
 #include "error.h"
 #include "fit.h"
-#include "nested.h"
 #include "table.h"
 #include "terms.h"
 #ifdef __cplusplus

@@ -16,23 +16,15 @@
 #define BALLAST_LSQ_H
 #include <stddef.h>
 #include "error.h"
+#include "fit.h"                  /* bl_solver */
 #ifdef __cplusplus
 extern "C" {
 #endif
 
 #define BL_LSQ_RANK_TOL 1e-11     /* |r_kk| of the unit-norm-scaled R below this: aliased */
-#define BL_LSQ_SMALL_NQ2 4.0e6    /* n q^2 at most this: the extended-precision kernel */
 #define BL_LSQ_WY_MIN 24          /* q at least this: the streamed fold is blocked (WY) when
                                      the library is built on an optimized BLAS */
 
-typedef enum bl_solver {
-  BL_SOLVER_AUTO = 0,   /* extended when n q^2 <= BL_LSQ_SMALL_NQ2, else streamed */
-  BL_SOLVER_EXTENDED,   /* long double Householder QR of the whole matrix */
-  BL_SOLVER_STREAMED    /* double Householder updating QR over row blocks */
-} bl_solver;
-
-/* Name of a solver as reported in JSON: "qr-extended", "qr-streamed". */
-BL_API const char *bl_solver_name (bl_solver s);
 
 /* Fold NB rows of the column-major block A (leading dimension LDA, Q columns) into the
    upper-triangular Q x Q matrix R (column-major, leading dimension Q).  A is overwritten.
@@ -40,7 +32,7 @@ BL_API const char *bl_solver_name (bl_solver s);
    BL_LSQ_WY_MIN columns on, with an optimized BLAS, the reflections are applied in blocks
    through cblas_dgemm (same reflections, other rounding; the result still depends only on
    the input, not on threads). */
-BL_API void bl_lsq_fold (double *R, size_t q, double *A, size_t nb, size_t lda);
+void bl_lsq_fold (double *R, size_t q, double *A, size_t nb, size_t lda);
 
 /* The result of a solve, in the caller's column order (not pivoted). */
 typedef struct bl_lsq_sol {
@@ -53,24 +45,24 @@ typedef struct bl_lsq_sol {
 } bl_lsq_sol;
 
 /* Allocate a solution for P columns (fields zeroed).  NULL on exhaustion. */
-BL_API bl_lsq_sol *bl_lsq_sol_new (size_t p);
-BL_API void bl_lsq_sol_free (bl_lsq_sol *s);
+bl_lsq_sol *bl_lsq_sol_new (size_t p);
+void bl_lsq_sol_free (bl_lsq_sol *s);
 
 /* Workspace for the finishing step for P columns (q = p + 1).  NULL on exhaustion. */
 typedef struct bl_lsq_work bl_lsq_work;
-BL_API bl_lsq_work *bl_lsq_work_new (size_t p);
-BL_API void bl_lsq_work_free (bl_lsq_work *ws);
+bl_lsq_work *bl_lsq_work_new (size_t p);
+void bl_lsq_work_free (bl_lsq_work *ws);
 
 /* Solve from the full long double matrix A (M x Q, column-major, leading dimension LDA; the
    last column is the weighted response).  A is overwritten.  Returns BL_OK, or BL_EDATA when
    the rank is 0 (every column is zero).  Allocates nothing. */
-BL_API int bl_lsq_solve_full (bl_lsq_work *ws, long double *A, size_t m, size_t lda, double tol,
-                              bl_lsq_sol *sol, bl_err *err);
+int bl_lsq_solve_full (bl_lsq_work *ws, long double *A, size_t m, size_t lda, double tol,
+                       bl_lsq_sol *sol, bl_err *err);
 
 /* Solve from a streamed triangular factor R (Q x Q, column-major, leading dimension Q, as
    bl_lsq_fold leaves it).  R is not changed.  Same returns as bl_lsq_solve_full. */
-BL_API int bl_lsq_solve_tri (bl_lsq_work *ws, const double *R, double tol, bl_lsq_sol *sol,
-                             bl_err *err);
+int bl_lsq_solve_tri (bl_lsq_work *ws, const double *R, double tol, bl_lsq_sol *sol,
+                      bl_err *err);
 
 #ifdef __cplusplus
 }

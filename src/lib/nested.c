@@ -4,7 +4,7 @@
 #include <string.h>
 #include <gsl/gsl_cdf.h>
 #include "alloc.h"
-#include "nested.h"
+#include "fit.h"
 
 /* The test of the fitted smaller model FS against BIG (FO the fits' options) into OUT:
    the likelihood ratio when the family's parameter was estimated in each, the deviance

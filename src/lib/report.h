@@ -6,7 +6,6 @@
 #include "compare.h"
 #include "diag.h"
 #include "fit.h"
-#include "nested.h"
 #include "terms.h"
 #ifdef __cplusplus
 extern "C" {
