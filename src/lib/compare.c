@@ -9,7 +9,7 @@
      sum log P(y_i - 1/2 < Y_i <= y_i + 1/2) at its fitted parameters (the lower end clipped
      to the support: y = 0 takes all the mass below 1/2), and the ranking uses it;
    - cross-validated prediction error on y's scale (folds seeded; transformed candidates
-     back-transformed with Duan's smearing of the training residuals);
+     back-transformed with Duan's smearing of the training residuals; compare_cv.c);
    - the spread ratio of its own Pearson residuals and a Kolmogorov-Smirnov statistic of its
      quantile residuals (Dunn & Smyth 1996). */
 #include <math.h>
@@ -17,22 +17,10 @@
 #include <stdlib.h>
 #include <string.h>
 #include <gsl/gsl_cdf.h>
-#include <gsl/gsl_randist.h>
 #include <gsl/gsl_rng.h>
 #include "alloc.h"
-#include "compare.h"
+#include "compare_impl.h"
 #include "diag.h"
-
-typedef struct spec {
-  const char *id;
-  bl_method method;
-  const bl_family *fam;
-  const bl_link *link;
-  bl_transform tr;
-  int lambda_est;
-  bl_variance var;
-  const char *desc;
-} spec;
 
 static const spec specs[] = {
   { "ls", BL_METHOD_OLS, &bl_family_gaussian, &bl_link_identity, BL_TRANSFORM_NONE, 0,
@@ -63,20 +51,6 @@ static const spec specs[] = {
     BL_VARIANCE_NONE, "Tweedie GLM, log link, power estimated" },
 };
 #define NSPECS (sizeof specs / sizeof specs[0])
-
-struct bl_compare {
-  size_t nc;
-  bl_candidate c[BL_COMPARE_MAX];
-  spec sp[BL_COMPARE_MAX];
-  double lam[BL_COMPARE_MAX];      /* fixed lambda of an ls-bc=L candidate */
-  int integer_y;
-  int zero_groups;               /* y has exact zeros and non-integer values */
-  int default_list;              /* the candidates are the default list */
-  long winner;
-  bl_warnings advice;
-  size_t folds;
-  unsigned long seed;
-};
 
 void
 bl_compare_opts_init (bl_compare_opts *opt)
@@ -191,8 +165,8 @@ cand_init (bl_candidate *k, const spec *sp, double lam)
   k->group = NULL;
 }
 
-static void
-fit_opts_for (const bl_compare_opts *opt, const spec *sp, double lam, bl_fit_opts *o)
+void
+bl_compare_fit_opts (const bl_compare_opts *opt, const spec *sp, double lam, bl_fit_opts *o)
 {
   *o = opt->fit;
   o->method = sp->method;
@@ -263,129 +237,14 @@ discrete_loglik (const bl_fit *f)
   return (double) l;
 }
 
-/* The mean of y for a new row at linear predictor ETA (offset included) under fit F. */
-static double
-predict_mean (const bl_fit *f, double eta)
-{
-  if (bl_fit_method (f) == BL_METHOD_GLM)
-    return bl_fit_link (f)->ginv (eta);
-  if (bl_fit_transform (f)->kind != BL_TRANSFORM_NONE)
-    return bl_fit_backtransform (f, eta, 1);
-  return eta;
-}
-
 /* Whether the caller's cancel flag (the one the fits poll, opt->fit.irls.cancel) is set: a
-   cancelled fit comes back unconverged, and the loops below must not take it for a candidate
-   that failed, so they poll the flag too and stop with BL_ECANCEL. */
-static int
-cancel_set (const bl_compare_opts *opt)
+   cancelled fit comes back unconverged, and the loops below (and the cross-validation's,
+   compare_cv.c) must not take it for a candidate that failed, so they poll the flag too and
+   stop with BL_ECANCEL. */
+int
+bl_compare_cancelled (const bl_compare_opts *opt)
 {
   return opt->fit.irls.cancel && *opt->fit.irls.cancel;
-}
-
-/* Fold G of the cross-validation: fit on the other folds' rows (SEL and BLK are scratch of n
-   rows and one block), add the squared and absolute errors of fold G's rows to SE and AE.
-   A fold that cannot be fitted sets *FAILED and gets a note in K.  BL_OK, or BL_ENOMEM. */
-static int
-cv_fold (const bl_design *d, const bl_fit_opts *o, const size_t *fold, size_t g, size_t *sel,
-         double *blk, bl_candidate *k, long double *se, long double *ae, int *failed,
-         bl_err *err)
-{
-  const size_t n = bl_design_n (d), p = bl_design_p (d);
-  const double *y = bl_design_y (d), *off = bl_design_offset (d);
-  size_t m = 0;
-  bl_design *sub;
-  bl_fit *ft = NULL;
-  bl_err e;
-  int st = BL_OK;
-  for (size_t i = 0; i < n; i++)
-    if (fold[i] != g)
-      sel[m++] = i;
-  sub = bl_design_subset (d, sel, m, err);
-  if (!sub)
-    return BL_ENOMEM;
-  ft = bl_fit_new (sub, o, &e);
-  if ((ft ? bl_fit_status (ft)->code : e.code) == BL_ENOMEM) {
-    /* exhaustion is the caller's error, not a note about the fold (compare.h) */
-    st = bl_fail (err, BL_ENOMEM, "compare", "out of memory");
-    goto done;
-  }
-  if (!ft || !bl_fit_stats_get (ft)->converged) {
-    *failed = 1;
-    if (bl_warnings_add (&k->notes, "cross-validation: fold %zu could not be fitted (%s)",
-                         g + 1, ft ? bl_fit_status (ft)->msg : e.msg) != BL_OK)
-      st = bl_fail (err, BL_ENOMEM, "compare", "out of memory");
-    goto done;
-  }
-  {
-    const int *aliased = bl_fit_aliased (ft);
-    const double *beta = bl_fit_beta (ft);
-    for (size_t r0 = 0; r0 < n; r0 += BL_IRLS_BLOCK) {
-      const size_t nb = n - r0 < BL_IRLS_BLOCK ? n - r0 : BL_IRLS_BLOCK;
-      int any = 0;
-      for (size_t i = 0; i < nb && !any; i++)
-        any = fold[r0 + i] == g;
-      if (!any)
-        continue;
-      bl_design_fill (d, r0, nb, blk, BL_IRLS_BLOCK);
-      for (size_t i = 0; i < nb; i++) {
-        double eta = off ? off[r0 + i] : 0.0, res;
-        if (fold[r0 + i] != g)
-          continue;
-        for (size_t j = 0; j < p; j++)
-          if (!aliased[j])
-            eta += blk[i + j * BL_IRLS_BLOCK] * beta[j];
-        res = y[r0 + i] - predict_mean (ft, eta);
-        *se += (long double) res * res;
-        *ae += fabs (res);
-      }
-    }
-  }
-done:
-  bl_fit_free (ft);
-  bl_design_free (sub);
-  return st;
-}
-
-/* K-fold cross-validated RMSE and MAE of candidate K (spec SP) on D. */
-static int
-cross_validate (const bl_design *d, const bl_compare_opts *opt, const spec *sp, double lam,
-                const size_t *fold, bl_candidate *k, bl_err *err)
-{
-  const size_t n = bl_design_n (d), p = bl_design_p (d), K = opt->folds;
-  size_t *sel = bl_mallocn (n, sizeof *sel);
-  double *blk = bl_mallocn ((size_t) BL_IRLS_BLOCK * (p ? p : 1), sizeof *blk);
-  long double se = 0.0L, ae = 0.0L;
-  bl_fit_opts o;
-  int st = BL_OK, failed = 0;
-  if (!sel || !blk) {
-    st = bl_fail (err, BL_ENOMEM, "compare", "out of memory");
-    goto done;
-  }
-  fit_opts_for (opt, sp, lam, &o);
-  if (sp->tr == BL_TRANSFORM_BOXCOX && k->fit) {     /* lambda as estimated on all rows */
-    o.lambda_est = 0;
-    o.lambda = bl_fit_transform (k->fit)->lambda;
-  }
-  o.se = BL_SE_MODEL;
-  for (size_t g = 0; g < K; g++) {
-    if (cancel_set (opt)) {
-      st = bl_fail (err, BL_ECANCEL, "compare", "the comparison was cancelled");
-      goto done;
-    }
-    if ((st = cv_fold (d, &o, fold, g, sel, blk, k, &se, &ae, &failed, err)) != BL_OK)
-      goto done;
-    if (failed) {
-      k->cv_rmse = k->cv_mae = NAN;
-      goto done;
-    }
-  }
-  k->cv_rmse = sqrt ((double) (se / (long double) n));
-  k->cv_mae = (double) (ae / (long double) n);
-done:
-  bl_free (sel);
-  bl_free (blk);
-  return st;
 }
 
 /* A seed for candidate ID that does not depend on which other candidates run (FNV-1a). */
@@ -420,13 +279,13 @@ score (bl_candidate *k, const bl_compare_opts *opt, bl_err *err)
   k->spread_flag = sp.flag;
   bl_spread_clear (&sp);
   /* each of these three passes takes about a second on a million rows: poll between them */
-  if (cancel_set (opt)) {
+  if (bl_compare_cancelled (opt)) {
     st = bl_fail (err, BL_ECANCEL, "compare", "the comparison was cancelled");
     goto done;
   }
   if ((st = bl_quantile_residuals (f, rng, r, err)) != BL_OK)
     goto done;
-  if (cancel_set (opt)) {
+  if (bl_compare_cancelled (opt)) {
     st = bl_fail (err, BL_ECANCEL, "compare", "the comparison was cancelled");
     goto done;
   }
@@ -541,7 +400,7 @@ fit_candidate (bl_compare *c, size_t i, const bl_design *d, const bl_compare_opt
     k->applicable = 0;
     return NOTE (k, "%s", why);
   }
-  fit_opts_for (opt, sp, c->lam[i], &o);
+  bl_compare_fit_opts (opt, sp, c->lam[i], &o);
   k->fit = bl_fit_new (d, &o, &e);
   if (!k->fit) {
     if (e.code == BL_ENOMEM)
@@ -590,14 +449,14 @@ fit_all (bl_compare *c, const bl_design *d, const bl_compare_opts *opt, const ys
 {
   int st = BL_OK;
   for (size_t i = 0; i < c->nc && st == BL_OK; i++) {
-    if (cancel_set (opt))
+    if (bl_compare_cancelled (opt))
       return bl_fail (err, BL_ECANCEL, "compare", "the comparison was cancelled");
     st = fit_candidate (c, i, d, opt, ys, err);
     if (st == BL_OK && c->sp[i].tr == BL_TRANSFORM_BOXCOX && c->sp[i].lambda_est
         && c->c[i].fit && c->c[i].converged && c->nc < BL_COMPARE_MAX)
       add_practical (c, i);
   }
-  if (st == BL_OK && cancel_set (opt))        /* the last candidate's fit was cut short */
+  if (st == BL_OK && bl_compare_cancelled (opt))  /* the last candidate's fit was cut short */
     st = bl_fail (err, BL_ECANCEL, "compare", "the comparison was cancelled");
   return st;
 }
@@ -662,45 +521,6 @@ rank_all (bl_compare *c)
     if (c->winner < 0 && gwin >= 0)
       c->winner = gwin;
   }
-}
-
-/* Cross-validation of every converged candidate, with folds from one seeded permutation;
-   c->folds = 0 when there are too few rows. */
-static int
-cv_all (bl_compare *c, const bl_design *d, const bl_compare_opts *opt, bl_err *err)
-{
-  const size_t n = bl_design_n (d);
-  gsl_rng *rng = NULL;
-  size_t *fold = NULL, *perm = NULL;
-  int st = BL_OK;
-  if (!(opt->folds >= 2 && n >= opt->folds)) {
-    c->folds = 0;
-    goto done;
-  }
-  rng = gsl_rng_alloc (gsl_rng_mt19937);
-  fold = bl_mallocn (n, sizeof *fold);
-  perm = bl_mallocn (n, sizeof *perm);
-  if (!rng || !fold || !perm) {
-    st = bl_fail (err, BL_ENOMEM, "compare", "out of memory");
-    goto done;
-  }
-  gsl_rng_set (rng, opt->seed);
-  for (size_t i = 0; i < n; i++)
-    perm[i] = i;
-  gsl_ran_shuffle (rng, perm, n, sizeof *perm);
-  for (size_t i = 0; i < n; i++)
-    fold[perm[i]] = i % opt->folds;
-  for (size_t i = 0; i < c->nc && st == BL_OK; i++)
-    if (c->c[i].converged)
-      st = cross_validate (d, opt, &c->sp[i], c->lam[i], fold, &c->c[i], err);
-done:
-  if (rng)
-    gsl_rng_free (rng);
-  bl_free (fold);
-  bl_free (perm);
-  if (st == BL_OK && cancel_set (opt))         /* a fold's fit was cut short */
-    st = bl_fail (err, BL_ECANCEL, "compare", "the comparison was cancelled");
-  return st;
 }
 
 /* Add an advice line: BL_OK, or BL_ENOMEM in ERR. */
@@ -847,7 +667,7 @@ bl_compare_run (const bl_design *d, const bl_compare_opts *opt, bl_err *err)
   if ((st = fit_all (c, d, opt, &ys, err)) != BL_OK)
     goto done;
   rank_all (c);
-  if ((st = cv_all (c, d, opt, err)) != BL_OK)
+  if ((st = bl_compare_cv (c, d, opt, err)) != BL_OK)
     goto done;
   st = advise (c, opt, err);
 done:

@@ -38,6 +38,7 @@
 #include "alloc.h"
 #include "design.h"
 #include "model_impl.h"
+#include "rowblock.h"
 
 #define BLOCK 256                 /* rows of X filled at a time */
 
@@ -517,11 +518,11 @@ bl_model_predict (const bl_model *m, const bl_table *t, double level, bl_err *er
   ps.y = bl_design_y (d);
   ps.aw = bl_design_prior_w (d);
   ps.vc = bl_design_varcol (d);
-  for (size_t r0 = 0; r0 < n && status == BL_OK; r0 += BLOCK) {
-    const size_t nr = n - r0 < BLOCK ? n - r0 : BLOCK;
-    bl_design_fill (d, r0, nr, X, BLOCK);
-    for (size_t i = 0; i < nr && status == BL_OK; i++)
-      status = predict_row (&ps, X, i, r0 + i, err);
+  for (bl_rowblock rb = bl_rowblock_first (0, n, BLOCK); bl_rowblock_more (&rb) && status == BL_OK;
+       bl_rowblock_next (&rb)) {
+    bl_design_fill (d, rb.row0, rb.n, X, BLOCK);
+    for (size_t i = 0; i < rb.n && status == BL_OK; i++)
+      status = predict_row (&ps, X, i, rb.row0 + i, err);
   }
   if (status == BL_OK && ps.nscore) {
     ps.pr->has_response = 1;
