@@ -132,14 +132,14 @@ cmd_compare (int argc, char **argv)
     if (cli_model_option_has (c, BL_OPTION_CANDIDATE)) {
       char where[64];
       snprintf (where, sizeof where, "--%s", long_opts[li].name);
-      cli_model_free (&m);
-      return cli_usage_error ("compare", where, "compare fits its candidates' own "
-                              "models: choose them with --candidates");
+      rc = cli_usage_error ("compare", where, "compare fits its candidates' own "
+                            "models: choose them with --candidates");
+      goto done;
     }
     r = cli_model_option (&m, c, optarg, "compare");
     if (r > 0) {
-      cli_model_free (&m);
-      return r;
+      rc = r;
+      goto done;
     }
     if (r == 0)
       continue;
@@ -147,36 +147,35 @@ cmd_compare (int argc, char **argv)
     case OPT_JSON: json = 1; break;
     case OPT_CANDIDATES:
       if (bl_compare_check_list (optarg, &err) != BL_OK) {
-        cli_model_free (&m);
-        return cli_lib_error ("compare", &err);
+        rc = cli_lib_error ("compare", &err);
+        goto done;
       }
       copt.candidates = optarg;
       break;
     case OPT_FOLDS:
       if (parse_count (optarg, &folds) != 0 || folds == 1) {
-        cli_model_free (&m);
-        return cli_usage_error ("compare", "--folds", "expected 0 or an integer >= 2, got "
-                                "'%s'", optarg);
+        rc = cli_usage_error ("compare", "--folds", "expected 0 or an integer >= 2, got "
+                              "'%s'", optarg);
+        goto done;
       }
       break;
     case OPT_SEED:
       if (parse_count (optarg, &seed) != 0) {
-        cli_model_free (&m);
-        return cli_usage_error ("compare", "--seed", "expected a non-negative integer, got "
-                                "'%s'", optarg);
+        rc = cli_usage_error ("compare", "--seed", "expected a non-negative integer, got "
+                              "'%s'", optarg);
+        goto done;
       }
       break;
     case 'o': output = optarg; break;
     case 'q': quiet = 1; break;
     default:
-      return cli_model_option_end (&m, c, "compare", argv, usage_head, usage_tail);
+      rc = cli_model_option_end (&m, c, "compare", argv, usage_head, usage_tail);
+      goto done;
     }
   }
   if ((rc = cli_model_finish (&m, argc, argv, optind, "compare")) != 0
-      || (rc = cli_model_load (&m, "compare")) != 0) {
-    cli_model_free (&m);
-    return rc;
-  }
+      || (rc = cli_model_load (&m, "compare")) != 0)
+    goto done;
   /* the comparison's settings into the job, which the runner reads */
   m.job.folds = folds;
   if (copt.candidates
@@ -184,6 +183,7 @@ cmd_compare (int argc, char **argv)
     rc = cli_lib_error ("compare", &err);
   else
     rc = compare_report (&m, (unsigned long) seed, json, quiet, output);
+done:
   cli_model_free (&m);
   return rc;
 }

@@ -156,8 +156,8 @@ cmd_diagnose (int argc, char **argv)
   while ((c = getopt_long (argc, argv, ":o:qh", long_opts, NULL)) != -1) {
     const int r = cli_model_option (&m, c, optarg, "diagnose");
     if (r > 0) {
-      cli_model_free (&m);
-      return r;
+      rc = r;
+      goto done;
     }
     if (r == 0) {
       method_set |= cli_model_option_has (c, BL_OPTION_METHOD);
@@ -169,9 +169,9 @@ cmd_diagnose (int argc, char **argv)
     case OPT_BY: by = optarg; break;
     case OPT_SEED:
       if (cli_parse_size (optarg, &seed) != 0 && strcmp (optarg, "0") != 0) {
-        cli_model_free (&m);
-        return cli_usage_error ("diagnose", "--seed", "expected a non-negative integer, got "
-                                "'%s'", optarg);
+        rc = cli_usage_error ("diagnose", "--seed", "expected a non-negative integer, got "
+                              "'%s'", optarg);
+        goto done;
       }
       if (strcmp (optarg, "0") == 0)
         seed = 0;
@@ -179,17 +179,17 @@ cmd_diagnose (int argc, char **argv)
     case 'o': output = optarg; break;
     case 'q': quiet = 1; break;
     default:
-      return cli_model_option_end (&m, c, "diagnose", argv, usage_head, usage_tail);
+      rc = cli_model_option_end (&m, c, "diagnose", argv, usage_head, usage_tail);
+      goto done;
     }
   }
   if (!method_set)
     m.job.fit.method = BL_METHOD_OLS;
   if ((rc = cli_model_finish (&m, argc, argv, optind, "diagnose")) != 0
-      || (rc = cli_model_load_with (&m, "diagnose", by)) != 0) {
-    cli_model_free (&m);
-    return rc;
-  }
+      || (rc = cli_model_load_with (&m, "diagnose", by)) != 0)
+    goto done;
   rc = diagnose_report (&m, (unsigned long) seed, by, residuals, json, quiet, output);
+done:
   cli_model_free (&m);
   return rc;
 }

@@ -131,8 +131,8 @@ cmd_fit (int argc, char **argv)
   while ((c = getopt_long (argc, argv, ":o:qh", long_opts, NULL)) != -1) {
     const int r = cli_model_option (&m, c, optarg, "fit");
     if (r > 0) {
-      cli_model_free (&m);
-      return r;
+      rc = r;
+      goto done;
     }
     if (r == 0)
       continue;
@@ -140,30 +140,29 @@ cmd_fit (int argc, char **argv)
     case OPT_JSON: json = 1; break;
     case OPT_SAVE:
       if (strcmp (optarg, "-") == 0 || optarg[0] == '\0') {
-        cli_model_free (&m);
-        return cli_usage_error ("fit", "--save", "the model needs a file name, not '%s'",
-                                optarg);
+        rc = cli_usage_error ("fit", "--save", "the model needs a file name, not '%s'",
+                              optarg);
+        goto done;
       }
       save = optarg;
       break;
     case 'o': output = optarg; break;
     case 'q': quiet = 1; break;
     default:
-      return cli_model_option_end (&m, c, "fit", argv, usage_head, usage_tail);
+      rc = cli_model_option_end (&m, c, "fit", argv, usage_head, usage_tail);
+      goto done;
     }
   }
-  if ((rc = cli_model_finish (&m, argc, argv, optind, "fit")) != 0) {
-    cli_model_free (&m);
-    return rc;
-  }
+  if ((rc = cli_model_finish (&m, argc, argv, optind, "fit")) != 0)
+    goto done;
   /* the smaller model's syntax, before any work */
   if (m.job.against && !(small = bl_terms_parse (m.job.against, "--against", &err))) {
     rc = cli_lib_error ("fit", &err);
-    cli_model_free (&m);
-    return rc;
+    goto done;
   }
   if ((rc = cli_model_load (&m, "fit")) == 0)
     rc = fit_report (&m, small, json, quiet, output, save);
+done:
   bl_terms_free (small);
   cli_model_free (&m);
   return rc;
