@@ -91,6 +91,11 @@ fit_report (const cli_model *m, const bl_terms *small, int json, int quiet,
     rc = cli_lib_error ("fit", &err);
     goto done;
   }
+  if (cli_cancel) {                 /* interrupted after the fit (the nested test): nothing
+                                       written */
+    rc = cli_interrupted ("fit");
+    goto done;
+  }
   if (cli_out_open (&out, output) != 0)
     goto done;
   {
