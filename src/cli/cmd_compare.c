@@ -46,10 +46,7 @@ static const struct option own_opts[] = {
   { "candidates", required_argument, NULL, OPT_CANDIDATES },
   { "folds", required_argument, NULL, OPT_FOLDS },
   { "seed", required_argument, NULL, OPT_SEED },
-  { "output", required_argument, NULL, 'o' },
-  { "quiet", no_argument, NULL, 'q' },
-  { "help", no_argument, NULL, 'h' },
-  { NULL, 0, NULL, 0 }
+  CLI_OUTPUT_OPTS
 };
 
 /* A whole non-negative integer (0 allowed); 0 on success. */

@@ -42,10 +42,7 @@ static const struct option own_opts[] = {
   { "residuals", required_argument, NULL, OPT_RESIDUALS },
   { "seed", required_argument, NULL, OPT_SEED },
   { "by", required_argument, NULL, OPT_BY },
-  { "output", required_argument, NULL, 'o' },
-  { "quiet", no_argument, NULL, 'q' },
-  { "help", no_argument, NULL, 'h' },
-  { NULL, 0, NULL, 0 }
+  CLI_OUTPUT_OPTS
 };
 
 /* Write the residual table of RES's model to PATH (atomically): the exit code. */

@@ -32,10 +32,7 @@ enum { OPT_JSON = OPT_FIRST_OWN, OPT_SAVE };
 static const struct option own_opts[] = {
   { "json", no_argument, NULL, OPT_JSON },
   { "save", required_argument, NULL, OPT_SAVE },
-  { "output", required_argument, NULL, 'o' },
-  { "quiet", no_argument, NULL, 'q' },
-  { "help", no_argument, NULL, 'h' },
-  { NULL, 0, NULL, 0 }
+  CLI_OUTPUT_OPTS
 };
 
 /* Write the fitted model to SAVE (when given), atomically: EXIT_DONE or EXIT_DATA. */

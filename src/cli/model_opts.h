@@ -15,6 +15,14 @@ enum {
 /* Room for the shared long options, a subcommand's own and the zero entry. */
 #define CLI_LONG_OPTS_MAX (BL_OPTION_MAX + CLI_OWN_MAX + 1)
 
+/* The own options every modelling subcommand ends its own_opts[] with: -o, -q, -h and the
+   zero entry. */
+#define CLI_OUTPUT_OPTS                                  \
+  { "output", required_argument, NULL, 'o' },            \
+  { "quiet", no_argument, NULL, 'q' },                   \
+  { "help", no_argument, NULL, 'h' },                    \
+  { NULL, 0, NULL, 0 }
+
 /* Fill LONG_OPTS (CLI_LONG_OPTS_MAX entries) with the shared options, the table's
    BL_OPTION_CLI keys in table order, then OWN (fewer than CLI_OWN_MAX entries, ended by a
    zero entry), then the zero entry. */
