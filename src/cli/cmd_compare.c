@@ -66,19 +66,12 @@ static int
 compare_report (const cli_model *m, unsigned long seed, int json, int quiet,
                 const char *output)
 {
-  const bl_job_input in = { m->table, m->design, m->offset, NULL };
-  bl_job_run_opts ro;
   bl_job_result *res = NULL;
   const bl_compare *cmp;
   bl_err err;
   cli_out out;
   int st, rc = EXIT_DATA;
-  bl_err_clear (&err);
-  bl_job_run_opts_init (&ro);
-  ro.task = BL_JOB_COMPARE;
-  ro.seed = seed;
-  ro.cancel = &cli_cancel;
-  if (bl_job_run (&m->job, &in, &ro, &res, &err) != BL_OK) {
+  if (cli_model_run (m, BL_JOB_COMPARE, seed, NULL, NULL, &res, &err) != BL_OK) {
     rc = cli_lib_error ("compare", &err);
     goto done;
   }

@@ -81,20 +81,12 @@ static int
 diagnose_report (const cli_model *m, unsigned long seed, const char *by, const char *residuals,
                  int json, int quiet, const char *output)
 {
-  const bl_job_input in = { m->table, m->design, m->offset, NULL };
-  bl_job_run_opts ro;
   bl_job_result *res = NULL;
   const bl_fit *fit;
   bl_err err;
   cli_out out;
   int st, rc = EXIT_DATA;
-  bl_err_clear (&err);
-  bl_job_run_opts_init (&ro);
-  ro.task = BL_JOB_DIAGNOSE;
-  ro.seed = seed;
-  ro.by = by;
-  ro.cancel = &cli_cancel;
-  st = bl_job_run (&m->job, &in, &ro, &res, &err);
+  st = cli_model_run (m, BL_JOB_DIAGNOSE, seed, by, NULL, &res, &err);
   fit = res ? bl_job_result_fit (res) : NULL;
   if (!fit || !bl_job_result_diag (res)) {
     if (cli_cancel)                /* a cancelled fit or diagnosis: no report of it */

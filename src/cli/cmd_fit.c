@@ -60,18 +60,12 @@ static int
 fit_report (const cli_model *m, const bl_terms *small, int json, int quiet,
             const char *output, const char *save)
 {
-  const bl_job_input in = { m->table, m->design, m->offset, small };
-  bl_job_run_opts ro;
   bl_job_result *res = NULL;
   const bl_fit *fit;
   bl_err err;
   cli_out out;
   int st, rc = EXIT_DATA;
-  bl_err_clear (&err);
-  bl_job_run_opts_init (&ro);
-  ro.task = BL_JOB_FIT;
-  ro.cancel = &cli_cancel;
-  st = bl_job_run (&m->job, &in, &ro, &res, &err);
+  st = cli_model_run (m, BL_JOB_FIT, BL_DIAG_SEED, NULL, small, &res, &err);
   if (!res || cli_cancel) {
     /* a cancelled fit comes back unconverged (BL_ECANCEL in its status): no report of it */
     rc = res ? cli_interrupted ("fit") : cli_lib_error ("fit", &err);

@@ -162,3 +162,18 @@ cli_model_warn_drops (const cli_model *m)
     cli_warn (m->job.data, "%zu row%s set aside (%s)", n, n == 1 ? "" : "s", r);
   }
 }
+
+int
+cli_model_run (const cli_model *m, bl_job_task task, unsigned long seed, const char *by,
+               const bl_terms *small, bl_job_result **res, bl_err *err)
+{
+  const bl_job_input in = { m->table, m->design, m->offset, small };
+  bl_job_run_opts ro;
+  bl_err_clear (err);
+  bl_job_run_opts_init (&ro);
+  ro.task = task;
+  ro.seed = seed;
+  ro.by = by;
+  ro.cancel = &cli_cancel;
+  return bl_job_run (&m->job, &in, &ro, res, err);
+}

@@ -49,6 +49,11 @@ int cli_model_finish (cli_model *m, int argc, char **argv, int optind_, const ch
 /* Parse the terms (syntax first), read the table, build the design.  0, or an exit code with
    the library's message printed. */
 int cli_model_load (cli_model *m, const char *cmd);
+/* Run M's loaded job as TASK through bl_job_run, with the SIGINT flag as its cancel flag,
+   SEED, BY (diagnose's --by, may be NULL) and SMALL (fit's smaller model, may be NULL):
+   bl_job_run's status, with *RES and ERR as it leaves them. */
+int cli_model_run (const cli_model *m, bl_job_task task, unsigned long seed, const char *by,
+                   const bl_terms *small, bl_job_result **res, bl_err *err);
 /* The same, keeping column ALSO of the data as well (see bl_job_load_with). */
 int cli_model_load_with (cli_model *m, const char *cmd, const char *also);
 /* The options every modelling subcommand ends its option switch with: -h (HEAD, the shared
