@@ -30,19 +30,46 @@ int cli_usage_error (const char *cmd, const char *where, const char *fmt, ...)
 int cli_lib_error (const char *cmd, const bl_err *err);
 
 /* An output that is written to a temporary file beside PATH and renamed over PATH when
-   complete ("-" or NULL is standard output, written directly; so is a PATH that exists and
-   is not a regular file, such as /dev/null or a FIFO, which a rename would replace). */
+   complete ("-" or NULL is standard output, written directly; so is a PATH that is, or is a
+   symbolic link to, the file open as standard output, such as /dev/stdout).  A PATH that is
+   (or links to) a device, a FIFO, a socket or a terminal (/dev/null) is written in place,
+   which a rename would replace by a regular file. */
 typedef struct cli_out {
   FILE *f;
   char path[4096], tmp[4096];
   int is_stdout;
   int is_direct;              /* PATH is a device or a pipe: written in place */
 } cli_out;
+/* Check output PATH of option OPT (NULL: standard output) before any work: an empty name, a
+   folder, a symbolic link to a regular file, a folder or nothing (a rename would replace
+   the link) are usage errors (EXIT_USAGE, message printed, CMD's hint); a folder in which
+   no file can be made (a temporary is created and removed) is EXIT_DATA; else 0. */
+int cli_out_check (const char *cmd, const char *opt, const char *path);
+/* Whether PATH is written as standard output (cli_out_open's rule). */
+int cli_out_to_stdout (const char *path);
 int cli_out_open (cli_out *o, const char *path);      /* 0, or -1 with a message printed */
 int cli_out_commit (cli_out *o);                      /* fsync + rename; 0 or -1 */
 /* cli_out_commit refuses (-1, the temporary removed, no message) once cli_cancel is set: an
-   interrupted command leaves no file of its own behind. */
+   interrupted command leaves no file of its own behind.  Every write, flush and close is
+   checked; a failed one is named ("ballast: PATH: write failed: REASON"). */
 void cli_out_abort (cli_out *o);                      /* remove the temporary */
+/* A writer failed on O with ERR (ERRNO_ the errno it left): O is aborted; a failed write
+   (BL_EIO) is reported as O's ("PATH: write failed: REASON"), anything else through
+   cli_lib_error.  Returns the exit code. */
+int cli_out_fail (cli_out *o, const char *cmd, const bl_err *err, int errno_);
+/* The name of O in messages: its path, or "standard output". */
+const char *cli_out_name (const cli_out *o);
+
+/* The files one command reads and writes, for cli_paths_check. */
+typedef struct cli_path {
+  const char *label;          /* "DATA", "--output", ... */
+  const char *path;           /* "-": standard input (an input) or output (an output) */
+  int output;
+} cli_path;
+/* Whether any output of P[0..N) is the same file as an input or another output
+   (bl_path_set_check); entries with a NULL path are skipped.  0, or EXIT_USAGE with the
+   message and CMD's hint printed (EXIT_DATA when memory ran out). */
+int cli_paths_check (const char *cmd, const cli_path *p, size_t n);
 
 /* Parse a whole string as a finite double / a positive size; 0 on success. */
 int cli_parse_double (const char *s, double *out);

@@ -1,5 +1,6 @@
 /* cmd_compare.c -- 'ballast compare DATA': every variance treatment on the same rows,
    ranked on y's likelihood scale. */
+#include <errno.h>
 #include <getopt.h>
 #include <stdio.h>
 #include <string.h>
@@ -87,8 +88,7 @@ compare_report (const cli_model *m, unsigned long seed, int json, int quiet,
               : bl_report_compare_text (out.f, cmp, m->design, &info, &err);
   }
   if (st != BL_OK) {
-    cli_out_abort (&out);
-    rc = cli_lib_error ("compare", &err);
+    rc = cli_out_fail (&out, "compare", &err, errno);
   } else if (cli_out_commit (&out) == 0) {
     if (bl_compare_winner (cmp) < 0)
       cli_error ("compare", "no candidate could be fitted");
@@ -163,8 +163,15 @@ cmd_compare (int argc, char **argv)
       goto done;
     }
   }
-  if ((rc = cli_model_finish (&m, argc, argv, optind, "compare")) != 0
-      || (rc = cli_model_load (&m, "compare")) != 0)
+  if ((rc = cli_model_finish (&m, argc, argv, optind, "compare")) != 0)
+    goto done;
+  {                   /* no output replaces the data, before any work */
+    const cli_path paths[] = { { "DATA", m.job.data, 0 },
+                               { output ? "--output" : "the report", output ? output : "-", 1 } };
+    if ((rc = cli_paths_check ("compare", paths, sizeof paths / sizeof paths[0])) != 0)
+      goto done;
+  }
+  if ((rc = cli_model_load (&m, "compare")) != 0)
     goto done;
   /* the comparison's settings into the job, which the runner reads */
   m.job.folds = folds;

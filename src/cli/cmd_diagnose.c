@@ -1,5 +1,6 @@
 /* cmd_diagnose.c -- 'ballast diagnose DATA': fit (OLS unless the fit options say otherwise)
    and check whether the spread is constant. */
+#include <errno.h>
 #include <getopt.h>
 #include <stdio.h>
 #include <string.h>
@@ -63,8 +64,7 @@ write_residuals (const bl_job_result *res, const char *path)
     goto done;
   if (bl_report_residuals_csv (rout.f, bl_job_result_model (res), t, &cli_cancel, &err)
       != BL_OK) {
-    cli_out_abort (&rout);
-    rc = cli_lib_error ("diagnose", &err);
+    rc = cli_out_fail (&rout, "diagnose", &err, errno);
     goto done;
   }
   if (cli_out_commit (&rout) == 0)
@@ -119,8 +119,7 @@ diagnose_report (const cli_model *m, unsigned long seed, const char *by, const c
               : bl_report_diag_text (out.f, fit, bl_job_result_diag (res), &info, &err);
   }
   if (st != BL_OK) {
-    cli_out_abort (&out);
-    rc = cli_lib_error ("diagnose", &err);
+    rc = cli_out_fail (&out, "diagnose", &err, errno);
   } else if (cli_out_commit (&out) == 0) {
     rc = EXIT_DONE;
   }
@@ -174,8 +173,16 @@ cmd_diagnose (int argc, char **argv)
   }
   if (!method_set)
     m.job.fit.method = BL_METHOD_OLS;
-  if ((rc = cli_model_finish (&m, argc, argv, optind, "diagnose")) != 0
-      || (rc = cli_model_load_with (&m, "diagnose", by)) != 0)
+  if ((rc = cli_model_finish (&m, argc, argv, optind, "diagnose")) != 0)
+    goto done;
+  {                   /* no output replaces the data or another output, before any work */
+    const cli_path paths[] = { { "DATA", m.job.data, 0 },
+                               { output ? "--output" : "the report", output ? output : "-", 1 },
+                               { "--residuals", residuals, 1 } };
+    if ((rc = cli_paths_check ("diagnose", paths, sizeof paths / sizeof paths[0])) != 0)
+      goto done;
+  }
+  if ((rc = cli_model_load_with (&m, "diagnose", by)) != 0)
     goto done;
   rc = diagnose_report (&m, (unsigned long) seed, by, residuals, json, quiet, output);
 done:

@@ -1,4 +1,5 @@
 /* cmd_fit.c -- 'ballast fit DATA': read, build the design, fit one model, report it. */
+#include <errno.h>
 #include <getopt.h>
 #include <stdio.h>
 #include <string.h>
@@ -45,12 +46,8 @@ save_model (const char *save, const bl_fit *fit, const cli_model *m)
     return EXIT_DONE;
   if (cli_out_open (&so, save) != 0)
     return EXIT_DATA;
-  if (bl_model_write (so.f, fit, m->terms, m->offset, m->job.weights, &err) != BL_OK) {
-    cli_out_abort (&so);
-    if (err.code == BL_EIO)
-      snprintf (err.where, sizeof err.where, "%s", save);
-    return cli_lib_error ("fit", &err);
-  }
+  if (bl_model_write (so.f, fit, m->terms, m->offset, m->job.weights, &err) != BL_OK)
+    return cli_out_fail (&so, "fit", &err, errno);
   return cli_out_commit (&so) == 0 ? EXIT_DONE : EXIT_DATA;
 }
 
@@ -96,8 +93,7 @@ fit_report (const cli_model *m, const bl_terms *small, int json, int quiet,
               : bl_report_fit_text (out.f, fit, &info, &err);
   }
   if (st != BL_OK) {
-    cli_out_abort (&out);
-    rc = cli_lib_error ("fit", &err);
+    rc = cli_out_fail (&out, "fit", &err, errno);
   } else if (cli_out_commit (&out) == 0) {
     if (!bl_fit_stats_get (fit)->converged)
       cli_error ("fit", "%s", bl_fit_status (fit)->msg);
@@ -151,6 +147,13 @@ cmd_fit (int argc, char **argv)
   }
   if ((rc = cli_model_finish (&m, argc, argv, optind, "fit")) != 0)
     goto done;
+  {                   /* no output replaces the data or another output, before any work */
+    const cli_path paths[] = { { "DATA", m.job.data, 0 },
+                               { output ? "--output" : "the report", output ? output : "-", 1 },
+                               { "--save", save, 1 } };
+    if ((rc = cli_paths_check ("fit", paths, sizeof paths / sizeof paths[0])) != 0)
+      goto done;
+  }
   /* the smaller model's syntax, before any work */
   if (m.job.against && !(small = bl_terms_parse (m.job.against, "--against", &err))) {
     rc = cli_lib_error ("fit", &err);

@@ -1,6 +1,7 @@
 /* cmd_predict.c -- 'ballast predict MODEL NEWDATA': apply a saved model (ballast fit --save)
    to new rows: means with confidence intervals and prediction intervals, as CSV, and, when
    the new data hold the response, out-of-sample scores. */
+#include <errno.h>
 #include <getopt.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -125,6 +126,15 @@ cmd_predict (int argc, char **argv)
                                             : "only MODEL and NEWDATA are taken");
     goto done;
   }
+  {                   /* no output replaces MODEL, NEWDATA or another output */
+    const int to_stdout = cli_out_to_stdout (output);
+    const cli_path paths[] = { { "MODEL", argv[optind], 0 }, { "NEWDATA", argv[optind + 1], 0 },
+                               { output ? "--output" : "the predictions",
+                                 output ? output : "-", 1 },
+                               { "the scores", !to_stdout && !quiet ? "-" : NULL, 1 } };
+    if ((rc = cli_paths_check ("predict", paths, sizeof paths / sizeof paths[0])) != 0)
+      goto done;
+  }
   rc = EXIT_DATA;
   if (!(m = bl_model_read (argv[optind], &err))) {
     rc = cli_lib_error ("predict", &err);
@@ -146,15 +156,14 @@ cmd_predict (int argc, char **argv)
   copt.nkeep = nkeep;
   copt.median = median;
   if (bl_prediction_write_csv (out.f, pr, t, &copt, &err) != BL_OK) {
-    cli_out_abort (&out);
-    rc = cli_lib_error ("predict", &err);
+    rc = cli_out_fail (&out, "predict", &err, errno);
     goto done;
   }
   if (cli_out_commit (&out) != 0)
     goto done;
   rc = EXIT_DONE;
   if (pr->has_response && !quiet) {
-    FILE *s = output && strcmp (output, "-") != 0 ? stdout : stderr;
+    FILE *s = out.is_stdout ? stderr : stdout;
     fprintf (s, "scores on '%s' (%zu of %zu rows have '%s'): deviance %.6g, rmse %.6g, "
              "mae %.6g\n", bl_table_source (t), pr->n_scored, pr->n, bl_model_response (m),
              pr->deviance, pr->rmse, pr->mae);

@@ -59,7 +59,11 @@ cmd_run (int argc, char **argv)
   opterr = 0;
   while ((c = getopt_long (argc, argv, ":o:j:qh", long_opts, NULL)) != -1) {
     switch (c) {
-    case 'o': outdir = optarg; break;
+    case 'o':
+      if (!optarg[0])
+        return cli_usage_error ("run", "--output", "the folder name is empty");
+      outdir = optarg;
+      break;
     case 'j':
       if (cli_parse_size (optarg, &jobs) != 0 || jobs > 16)
         return cli_usage_error ("run", "--jobs", "expected an integer from 1 to 16, got '%s'",
@@ -79,6 +83,8 @@ cmd_run (int argc, char **argv)
     return cli_usage_error ("run", NULL, "no SPEC file given");
   if (argc - optind > 1)
     return cli_usage_error ("run", argv[optind + 1], "only one SPEC file is taken");
+  if (!argv[optind][0])
+    return cli_usage_error ("run", "SPEC", "the file name is empty");
   bl_err_clear (&err);
   if (!(spec = bl_spec_read (argv[optind], &err)))
     return err.code == BL_ESPEC ? (cli_error (err.where, "%s", err.msg), EXIT_USAGE)
@@ -96,13 +102,21 @@ cmd_run (int argc, char **argv)
   bl_batch_opts_init (&bo);
   bo.jobs = (unsigned) jobs;
   bo.cancel = &cli_cancel;
+  bo.spec_path = argv[optind];
+  bo.outdir_label = outdir == defdir ? "OUTDIR" : "--output";
   if (!quiet && isatty (STDERR_FILENO))
     bo.progress = progress;
   rc = EXIT_DONE;
   if (bl_batch_run (spec, outdir, &bo, rows, &err) != BL_OK) {
     if (err.code == BL_ECANCEL) {
       rc = cli_interrupted ("run");
+    } else if (err.code == BL_ESPEC) {   /* an output of the run is one of its inputs */
+      rc = cli_lib_error ("run", &err);
     } else {
+      /* the jobs that ran and failed (a full disk) first, then what stopped the run */
+      for (size_t i = 0; i < bl_spec_njobs (spec) && !quiet; i++)
+        if (rows[i].job[0] && !rows[i].ok)
+          cli_error (rows[i].job, "%s", rows[i].message);
       cli_error (err.where, "%s", err.msg);
       rc = EXIT_DATA;
     }

@@ -1,6 +1,7 @@
 /* main.c -- the ballast program: the command table, --help and --version, the GSL error
    handler switched off, SIGINT wired to the library's cancel flag, and the exit status
    (EXIT_INTERRUPTED, 130, whenever SIGINT arrived while a command ran). */
+#include <errno.h>
 #include <signal.h>
 #include <stdio.h>
 #include <string.h>
@@ -97,9 +98,22 @@ main (int argc, char **argv)
     if (cli_cancel && status != EXIT_USAGE)
       status = cli_interrupted (c->name);
   }
-  if (fclose (stdout) != 0 && status == EXIT_DONE) {
-    cli_error ("stdout", "write failed");
-    status = EXIT_DATA;
+  {
+    /* standard output is checked last: a flush, its error flag, and the close; a failure
+       is named, with its reason, unless the command failed already */
+    int bad, e;
+    errno = 0;
+    bad = fflush (stdout) != 0 || ferror (stdout);
+    e = errno;
+    if (fclose (stdout) != 0 && !bad) {
+      bad = 1;
+      e = errno;
+    }
+    if (bad && status == EXIT_DONE) {
+      cli_error ("standard output", "write failed: %s",
+                 e ? strerror (e) : "an earlier write to it failed");
+      status = EXIT_DATA;
+    }
   }
   return status;
 }

@@ -5,6 +5,7 @@
 #include "version.h"
 #include "error.h"
 #include "table.h"
+#include "io_path.h"
 #include "terms.h"
 #include "design.h"
 #include "family.h"

@@ -19,6 +19,7 @@
 #include "alloc.h"
 #include "job.h"
 #include "diag.h"
+#include "io_path.h"
 #include "report_impl.h"
 #include "report.h"
 #include "thread.h"
@@ -50,6 +51,8 @@ bl_batch_opts_init (bl_batch_opts *opt)
   opt->cancel = NULL;
   opt->progress = NULL;
   opt->progress_ctx = NULL;
+  opt->spec_path = NULL;
+  opt->outdir_label = NULL;
 }
 
 unsigned long
@@ -125,7 +128,10 @@ remove_stale (int dirfd)
 }
 
 /* Write LEN bytes of BUF to DIRFD/NAME atomically: a temporary name in the same folder
-   (O_EXCL | O_NOFOLLOW: never through a planted link), write, fsync, rename over NAME. */
+   (O_EXCL | O_NOFOLLOW: never through a planted link), write, fsync, rename over NAME.
+   When that fails (a full disk, a folder made read-only), NAME is removed as well: a file an
+   earlier run left under it must not stand for this run's (unlinkat removes a link itself,
+   and a folder under the name stays). */
 static int
 write_atomic (int dirfd, const char *name, const char *buf, size_t len, const char *where,
               bl_err *err)
@@ -140,28 +146,44 @@ write_atomic (int dirfd, const char *name, const char *buf, size_t len, const ch
     if (fd < 0 && errno != EEXIST)
       break;
   }
-  if (fd < 0)
+  if (fd < 0) {
+    const int e = errno;
+    unlinkat (dirfd, name, 0);
     return bl_fail (err, BL_EIO, where, "cannot create a temporary file for '%s': %s", name,
-                    strerror (errno));
+                    strerror (e));
+  }
   for (size_t off = 0; off < len;) {
     const ssize_t w = write (fd, buf + off, len - off);
     if (w < 0) {
-      if (errno == EINTR)
+      const int e = errno;
+      if (e == EINTR)
         continue;
       close (fd);
       unlinkat (dirfd, tmp, 0);
-      return bl_fail (err, BL_EIO, where, "cannot write '%s': %s", name, strerror (errno));
+      unlinkat (dirfd, name, 0);
+      return bl_fail (err, BL_EIO, where, "cannot write '%s': %s", name, strerror (e));
     }
     off += (size_t) w;
   }
-  if (fsync (fd) != 0 || close (fd) != 0) {
+  if (fsync (fd) != 0) {
+    const int e = errno;
+    close (fd);
     unlinkat (dirfd, tmp, 0);
-    return bl_fail (err, BL_EIO, where, "cannot write '%s': %s", name, strerror (errno));
+    unlinkat (dirfd, name, 0);
+    return bl_fail (err, BL_EIO, where, "cannot write '%s': %s", name, strerror (e));
+  }
+  if (close (fd) != 0) {
+    const int e = errno;
+    unlinkat (dirfd, tmp, 0);
+    unlinkat (dirfd, name, 0);
+    return bl_fail (err, BL_EIO, where, "cannot write '%s': %s", name, strerror (e));
   }
   if (renameat (dirfd, tmp, dirfd, name) != 0) {
+    const int e = errno;
     unlinkat (dirfd, tmp, 0);
+    unlinkat (dirfd, name, 0);
     return bl_fail (err, BL_EIO, where, "cannot move '%s' into place: %s", name,
-                    strerror (errno));
+                    strerror (e));
   }
   return BL_OK;
 }
@@ -333,11 +355,29 @@ job_model (run_ctx *rc, const bl_spec_job *sj, const bl_job_input *in, unsigned 
   return BL_OK;
 }
 
+/* The failure document of job SJ, {"job", "status": "failed", "error"}, into the open
+   stream F: BL_OK, or BL_EIO when the stream failed. */
+static int
+render_failed (FILE *f, const bl_spec_job *sj, const bl_batch_row *row)
+{
+  bl_json w;
+  bl_json_init (&w, f);
+  bl_json_obj (&w, NULL);
+  bl_json_str (&w, "job", sj->name);
+  bl_json_str (&w, "status", "failed");
+  bl_json_str (&w, "error", row->message);
+  bl_json_obj_end (&w);
+  return bl_json_finish (&w) ? BL_EIO : BL_OK;
+}
+
 /* Render result.json (the compare or fit document, or the failure) and residuals.csv (of
    the winner or the single model) of RES (may be NULL) in memory first, then write them into
-   JOBFD: out of memory while rendering leaves neither file.  BL_ENOMEM (E filled) stops the
-   run; BL_ECANCEL: cancelled while rendering, nothing written; else BL_OK, with ROW failed
-   when a file could not be rendered or written. */
+   JOBFD: out of memory while rendering leaves neither file.  residuals.csv is written first
+   and result.json last, so that a job whose files could not all be rendered or written (a
+   full disk) has the failure document as its result.json, or none, never its success
+   document; a residuals.csv beside a result.json that could not be written is removed.
+   BL_ENOMEM (E filled) stops the run; BL_ECANCEL: cancelled while rendering, nothing
+   written; else BL_OK, with ROW failed when a file could not be rendered or written. */
 static int
 job_files (run_ctx *rc, const bl_spec_job *sj, const bl_job_result *res, const bl_terms *terms,
            const bl_terms *offset, const bl_design *design, int jobfd, const char *where,
@@ -348,6 +388,7 @@ job_files (run_ctx *rc, const bl_spec_job *sj, const bl_job_result *res, const b
   const bl_fit *resfit = res ? bl_job_result_model (res) : NULL;
   membuf mb = { NULL, 0, NULL }, mr = { NULL, 0, NULL };
   int have_result = 0, have_resid = 0, st = BL_OK;
+  const int model_ok = row->ok;
   if (mem_open (&mb) != 0) {
     st = bl_fail (e, BL_ENOMEM, where, "out of memory rendering 'result.json'");
     goto done;
@@ -359,16 +400,8 @@ job_files (run_ctx *rc, const bl_spec_job *sj, const bl_job_result *res, const b
       st = bl_report_compare_json (mb.f, cmp, design, &info, e);
     else if (fit)
       st = bl_report_fit_json (mb.f, fit, &info, e);
-    else {
-      bl_json w;
-      bl_json_init (&w, mb.f);
-      bl_json_obj (&w, NULL);
-      bl_json_str (&w, "job", sj->name);
-      bl_json_str (&w, "status", "failed");
-      bl_json_str (&w, "error", row->message);
-      bl_json_obj_end (&w);
-      st = bl_json_finish (&w) ? BL_EIO : BL_OK;
-    }
+    else
+      st = render_failed (mb.f, sj, row);
     st = render_status (&mb, st, where, "result.json", e);
     if (st == BL_ENOMEM)
       goto done;
@@ -398,10 +431,28 @@ job_files (run_ctx *rc, const bl_spec_job *sj, const bl_job_result *res, const b
     st = BL_ECANCEL;
     goto done;
   }
-  if (have_result && write_atomic (jobfd, "result.json", mb.buf, mb.len, where, e) != BL_OK)
+  if (have_resid && write_atomic (jobfd, "residuals.csv", mr.buf, mr.len, where, e) != BL_OK) {
     row_fail (row, e);
-  if (have_resid && write_atomic (jobfd, "residuals.csv", mr.buf, mr.len, where, e) != BL_OK)
-    row_fail (row, e);
+    have_resid = 0;
+  }
+  if (model_ok && !row->ok) {  /* an output failed: result.json says so */
+    mem_free (&mb);
+    if (mem_open (&mb) != 0) {
+      st = bl_fail (e, BL_ENOMEM, where, "out of memory rendering 'result.json'");
+      goto done;
+    }
+    st = render_status (&mb, render_failed (mb.f, sj, row), where, "result.json", e);
+    if (st != BL_OK)
+      goto done;
+    have_result = 1;
+  }
+  if (!have_result || write_atomic (jobfd, "result.json", mb.buf, mb.len, where, e) != BL_OK) {
+    if (have_result)
+      row_fail (row, e);
+    unlinkat (jobfd, "result.json", 0);   /* no earlier run's result stands for this one */
+    if (have_resid)
+      unlinkat (jobfd, "residuals.csv", 0);
+  }
 done:
   mem_free (&mb);
   mem_free (&mr);
@@ -641,6 +692,84 @@ out:
   return st;
 }
 
+/* Add OUTDIR/A[/B] as an output labelled LABEL (NOFOLLOW: the run replaces names inside
+   OUTDIR, never what a link there points to). */
+static int
+add_out (bl_path_set *ps, const char *outdir, const char *a, const char *b, const char *label,
+         bl_err *err)
+{
+  const size_t n = strlen (outdir) + strlen (a) + (b ? strlen (b) : 0) + 3;
+  char *p = bl_malloc (n);
+  int st;
+  if (!p)
+    return bl_fail (err, BL_ENOMEM, "run", "out of memory");
+  snprintf (p, n, "%s/%s%s%s", outdir, a, b ? "/" : "", b ? b : "");
+  st = bl_path_set_add (ps, p, BL_PATH_OUTPUT | BL_PATH_NOFOLLOW, label, err);
+  bl_free (p);
+  return st;
+}
+
+/* Whether a file or folder the run would write (OUTDIR itself, its summaries, each job's
+   folder and files) is one of its inputs (the spec file, each job's data): BL_OK, or
+   BL_ESPEC naming both (bl_path_set_check), or BL_ENOMEM.  Nothing is made or changed. */
+static int
+check_paths (const bl_spec *spec, const char *outdir, const bl_batch_opts *opt, bl_err *err)
+{
+  const char *const label = opt->outdir_label ? opt->outdir_label : "OUTDIR";
+  const char *const sname = opt->spec_path ? opt->spec_path : bl_spec_stem (spec);
+  static const char *const top[] = { "summary.json", "summary.csv", "index.html" };
+  bl_path_set *ps = bl_path_set_new (err);
+  int st = ps ? BL_OK : BL_ENOMEM;
+  if (st == BL_OK)
+    st = bl_path_set_add (ps, outdir, BL_PATH_OUTPUT | BL_PATH_NOFOLLOW, label, err);
+  for (size_t i = 0; st == BL_OK && i < sizeof top / sizeof top[0]; i++)
+    st = add_out (ps, outdir, top[i], NULL, label, err);
+  for (size_t i = 0; st == BL_OK && i < bl_spec_njobs (spec); i++) {
+    const char *const name = bl_spec_get (spec, i)->name;
+    st = add_out (ps, outdir, name, NULL, label, err);
+    if (st == BL_OK)
+      st = add_out (ps, outdir, name, "result.json", label, err);
+    if (st == BL_OK)
+      st = add_out (ps, outdir, name, "residuals.csv", label, err);
+  }
+  if (st == BL_OK && opt->spec_path)
+    st = bl_path_set_add (ps, opt->spec_path, BL_PATH_INPUT, "SPEC", err);
+  for (size_t i = 0; st == BL_OK && i < bl_spec_njobs (spec); i++) {
+    const bl_spec_job *sj = bl_spec_get (spec, i);
+    char lab[BL_SPEC_NAME_MAX + 4200];
+    snprintf (lab, sizeof lab, "the data of job '%s' (%s:%zu)", sj->name, sname, sj->line);
+    st = bl_path_set_add (ps, sj->job.data, BL_PATH_INPUT, lab, err);
+  }
+  if (st == BL_OK)
+    st = bl_path_set_check (ps, err);
+  bl_path_set_free (ps);
+  return st;
+}
+
+/* Whether a file can be made in the folder DIRFD: one is created and removed (named as a
+   temporary of write_atomic, so that one left by a crash is removed by the next run).
+   BL_OK, or BL_EIO naming OUTDIR. */
+static int
+probe_writable (int dirfd, const char *outdir, bl_err *err)
+{
+  char tmp[128];
+  int fd;
+  snprintf (tmp, sizeof tmp, ".index.html.tmp-%ld-100-0", (long) getpid ());
+  fd = openat (dirfd, tmp, O_WRONLY | O_CREAT | O_EXCL | O_NOFOLLOW | O_CLOEXEC, 0644);
+  if (fd < 0 && errno == EEXIST) {
+    unlinkat (dirfd, tmp, 0);
+    fd = openat (dirfd, tmp, O_WRONLY | O_CREAT | O_EXCL | O_NOFOLLOW | O_CLOEXEC, 0644);
+  }
+  if (fd < 0)
+    return bl_fail (err, BL_EIO, outdir, "the output folder is not writable: %s",
+                    strerror (errno));
+  close (fd);
+  if (unlinkat (dirfd, tmp, 0) != 0)
+    return bl_fail (err, BL_EIO, outdir, "the output folder is not writable (a test file "
+                    "could not be removed): %s", strerror (errno));
+  return BL_OK;
+}
+
 int
 bl_batch_run (const bl_spec *spec, const char *outdir, const bl_batch_opts *opt,
               bl_batch_row *rows, bl_err *err)
@@ -655,6 +784,8 @@ bl_batch_run (const bl_spec *spec, const char *outdir, const bl_batch_opts *opt,
   memset (&rc, 0, sizeof rc);
   rc.spec = spec;
   rc.opt = opt;
+  if ((st = check_paths (spec, outdir, opt, err)) != BL_OK)
+    return st;
   if (mkdir (outdir, 0755) != 0 && errno != EEXIST)
     return bl_fail (err, BL_EIO, outdir, "cannot create the output folder: %s",
                     strerror (errno));
@@ -665,6 +796,10 @@ bl_batch_run (const bl_spec *spec, const char *outdir, const bl_batch_opts *opt,
   if (rc.outfd < 0)
     return bl_fail (err, BL_EIO, outdir, "cannot open the output folder: %s",
                     strerror (errno));
+  if ((st = probe_writable (rc.outfd, outdir, err)) != BL_OK) {
+    close (rc.outfd);
+    return st;
+  }
   /* a run killed outright (SIGKILL, a crash) may have left temporaries beside the final
      names; they never hold a final name, and this run removes them (stale_tmp) */
   remove_stale (rc.outfd);

@@ -314,14 +314,21 @@ typedef struct bl_batch_opts {
      itself prints nothing. */
   void (*progress) (void *ctx, size_t done, size_t total, const char *job, double seconds);
   void *progress_ctx;
+  /* The spec file's path (may be NULL), compared with the files the run writes, and the
+     label that names OUTDIR in the message when one of them is an input ("--output";
+     NULL: "OUTDIR"). */
+  const char *spec_path;
+  const char *outdir_label;
 } bl_batch_opts;
 
 BL_API void bl_batch_opts_init (bl_batch_opts *opt);
 
 /* Run every job of SPEC into OUTDIR (created when missing).  ROWS (length njobs) receives the
    summary lines in spec order.  Returns BL_OK when every job ran (some may have failed: see
-   ROWS), BL_EIO when OUTDIR cannot be used (not a folder, a symbolic link, not writable),
-   BL_ECANCEL, BL_ENOMEM.  Out of memory anywhere stops the whole run (no job is marked
+   ROWS), BL_ESPEC before anything is made when a file or folder the run would write is one
+   of its inputs (a job's data, opts.spec_path: bl_path_set_check), BL_EIO when OUTDIR
+   cannot be used (not a folder, a symbolic link, not writable: a temporary file is made and
+   removed before the first job), BL_ECANCEL, BL_ENOMEM.  Out of memory anywhere stops the whole run (no job is marked
    failed for it): ERR->where names the job ("job 'NAME'", or "run" for the summaries), no
    more jobs start, and the summaries are not written; every file already written is
    complete, and a job's result.json and residuals.csv are both written or neither. */
