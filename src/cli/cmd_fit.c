@@ -131,7 +131,11 @@ cmd_fit (int argc, char **argv)
     switch (c) {
     case OPT_JSON: json = 1; break;
     case OPT_SAVE:
-      if (strcmp (optarg, "-") == 0 || optarg[0] == '\0') {
+      if (optarg[0] == '\0') {
+        rc = cli_usage_error ("fit", "--save", "the file name is empty");
+        goto done;
+      }
+      if (strcmp (optarg, "-") == 0) {
         rc = cli_usage_error ("fit", "--save", "the model needs a file name, not '%s'",
                               optarg);
         goto done;

@@ -358,8 +358,8 @@ else
 fi
 mkdir target
 bl fit line.csv --response y --terms x --json -o target
-expect_rc "-o onto a folder exit" 1
-expect_err "-o onto a folder message" "ballast: target: "
+expect_rc "-o onto a folder exit (refused before any work)" 2
+expect_err "-o onto a folder message" "ballast: --output: 'target' is a folder"
 set -- target.tmp*
 if [ -e "$1" ] || [ -n "$(ls -A target)" ]; then
   fail "-o onto a folder leaves nothing behind" "found $* $(ls -A target)"
