@@ -265,8 +265,7 @@ run_model (bl_job_result *r, const bl_job *job, const bl_job_input *in,
 
 /* The likelihood-ratio test of the single model against the smaller model of job->against
    (IN->against, or parsed here), on the same rows.  bl_job_finish has refused a smaller
-   model that is not nested by its terms, so a refusal left for bl_nested_test (a rank not
-   below the larger model's, through aliased columns) comes from the data: BL_EDATA. */
+   model that is not nested by its terms; bl_nested_test's own status is returned as it is. */
 static int
 run_nested (bl_job_result *r, const bl_job *job, const bl_job_input *in,
             const bl_job_run_opts *opt, bl_err *err)
@@ -282,8 +281,6 @@ run_nested (bl_job_result *r, const bl_job *job, const bl_job_input *in,
   bl_job_design_opts (job, in->offset, &dopt);
   st = bl_nested_test (r->fit, in->table, small, &dopt, &fo, &r->nested, err);
   bl_terms_free (own);
-  if (st == BL_ESPEC && err)
-    err->code = st = BL_EDATA;
   if (st == BL_OK)
     r->have_nested = 1;
   return st;
