@@ -137,7 +137,8 @@ check_fit_series (const bl_job_plots *p, const bl_fit *f, unsigned long seed)
    generator of the same seed. */
 START_TEST (job_run_fit_same)
 {
-  static const char *const kv[] = { "family", "gamma", "link", "log", "against", "x", NULL };
+  static const char *const kv[] = { "family", "gamma", "link", "log", "terms", "x, g",
+                                    "against", "x", NULL };
   test_job tj = { 0 };
   bl_job j;
   bl_job_run_opts ro;

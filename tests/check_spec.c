@@ -183,6 +183,38 @@ END_TEST
 
 /* Defaults: copied into each job; a job's keys replace them, categorical replaces, reference
    accumulates; single-model keys in [defaults] make every job a single model. */
+/* A combination the job's run would refuse is refused when the spec is read, at the line
+   that makes it: a second reference level for a column (the defaults' and the job's), the
+   smaller model's syntax (its line) and its nesting (the job's line), and a comparison with
+   keys that change only a coefficient table.  (issue 14) */
+START_TEST (spec_errors_whole_job)
+{
+  static const struct { const char *text, *where, *msg; } cases[] = {
+    { "[defaults]\ndata = d.csv\nreference = site=north\n[job a]\nresponse = y\n"
+      "reference = site=south\n", "mem.spec:6",
+      "two reference levels for one column: 'site=north' and 'site=south'" },
+    { "[defaults]\nagainst = x1,(\n[job a]\ndata = d.csv\nresponse = y\nterms = x1, x2\n",
+      "mem.spec:2", NULL },
+    { "[job a]\ndata = d.csv\nresponse = y\nterms = x1\nagainst = x2\n", "mem.spec:1",
+      "the smaller model is not nested in the larger: its term 'x2' is not one of --terms" },
+    { "[defaults]\nlevel = 0.9\n[job a]\ndata = d.csv\nresponse = y\n", "mem.spec:3",
+      "a comparison reports no coefficients: 'level' applies to one model" },
+    { "[job a]\ndata = d.csv\nresponse = y\ncandidates = ls\nse = hc1\n", "mem.spec:1",
+      "a comparison reports no coefficients: 'se' applies to one model" }
+  };
+  for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
+    bl_err err = { 0 };
+    bl_spec *sp = bl_spec_read_mem (cases[i].text, strlen (cases[i].text), "mem.spec", NULL,
+                                    &err);
+    ck_assert_msg (sp == NULL && err.code == BL_ESPEC, "case %zu: accepted", i);
+    ck_assert_msg (strcmp (err.where, cases[i].where) == 0, "case %zu: where '%s'", i,
+                   err.where);
+    ck_assert_msg (!cases[i].msg || strcmp (err.msg, cases[i].msg) == 0, "case %zu: '%s'", i,
+                   err.msg);
+  }
+}
+END_TEST
+
 START_TEST (spec_basics_defaults_inheritance)
 {
   static const char text[] =
@@ -197,7 +229,7 @@ START_TEST (spec_basics_defaults_inheritance)
     "data = other.csv\n"
     "response = parts_cost\n"
     "categorical = duty, site\n"
-    "reference = duty=light, site=mill-lane\n"
+    "reference = duty=light, zone=east\n"
     "folds = 0\n";
   bl_spec *s = spec_ok ("defaults", text, "spec-dir");
   const bl_spec_job *a = job_at (s, 0), *b = job_at (s, 1);
@@ -214,7 +246,7 @@ START_TEST (spec_basics_defaults_inheritance)
   ck_assert_msg (b->job.nref == 3, "defaults: override nref %zu", b->job.nref);
   ck_assert_str_eq (b->job.reference[0], "site=north-quay");
   ck_assert_str_eq (b->job.reference[1], "duty=light");
-  ck_assert_str_eq (b->job.reference[2], "site=mill-lane");
+  ck_assert_str_eq (b->job.reference[2], "zone=east");
   ck_assert_msg (b->job.folds == 0, "defaults: override folds %zu", b->job.folds);
   ck_assert_msg (a->single == 0 && b->single == 0, "defaults: single");
   bl_spec_free (s);
@@ -639,6 +671,7 @@ spec_suite (void)
   tcase_add_test (bas, spec_basics_quotes_and_comments);
   tcase_add_test (bas, spec_basics_crlf_bom_utf8);
   tcase_add_test (bas, spec_basics_defaults_inheritance);
+  tcase_add_test (bas, spec_errors_whole_job);
   tcase_add_test (bas, spec_basics_paths);
   tcase_add_test (bas, spec_basics_demo_file);
   tcase_add_test (bas, spec_basics_stem);

@@ -28,7 +28,9 @@ static const char usage_head[] =
   "\n";
 static const char usage_tail[] =
   "\n"
-  "(--method, --family, --link, --variance and --transform are chosen by the candidates.)\n"
+  "(--method, --family, --link, --variance, --transform, --shift, --dispersion, --theta and\n"
+  "--power are chosen by the candidates; --against, --level, --se and --cluster apply to\n"
+  "one model: 'ballast fit'.)\n"
   "\n"
   "output:\n"
   "  --json                  one JSON document instead of the text report\n"
@@ -119,11 +121,14 @@ cmd_compare (int argc, char **argv)
   cli_model_long_opts (long_opts, own_opts);
   while ((c = getopt_long (argc, argv, ":o:qh", long_opts, &li)) != -1) {
     int r;
-    if (cli_model_option_has (c, BL_OPTION_CANDIDATE)) {
+    if (cli_model_option_has (c, BL_OPTION_MODEL)
+        || cli_model_option_has (c, BL_OPTION_ESTIMATES)) {
       char where[64];
       snprintf (where, sizeof where, "--%s", long_opts[li].name);
-      rc = cli_usage_error ("compare", where, "compare fits its candidates' own "
-                            "models: choose them with --candidates");
+      rc = cli_usage_error ("compare", where, "%s", cli_model_option_has (c, BL_OPTION_MODEL)
+                            ? "compare fits its candidates' own models: choose them with "
+                            "--candidates" : "compare reports no coefficients: this option "
+                            "applies to 'ballast fit'");
       goto done;
     }
     r = cli_model_option (&m, c, optarg, "compare");

@@ -20,6 +20,9 @@ static const char usage_head[] =
   "\n";
 static const char usage_tail[] =
   "\n"
+  "(--level, --se, --cluster and --dispersion change only the coefficient table, which\n"
+  "diagnose does not report: they are refused; see 'ballast fit'.)\n"
+  "\n"
   "output:\n"
   "  --residuals FILE.csv    also write the residual table (response, Pearson, deviance,\n"
   "                          working and quantile residuals, leverage, Cook's distance)\n"
@@ -114,7 +117,8 @@ diagnose_report (const cli_model *m, unsigned long seed, const char *by, const c
     goto done;
   {
     const bl_report_info info = { m->job.data, m->terms, m->offset, m->job.weights,
-                                  bl_version (), NULL, bl_job_result_by (res) };
+                                  bl_version (), bl_job_result_nested (res),
+                                  bl_job_result_by (res) };
     st = json ? bl_report_diag_json (out.f, fit, bl_job_result_diag (res), &info, &err)
               : bl_report_diag_text (out.f, fit, bl_job_result_diag (res), &info, &err);
   }
@@ -142,7 +146,15 @@ cmd_diagnose (int argc, char **argv)
   struct option long_opts[CLI_LONG_OPTS_MAX];
   cli_model_long_opts (long_opts, own_opts);
   while ((c = getopt_long (argc, argv, ":o:qh", long_opts, NULL)) != -1) {
-    const int r = cli_model_option (&m, c, optarg, "diagnose");
+    int r;
+    if (cli_model_option_has (c, BL_OPTION_ESTIMATES)) {
+      char where[64];
+      snprintf (where, sizeof where, "--%s", bl_job_key_name ((size_t) (c - CLI_OPT_BASE)));
+      rc = cli_usage_error ("diagnose", where, "diagnose reports no coefficients: this "
+                            "option applies to 'ballast fit'");
+      goto done;
+    }
+    r = cli_model_option (&m, c, optarg, "diagnose");
     if (r > 0) {
       rc = r;
       goto done;

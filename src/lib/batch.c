@@ -395,7 +395,7 @@ job_files (run_ctx *rc, const bl_spec_job *sj, const bl_job_result *res, const b
   }
   {
     const bl_report_info info = { sj->job.data, terms, offset, sj->job.weights, bl_version (),
-                                  NULL, NULL };
+                                  res ? bl_job_result_nested (res) : NULL, NULL };
     if (cmp)
       st = bl_report_compare_json (mb.f, cmp, design, &info, e);
     else if (fit)

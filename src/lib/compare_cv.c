@@ -126,7 +126,9 @@ done:
 }
 
 /* Cross-validation of every converged candidate, with folds from one seeded permutation;
-   c->folds = 0 when there are too few rows. */
+   c->folds = 0 when none are asked for (opt->folds 0).  More folds than rows is BL_EDATA
+   naming both numbers (it used to run no fold at all, silently); bl_job_run refuses it
+   before the candidates are fitted, this is the library's own guard. */
 int
 bl_compare_cv (bl_compare *c, const bl_design *d, const bl_compare_opts *opt, bl_err *err)
 {
@@ -134,7 +136,10 @@ bl_compare_cv (bl_compare *c, const bl_design *d, const bl_compare_opts *opt, bl
   gsl_rng *rng = NULL;
   size_t *fold = NULL, *perm = NULL;
   int st = BL_OK;
-  if (!(opt->folds >= 2 && n >= opt->folds)) {
+  if (opt->folds > n)
+    return bl_fail (err, BL_EDATA, "--folds", "%zu folds need at least %zu rows; the model "
+                    "has %zu", opt->folds, opt->folds, n);
+  if (opt->folds < 2) {
     c->folds = 0;
     goto done;
   }

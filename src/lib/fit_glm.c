@@ -48,10 +48,12 @@ ones_fill (const void *ctx, size_t row0, size_t nr, double *out, size_t ld)
 }
 
 /* y inside the family's support on every row; count the offenders and name the first. */
-static int
-check_support (const bl_design *d, const double *y, const bl_family *fam, bl_err *err)
+int
+bl_fit_check_support (const bl_design *d, const double *y, const bl_family *fam, bl_err *err)
 {
   const size_t n = bl_design_n (d);
+  if (!y)
+    y = bl_design_y (d);
   size_t bad = 0, first = 0;
   for (size_t i = 0; i < n; i++)
     if (!bl_family_y_ok (fam, y[i]) && bad++ == 0)
@@ -563,7 +565,7 @@ core_checks (const bl_design *d, const double *y, const bl_fit_opts *opt, const 
   if (!(opt->level > 0.0 && opt->level < 1.0))
     return bl_fail (err, BL_ESPEC, "--level", "the level must lie strictly between 0 and 1, "
                     "not %g", opt->level);
-  if (check_support (d, y, fam, err) != BL_OK
+  if (bl_fit_check_support (d, y, fam, err) != BL_OK
       || check_mean_boundary (d, y, fam, lnk, err) != BL_OK
       || check_offset_range (d, lnk, err) != BL_OK)
     return err ? err->code : BL_EDATA;

@@ -129,7 +129,10 @@ bl_fit_negbin_run (const bl_design *d, const bl_fit_opts *opt, bl_err *err)
     }
     return f;
   }
-  /* start: the poisson fit and the moment estimate theta = sum mu^2 / sum((y - mu)^2 - mu) */
+  /* start: the poisson fit and the moment estimate theta = sum mu^2 / sum((y - mu)^2 - mu);
+     the support is checked for the family asked for first, so that its message names it */
+  if (bl_fit_check_support (d, NULL, &bl_family_negbin, err) != BL_OK)
+    return NULL;
   o.fam = &bl_family_poisson;
   f = bl_fit_core (d, NULL, NULL, &o, 1, err);
   if (!f)

@@ -124,7 +124,45 @@ bl_job_set (bl_job *j, const char *key, const char *value, const char *where, bl
     return bl_fail (err, BL_ESPEC, where, "'%s' needs a value", key);
   if (o->flags & BL_OPTION_MODEL)
     j->model_keys = 1;
+  j->given[bl_option_index (o)] = 1;
   return o->set (j, o, value, where, err);
+}
+
+/* The smaller model of against: its syntax, and, when the job's terms parse (their own
+   errors come from bl_job_parse_terms), each of its terms one of the job's terms (by
+   canonical text) and fewer of them.  That is the nesting bl_nested_test asks of the
+   columns, found before any data are read. */
+static int
+check_against (const bl_job *j, int single, const char *where_spec, bl_err *err)
+{
+  const char *const wa = where_spec ? where_spec : "--against";
+  bl_terms *small, *big = NULL;
+  int st = BL_OK;
+  if (!single)
+    return bl_fail (err, BL_ESPEC, where_spec ? where_spec : "--against", "against tests "
+                    "one model: a comparison does not take it");
+  if (!(small = bl_terms_parse (j->against, wa, err)))
+    return err ? err->code : BL_ESPEC;
+  if (j->terms && !(big = bl_terms_parse (j->terms, "--terms", NULL)))
+    goto done;                   /* reported by bl_job_parse_terms */
+  for (size_t i = 0; i < bl_terms_count (small); i++) {
+    const char *const lab = bl_terms_get (small, i)->label;
+    int found = 0;
+    for (size_t k = 0; big && k < bl_terms_count (big) && !found; k++)
+      found = strcmp (bl_terms_get (big, k)->label, lab) == 0;
+    if (!found) {
+      st = bl_fail (err, BL_ESPEC, wa, "the smaller model is not nested in the larger: its "
+                    "term '%s' is not one of --terms", lab);
+      goto done;
+    }
+  }
+  if (!big || bl_terms_count (small) >= bl_terms_count (big))
+    st = bl_fail (err, BL_ESPEC, wa, "the smaller model has every term of the larger: "
+                  "nothing to test");
+done:
+  bl_terms_free (small);
+  bl_terms_free (big);
+  return st;
 }
 
 int
@@ -161,6 +199,18 @@ bl_job_finish (bl_job *j, int single, const char *where_spec, bl_err *err)
     return bl_fail (err, BL_ESPEC, W ("--power"), "power applies to --family tweedie only");
   if (fo->shift_given && fo->transform == BL_TRANSFORM_NONE)
     return bl_fail (err, BL_ESPEC, W ("--shift"), "a shift applies only with --transform");
+  if (!single)
+    for (size_t i = 0; i < bl_option_count (); i++) {
+      const bl_option *const o = bl_option_at (i);
+      if (j->given[i] && (o->flags & BL_OPTION_ESTIMATES))
+        return bl_fail (err, BL_ESPEC, W ("--candidates"), "a comparison reports no "
+                        "coefficients: '%s' applies to one model", o->key);
+    }
+  if (j->against) {
+    const int st = check_against (j, single, where_spec, err);
+    if (st != BL_OK)
+      return st;
+  }
   if (fo->transform != BL_TRANSFORM_NONE && !j->method_given)
     fo->method = BL_METHOD_OLS;
   if (fo->method == BL_METHOD_OLS && fo->fam == NULL)

@@ -25,6 +25,9 @@ extern "C" {
 #endif
 
 #define BL_JOB_MAX_LIST 256
+/* The table holds fewer keys than this (spec.c sizes its per-section record by it, the CLI
+   its getopt array and codes, bl_job its record of the keys given). */
+#define BL_OPTION_MAX 64
 
 typedef struct bl_job {
   char *data, *response, *terms, *weights, *offset, *candidates, *varcol, *against, *cluster;
@@ -41,6 +44,8 @@ typedef struct bl_job {
   unsigned long seed;
   int seed_given;
   char fam_par_key;        /* 't' after theta, 'p' after power, else 0 */
+  unsigned char given[BL_OPTION_MAX];  /* given[I]: key I of the option table was set (so
+                                          bl_job_finish can name a key that does not apply) */
 } bl_job;
 
 /* Defaults: intercept on, the fit and table defaults, BL_COMPARE_FOLDS, BL_COMPARE_SEED. */
@@ -53,9 +58,6 @@ BL_API int bl_job_copy (bl_job *dst, const bl_job *src, bl_err *err);
 
 /* ---- The job's keys, one table for the command line, spec files and --help (options.c).
    A front end lists them by index I < bl_job_key_count () in --help order. */
-/* The table holds fewer keys than this (spec.c sizes its per-section record by it, the CLI
-   its getopt array and codes). */
-#define BL_OPTION_MAX 64
 /* Where a key is taken and what it means to the commands (bit set). */
 enum {
   BL_OPTION_CLI = 1u << 0,         /* a shared option of fit, diagnose and compare (--KEY); a
@@ -65,7 +67,10 @@ enum {
   BL_OPTION_MODEL = 1u << 1,       /* a single-model key: a spec job that sets one fits one
                                       model, and it cannot be combined with candidates */
   BL_OPTION_METHOD = 1u << 2,      /* chooses the method: diagnose fits OLS without one */
-  BL_OPTION_CANDIDATE = 1u << 3    /* compare's candidates choose it: compare refuses it */
+  BL_OPTION_CANDIDATE = 1u << 3,   /* compare's candidates choose it: compare refuses it */
+  BL_OPTION_ESTIMATES = 1u << 4    /* it changes only the coefficient table (standard errors,
+                                      intervals): diagnose and compare, which report none,
+                                      refuse it, and so does a spec job that is a comparison */
 };
 
 BL_API size_t bl_job_key_count (void);
@@ -94,8 +99,12 @@ BL_API int bl_job_set (bl_job *j, const char *key, const char *value, const char
 
 /* Check the combination after every key is set, and resolve implied choices (a variance
    function implies wls, a transform ols).  SINGLE: the job fits one model (fit, diagnose)
-   rather than a comparison.  BL_ESPEC naming the option ("--variance") or WHERE_SPEC when
-   not NULL (a spec file's job line). */
+   rather than a comparison; a comparison refuses the BL_OPTION_ESTIMATES keys and against.
+   The smaller model of against is parsed (its syntax errors name "--against" or WHERE_SPEC)
+   and, when the terms parse, each of its terms must be one of the job's terms and it must
+   have fewer of them (a smaller model nested in the larger), so that a test that cannot be
+   made is refused before any work.  BL_ESPEC naming the option ("--variance") or WHERE_SPEC
+   when not NULL (a spec file's job line). */
 BL_API int bl_job_finish (bl_job *j, int single, const char *where_spec, bl_err *err);
 
 /* Parse the terms and the offset (syntax only).  *TERMS and *OFFSET are NULL when not given;
@@ -129,8 +138,11 @@ BL_API int bl_job_load (const bl_job *j, const bl_terms *terms, const bl_terms *
    ERR->where = "FILE:LINE" (the line of the offending header or key) -- unknown keys, a key
    given twice in one section, a key outside any section, malformed lines, duplicate jobs,
    bad job names, bad values (through bl_job_set), bad term syntax (bl_job_parse_terms), a
-   job without data or response, and a job with both candidates and single-model keys
-   (bl_job_finish).  A missing data file is not a spec error: it is found when the job runs. */
+   job without data or response, and every combination bl_job_finish refuses (a job with
+   both candidates and single-model keys, a comparison with level, se, cluster or against,
+   a smaller model not nested in the job's terms, and the rest), on the job's merged settings
+   ([defaults] and its own keys).  A reference level given twice for one column, with
+   different levels, is refused at the line of the second (in [defaults] or the job).  A missing data file is not a spec error: it is found when the job runs. */
 
 #define BL_SPEC_NAME_MAX 64          /* job names: at most this many bytes */
 #define BL_SPEC_MAX_JOBS 10000
@@ -175,8 +187,9 @@ BL_API const char *bl_spec_stem (const bl_spec *s);
 
 /* What a job runs. */
 typedef enum bl_job_task {
-  BL_JOB_FIT,        /* one model; with in.against, the likelihood-ratio test against it */
-  BL_JOB_DIAGNOSE,   /* one model and its checks (bl_diag_new); with opts.by, Brown-Forsythe */
+  BL_JOB_FIT,        /* one model; with job->against, the likelihood-ratio test against it */
+  BL_JOB_DIAGNOSE,   /* one model and its checks (bl_diag_new); with opts.by, Brown-Forsythe;
+                        with job->against, the likelihood-ratio test as for BL_JOB_FIT */
   BL_JOB_COMPARE     /* the job's candidates (job->candidates, job->folds) on one row set */
 } bl_job_task;
 
@@ -200,7 +213,8 @@ typedef struct bl_job_input {
   const bl_table *table;
   const bl_design *design;
   const bl_terms *offset;          /* the parsed offset, or NULL */
-  const bl_terms *against;         /* fit: the smaller model's parsed terms, or NULL */
+  const bl_terms *against;         /* fit, diagnose: the smaller model's parsed terms; NULL:
+                                      bl_job_run parses JOB->against itself when it is set */
 } bl_job_input;
 
 /* A residual panel: Pearson residuals against fitted values of one fit. */

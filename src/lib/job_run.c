@@ -238,6 +238,11 @@ run_model (bl_job_result *r, const bl_job *job, const bl_job_input *in,
   if (opt->task == BL_JOB_COMPARE) {
     bl_compare_opts co;
     long w;
+    /* More folds than rows cannot be made: refused once the rows are known, before any
+       candidate is fitted (the folds' own guard is in compare_cv.c). */
+    if (job->folds > bl_design_n (in->design))
+      return bl_fail (err, BL_EDATA, "--folds", "%zu folds need at least %zu rows; the model "
+                      "has %zu", job->folds, job->folds, bl_design_n (in->design));
     bl_compare_opts_init (&co);
     co.candidates = job->candidates;
     co.folds = job->folds;
@@ -258,23 +263,39 @@ run_model (bl_job_result *r, const bl_job *job, const bl_job_input *in,
   return BL_OK;
 }
 
-/* The checks a single model asks for: the nested test (fit), the diagnostics and the spread
-   by group (diagnose). */
+/* The likelihood-ratio test of the single model against the smaller model of job->against
+   (IN->against, or parsed here), on the same rows.  bl_job_finish has refused a smaller
+   model that is not nested by its terms; bl_nested_test's own status is returned as it is. */
+static int
+run_nested (bl_job_result *r, const bl_job *job, const bl_job_input *in,
+            const bl_job_run_opts *opt, bl_err *err)
+{
+  bl_design_opts dopt;
+  bl_fit_opts fo = job->fit;
+  bl_terms *own = NULL;
+  const bl_terms *small = in->against;
+  int st;
+  if (!small && !(small = own = bl_terms_parse (job->against, "--against", err)))
+    return err ? err->code : BL_ESPEC;
+  fo.irls.cancel = opt->cancel;
+  bl_job_design_opts (job, in->offset, &dopt);
+  st = bl_nested_test (r->fit, in->table, small, &dopt, &fo, &r->nested, err);
+  bl_terms_free (own);
+  if (st == BL_OK)
+    r->have_nested = 1;
+  return st;
+}
+
+/* The checks a single model asks for: the nested test (fit, diagnose), the diagnostics and
+   the spread by group (diagnose). */
 static int
 run_checks (bl_job_result *r, const bl_job *job, const bl_job_input *in,
             const bl_job_run_opts *opt, bl_err *err)
 {
   int st;
-  if (opt->task == BL_JOB_FIT && in->against && r->model) {
-    bl_design_opts dopt;
-    bl_fit_opts fo = job->fit;
-    fo.irls.cancel = opt->cancel;
-    bl_job_design_opts (job, in->offset, &dopt);
-    if ((st = bl_nested_test (r->fit, in->table, in->against, &dopt, &fo, &r->nested, err))
-        != BL_OK)
-      return st;
-    r->have_nested = 1;
-  }
+  if (opt->task != BL_JOB_COMPARE && (in->against || job->against) && r->model
+      && (st = run_nested (r, job, in, opt, err)) != BL_OK)
+    return st;
   if (opt->task == BL_JOB_DIAGNOSE) {
     bl_diag_opts dgo;
     bl_diag_opts_init (&dgo);

@@ -189,10 +189,11 @@ static int
 set_family (bl_job *j, const bl_option *o, const char *v, const char *where, bl_err *err)
 {
   (void) o;
-  /* The list is not built from the family table (bl_family_names): it names four of the
-     six families, and the message must stay as it is until issue 14 corrects it. */
-  if (!(j->fit.fam = bl_family_find (v)))
-    BAD ("unknown family '%s' (expected gaussian, poisson, gamma or inverse-gaussian)", v);
+  if (!(j->fit.fam = bl_family_find (v))) {
+    char list[512];
+    bl_family_names (list, sizeof list, ", ");   /* every family of the table */
+    BAD ("unknown family '%s' (expected %s)", v, list);
+  }
   return BL_OK;
 }
 
@@ -448,23 +449,49 @@ set_categorical (bl_job *j, const bl_option *o, const char *v, const char *where
   return BL_OK;
 }
 
-/* A comma list of COL=LEVEL entries, added to the previous ones. */
+/* Whether reference entries A and B name the same column: their text up to the first '='
+   is the same (design.c takes the first prefix ending at an '=' that is a column, and two
+   entries with the same first prefix name the same column, or fail there alike). */
+static int
+same_ref_column (const char *a, const char *b)
+{
+  const size_t la = (size_t) (strchr (a, '=') - a), lb = (size_t) (strchr (b, '=') - b);
+  return la == lb && strncmp (a, b, la) == 0;
+}
+
+/* A comma list of COL=LEVEL entries, added to the previous ones.  A column given two
+   different levels (here, or here and before: the defaults of a spec) is refused now, at
+   the option or line that gives the second, rather than when the design is built. */
 static int
 set_reference (bl_job *j, const bl_option *o, const char *v, const char *where, bl_err *err)
 {
   const size_t n0 = j->nref;
   const int r = split_into (v, j->reference, &j->nref);
   int ok = r == 0;
+  size_t clash = 0, first = 0;
   (void) o;
   for (size_t i = n0; ok && i < j->nref; i++)
-    ok = strchr (j->reference[i], '=') != NULL;
-  if (!ok) {
+    ok = strchr (j->reference[i], '=') != NULL && j->reference[i][0] != '=';
+  for (size_t i = n0; ok && !clash && i < j->nref; i++)
+    for (size_t k = 0; k < i && !clash; k++)
+      if (same_ref_column (j->reference[k], j->reference[i])
+          && strcmp (j->reference[k], j->reference[i]) != 0) {
+        clash = i + 1;
+        first = k;
+      }
+  if (!ok || clash) {
+    int st;
+    if (clash)
+      st = bl_fail (err, BL_ESPEC, where, "two reference levels for one column: '%s' and "
+                    "'%s'", j->reference[first], j->reference[clash - 1]);
+    else if (r == -2)
+      st = bl_fail (err, BL_ENOMEM, where, "out of memory");
+    else
+      st = bl_fail (err, BL_ESPEC, where, "expected COL=LEVEL, got '%s'", v);
     for (size_t i = n0; i < j->nref; i++)
       bl_free (j->reference[i]);
     j->nref = n0;
-    if (r == -2)
-      NOMEM ();
-    BAD ("expected COL=LEVEL, got '%s'", v);
+    return st;
   }
   return BL_OK;
 }
@@ -507,6 +534,7 @@ set_candidates (bl_job *j, const bl_option *o, const char *v, const char *where,
 #define CAND BL_OPTION_CANDIDATE
 #define VALUE BL_OPTION_VALUE
 #define FLAG BL_OPTION_FLAG
+#define EST BL_OPTION_ESTIMATES
 
 /* In the order of --help.  The help texts are printed as they stand, after "  --KEY ARG"
    padded to column 26 (cli/model_opts.c). */
@@ -554,18 +582,19 @@ static const bl_option table[] = {
   { "reference", VALUE, CLI, set_reference, 0, "model", "COL=LEVEL",
     "reference level of a categorical column (repeatable);\n"
     "default: the first level in byte order" },
-  { "dispersion", VALUE, CLI | MODEL | CAND, set_dispersion, 0, "model", "KIND",
+  { "dispersion", VALUE, CLI | MODEL | CAND | EST, set_dispersion, 0, "model", "KIND",
     "model (default) or pearson (poisson: scale the standard\n"
     "errors by the Pearson estimate)" },
-  { "level", VALUE, CLI, set_level, 0, "model", "X",
+  { "level", VALUE, CLI | EST, set_level, 0, "model", "X",
     "confidence level of the intervals (default 0.95)" },
-  { "against", VALUE, CLI, set_string, F (against), "model", "TERMS",
-    "fit: test against the smaller model with these terms\n"
+  { "against", VALUE, CLI | MODEL, set_string, F (against), "model", "TERMS",
+    "fit, diagnose: test against the smaller model with these\n"
+    "terms, nested in --terms\n"
     "(likelihood ratio: chi-square, or F when phi is estimated)" },
-  { "se", VALUE, CLI, set_se, 0, "model", "KIND",
+  { "se", VALUE, CLI | EST, set_se, 0, "model", "KIND",
     "standard errors: model (default), hc0, hc1, hc2, hc3\n"
     "(heteroscedasticity-consistent sandwich), cluster" },
-  { "cluster", VALUE, CLI, set_string, F (cluster), "model", "COL",
+  { "cluster", VALUE, CLI | EST, set_string, F (cluster), "model", "COL",
     "with --se cluster: the column naming each row's cluster" },
   { "delimiter", VALUE, CLI, set_delimiter, 0, "input", "C",
     "field delimiter (default ',', or tab for .tsv names)" },

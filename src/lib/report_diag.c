@@ -69,6 +69,20 @@ bl_report_diag_json (FILE *out, const bl_fit *fit, const bl_diag *dg,
     bl_json_str (&w, "why_null", r->power.why);
   bl_json_obj_end (&w);
   bl_json_str (&w, "suggested_family", r->power.suggested);
+  if (info->against) {            /* the nested test (--against), as fit reports it */
+    const bl_nested *a = info->against;
+    bl_json_obj (&w, "against");
+    bl_json_str (&w, "terms", a->terms);
+    bl_json_num (&w, "stat", a->stat);
+    bl_json_size (&w, "dof", a->dof);
+    if (a->dof2)
+      bl_json_size (&w, "dof2", a->dof2);
+    bl_json_num (&w, "p", a->p);
+    bl_json_str (&w, "form", a->form);
+    bl_json_num (&w, "deviance_small", a->deviance_small);
+    bl_json_num (&w, "deviance_big", a->deviance_big);
+    bl_json_obj_end (&w);
+  }
   if (info->by) {
     const bl_bf *b = info->by;
     bl_json_obj (&w, "by");
@@ -170,6 +184,15 @@ bl_report_diag_text (FILE *o, const bl_fit *fit, const bl_diag *dg,
     for (size_t g = 0; g < b->ngroups; g++)
       fprintf (o, "    %-20.20s %8zu %14.5g %16.5g\n", b->groups[g].level, b->groups[g].n,
                b->groups[g].median, b->groups[g].spread);
+  }
+  if (info->against) {            /* the nested test (--against), as fit reports it */
+    const bl_nested *a = info->against;
+    fprintf (o, "\n  Against the smaller model (%s)\n", a->terms[0] ? a->terms : "intercept");
+    fprintf (o, "    deviance %.6g there, %.6g here: ", a->deviance_small, a->deviance_big);
+    if (a->dof2)
+      fprintf (o, "F = %.4g on %zu and %zu dof, p %.4g\n", a->stat, a->dof, a->dof2, a->p);
+    else
+      fprintf (o, "chi2 = %.4g on %zu dof, p %.4g\n", a->stat, a->dof, a->p);
   }
   fputs ("\n  How the variance grows with the mean\n", o);
   if (r->power.done)

@@ -37,7 +37,7 @@ typedef struct seen_keys {
 
 /* Where a section set terms and offset (0: not in this section). */
 typedef struct term_lines {
-  size_t terms, offset;
+  size_t terms, offset, against;
 } term_lines;
 
 typedef struct parser {
@@ -231,6 +231,7 @@ check_job (parser *p)
   bl_terms *terms, *offset;
   const size_t tl = p->job_lines.terms ? p->job_lines.terms : p->def_lines.terms;
   const size_t ol = p->job_lines.offset ? p->job_lines.offset : p->def_lines.offset;
+  const size_t al = p->job_lines.against ? p->job_lines.against : p->def_lines.against;
 
   if (!j->data)
     return fail (p, sj->line, "job '%s' has no data", sj->name);
@@ -239,6 +240,15 @@ check_job (parser *p)
   /* A job with candidates and single-model keys is refused, so it is finished as a
      comparison then (single = 0), which is the case bl_job_finish checks. */
   sj->single = j->model_keys != 0;
+  /* The smaller model's syntax names its own line (bl_job_finish then checks that it is
+     nested in the terms, naming the job's line, as for any other combination). */
+  if (j->against) {
+    bl_terms *small;
+    where_of (p, al, where, sizeof where);
+    if (!(small = bl_terms_parse (j->against, where, &p->err)))
+      return p->err.code;
+    bl_terms_free (small);
+  }
   where_of (p, sj->line, where, sizeof where);
   if (bl_job_finish (j, sj->single && !j->candidates, where, &p->err) != BL_OK)
     return p->err.code;
@@ -360,7 +370,7 @@ header (parser *p, char *line, size_t len, size_t lineno)
     if (bl_job_copy (&sj->job, &p->defaults, &p->err) != BL_OK)
       return nomem (p);
   }
-  p->job_lines.terms = p->job_lines.offset = 0;
+  p->job_lines.terms = p->job_lines.offset = p->job_lines.against = 0;
   p->section = 2;
   return BL_OK;
 }
@@ -438,6 +448,8 @@ key_line (parser *p, char *line, size_t lineno)
       tl->terms = lineno;
     else if (strcmp (k, "offset") == 0)
       tl->offset = lineno;
+    else if (strcmp (k, "against") == 0)
+      tl->against = lineno;
   }
   return BL_OK;
 }

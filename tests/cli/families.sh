@@ -88,13 +88,14 @@ expect_err "--against bad syntax hint" "$usage_hint"
 
 bl fit "$nb" --response y --terms x1 --family poisson --against x2
 expect_rc "--against not nested exit" 2
+# refused before any work, by the terms (issue 14)
 expect_err "--against not nested message" "ballast: --against: the smaller model is not \
-nested in the larger: its column 'x2' is not one of the larger model's"
+nested in the larger: its term 'x2' is not one of --terms"
 
 bl fit "$nb" --response y --terms x1,x2 --family poisson --against x2,x1
 expect_rc "--against same model exit" 2
 expect_err "--against same model message" \
-  "ballast: --against: the smaller model's rank (3) is not below the larger model's (3)"
+  "ballast: --against: the smaller model has every term of the larger: nothing to test"
 
 # ---------------------------------------------------------------- negative binomial
 # theta and its standard error against the SciPy maximization (tests/reference/nb_mle.txt,
