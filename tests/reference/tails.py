@@ -17,7 +17,7 @@ against SciPy's logsf / logcdf wherever SciPy's double result is finite and not 
   poisson   P(Y <= k) = Q(k + 1, mu)                                       mpmath.gammainc
   negative binomial  P(Y <= k) = I_p(theta, k + 1), p = theta / (theta + mu) mpmath.betainc
 
-p-values ("pvalue DIST x d1 d2 value", the natural log of the upper tail):
+p-values ("pvalue DIST x d1 d2 0.0 0.0 value", the natural log of the upper tail):
   chisq     log P(X > x) on d1 dof = log Q(d1/2, x/2)                        mpmath.gammainc
   f         log P(F > x) on (d1, d2) = log I_w(d2/2, d1/2), w = d2/(d2 + d1 x) mpmath.betainc
   t2        log P(|T| > x) on d1 dof = log I_w(d1/2, 1/2), w = d1/(d1 + x^2)   mpmath.betainc
@@ -235,17 +235,17 @@ def main():
 
     for x, d in ((3.84, 1), (2000.0, 1), (900.0, 7), (30000.0, 40)):
         print(f"pvalue chisq {x!r} {float(d)!r} 0.0 "
-              f"{float(mp.log(mp.gammainc(mp.mpf(d) / 2, mp.mpf(x) / 2, mp.inf, regularized=True)))!r}")
+              f"0.0 0.0 {float(mp.log(mp.gammainc(mp.mpf(d) / 2, mp.mpf(x) / 2, mp.inf, regularized=True)))!r}")
     for x, d1, d2 in ((4.1, 3, 20), (5000.0, 2, 100), (1e6, 4, 30)):
         w = mp.mpf(d2) / (d2 + d1 * mp.mpf(x))
         print(f"pvalue f {x!r} {float(d1)!r} {float(d2)!r} "
-              f"{float(mp.log(mp.betainc(mp.mpf(d2) / 2, mp.mpf(d1) / 2, 0, w, regularized=True)))!r}")
+              f"0.0 0.0 {float(mp.log(mp.betainc(mp.mpf(d2) / 2, mp.mpf(d1) / 2, 0, w, regularized=True)))!r}")
     for x, d in ((2.1, 12), (45.0, 30), (300.0, 1000)):
         w = mp.mpf(d) / (d + mp.mpf(x) ** 2)
         print(f"pvalue t2 {x!r} {float(d)!r} 0.0 "
-              f"{float(mp.log(mp.betainc(mp.mpf(d) / 2, mp.mpf(1) / 2, 0, w, regularized=True)))!r}")
+              f"0.0 0.0 {float(mp.log(mp.betainc(mp.mpf(d) / 2, mp.mpf(1) / 2, 0, w, regularized=True)))!r}")
     for x in (1.96, 9.0, 38.5, 45.0, 100.0):
-        print(f"pvalue norm2 {x!r} 0.0 0.0 {float(mp.log(mp.erfc(mp.mpf(x) / mp.sqrt(2))))!r}")
+        print(f"pvalue norm2 {x!r} 0.0 0.0 0.0 0.0 {float(mp.log(mp.erfc(mp.mpf(x) / mp.sqrt(2))))!r}")
 
 
 if __name__ == "__main__":
