@@ -13,10 +13,12 @@ test_json (bl_json *w, const char *key, const bl_diag_test *t)
     bl_json_num (w, "stat", t->stat);
     bl_json_size (w, "dof", t->dof);
     bl_json_num (w, "p", t->p);
+    bl_json_num (w, "log10_p", t->log10_p);
   } else {
     bl_json_null (w, "stat");
     bl_json_null (w, "dof");
     bl_json_null (w, "p");
+    bl_json_null (w, "log10_p");
     bl_json_str (w, "skipped", t->why);
   }
   bl_json_obj_end (w);
@@ -78,6 +80,7 @@ bl_report_diag_json (FILE *out, const bl_fit *fit, const bl_diag *dg,
     bl_json_size (&w, "dof", b->dof);
     bl_json_size (&w, "dof2", b->dof2);
     bl_json_num (&w, "p", b->p);
+    bl_json_num (&w, "log10_p", b->log10_p);
     bl_json_arr (&w, "groups");
     for (size_t g = 0; g < b->ngroups; g++) {
       bl_json_obj (&w, NULL);
