@@ -162,6 +162,8 @@ resid_q (const bl_family *fam, double y, double mu, double a, double phi, double
     l1mu = bl_tail_log1mexp (lu);
   } else {
     lu = bl_family_logcdf (fam, y, mu, a, phi, par, fm);
+    if (lu < -M_LN2)                /* u < 1/2: the lower tail is the smaller */
+      return -bl_tail_norm_Qinv_log (lu);
     l1mu = bl_family_logsf (fam, y, mu, a, phi, par, fm);
   }
   return lu < l1mu ? -bl_tail_norm_Qinv_log (lu) : bl_tail_norm_Qinv_log (l1mu);
