@@ -119,8 +119,11 @@ bl_report_diag_json (FILE *out, const bl_fit *fit, const bl_diag *dg,
 static void
 test_text (FILE *o, const char *name, const bl_diag_test *t)
 {
-  if (t->done)
+  if (t->done && !(t->p < 1e-300))
     fprintf (o, "    %-34s %12.4f   dof %-4zu   p %.4g\n", name, t->stat, t->dof, t->p);
+  else if (t->done)                 /* p beyond the doubles' reach: its log10 (log space) */
+    fprintf (o, "    %-34s %12.4f   dof %-4zu   p < 1e-300 (log10 p = %.1f)\n", name,
+             t->stat, t->dof, t->log10_p);
   else
     fprintf (o, "    %-34s %12s   (%s)\n", name, "--", t->why);
 }
