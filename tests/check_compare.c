@@ -25,6 +25,7 @@
 #include <gsl/gsl_multifit.h>
 #include <gsl/gsl_randist.h>
 #include <gsl/gsl_rng.h>
+#include <gsl/gsl_sf_erf.h>
 #include "alloc.h"
 #include "compare.h"
 #include "design.h"
@@ -254,6 +255,82 @@ START_TEST (compare_discrete_loglik)
   bl_compare_free (c);
   test_job_free (&j);
   free (csv.s);
+}
+END_TEST
+
+/* log P(a < Z <= b) for a > 0 from GSL's log erfc (Abramowitz & Stegun 26.2.29: Q(z) =
+   erfc(z / sqrt 2) / 2), a route of its own (GSL's erfc algorithms, not ballast's tails). */
+static double
+direct_log_upper_interval (double a, double b)
+{
+  const double la = gsl_sf_log_erfc (a / M_SQRT2), lb = gsl_sf_log_erfc (b / M_SQRT2);
+  return la - M_LN2 + log1p (-exp (lb - la));
+}
+
+/* Integer y with one row far above its mean: the discretized likelihood of "ls" stays
+   finite, equal to the direct sum (rows above the mean by the upper tails of GSL's log erfc,
+   the others by GSL's CDF difference), and "ls" keeps its place in the ranking.  The row is
+   put at 10 sd (both CDFs round to 1 there: the old difference was 0, a null AIC, no note,
+   and the candidate left the ranking) and, with 4000 rows, at 40 sd. */
+START_TEST (compare_discrete_far_row)
+{
+  const size_t ns[2] = { 400, 4000 };
+  const double ds[2] = { 25.0, 110.0 };
+  for (int K = 0; K < 2; K++) {
+    test_buf csv = { 0 };
+    test_job j = { 0 };
+    bl_compare *c;
+    const bl_candidate *ls, *sq;
+    long double l = 0.0L;
+    double zfar = 0.0;
+    gsl_rng *r = gsl_rng_alloc (gsl_rng_mt19937);
+    gsl_rng_set (r, 99u + (unsigned) K);
+    test_buf_printf (&csv, "y,x\n");
+    for (size_t i = 0; i < ns[K]; i++) {
+      const double x = gsl_rng_uniform (r);
+      const double y = round (50.0 + 10.0 * x + (i == 5 ? ds[K] : gsl_ran_gaussian (r, 2.0)));
+      test_buf_printf (&csv, "%.17g,%.17g\n", y, x);
+    }
+    gsl_rng_free (r);
+    test_job_csv (&j, &csv, NULL, 0, "y", "x", NULL, NULL);
+    c = run_compare (j.d, "ls,ls-sqrt,poi-log", 0, BL_COMPARE_SEED);
+    ls = cand (c, "ls");
+    sq = cand (c, "ls-sqrt");
+    ck_assert_msg (ls && sq && ls->converged && sq->converged, "far row: candidates");
+    {
+      bl_fit_opts fo;
+      bl_err err = { 0 };
+      bl_fit *f;
+      const double *y = bl_design_y (j.d), *mu;
+      double s;
+      opts_for_id ("ls", &fo);
+      f = bl_fit_new (j.d, &fo, &err);
+      ck_assert_ptr_nonnull (f);
+      mu = bl_fit_mu (f);
+      s = sqrt (bl_fit_stats_get (f)->phi_ml);
+      for (size_t i = 0; i < bl_design_n (j.d); i++) {
+        const double a = (y[i] - 0.5 - mu[i]) / s, b = (y[i] + 0.5 - mu[i]) / s;
+        if (a > 0.0)
+          l += direct_log_upper_interval (a, b);
+        else
+          l += log (gsl_cdf_ugaussian_P (b) - gsl_cdf_ugaussian_P (a));
+      }
+      zfar = (y[5] - mu[5]) / s;
+      bl_fit_free (f);
+    }
+    fprintf (stderr, "far row at %.1f sd: ls loglik_discrete %.10f (direct %.10f), "
+             "position %zu; ls-sqrt %.6f, position %zu\n", zfar, ls->loglik_discrete,
+             (double) l, ls->rank_position, sq->loglik_discrete, sq->rank_position);
+    ck_assert_msg (zfar > (K == 0 ? 9.0 : 38.0), "far row: z %g", zfar);
+    ck_assert_msg (isfinite (ls->aic_discrete) && isfinite (sq->aic_discrete),
+                   "far row: aic_discrete %g %g", ls->aic_discrete, sq->aic_discrete);
+    ck_assert_msg (test_rel_safe (ls->loglik_discrete, (double) l) <= 1e-12,
+                   "far row ls: %.17g vs %.17g", ls->loglik_discrete, (double) l);
+    ck_assert_msg (ls->rank_position > 0 && sq->rank_position > 0, "far row: not ranked");
+    bl_compare_free (c);
+    test_job_free (&j);
+    free (csv.s);
+  }
 }
 END_TEST
 
@@ -707,6 +784,7 @@ compare_suite (void)
   TCase *bas = tcase_create ("basics");
   tcase_add_test (ref, compare_aic_equals_fit);
   tcase_add_test (ref, compare_discrete_loglik);
+  tcase_add_test (ref, compare_discrete_far_row);
   tcase_add_test (ref, compare_cv_direct);
   tcase_add_test (idt, compare_weights);
   tcase_add_test (idt, compare_boxcox_practical);

@@ -25,6 +25,7 @@
 #include <gsl/gsl_multifit.h>
 #include <gsl/gsl_randist.h>
 #include <gsl/gsl_rng.h>
+#include <gsl/gsl_sf_gamma.h>
 #include <gsl/gsl_sort.h>
 #include <gsl/gsl_statistics_double.h>
 #include "alloc.h"
@@ -343,6 +344,75 @@ START_TEST (diag_quantile_continuous)
     free (csv.s);
   }
   gsl_integration_workspace_free (iw);
+}
+END_TEST
+
+/* Quantile residuals far in the tails (Dunn & Smyth 1996): for the gaussian the residual is
+   (y - mu) / sqrt(phi / a) exactly, also for a row 9.4 and one 43 sd above its mean (where
+   u = F(y) rounds to 1 and the old clamp gave 8.2); for the poisson a row 13 sd above its
+   mean has its residual between Q^-1(P(Y > y - 1)) and Q^-1(P(Y > y)), the upper tails from
+   GSL's lower incomplete gamma P(y + 1, mu) (Abramowitz & Stegun 26.4.21), which do not
+   underflow there. */
+START_TEST (diag_quantile_far_tail)
+{
+  enum { N = 4000 };
+  test_buf csv = { 0 };
+  test_job j = { 0 };
+  bl_err err = { 0 };
+  double *q = malloc (N * sizeof *q), worst = 0.0, zmax = 0.0;
+  gsl_rng *r = gsl_rng_alloc (gsl_rng_mt19937);
+  gsl_rng_set (r, 4242);
+  test_buf_printf (&csv, "y,x\n");
+  for (size_t i = 0; i < N; i++) {
+    const double x = gsl_rng_uniform (r);
+    const double d = i == 7 ? 13.0 : i == 11 ? 60.0 : gsl_ran_gaussian (r, 1.0);
+    test_buf_printf (&csv, "%.17g,%.17g\n", 5.0 + 2.0 * x + d, x);
+  }
+  test_job_csv (&j, &csv, NULL, 0, "y", "x", NULL, NULL);
+  job_fit (&j, BL_METHOD_GLM, &bl_family_gaussian, &bl_link_identity);
+  ck_assert_int_eq (bl_quantile_residuals (j.f, NULL, q, &err), BL_OK);
+  {
+    const double *y = bl_fit_y (j.f), *mu = bl_fit_mu (j.f);
+    const double s = sqrt (bl_fit_stats_get (j.f)->phi_pearson);
+    for (size_t i = 0; i < N; i++) {
+      const double want = (y[i] - mu[i]) / s;
+      const double d = fabs (q[i] - want) / (1.0 + fabs (want));
+      worst = d > worst ? d : worst;
+      zmax = fabs (want) > zmax ? fabs (want) : zmax;
+    }
+    fprintf (stderr, "far-tail quantile residuals, gaussian: largest |z| %.2f (row 12: "
+             "%.15g), largest relative difference %.3g\n", zmax, q[11], worst);
+    ck_assert_msg (zmax > 40.0 && (y[7] - mu[7]) / s > 9.0, "far tail: zmax %g", zmax);
+    ck_assert_msg (worst <= 1e-12, "far tail gaussian: worst %.3g", worst);
+  }
+  test_job_free (&j);
+  free (csv.s);
+  csv.s = NULL;
+  csv.len = csv.cap = 0;
+  /* poisson, mean about 20, one row at y = 80 */
+  test_buf_printf (&csv, "y,x\n");
+  for (size_t i = 0; i < 400; i++) {
+    const double x = gsl_rng_uniform (r);
+    const unsigned k = i == 3 ? 80u : gsl_ran_poisson (r, exp (2.8 + 0.4 * x));
+    test_buf_printf (&csv, "%u,%.17g\n", k, x);
+  }
+  test_job_csv (&j, &csv, NULL, 0, "y", "x", NULL, NULL);
+  job_fit (&j, BL_METHOD_GLM, &bl_family_poisson, &bl_link_log);
+  ck_assert_int_eq (bl_quantile_residuals (j.f, r, q, &err), BL_OK);
+  {
+    const double y = bl_fit_y (j.f)[3], mu = bl_fit_mu (j.f)[3];
+    const double lo = gsl_cdf_ugaussian_Qinv (gsl_sf_gamma_inc_P (y, mu));        /* S(y-1) */
+    const double hi = gsl_cdf_ugaussian_Qinv (gsl_sf_gamma_inc_P (y + 1.0, mu));  /* S(y) */
+    fprintf (stderr, "far-tail quantile residual, poisson y %g mu %.4g: %.12g in [%.12g, "
+             "%.12g]\n", y, mu, q[3], lo, hi);
+    ck_assert_msg ((y - mu) / sqrt (mu) > 12.0, "poisson far row: z %g", (y - mu) / sqrt (mu));
+    ck_assert_msg (q[3] >= lo * (1.0 - 1e-12) && q[3] <= hi * (1.0 + 1e-12),
+                   "poisson far row: %.17g not in [%.17g, %.17g]", q[3], lo, hi);
+  }
+  test_job_free (&j);
+  free (csv.s);
+  free (q);
+  gsl_rng_free (r);
 }
 END_TEST
 
@@ -1072,6 +1142,7 @@ diag_suite (void)
   TCase *err = tcase_create ("errors");
   TCase *bas = tcase_create ("basics");
   tcase_add_test (ref, diag_variance_tests_gsl);
+  tcase_add_test (ref, diag_quantile_far_tail);
   tcase_add_test (ref, diag_white_skipped);
   tcase_add_test (ref, diag_quantile_continuous);
   tcase_add_test (ref, diag_ks_normal);

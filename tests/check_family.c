@@ -32,6 +32,7 @@
 #include <gsl/gsl_sf_psi.h>
 #include "family.h"
 #include "family_impl.h"      /* the descriptor's fields, checked against its flags */
+#include "family_tails.h"
 #include "link.h"
 #include "testutil.h"
 #include "tweedie.h"
@@ -834,6 +835,129 @@ START_TEST (family_loglik_unit_weights)
 }
 END_TEST
 
+/* ---------------------------------------------------------------- tails in log space */
+
+/* The largest relative error of log P accepted against tests/reference/tails.txt (mpmath at
+   400 digits, SciPy as a cross-check; tests/reference/README.md).  Measured: at most
+   TAILS_MEASURED over every case (printed by the test). */
+#define TAILS_TOL 1e-10
+
+/* One case of tails.txt evaluated with the library. */
+static double
+tails_eval (const char *kind, const char *fam, double mu, double phi, double par, double y1,
+            double y2)
+{
+  if (strcmp (kind, "pvalue") == 0) {
+    if (strcmp (fam, "chisq") == 0)
+      return bl_tail_chisq_logQ (mu, phi);
+    if (strcmp (fam, "f") == 0)
+      return bl_tail_f_logQ (mu, phi, par);
+    if (strcmp (fam, "t2") == 0)
+      return bl_tail_t_logp2 (mu, phi);
+    return bl_tail_t_logp2 (mu, HUGE_VAL);
+  }
+  {
+    const bl_family *f = bl_family_find (fam);
+    ck_assert_msg (f != NULL, "tails.txt: family '%s'", fam);
+    if (strcmp (kind, "interval") == 0)
+      return bl_family_log_interval (f, y1, y2, mu, 1.0, phi, par, BL_FAM_SCALE_MUL);
+    if (strcmp (kind, "logsf") == 0)
+      return bl_family_logsf (f, y1, mu, 1.0, phi, par, BL_FAM_SCALE_MUL);
+    return bl_family_logcdf (f, y1, mu, 1.0, phi, par, BL_FAM_SCALE_MUL);
+  }
+}
+
+/* Log interval probabilities, log tails and log p-values at 0 to 60 standard deviations
+   (tests/reference/tails.py -> tails.txt: mpmath, 400 digits). */
+START_TEST (family_tails_reference)
+{
+  char path[4096], line[512];
+  FILE *fp = fopen (test_data_path ("../reference/tails.txt", path, sizeof path), "r");
+  size_t ncase = 0;
+  double worst = 0.0;
+  ck_assert_msg (fp != NULL, "open %s", path);
+  while (fgets (line, sizeof line, fp)) {
+    char kind[32], fam[32];
+    double mu, phi, par, y1, y2, ref, got, rel;
+    if (line[0] == '#' || line[0] == '\n')
+      continue;
+    ck_assert_msg (sscanf (line, "%31s %31s %lf %lf %lf %lf %lf %lf", kind, fam, &mu, &phi,
+                           &par, &y1, &y2, &ref) == 8, "tails.txt: bad line '%s'", line);
+    got = tails_eval (kind, fam, mu, phi, par, y1, y2);
+    rel = fabs (got - ref) / fabs (ref);
+    ck_assert_msg (isfinite (got) && rel <= TAILS_TOL, "%s %s mu %g phi %g par %g (%.17g, "
+                   "%.17g]: %.17g, reference %.17g, rel %.3g", kind, fam, mu, phi, par, y1, y2,
+                   got, ref, rel);
+    worst = rel > worst ? rel : worst;
+    ncase++;
+  }
+  fclose (fp);
+  ck_assert_msg (ncase >= 150, "tails.txt: %zu cases", ncase);
+  fprintf (stderr, "family_tails_reference: %zu cases, largest relative error %.3g\n", ncase,
+           worst);
+}
+END_TEST
+
+/* log Q and its inverse: Q^-1(exp(log Q(x))) = x across the switch to the asymptotic series
+   and far beyond the doubles; log Q continuous at x = 37 (the switch) to 1e-13 relative, and
+   the A&S 26.2.12 leading term -x^2/2 - log x - log sqrt(2 pi) to 1/x^2 at x = 1e4. */
+START_TEST (family_tails_normal_identities)
+{
+  const double xs[] = { -3.1, 0.0, 0.7, 5.3, 20.0, 36.999, 37.0, 41.5, 60.0, 250.0, 3000.0 };
+  for (size_t i = 0; i < sizeof xs / sizeof xs[0]; i++) {
+    const double lq = bl_tail_norm_logQ (xs[i]), x = bl_tail_norm_Qinv_log (lq);
+    ck_assert_msg (fabs (x - xs[i]) <= 1e-12 * (1.0 + fabs (xs[i])), "Qinv(log Q(%g)) = %.17g",
+                   xs[i], x);
+    ck_assert_msg (fabs (bl_tail_norm_logP (xs[i]) - bl_tail_norm_logQ (-xs[i])) == 0.0,
+                   "log P(%g)", xs[i]);
+  }
+  {
+    const double a = bl_tail_norm_logQ (nextafter (37.0, 0.0)), b = bl_tail_norm_logQ (37.0);
+    ck_assert_msg (fabs (a - b) <= 1e-13 * fabs (b), "log Q across 37: %.17g %.17g", a, b);
+  }
+  {
+    const double x = 1e4, lead = -0.5 * x * x - log (x) - 0.91893853320467274;
+    ck_assert_msg (fabs (bl_tail_norm_logQ (x) - lead) <= 1.01 / (x * x), "log Q(1e4)");
+  }
+  /* log(1 - e^x) against log1p(-exp(x)) and log(-expm1(x)) where each is exact enough */
+  ck_assert (fabs (bl_tail_log1mexp (-1e-20) - log (1e-20)) < 1e-14);
+  ck_assert (fabs (bl_tail_log1mexp (-50.0) + exp (-50.0)) < 1e-30);
+  ck_assert (bl_tail_log1mexp (0.0) == -HUGE_VAL);
+}
+END_TEST
+
+/* The upper quantile from the upper tail: at Q = 1e-20 (a level of 1 - 2e-20, which rounds
+   to 1), the least k with P(Y > k) <= Q for the poisson and the negative binomial, and the
+   y with log P(Y > y) = log Q for the continuous families (identities of the definition). */
+START_TEST (family_tails_quantile_upper)
+{
+  const double q = 1e-20, lq = log (q);
+  {
+    const double k = bl_family_quantile_upper (&bl_family_poisson, q, 4.2, 1.0, 1.0, 0.0);
+    ck_assert (isfinite (k));
+    ck_assert (bl_family_logsf (&bl_family_poisson, k, 4.2, 1.0, 1.0, 0.0, 0) <= lq);
+    ck_assert (bl_family_logsf (&bl_family_poisson, k - 1.0, 4.2, 1.0, 1.0, 0.0, 0) > lq);
+  }
+  {
+    const double k = bl_family_quantile_upper (&bl_family_negbin, q, 6.3, 1.0, 1.0, 2.7);
+    ck_assert (isfinite (k));
+    ck_assert (bl_family_logsf (&bl_family_negbin, k, 6.3, 1.0, 1.0, 2.7, 0) <= lq);
+    ck_assert (bl_family_logsf (&bl_family_negbin, k - 1.0, 6.3, 1.0, 1.0, 2.7, 0) > lq);
+  }
+  {
+    const bl_family *fs[] = { &bl_family_gaussian, &bl_family_gamma, &bl_family_invgauss,
+                              &bl_family_tweedie };
+    const double par[] = { 0.0, 0.0, 0.0, 1.45 }, phi[] = { 5.29, 0.4, 0.06, 1.7 };
+    for (size_t i = 0; i < 4; i++) {
+      const double y = bl_family_quantile_upper (fs[i], q, 4.1, 1.0, phi[i], par[i]);
+      const double l = bl_family_logsf (fs[i], y, 4.1, 1.0, phi[i], par[i], 0);
+      ck_assert_msg (isfinite (y) && fabs (l - lq) <= 1e-9 * fabs (lq), "%s: y %.17g, "
+                     "log S %.17g", bl_family_name (fs[i]), y, l);
+    }
+  }
+}
+END_TEST
+
 static Suite *
 family_suite (void)
 {
@@ -866,6 +990,9 @@ family_suite (void)
   tcase_add_test (idt, family_loglik_unit_weights);
   tcase_add_test (bas, family_table);
   tcase_add_test (bas, family_properties);
+  tcase_add_test (ref, family_tails_reference);
+  tcase_add_test (idt, family_tails_normal_identities);
+  tcase_add_test (idt, family_tails_quantile_upper);
   suite_add_tcase (s, ref);
   suite_add_tcase (s, idt);
   suite_add_tcase (s, err);

@@ -23,6 +23,7 @@
 #include <gsl/gsl_linalg.h>
 #include <gsl/gsl_randist.h>
 #include <gsl/gsl_rng.h>
+#include <gsl/gsl_sf_erf.h>
 #include "design.h"
 #include "diag.h"
 #include "fit.h"
@@ -250,6 +251,52 @@ END_TEST
 START_TEST (nested_gamma_f) { check_lr (1, 0, "gamma F"); }
 END_TEST
 START_TEST (nested_poisson_pearson_f) { check_lr (0, 1, "poisson pearson F"); }
+END_TEST
+
+/* A p-value far below the doubles: poisson, log mu = 1 + 4 x1, tested against "x2" (1 dof).
+   The deviance difference is in the thousands; its chi-square p on 1 dof is
+   erfc(sqrt(x / 2)) (Abramowitz & Stegun 26.4.4 with 7.1.2), so log10 p is checked against
+   GSL's log erfc (its own algorithm), p is 0 (the correctly rounded double: below 4.9e-324)
+   and log10_p is finite (methods.md, section 17). */
+START_TEST (nested_tiny_p)
+{
+  sbuf csv = { 0 };
+  job big = { 0 };
+  bl_fit_opts fo;
+  bl_design_opts dopt;
+  bl_nested nt;
+  bl_err err = { 0 };
+  bl_terms *st;
+  gsl_rng *g = gsl_rng_alloc (gsl_rng_mt19937);
+  double want;
+  gsl_rng_set (g, 8080);
+  sb_printf (&csv, "y,x1,x2,g,cl\n");
+  for (size_t i = 0; i < 400; i++) {
+    const double x1 = gsl_rng_uniform (g), x2 = gsl_rng_uniform (g);
+    sb_printf (&csv, "%u,%.17g,%.17g,p,c1\n", gsl_ran_poisson (g, exp (1.0 + 4.0 * x1)), x1, x2);
+  }
+  gsl_rng_free (g);
+  bl_fit_opts_init (&fo);
+  fo.fam = &bl_family_poisson;
+  fo.link = &bl_link_log;
+  job_design (&big, &csv, "y", "x1,x2", NULL);
+  job_fit (&big, &fo);
+  st = terms_of ("x2");
+  bl_design_opts_init (&dopt);
+  ck_assert_msg (bl_nested_test (big.f, big.t, st, &dopt, &fo, &nt, &err) == BL_OK, "%s: %s",
+                 err.where, err.msg);
+  want = gsl_sf_log_erfc (sqrt (nt.stat / 2.0)) / M_LN10;
+  fprintf (stderr, "tiny p: chi-square %.6g on %zu dof, p %g, log10 p %.10f (erfc %.10f)\n",
+           nt.stat, nt.dof, nt.p, nt.log10_p, want);
+  ck_assert_msg (nt.dof == 1 && nt.stat > 2000.0, "tiny p: stat %g dof %zu", nt.stat, nt.dof);
+  ck_assert_msg (rel (nt.log10_p, want) <= 1e-12, "tiny p: log10 %.17g, erfc %.17g",
+                 nt.log10_p, want);
+  ck_assert_msg (nt.p == 0.0 && isfinite (nt.log10_p) && nt.log10_p < -323.0, "tiny p: %g",
+                 nt.p);
+  bl_terms_free (st);
+  job_free (&big);
+  free (csv.s);
+}
 END_TEST
 
 /* The negative binomial with theta estimated in each model: the deviances are at different
@@ -741,6 +788,7 @@ nested_suite (void)
   TCase *idt = tcase_create ("identities");
   TCase *err = tcase_create ("errors");
   tcase_add_test (ref, nested_poisson_chisq);
+  tcase_add_test (ref, nested_tiny_p);
   tcase_add_test (ref, nested_gamma_f);
   tcase_add_test (ref, nested_poisson_pearson_f);
   tcase_add_test (ref, nested_negbin_lr);

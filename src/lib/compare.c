@@ -21,6 +21,7 @@
 #include "alloc.h"
 #include "compare_impl.h"
 #include "diag.h"
+#include "family_tails.h"
 
 static const spec specs[] = {
   { "ls", BL_METHOD_OLS, &bl_family_gaussian, &bl_link_identity, BL_TRANSFORM_NONE, 0,
@@ -196,29 +197,34 @@ htrans (const bl_fit_transform_info *t, double y)
   }
 }
 
-/* P(Y <= x) for row i of a continuous fit at its ML dispersion, on y's original scale: the
-   normal CDF of h(x) for a transformed fit, else the family's CDF hook (its gamma scale as
-   mu phi / a, BL_FAM_SCALE_MUL, the rounding this score always had). */
+/* log P(lo < Y <= hi) for row i of a continuous fit at its ML dispersion, on y's original
+   scale, LO = -HUGE_VAL for the whole mass below HI: for a transformed fit the normal
+   interval (h(lo) - mu, h(hi) - mu] / sigma, else the family's log interval (its gamma scale
+   as mu phi / a, BL_FAM_SCALE_MUL, the rounding this score always had).  Both are taken on
+   the side of the distribution that holds the interval, in log space (family.h), so a row
+   9 or 40 sd from its mean keeps its digits instead of a difference of two CDFs that round
+   to 1. */
 static double
-cdf_orig (const bl_fit *f, size_t i, double x)
+log_interval_orig (const bl_fit *f, size_t i, double lo, double hi)
 {
   const double *pw = bl_fit_prior_w (f);
   const double a = pw ? pw[i] : 1.0, mu = bl_fit_mu (f)[i], phi = bl_fit_stats_get (f)->phi_ml;
   const bl_fit_transform_info *tr = bl_fit_transform (f);
   if (tr->kind != BL_TRANSFORM_NONE) {
-    if (!(x > 0.0))
-      return 0.0;
-    return gsl_cdf_gaussian_P (htrans (tr, x) - mu, sqrt (phi / a));
+    const double s = sqrt (phi / a);
+    return bl_tail_norm_log_interval (lo > 0.0 ? (htrans (tr, lo) - mu) / s : -HUGE_VAL,
+                                      (htrans (tr, hi) - mu) / s);
   }
-  return bl_family_cdf (bl_fit_family (f), x, mu, a, phi, bl_fit_family_par (f),
-                        BL_FAM_SCALE_MUL);
+  return bl_family_log_interval (bl_fit_family (f), lo, hi, mu, a, phi, bl_fit_family_par (f),
+                                 BL_FAM_SCALE_MUL);
 }
 
-/* The discretized log-likelihood sum log [F(y + 1/2) - F(y - 1/2)] over the integer y >= 0,
+/* The discretized log-likelihood sum log P(y - 1/2 < Y <= y + 1/2) over the integer y >= 0,
    the lower end clipped at y = 0 (all the mass below 1/2); a discrete family's own
-   log-likelihood already is one. */
+   log-likelihood already is one.  -HUGE_VAL when a row has no mass at all (*ROW its index),
+   which is then said in the candidate's notes. */
 static double
-discrete_loglik (const bl_fit *f)
+discrete_loglik (const bl_fit *f, size_t *row)
 {
   const size_t n = bl_fit_n (f);
   const double *yo = bl_fit_y_original (f);
@@ -227,12 +233,12 @@ discrete_loglik (const bl_fit *f)
     return bl_fit_stats_get (f)->loglik;
   for (size_t i = 0; i < n; i++) {
     const double y = yo[i];
-    const double hi = cdf_orig (f, i, y + 0.5);
-    const double lo = y > 0.0 ? cdf_orig (f, i, y - 0.5) : 0.0;
-    const double pr = hi - lo;
-    if (!(pr > 0.0))
+    const double lp = log_interval_orig (f, i, y > 0.0 ? y - 0.5 : -HUGE_VAL, y + 0.5);
+    if (!isfinite (lp)) {
+      *row = i;
       return -HUGE_VAL;
-    l += log (pr);
+    }
+    l += lp;
   }
   return (double) l;
 }
@@ -377,9 +383,15 @@ take_fit (bl_compare *c, bl_candidate *k, const spec *sp, const bl_compare_opts 
     if (NOTE (k, "%s", fw->msg[w]) != BL_OK)
       return BL_ENOMEM;
   if (c->integer_y && isfinite (k->loglik)) {
-    k->loglik_discrete = discrete_loglik (k->fit);
+    size_t row = 0;
+    k->loglik_discrete = discrete_loglik (k->fit, &row);
     k->aic_discrete = isfinite (k->loglik_discrete)
                       ? -2.0 * k->loglik_discrete + 2.0 * (double) k->k : NAN;
+    if (!isfinite (k->loglik_discrete)
+        && NOTE (k, "not ranked: the discretized likelihood is 0 at the %zu-th row used (y = %g): the "
+                 "fitted distribution puts no mass on (y - 1/2, y + 1/2]", row + 1,
+                 bl_fit_y_original (k->fit)[row]) != BL_OK)
+      return BL_ENOMEM;
   }
   return score (k, opt, err);
 }

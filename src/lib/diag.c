@@ -8,6 +8,7 @@
 #include <gsl/gsl_cdf.h>
 #include "alloc.h"
 #include "diag_impl.h"
+#include "family_tails.h"
 #include "rowblock.h"
 
 struct bl_diag {
@@ -130,28 +131,42 @@ const bl_diag_result *bl_diag_get (const bl_diag *d) { return &d->r; }
 
 /* ---------------------------------------------------------------- quantile residuals */
 
-/* The row's u = F(y) for a quantile residual, randomized where F jumps (Dunn & Smyth 1996):
-   - a discrete family: u uniform on (F(y - 1), F(y));
+/* The row's quantile residual r = Phi^-1(u), u = F(y) randomized where F jumps (Dunn &
+   Smyth 1996, J. Comput. Graph. Statist. 5, 236-244):
+   - a discrete family: u uniform on (F(y - 1), F(y)), u = F(y - 1) + v P(Y = y);
    - a point mass at 0 (BL_FAM_ZERO_MASS): u uniform on (0, P(Y = 0)) at y = 0, elsewhere F
      is continuous;
    - otherwise u = F(y).
-   F is the family's CDF hook at dispersion PHI; its gamma scale as mu / shape
+   Both log u and log(1 - u) are formed in log space from the family's two log tails
+   (1 - u = S(y) + (1 - v) P(Y = y) for a discrete family), and r is taken from the smaller:
+   r = -Q^-1(u) below the median, Q^-1(1 - u) above it (Q the normal upper tail; its inverse
+   in log space, family_tails.h), so a residual at 9 or 40 sd is finite and right where u
+   itself would round to 1 or to 0.  F at dispersion PHI, its gamma scale as mu / shape
    (BL_FAM_SCALE_DIV, the rounding these residuals always had). */
 static double
-resid_u (const bl_family *fam, double y, double mu, double a, double phi, double par,
+resid_q (const bl_family *fam, double y, double mu, double a, double phi, double par,
          gsl_rng *rng)
 {
+  const bl_family_scale fm = BL_FAM_SCALE_DIV;
+  double lu, l1mu;
   if (bl_family_has (fam, BL_FAM_DISCRETE)) {
-    const double hi = bl_family_cdf (fam, y, mu, a, phi, par, BL_FAM_SCALE_DIV);
-    const double lo = y >= 1.0 ? bl_family_cdf (fam, y - 1.0, mu, a, phi, par,
-                                                BL_FAM_SCALE_DIV) : 0.0;
-    return lo + gsl_rng_uniform_pos (rng) * (hi - lo);
+    const double v = gsl_rng_uniform_pos (rng);
+    const double lp = bl_family_log_interval (fam, y - 1.0, y, mu, a, phi, par, fm);
+    const double lflo = y >= 1.0 ? bl_family_logcdf (fam, y - 1.0, mu, a, phi, par, fm)
+                                 : -HUGE_VAL;
+    lu = bl_tail_logaddexp (lflo, log (v) + lp);
+    l1mu = bl_tail_logaddexp (bl_family_logsf (fam, y, mu, a, phi, par, fm),
+                              log1p (-v) + lp);
+  } else if (bl_family_has (fam, BL_FAM_ZERO_MASS) && y == 0.0) {
+    lu = log (gsl_rng_uniform_pos (rng)) + bl_family_logcdf (fam, 0.0, mu, a, phi, par, fm);
+    l1mu = bl_tail_log1mexp (lu);
+  } else {
+    lu = bl_family_logcdf (fam, y, mu, a, phi, par, fm);
+    if (lu < -M_LN2)                /* u < 1/2: the lower tail is the smaller */
+      return -bl_tail_norm_Qinv_log (lu);
+    l1mu = bl_family_logsf (fam, y, mu, a, phi, par, fm);
   }
-  if (bl_family_has (fam, BL_FAM_ZERO_MASS)) {
-    const double F = bl_family_cdf (fam, y, mu, a, phi, par, BL_FAM_SCALE_DIV);
-    return y == 0.0 ? gsl_rng_uniform_pos (rng) * F : F;
-  }
-  return bl_family_cdf (fam, y, mu, a, phi, par, BL_FAM_SCALE_DIV);
+  return lu < l1mu ? -bl_tail_norm_Qinv_log (lu) : bl_tail_norm_Qinv_log (l1mu);
 }
 
 /* Quantile residuals, polling CANCEL (may be NULL) every BL_IRLS_BLOCK rows.  The dispersion
@@ -169,15 +184,9 @@ quantile_residuals (const bl_fit *f, gsl_rng *rng, volatile sig_atomic_t *cancel
   const double *y = bl_fit_y (f), *mu = bl_fit_mu (f), *pw = bl_fit_prior_w (f);
   const double par = bl_fit_family_par (f);
   for (size_t i = 0; i < n; i++) {
-    double u;
     if (cancel && i % BL_IRLS_BLOCK == 0 && *cancel)
       return bl_fail (err, BL_ECANCEL, "residuals", "the residual table was cancelled");
-    u = resid_u (fam, y[i], mu[i], pw ? pw[i] : 1.0, phi, par, rng);
-    if (u <= 0.0)
-      u = 1e-300;
-    if (u >= 1.0)
-      u = 1.0 - 1e-16;
-    q[i] = gsl_cdf_ugaussian_Pinv (u);
+    q[i] = resid_q (fam, y[i], mu[i], pw ? pw[i] : 1.0, phi, par, rng);
   }
   return BL_OK;
 }

@@ -36,7 +36,8 @@ BL_API void bl_diag_opts_init (bl_diag_opts *opt);
 
 typedef struct bl_diag_test {
   int done;                         /* 0: skipped, see why */
-  double stat, p;
+  double stat, p;                   /* p: the upper tail as its double (0 below 4.9e-324) */
+  double log10_p;                   /* log10 of p from the log-space tail, finite there too */
   size_t dof;
   const char *why;                  /* "" when done */
 } bl_diag_test;
@@ -143,7 +144,7 @@ typedef struct bl_bf_group {
 
 typedef struct bl_bf {
   char column[256];
-  double stat, p;
+  double stat, p, log10_p;          /* p as in bl_diag_test */
   size_t dof, dof2;
   size_t ngroups;
   bl_bf_group *groups;              /* owned; bl_bf_clear frees */

@@ -10,6 +10,7 @@
 #include <gsl/gsl_randist.h>
 #include "alloc.h"
 #include "diag_impl.h"
+#include "family_tails.h"
 #include "irls.h"                 /* the auxiliary regressions of the variance tests */
 #include "order.h"
 #include "rowblock.h"
@@ -92,6 +93,16 @@ done:
   if (st != BL_OK)
     bl_spread_clear (out);
   return st;
+}
+
+
+/* The upper-tail p of a chi-square statistic on T->dof, from its log (family_tails.c): p as
+   its double (exact through the subnormals, 0 below them) and log10 p, finite beyond. */
+static void
+chisq_p (bl_diag_test *t)
+{
+  t->log10_p = bl_tail_chisq_logQ (t->stat, (double) t->dof) / M_LN10;
+  t->p = exp (t->log10_p * M_LN10);
 }
 
 /* ---------------------------------------------------------------- auxiliary regressions */
@@ -202,7 +213,7 @@ bl_diag_variance_tests (const bl_fit *f, const double *e, const bl_diag_opts *op
   r->breusch_pagan.done = 1;
   r->breusch_pagan.stat = 0.5 * (tss - rss);
   r->breusch_pagan.dof = rank - 1;
-  r->breusch_pagan.p = gsl_cdf_chisq_Q (r->breusch_pagan.stat, (double) (rank - 1));
+  chisq_p (&r->breusch_pagan);
   for (size_t i = 0; i < n; i++)
     u[i] = e[i] * e[i];
   if ((st = aux_regress (&c, u, n, &rss, &tss, &rank, err)) != BL_OK)
@@ -210,7 +221,7 @@ bl_diag_variance_tests (const bl_fit *f, const double *e, const bl_diag_opts *op
   r->koenker.done = 1;
   r->koenker.stat = tss > 0.0 ? (double) n * (1.0 - rss / tss) : 0.0;
   r->koenker.dof = rank - 1;
-  r->koenker.p = gsl_cdf_chisq_Q (r->koenker.stat, (double) (rank - 1));
+  chisq_p (&r->koenker);
   if (c.nx > opt->white_max_p) {
     r->white.why = "skipped: more than the documented limit of non-intercept columns (20), "
                    "which would need too many auxiliary columns";
@@ -221,7 +232,7 @@ bl_diag_variance_tests (const bl_fit *f, const double *e, const bl_diag_opts *op
     r->white.done = 1;
     r->white.stat = tss > 0.0 ? (double) n * (1.0 - rss / tss) : 0.0;
     r->white.dof = rank - 1;
-    r->white.p = gsl_cdf_chisq_Q (r->white.stat, (double) (rank - 1));
+    chisq_p (&r->white);
   }
 done:
   bl_free (u);
@@ -456,8 +467,9 @@ bf_anova (const size_t *cnt, const size_t *start, const double *z, size_t L, siz
   out->dof2 = n - G;
   out->stat = within > 0.0L ? (double) ((between / (long double) (G - 1))
                                          / (within / (long double) (n - G))) : NAN;
-  out->p = isfinite (out->stat) ? gsl_cdf_fdist_Q (out->stat, (double) out->dof,
-                                                   (double) out->dof2) : NAN;
+  out->log10_p = isfinite (out->stat) ? bl_tail_f_logQ (out->stat, (double) out->dof,
+                                                         (double) out->dof2) / M_LN10 : NAN;
+  out->p = exp (out->log10_p * M_LN10);
 }
 
 int

@@ -43,11 +43,28 @@ typedef enum bl_family_scale { BL_FAM_SCALE_MUL = 0, BL_FAM_SCALE_DIV = 1 } bl_f
    included.  Sources in each family's file. */
 BL_API double bl_family_cdf (const bl_family *f, double y, double mu, double a, double phi,
                              double par, bl_family_scale form);
+/* log P(Y <= y) and log P(Y > y), each accurate to about 1e-14 relative where it is small
+   (far in its tail, beyond the range of a double; family_tails.h), and the log probability
+   of the interval log P(LO < Y <= HI), computed on the side of the distribution that holds
+   it: above the median from the upper tails, log P = log S(lo) + log(1 - S(hi) / S(lo)),
+   below it from the lower tails, across the median as 1 - F(lo) - S(hi).  LO may be
+   -HUGE_VAL.  -HUGE_VAL when the interval has no mass. */
+BL_API double bl_family_logcdf (const bl_family *f, double y, double mu, double a, double phi,
+                                double par, bl_family_scale form);
+BL_API double bl_family_logsf (const bl_family *f, double y, double mu, double a, double phi,
+                               double par, bl_family_scale form);
+BL_API double bl_family_log_interval (const bl_family *f, double lo, double hi, double mu,
+                                      double a, double phi, double par, bl_family_scale form);
 /* The PROB quantile at (mu, a, phi, par): for a discrete family the least integer k with
    P(Y <= k) >= PROB (HUGE_VAL when PROB >= 1 or no k below UINT_MAX / 2 reaches it); for a
    continuous one F^-1(PROB) (the Tweedie: 0 when PROB <= P(Y = 0)). */
 BL_API double bl_family_quantile (const bl_family *f, double prob, double mu, double a, double phi,
                                   double par);
+/* The upper Q quantile: the y with P(Y > y) = Q (continuous), the least integer k with
+   P(Y > k) <= Q (discrete; HUGE_VAL when none below UINT_MAX / 2), computed from the upper
+   tail, so that an interval end at level 1 - 1e-20 is finite and right. */
+BL_API double bl_family_quantile_upper (const bl_family *f, double q, double mu, double a,
+                                        double phi, double par);
 /* The largest mean whose quantiles the family can compute (the poisson's: GSL counts in an
    unsigned int), HUGE_VAL when there is no such limit. */
 BL_API double bl_family_quantile_mu_max (const bl_family *f);

@@ -10,6 +10,7 @@
 #include <gsl/gsl_sf_psi.h>
 #include "family.h"
 #include "family_impl.h"
+#include "family_tails.h"
 
 /* V = mu^2, d = 2 [-log(y/mu) + (y - mu)/mu],
    with shape nu a and mean mu: log f = nu a log(nu a y / mu) - nu a y / mu - log y
@@ -55,6 +56,32 @@ gam_cdf (double y, double mu, double a, double phi, double par, int form)
   if (!(y > 0.0))
     return 0.0;
   return gsl_cdf_gamma_P (y, shape, form == BL_FAM_SCALE_DIV ? mu / shape : mu * phi / a);
+}
+/* log P(shape, y / scale) and log Q(shape, y / scale), the regularized incomplete gamma
+   functions in log space (family_tails.c), the scale rounded as in gam_cdf */
+static double
+gam_logcdf (double y, double mu, double a, double phi, double par, int form)
+{
+  const double shape = a / phi;
+  (void) par;
+  if (!(y > 0.0))
+    return -HUGE_VAL;
+  return bl_tail_gamma_logP (shape, y / (form == BL_FAM_SCALE_DIV ? mu / shape : mu * phi / a));
+}
+static double
+gam_logsf (double y, double mu, double a, double phi, double par, int form)
+{
+  const double shape = a / phi;
+  (void) par;
+  if (!(y > 0.0))
+    return 0.0;
+  return bl_tail_gamma_logQ (shape, y / (form == BL_FAM_SCALE_DIV ? mu / shape : mu * phi / a));
+}
+static double
+gam_quantile_upper (double q, double mu, double a, double phi, double par)
+{
+  (void) par;
+  return gsl_cdf_gamma_Qinv (q, a / phi, mu * phi / a);
 }
 static double
 gam_quantile (double prob, double mu, double a, double phi, double par)
@@ -138,5 +165,6 @@ const bl_family bl_family_gamma = {
   .phi_free = 1, .discrete = 0, .var_power = 2.0,
   .y_ok = bl_family_y_pos, .valid_mu = bl_family_mu_pos, .mustart = pos_start,
   .var = gam_var, .unit_dev = gam_dev, .logpdf = gam_logpdf, .cdf = gam_cdf,
+  .logcdf = gam_logcdf, .logsf = gam_logsf, .quantile_upper = gam_quantile_upper,
   .quantile = gam_quantile, .phi_ml = gam_phi_ml, .loglik_unit = gam_loglik_unit
 };

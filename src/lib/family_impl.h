@@ -36,8 +36,16 @@ struct bl_family {
   /* P(Y <= y); for the discrete families at the integer y (0 below 0).  FORM says how a
      scale is rounded where a family has two roundings (bl_family_scale, family.h). */
   double (*cdf) (double y, double mu, double a, double phi, double par, int form);
+  /* log P(Y <= y) and log P(Y > y), each accurate where it is small (family_tails.h): the
+     CDF's two tails in log space, with the same FORM and the same integer part as cdf */
+  double (*logcdf) (double y, double mu, double a, double phi, double par, int form);
+  double (*logsf) (double y, double mu, double a, double phi, double par, int form);
   /* The P quantile: the least y with P(Y <= y) >= P (discrete), F^-1(P) (continuous) */
   double (*quantile) (double prob, double mu, double a, double phi, double par);
+  /* The upper Q quantile: the least y with P(Y > y) <= Q (discrete), the y with
+     P(Y > y) = Q (continuous), found from the upper tail so that a small Q keeps its
+     digits where 1 - Q would round */
+  double (*quantile_upper) (double q, double mu, double a, double phi, double par);
   /* The maximum-likelihood dispersion from the deviance DEV (> 0) of the N rows; NULL when
      the dispersion is fixed at 1 (family.h, bl_family_phi_ml) */
   int (*phi_ml) (const double *y, const double *mu, const double *a, size_t n, double dev,
@@ -64,6 +72,13 @@ double bl_family_clamp_dev (double d);
 /* The closed-form dispersion MLE D / n of the gaussian and inverse gaussian. */
 int bl_family_phi_dev_n (const double *y, const double *mu, const double *a, size_t n,
                          double dev, double *phi, bl_err *err);
+/* The least integer k >= 0 with P(Y > k) <= Q, searched from K0 on the log upper tail, and
+   the continuous upper quantile by bisection on log P(Y > y) from a bracket doubled up from
+   Y0 > 0 (family.c). */
+double bl_family_discrete_quantile_upper (const struct bl_family *f, double q, double k0,
+                                          double mu, double a, double phi, double par);
+double bl_family_sf_bisect (const struct bl_family *f, double q, double y0, double mu,
+                            double a, double phi, double par);
 /* The least integer k >= 0 with F's CDF at k >= P, searched from K0 (family.c). */
 double bl_family_discrete_quantile (const struct bl_family *f, double prob, double k0,
                                     double mu, double a, double phi, double par);

@@ -10,6 +10,7 @@
 #include <gsl/gsl_sf_gamma.h>
 #include "family.h"
 #include "family_impl.h"
+#include "family_tails.h"
 
 /* V = mu + mu^2 / theta,
    d = 2 [y log(y/mu) - (y + theta) log((y + theta) / (mu + theta))],
@@ -54,6 +55,32 @@ nb_cdf (double y, double mu, double a, double phi, double th, int form)
   return y >= 0.0 ? gsl_cdf_negative_binomial_P ((unsigned) y, th / (th + mu), th) : 0.0;
 }
 
+/* log P(Y <= k) = log I_p(theta, k + 1) and log P(Y > k) = log I_{1-p}(k + 1, theta),
+   p = theta / (theta + mu), 1 - p = mu / (theta + mu), k = floor(y) (Abramowitz & Stegun
+   26.5.24), the incomplete beta in log space */
+static double
+nb_logcdf (double y, double mu, double a, double phi, double th, int form)
+{
+  (void) a; (void) phi; (void) form;
+  if (!(y >= 0.0))
+    return -HUGE_VAL;
+  return bl_tail_beta_logI (th, floor (y) + 1.0, th / (th + mu), mu / (th + mu));
+}
+static double
+nb_logsf (double y, double mu, double a, double phi, double th, int form)
+{
+  (void) a; (void) phi; (void) form;
+  if (!(y >= 0.0))
+    return 0.0;
+  return bl_tail_beta_logI (floor (y) + 1.0, th, mu / (th + mu), th / (th + mu));
+}
+static double
+nb_quantile_upper (double q, double mu, double a, double phi, double th)
+{
+  const double k = floor (mu + gsl_cdf_ugaussian_Qinv (q) * sqrt (mu + mu * mu / th));
+  return bl_family_discrete_quantile_upper (&bl_family_negbin, q, k, mu, a, phi, th);
+}
+
 /* The least k with P(Y <= k) >= P, from the normal approximation mu + z_p sqrt(V(mu))
    (common practice, no source). */
 static double
@@ -75,5 +102,6 @@ const bl_family bl_family_negbin = {
   .phi_free = 0, .discrete = 1, .var_power = NAN,
   .y_ok = bl_family_y_nonneg, .valid_mu = bl_family_mu_pos, .mustart = nb_start,
   .var = nb_var, .unit_dev = nb_dev, .logpdf = nb_logpdf, .cdf = nb_cdf,
+  .logcdf = nb_logcdf, .logsf = nb_logsf, .quantile_upper = nb_quantile_upper,
   .quantile = nb_quantile, .phi_ml = NULL, .loglik_unit = NULL
 };

@@ -8,6 +8,7 @@
 #include <gsl/gsl_sf_gamma.h>
 #include "family.h"
 #include "family_impl.h"
+#include "family_tails.h"
 
 /* V = mu, d = 2 [y log(y/mu) - (y - mu)],
    log P = a [y log mu - mu - lgamma(y + 1)] (prior weights multiply the log-likelihood) */
@@ -35,6 +36,27 @@ poi_cdf (double y, double mu, double a, double phi, double par, int form)
   return y >= 0.0 ? gsl_cdf_poisson_P ((unsigned) y, mu) : 0.0;
 }
 
+/* log P(Y <= k) = log Q(k + 1, mu) and log P(Y > k) = log P(k + 1, mu), k = floor(y), the
+   regularized incomplete gamma functions (Abramowitz & Stegun 26.4.21) in log space */
+static double
+poi_logcdf (double y, double mu, double a, double phi, double par, int form)
+{
+  (void) a; (void) phi; (void) par; (void) form;
+  return y >= 0.0 ? bl_tail_gamma_logQ (floor (y) + 1.0, mu) : -HUGE_VAL;
+}
+static double
+poi_logsf (double y, double mu, double a, double phi, double par, int form)
+{
+  (void) a; (void) phi; (void) par; (void) form;
+  return y >= 0.0 ? bl_tail_gamma_logP (floor (y) + 1.0, mu) : 0.0;
+}
+static double
+poi_quantile_upper (double q, double mu, double a, double phi, double par)
+{
+  const double k = floor (mu + gsl_cdf_ugaussian_Qinv (q) * sqrt (mu));
+  return bl_family_discrete_quantile_upper (&bl_family_poisson, q, k, mu, a, phi, par);
+}
+
 /* Smallest k with P(X <= k) >= P for X Poisson(MU), from the normal approximation
    mu + z_p sqrt(mu) (common practice, no source). */
 static double
@@ -57,5 +79,6 @@ const bl_family bl_family_poisson = {
   .quantile_mu_max = (double) UINT_MAX / 4.0,     /* GSL's poisson CDF takes an unsigned k */
   .y_ok = bl_family_y_nonneg, .valid_mu = bl_family_mu_pos, .mustart = poi_start,
   .var = poi_var, .unit_dev = poi_dev, .logpdf = poi_logpdf, .cdf = poi_cdf,
+  .logcdf = poi_logcdf, .logsf = poi_logsf, .quantile_upper = poi_quantile_upper,
   .quantile = poi_quantile, .phi_ml = NULL, .loglik_unit = NULL
 };

@@ -8,6 +8,7 @@
 #include <gsl/gsl_sf_gamma.h>
 #include "family.h"
 #include "family_impl.h"
+#include "family_tails.h"
 #include "tweedie.h"
 
 static double
@@ -105,6 +106,57 @@ bl_tweedie_cdf (double y, double mu, double phi, double p)
   return s > 1.0L ? 1.0 : (double) s;
 }
 
+/*
+ * The two tails of the same compound sum in log space:
+ *   log P(Y <= y) = log [ e^-lambda + sum_{n>=1} w_n P(n alpha, y / gamma) ],
+ *   log P(Y > y)  = log sum_{n>=1} w_n Q(n alpha, y / gamma),     w_n = e^-lambda lambda^n / n!,
+ * each term's log from the log incomplete gamma (family_tails.c), summed by log-add-exp
+ * (every term is positive: no cancellation).  Terms are skipped while log w_n is more than
+ * 40 below the running sum (the gamma factor is at most 1), and the sum stops past the
+ * Poisson mode once they stay so (w_n then falls faster than geometrically), so the far
+ * upper tail, carried by many jumps, keeps summing as far as it must (Jorgensen 1997,
+ * section 4.2, for the representation).  UPPER selects the tail.
+ */
+static double
+tweedie_logtail (double y, double mu, double phi, double p, int upper)
+{
+  const double lam = exp ((2.0 - p) * log (mu)) / (phi * (2.0 - p));
+  const double alpha = (2.0 - p) / (p - 1.0), gam = phi * (p - 1.0) * exp ((p - 1.0) * log (mu));
+  const double loglam = log (lam), x = y / gam;
+  double acc = upper ? -HUGE_VAL : -lam;
+  for (double nn = 1.0; nn <= (double) BL_TWEEDIE_TERMS_MAX + lam; nn += 1.0) {
+    const double lw = -lam + nn * loglam - lgam (nn + 1.0);
+    if (lw < acc - 40.0) {
+      if (nn > lam)
+        break;
+      continue;
+    }
+    acc = bl_tail_logaddexp (acc, lw + (upper ? bl_tail_gamma_logQ (nn * alpha, x)
+                                              : bl_tail_gamma_logP (nn * alpha, x)));
+  }
+  return acc;
+}
+
+double
+bl_tweedie_logcdf (double y, double mu, double phi, double p)
+{
+  if (!(y >= 0.0))
+    return -HUGE_VAL;
+  if (y == 0.0)
+    return -exp ((2.0 - p) * log (mu)) / (phi * (2.0 - p));
+  return tweedie_logtail (y, mu, phi, p, 0);
+}
+
+double
+bl_tweedie_logsf (double y, double mu, double phi, double p)
+{
+  if (!(y >= 0.0))
+    return 0.0;
+  if (y == 0.0)
+    return bl_tail_log1mexp (-exp ((2.0 - p) * log (mu)) / (phi * (2.0 - p)));
+  return tweedie_logtail (y, mu, phi, p, 1);
+}
+
 double
 bl_tweedie_quantile (double prob, double mu, double phi, double p)
 {
@@ -141,6 +193,23 @@ tw_cdf (double y, double mu, double a, double phi, double p, int form)
   return bl_tweedie_cdf (y, mu, phi / a, p);
 }
 static double
+tw_logcdf (double y, double mu, double a, double phi, double p, int form)
+{
+  (void) form;
+  return bl_tweedie_logcdf (y, mu, phi / a, p);
+}
+static double
+tw_logsf (double y, double mu, double a, double phi, double p, int form)
+{
+  (void) form;
+  return bl_tweedie_logsf (y, mu, phi / a, p);
+}
+static double
+tw_quantile_upper (double q, double mu, double a, double phi, double p)
+{
+  return bl_family_sf_bisect (&bl_family_tweedie, q, mu, mu, a, phi, p);
+}
+static double
 tw_quantile (double prob, double mu, double a, double phi, double p)
 {
   return bl_tweedie_quantile (prob, mu, phi / a, p);
@@ -157,5 +226,6 @@ const bl_family bl_family_tweedie = {
   .par_kind = BL_FAMPAR_POWER, .phi_free = 1, .discrete = 0, .var_power = NAN,
   .y_ok = bl_family_y_nonneg, .valid_mu = bl_family_mu_pos, .mustart = tw_start,
   .var = tw_var, .unit_dev = tw_dev, .logpdf = tw_logpdf, .cdf = tw_cdf,
+  .logcdf = tw_logcdf, .logsf = tw_logsf, .quantile_upper = tw_quantile_upper,
   .quantile = tw_quantile, .phi_ml = bl_family_phi_dev_n, .loglik_unit = NULL
 };

@@ -236,7 +236,8 @@ BL_API const double *bl_fit_y_original (const bl_fit *fit);
 typedef struct bl_nested {
   char terms[1024];            /* the smaller model's terms, canonical text */
   const char *form;            /* "chisq" (dispersion fixed) or "F" (dispersion estimated) */
-  double stat, p;
+  double stat, p;              /* p: the upper tail as its double (0 below 4.9e-324) */
+  double log10_p;              /* log10 p from the log-space tail (family_tails.h) */
   size_t dof, dof2;            /* dof2: the F test's denominator dof (0 for chisq) */
   double deviance_small, deviance_big;
 } bl_nested;

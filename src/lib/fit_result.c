@@ -7,6 +7,7 @@
 #include <stdio.h>
 #include <string.h>
 #include <gsl/gsl_cdf.h>
+#include "family_tails.h"
 #include "alloc.h"
 #include "fit_impl.h"
 
@@ -185,10 +186,11 @@ bl_fit_wald_table (bl_fit *f)
     }
     f->se[j] = sqrt (f->cov[j + j * p]);
     f->wald[j] = (f->se[j] > 0.0) ? f->beta[j] / f->se[j] : NAN;
+    /* the two-sided p from the upper tail in log space (family_tails.c): its double is
+       right through the subnormals instead of 0 from |z| = 37.5 on */
     if (isfinite (f->wald[j]))
-      f->pval[j] = st->wald_is_t
-                   ? 2.0 * gsl_cdf_tdist_Q (fabs (f->wald[j]), (double) st->dof_resid)
-                   : 2.0 * gsl_cdf_ugaussian_Q (fabs (f->wald[j]));
+      f->pval[j] = exp (bl_tail_t_logp2 (f->wald[j], st->wald_is_t ? (double) st->dof_resid
+                                                                    : HUGE_VAL));
     else
       f->pval[j] = NAN;
     f->lo[j] = f->beta[j] - q * f->se[j];

@@ -5,6 +5,7 @@
 #include <gsl/gsl_cdf.h>
 #include "alloc.h"
 #include "fit.h"
+#include "family_tails.h"
 
 /* The test of the fitted smaller model FS against BIG (FO the fits' options) into OUT:
    the likelihood ratio when the family's parameter was estimated in each, the deviance
@@ -32,21 +33,24 @@ nested_stat (const bl_fit *big, const bl_fit *fs, const bl_fit_opts *fo, bl_nest
     const double lr = 2.0 * (sb->loglik - ss->loglik);
     out->form = "chisq";
     out->stat = lr;
-    out->p = isfinite (lr) ? gsl_cdf_chisq_Q (lr > 0.0 ? lr : 0.0, (double) out->dof) : NAN;
+    out->log10_p = isfinite (lr) ? bl_tail_chisq_logQ (lr > 0.0 ? lr : 0.0, (double) out->dof)
+                                   / M_LN10 : NAN;
   } else if (!bl_family_has (bl_fit_family (big), BL_FAM_PHI_FREE)
              && !fo->dispersion_pearson) {
     out->form = "chisq";
     out->stat = dd;
-    out->p = gsl_cdf_chisq_Q (dd > 0.0 ? dd : 0.0, (double) out->dof);
+    out->log10_p = bl_tail_chisq_logQ (dd > 0.0 ? dd : 0.0, (double) out->dof) / M_LN10;
   } else {
     out->form = "F";
     out->dof2 = sb->dof_resid;
     out->stat = (dd / (double) out->dof) / sb->phi_pearson;
-    out->p = out->dof2 > 0 && isfinite (out->stat)
-             ? gsl_cdf_fdist_Q (out->stat > 0.0 ? out->stat : 0.0, (double) out->dof,
-                                (double) out->dof2)
-             : NAN;
+    out->log10_p = out->dof2 > 0 && isfinite (out->stat)
+                   ? bl_tail_f_logQ (out->stat > 0.0 ? out->stat : 0.0, (double) out->dof,
+                                     (double) out->dof2) / M_LN10
+                   : NAN;
   }
+  /* p as its double from the log-space upper tail (0 only below 4.9e-324), log10 p beside */
+  out->p = exp (out->log10_p * M_LN10);
   return BL_OK;
 }
 

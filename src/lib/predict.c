@@ -235,7 +235,8 @@ quantile_row (const bl_model *m, double q, double alpha, double eta, double mu, 
               double a, double v, const char *w, double *lo, double *hi, bl_err *err)
 {
   const bl_family *f = m->fam;
-  const double p1 = alpha / 2.0, p2 = 1.0 - alpha / 2.0;
+  const double p1 = alpha / 2.0;   /* each end's tail probability; the upper end from the
+                                      upper tail, never at 1 - alpha/2, which rounds */
   if (bl_family_has (f, BL_FAM_NORMAL)) {
     const double dmu = m->link->dmu_deta (eta);
     const double sp = sqrt (m->phi_pearson * v / a + dmu * dmu * se * se);
@@ -247,7 +248,7 @@ quantile_row (const bl_model *m, double q, double alpha, double eta, double mu, 
       return bl_fail (err, BL_EDATA, w, "the predicted mean %g is too large for %s "
                       "quantiles", mu, bl_family_noun (f));
     *lo = bl_family_quantile (f, p1, mu, a, m->phi_ml, m->fam_par);
-    *hi = bl_family_quantile (f, p2, mu, a, m->phi_ml, m->fam_par);
+    *hi = bl_family_quantile_upper (f, p1, mu, a, m->phi_ml, m->fam_par);
   }
   return BL_OK;
 }
@@ -511,9 +512,10 @@ bl_model_predict (const bl_model *m, const bl_table *t, double level, bl_err *er
   ps.d = d;
   ps.alpha = 1.0 - level;
   /* q: t on dof_resid when the fit's Wald statistics are t (phi estimated), else normal. */
-  ps.q = m->wald_is_t && m->dof_resid > 0 ? gsl_cdf_tdist_Pinv (1.0 - ps.alpha / 2.0,
+  /* q from the upper tail alpha/2 (1 - alpha/2 rounds to 1 at a level of 1 - 1e-17) */
+  ps.q = m->wald_is_t && m->dof_resid > 0 ? gsl_cdf_tdist_Qinv (ps.alpha / 2.0,
                                                                 (double) m->dof_resid)
-                                          : gsl_cdf_ugaussian_Pinv (1.0 - ps.alpha / 2.0);
+                                          : gsl_cdf_ugaussian_Qinv (ps.alpha / 2.0);
   ps.off = bl_design_offset (d);
   ps.y = bl_design_y (d);
   ps.aw = bl_design_prior_w (d);

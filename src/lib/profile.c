@@ -136,5 +136,5 @@ bl_profile_interval (bl_profile_fn f, void *arg, const double *grid, const doubl
 double
 bl_profile_threshold (double top, double level)
 {
-  return top - 0.5 * gsl_cdf_chisq_Pinv (level, 1.0);
+  return top - 0.5 * gsl_cdf_chisq_Qinv (1.0 - level, 1.0);   /* from the upper tail */
 }

@@ -13,10 +13,12 @@ test_json (bl_json *w, const char *key, const bl_diag_test *t)
     bl_json_num (w, "stat", t->stat);
     bl_json_size (w, "dof", t->dof);
     bl_json_num (w, "p", t->p);
+    bl_json_num (w, "log10_p", t->log10_p);
   } else {
     bl_json_null (w, "stat");
     bl_json_null (w, "dof");
     bl_json_null (w, "p");
+    bl_json_null (w, "log10_p");
     bl_json_str (w, "skipped", t->why);
   }
   bl_json_obj_end (w);
@@ -92,6 +94,7 @@ bl_report_diag_json (FILE *out, const bl_fit *fit, const bl_diag *dg,
     bl_json_size (&w, "dof", b->dof);
     bl_json_size (&w, "dof2", b->dof2);
     bl_json_num (&w, "p", b->p);
+    bl_json_num (&w, "log10_p", b->log10_p);
     bl_json_arr (&w, "groups");
     for (size_t g = 0; g < b->ngroups; g++) {
       bl_json_obj (&w, NULL);
@@ -130,8 +133,11 @@ bl_report_diag_json (FILE *out, const bl_fit *fit, const bl_diag *dg,
 static void
 test_text (FILE *o, const char *name, const bl_diag_test *t)
 {
-  if (t->done)
+  if (t->done && !(t->p < 1e-300))
     fprintf (o, "    %-34s %12.4f   dof %-4zu   p %.4g\n", name, t->stat, t->dof, t->p);
+  else if (t->done)                 /* p beyond the doubles' reach: its log10 (log space) */
+    fprintf (o, "    %-34s %12.4f   dof %-4zu   p < 1e-300 (log10 p = %.1f)\n", name,
+             t->stat, t->dof, t->log10_p);
   else
     fprintf (o, "    %-34s %12s   (%s)\n", name, "--", t->why);
 }

@@ -229,6 +229,7 @@ bl_report_fit_json (FILE *out, const bl_fit *fit, const bl_report_info *info, bl
     if (a->dof2)
       bl_json_size (&w, "dof2", a->dof2);
     bl_json_num (&w, "p", a->p);
+    bl_json_num (&w, "log10_p", a->log10_p);
     bl_json_str (&w, "form", a->form);
     bl_json_num (&w, "deviance_small", a->deviance_small);
     bl_json_num (&w, "deviance_big", a->deviance_big);

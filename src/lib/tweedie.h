@@ -19,6 +19,10 @@ double bl_tweedie_logpdf (double y, double mu, double phi, double p);
    gamma = phi (p-1) mu^(p-1) (the compound Poisson-gamma representation; Jorgensen 1997,
    section 4.2).  The sum runs over N until the Poisson weights are negligible. */
 double bl_tweedie_cdf (double y, double mu, double phi, double p);
+/* log P(Y <= y) and log P(Y > y) by the same sum in log space, each accurate where it is
+   small (family_tweedie.c). */
+double bl_tweedie_logcdf (double y, double mu, double phi, double p);
+double bl_tweedie_logsf (double y, double mu, double phi, double p);
 /* The P quantile: 0 when P <= P(Y = 0), else by bisection on the CDF. */
 double bl_tweedie_quantile (double prob, double mu, double phi, double p);
 
