@@ -547,16 +547,31 @@ advise_winner (bl_compare *c, const bl_compare_opts *opt, bl_err *err)
   bl_diag_opts dopt;
   bl_diag *dg;
   int st;
-  if (ADVISE ("ranked first by %s: %s (%s)", c->integer_y ? "the discretized AIC" : "AIC",
-              w->id, w->description) != BL_OK)
-    return BL_ENOMEM;
-  for (size_t i = 0; i < c->nc; i++)
-    if ((long) i != c->winner && isfinite (c->c[i].delta_aic)
-        && c->c[i].delta_aic < BL_COMPARE_DELTA
-        && ADVISE ("%s is within %g of the winner (delta %.3g): the data do not separate "
-                   "them; prefer the simpler or the one that predicts better", c->c[i].id,
-                   BL_COMPARE_DELTA, c->c[i].delta_aic) != BL_OK)
+  /* with exact zeros the deltas are within each ranking group (rank_all), so the ties are
+     spoken of within the winner's group only, and the line says which group that is */
+  if (c->zero_groups) {
+    if (ADVISE ("ranked first by %s within the %s group, which holds the recommendation: %s "
+                "(%s)", c->integer_y ? "the discretized AIC" : "AIC", w->group, w->id,
+                w->description) != BL_OK)
       return BL_ENOMEM;
+  } else if (ADVISE ("ranked first by %s: %s (%s)", c->integer_y ? "the discretized AIC"
+                     : "AIC", w->id, w->description) != BL_OK) {
+    return BL_ENOMEM;
+  }
+  for (size_t i = 0; i < c->nc; i++) {
+    if ((long) i == c->winner || !isfinite (c->c[i].delta_aic)
+        || c->c[i].delta_aic >= BL_COMPARE_DELTA
+        || (c->zero_groups && strcmp (c->c[i].group, w->group) != 0))
+      continue;
+    if (c->zero_groups
+        ? ADVISE ("%s is within %g of the winner in the %s group (delta %.3g): the data do "
+                  "not separate them; prefer the simpler or the one that predicts better",
+                  c->c[i].id, BL_COMPARE_DELTA, w->group, c->c[i].delta_aic)
+        : ADVISE ("%s is within %g of the winner (delta %.3g): the data do not separate "
+                  "them; prefer the simpler or the one that predicts better", c->c[i].id,
+                  BL_COMPARE_DELTA, c->c[i].delta_aic))
+      return BL_ENOMEM;
+  }
   if (w->spread_flag
       && ADVISE ("the winner's residual spread still changes across the fitted range (ratio "
                  "%.3g, above its null 95%% point %.3g): its variance model does not fully "

@@ -57,6 +57,10 @@ typedef struct bl_power {
   double estimate, se, lo, hi;      /* slope and its 95% interval */
   size_t groups_used, groups_left_out;
   const char *suggested;            /* "gaussian", "poisson", "gamma", "inverse-gaussian" */
+  double suggested_power;           /* its K (0, 1, 2, 3) */
+  int suggested_outside;            /* 1: that K lies outside [lo, hi] */
+  const char *mean_model;           /* the fit the residuals came from: "gamma/log" (y > 0),
+                                       "poisson/log" (counts), or "model" (the fit's own) */
   const char *why;
   /* The points of the log-log mean-variance plot, groups_used of them in order of fitted
      value: log of the group's mean fitted value and log of its mean squared raw residual;

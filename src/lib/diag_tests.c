@@ -244,18 +244,14 @@ done:
 /* The variance power: groups of at least 20 rows by fitted value (at least 10 groups); the
    least-squares slope of log(mean squared raw residual) on log(mean fitted) estimates K in
    Var y = c mu^K (the log-log mean-variance plot; e.g. McCullagh & Nelder 1989, section
-   12.6, from memory); groups with mean fitted <= 0 are left out and counted. */
-int
-bl_diag_variance_power (const bl_fit *f, int integer_y, bl_power *pw, bl_err *err)
+   12.6, from memory); groups with mean fitted <= 0 are left out and counted.  Y and MU: the
+   N responses and the fitted means of the mean model chosen below. */
+static int
+power_from (const double *y, const double *mu, size_t n, int integer_y, bl_power *pw,
+            bl_err *err)
 {
-  const size_t n = bl_fit_n (f);
-  const double *y = bl_fit_y (f), *mu = bl_fit_mu (f);
   size_t G = n / BL_DIAG_MIN_GROUP, *order, m = 0;
   double gx[BL_DIAG_POWER_MAX_GROUPS], gy[BL_DIAG_POWER_MAX_GROUPS];
-  memset (pw, 0, sizeof *pw);
-  pw->estimate = pw->se = pw->lo = pw->hi = pw->intercept = NAN;
-  pw->why = "";
-  pw->suggested = NULL;
   if (G > BL_DIAG_POWER_MAX_GROUPS)
     G = BL_DIAG_POWER_MAX_GROUPS;
   if (G < BL_DIAG_POWER_MIN_GROUPS) {
@@ -337,10 +333,63 @@ bl_diag_variance_power (const bl_fit *f, int integer_y, bl_power *pw, bl_err *er
       if (fabs (pw->estimate - K) < best) {
         best = fabs (pw->estimate - K);
         pw->suggested = bl_family_name (fam);
+        pw->suggested_power = K;
       }
     }
+    pw->suggested_outside = !(pw->lo <= pw->suggested_power && pw->suggested_power <= pw->hi);
   }
   return BL_OK;
+}
+
+/*
+ * The mean model the variance power is read from.  The residuals of a mean that is wrong
+ * in form carry its lack of fit into the squared residuals, and a straight-line mean of
+ * positive, skewed data bends K down (gamma data, true K = 2, give 1.45 under OLS).  So for
+ * y > 0 everywhere the mean is a gamma fit with the log link of the same design (terms,
+ * offset, prior weights), and for counts (whole numbers >= 0) a poisson fit with the log
+ * link: both keep every fitted mean positive and their estimating equations do not depend
+ * on K being right (the quasi-likelihood argument: Wedderburn 1974, Biometrika 61, 439-447;
+ * McCullagh & Nelder 1989, section 9.2), so the mean is consistent whatever the variance.
+ * Otherwise, or when that fit does not converge, the model's own fitted means are used; the
+ * choice is in pw->mean_model.
+ */
+int
+bl_diag_variance_power (const bl_fit *f, int integer_y, bl_power *pw, bl_err *err)
+{
+  const bl_design *d = bl_fit_design (f);
+  const size_t n = bl_design_n (d);
+  const double *y = bl_design_y (d);
+  int positive = n > 0, st;
+  bl_fit *g = NULL;
+  memset (pw, 0, sizeof *pw);
+  pw->estimate = pw->se = pw->lo = pw->hi = pw->intercept = pw->suggested_power = NAN;
+  pw->why = "";
+  pw->suggested = NULL;
+  pw->mean_model = "model";
+  for (size_t i = 0; i < n && positive; i++)
+    positive = y[i] > 0.0;
+  if (integer_y || positive) {
+    bl_fit_opts fo;
+    bl_err e2 = { 0 };
+    bl_fit_opts_init (&fo);
+    fo.method = BL_METHOD_GLM;
+    fo.fam = integer_y ? &bl_family_poisson : &bl_family_gamma;
+    fo.link = &bl_link_log;
+    g = bl_fit_new (d, &fo, &e2);
+    if (!g && e2.code == BL_ENOMEM)
+      return bl_fail (err, BL_ENOMEM, "diagnose", "out of memory");
+    if (g && bl_fit_stats_get (g)->converged)
+      pw->mean_model = integer_y ? "poisson/log" : "gamma/log";
+    else
+      pw->mean_model = integer_y ? "model (the poisson/log fit did not converge)"
+                                 : "model (the gamma/log fit did not converge)";
+  }
+  if (g && bl_fit_stats_get (g)->converged)
+    st = power_from (bl_design_y (d), bl_fit_mu (g), n, integer_y, pw, err);
+  else
+    st = power_from (bl_fit_y (f), bl_fit_mu (f), bl_fit_n (f), integer_y, pw, err);
+  bl_fit_free (g);
+  return st;
 }
 
 /* Lack of fit: Pearson residual means in bins of the fitted value and of each numeric column

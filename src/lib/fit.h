@@ -159,6 +159,9 @@ typedef struct bl_fit_stats {
   const char *solver;             /* "qr-extended" or "qr-streamed" */
   const char *se_kind;            /* "model", "pearson", "hc0" ... "hc3", "cluster" */
   size_t clusters;                /* BL_SE_CLUSTER: the number of clusters */
+  size_t dof_wald;                /* reference dof of every coefficient's t statistic and
+                                     interval: dof_resid, or clusters - 1 with cluster
+                                     standard errors; 0 when the reference is normal (z) */
 } bl_fit_stats;
 
 /* Fit the model OPT describes to the rows and columns of D: a GLM by IRLS, OLS, weighted least
@@ -240,6 +243,10 @@ typedef struct bl_nested {
   double log10_p;              /* log10 p from the log-space tail (family_tails.h) */
   size_t dof, dof2;            /* dof2: the F test's denominator dof (0 for chisq) */
   double deviance_small, deviance_big;
+  double loglik_small, loglik_big;  /* each maximized over every parameter of its model */
+  double fam_par_small, fam_par_big;  /* theta or the power in each fit; NAN without one */
+  const char *statistic;       /* what stat is: "likelihood-ratio", "deviance-difference"
+                                  or "deviance-F" */
 } bl_nested;
 
 /* Fit the model with SMALL's terms (and the intercept, offset and weights of BIG's design,
@@ -250,7 +257,8 @@ typedef struct bl_nested {
    dispersion, on (dof, n - rank_big).  When the family's parameter (negative binomial theta,
    Tweedie power) is estimated in each model, the deviances are at different parameter
    values, so the statistic is the likelihood ratio 2 (l_big - l_small), chi-square on the
-   rank difference.
+   rank difference; the two deviances are then reported for information only, each at its
+   own model's parameter.  Both log-likelihoods are always given.
    Errors: BL_ESPEC when the smaller model is not nested (a column of it is not a column of
    BIG, or its rank is not smaller), BL_EDATA when it cannot be fitted on BIG's rows,
    BL_ENOCONV, BL_ENOMEM. */

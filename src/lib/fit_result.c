@@ -166,16 +166,27 @@ nomem:
 }
 
 /* Wald table from f->cov: z = beta / se; p two-sided; interval beta -/+ q se with q the
-   normal or t (on dof_resid) quantile at (1 + level) / 2. */
+   normal or t quantile at (1 + level) / 2.  The t reference has dof_resid degrees of freedom,
+   or G - 1 with cluster standard errors (G clusters), whatever the family: the sum of G
+   cluster scores carries at most G - 1 free directions, and t on G - 1 with the CR1 factor
+   is the usual small-sample practice (Bell & McCaffrey 2002, Survey Methodology 28,
+   169-181; Cameron & Miller 2015, J. Human Resources 50, 317-372, section VI.B; from
+   memory). */
 void
 bl_fit_wald_table (bl_fit *f)
 {
-  const bl_fit_stats *st = &f->st;
+  bl_fit_stats *st = &f->st;
   const size_t p = f->p;
   double q = NAN;
+  if (st->se_kind && !strcmp (st->se_kind, "cluster") && st->clusters >= 2) {
+    st->wald_is_t = 1;
+    st->dof_wald = st->clusters - 1;
+  } else {
+    st->dof_wald = st->wald_is_t ? st->dof_resid : 0;
+  }
   if (st->wald_is_t) {
-    if (st->dof_resid > 0)
-      q = gsl_cdf_tdist_Qinv ((1.0 - st->level) / 2.0, (double) st->dof_resid);
+    if (st->dof_wald > 0)
+      q = gsl_cdf_tdist_Qinv ((1.0 - st->level) / 2.0, (double) st->dof_wald);
   } else {
     q = gsl_cdf_ugaussian_Qinv ((1.0 - st->level) / 2.0);
   }
@@ -189,7 +200,7 @@ bl_fit_wald_table (bl_fit *f)
     /* the two-sided p from the upper tail in log space (family_tails.c): its double is
        right through the subnormals instead of 0 from |z| = 37.5 on */
     if (isfinite (f->wald[j]))
-      f->pval[j] = exp (bl_tail_t_logp2 (f->wald[j], st->wald_is_t ? (double) st->dof_resid
+      f->pval[j] = exp (bl_tail_t_logp2 (f->wald[j], st->wald_is_t ? (double) st->dof_wald
                                                                     : HUGE_VAL));
     else
       f->pval[j] = NAN;

@@ -24,6 +24,10 @@ nested_stat (const bl_fit *big, const bl_fit *fs, const bl_fit_opts *fo, bl_nest
   out->dof = sb->rank - ss->rank;
   out->deviance_small = ss->deviance;
   out->deviance_big = sb->deviance;
+  out->loglik_small = ss->loglik;
+  out->loglik_big = sb->loglik;
+  out->fam_par_small = bl_family_par_name (bl_fit_family (big)) ? ss->fam_par : NAN;
+  out->fam_par_big = bl_family_par_name (bl_fit_family (big)) ? sb->fam_par : NAN;
   if (bl_family_par_name (bl_fit_family (big)) && fo->fam_par_est) {
     /* The family's parameter (negative binomial theta, the Tweedie power) is estimated in
        each model separately, so the two deviances are measured at different parameters and
@@ -32,16 +36,19 @@ nested_stat (const bl_fit *big, const bl_fit *fs, const bl_fit_opts *fo, bl_nest
        60-62; the parameter is common to both models and cancels from the dof). */
     const double lr = 2.0 * (sb->loglik - ss->loglik);
     out->form = "chisq";
+    out->statistic = "likelihood-ratio";
     out->stat = lr;
     out->log10_p = isfinite (lr) ? bl_tail_chisq_logQ (lr > 0.0 ? lr : 0.0, (double) out->dof)
                                    / M_LN10 : NAN;
   } else if (!bl_family_has (bl_fit_family (big), BL_FAM_PHI_FREE)
              && !fo->dispersion_pearson) {
     out->form = "chisq";
+    out->statistic = "deviance-difference";
     out->stat = dd;
     out->log10_p = bl_tail_chisq_logQ (dd > 0.0 ? dd : 0.0, (double) out->dof) / M_LN10;
   } else {
     out->form = "F";
+    out->statistic = "deviance-F";
     out->dof2 = sb->dof_resid;
     out->stat = (dd / (double) out->dof) / sb->phi_pearson;
     out->log10_p = out->dof2 > 0 && isfinite (out->stat)

@@ -14,9 +14,8 @@
      mapped back (McCullagh & Nelder 1989, Generalized Linear Models, 2nd ed., section 4.4;
      for the identity link this is x'b -/+ t se);
    - mean, transformed response: Duan's (1983, JASA 78, 605-610) smeared mean
-     m(xb) = (1/n) sum h^-1(xb + e_i) - shift, with the delta-method interval
-     m -/+ q |m'(xb)| se (delta method: e.g. Casella & Berger 2002, Statistical Inference,
-     section 5.5.4);
+     m(xb) = (1/n) sum h^-1(xb + e_i) - shift, with a delta-method interval that takes in
+     both the coefficients' and the smearing mean's uncertainty (smear_variance below);
    - new observation, gaussian (OLS, WLS, gaussian GLM): mu -/+ t sqrt(s^2 v / a + (dmu/deta)^2
      se^2), s^2 the Pearson dispersion, v the variance function's value (1; x^K; mu^K) and
      a the prior weight (the textbook interval: e.g. Draper & Smith 1998, Applied Regression
@@ -357,19 +356,66 @@ linear_row (const bl_model *m, const double *X, size_t i, double off, double *et
   *se = xvx > 0.0L ? sqrt ((double) xvx) : 0.0;
 }
 
+/*
+ * The variance of Duan's smeared mean m(xb) = (1/n) sum h^-1(xb + e_i) (Duan 1983, JASA 78,
+ * 605-610), by the delta method over both sources: the coefficients and the smearing mean.
+ * With e_i = eps_i - x_i'(b^ - b), m^ - m ~ D x0'd + (S0 - S) - D xbar'd, where d = b^ - b,
+ * D = m'(xb) = (1/n) sum (h^-1)'(xb + e_i), S0 the mean over the true errors and xbar the
+ * mean row of X.  With an intercept, (X'X)^-1 X'1 is the unit vector of the intercept, so
+ * Cov(d, S0) = c e_1 / n (c = Cov(eps, h^-1(xb + eps))) and (x0 - xbar)'e_1 = 0: the cross
+ * term vanishes, xbar' V xbar = s^2 / n and x0' V xbar = s^2 / n, leaving
+ *   Var m^ = D^2 (se^2 - s^2 / n) + var_i h^-1(xb + e_i) / n,
+ * se^2 = x0' V x0 and s^2 the residual variance (phi_pearson).  For the log,
+ * Var(log m^) = se^2 + (var(exp e) / mean(exp e)^2 - s^2) / n.  Without an intercept the
+ * cross term does not reduce, and the two variances are added without it (an
+ * approximation; doc/methods.md, section 10).  The variance over i is taken over the kept
+ * residuals (all of them up to BL_MODEL_RESIDUALS_MAX, else every stride-th).  Derivation:
+ * the delta method (Casella & Berger 2002, Statistical Inference, section 5.5.4) applied to
+ * the smearing estimate; the result agrees with Duan's own large-sample variance of the
+ * smearing estimate (1983, section 4, from memory).
+ */
+static double
+smear_variance (const bl_model *m, double xb, double deriv, double se)
+{
+  const double n = (double) (m->smear_n ? m->smear_n : m->nres);
+  long double s1 = 0.0L, s2 = 0.0L, mean;
+  double vh, lin;
+  for (size_t i = 0; i < m->nres; i++)
+    s1 += inverse_transform (m, xb + m->res[i]);
+  mean = s1 / (long double) m->nres;
+  for (size_t i = 0; i < m->nres; i++) {
+    const long double dv = (long double) inverse_transform (m, xb + m->res[i]) - mean;
+    s2 += dv * dv;
+  }
+  vh = m->nres > 1 ? (double) (s2 / (long double) (m->nres - 1)) : 0.0;
+  lin = se * se - (m->intercept ? m->phi_pearson / n : 0.0);
+  if (lin < 0.0)
+    lin = 0.0;
+  return deriv * deriv * lin + vh / n;
+}
+
 /* Transformed response: the smeared mean with its delta-method interval, and the
-   transformed-scale interval mapped back; the median is the naive back-transform. */
+   transformed-scale interval mapped back; the median is the naive back-transform.  For the
+   log the mean interval is formed on the log scale, m exp(-/+ q sd(log m^)), which keeps it
+   positive and follows the skew of m^; for the others m -/+ q sd(m^). */
 static void
 transformed_row (const pass *ps, size_t row, double eta, double se, double a)
 {
   const bl_model *m = ps->m;
   bl_prediction *pr = ps->pr;
   const double q = ps->q, sp = sqrt (m->phi_pearson / a + se * se);
-  double mu, deriv;
+  double mu, deriv, var;
   smeared (m, eta, &mu, &deriv);
+  var = smear_variance (m, eta, deriv, se);
   pr->mean[row] = mu;
-  pr->mean_lo[row] = mu - q * fabs (deriv) * se;
-  pr->mean_hi[row] = mu + q * fabs (deriv) * se;
+  if (m->tr == BL_TRANSFORM_LOG && mu + m->shift > 0.0) {
+    const double sdl = sqrt (var) / (mu + m->shift);
+    pr->mean_lo[row] = (mu + m->shift) * exp (-q * sdl) - m->shift;
+    pr->mean_hi[row] = (mu + m->shift) * exp (q * sdl) - m->shift;
+  } else {
+    pr->mean_lo[row] = mu - q * sqrt (var);
+    pr->mean_hi[row] = mu + q * sqrt (var);
+  }
   pr->pred_lo[row] = inverse_transform (m, eta - q * sp) - m->shift;
   pr->pred_hi[row] = inverse_transform (m, eta + q * sp) - m->shift;
   pr->median[row] = inverse_transform (m, eta) - m->shift;

@@ -67,8 +67,12 @@ bl_report_diag_json (FILE *out, const bl_fit *fit, const bl_diag *dg,
   bl_json_num (&w, "hi", r->power.hi);
   bl_json_size (&w, "groups_used", r->power.groups_used);
   bl_json_size (&w, "groups_left_out", r->power.groups_left_out);
-  if (!r->power.done)
+  bl_json_str (&w, "mean_model", r->power.mean_model);
+  if (r->power.done) {
+    bl_json_bool (&w, "suggested_outside", r->power.suggested_outside);
+  } else {
     bl_json_str (&w, "why_null", r->power.why);
+  }
   bl_json_obj_end (&w);
   bl_json_str (&w, "suggested_family", r->power.suggested);
   if (info->against) {            /* the nested test (--against), as fit reports it */
@@ -184,7 +188,7 @@ bl_report_diag_text (FILE *o, const bl_fit *fit, const bl_diag *dg,
   }
   if (info->by) {
     const bl_bf *b = info->by;
-    fprintf (o, "\n  Spread by '%s' (Brown-Forsythe): F = %.4g on %zu and %zu dof, p %.4g\n",
+    fprintf (o, "\n  Spread by '%s' (Brown-Forsythe): F = %.4g (dof %zu, %zu), p %.4g\n",
              b->column, b->stat, b->dof, b->dof2, b->p);
     fprintf (o, "    %-20s %8s %14s %16s\n", "level", "rows", "median resid", "mean |r - med|");
     for (size_t g = 0; g < b->ngroups; g++)
@@ -201,14 +205,25 @@ bl_report_diag_text (FILE *o, const bl_fit *fit, const bl_diag *dg,
       fprintf (o, "chi2 = %.4g on %zu dof, p %.4g\n", a->stat, a->dof, a->p);
   }
   fputs ("\n  How the variance grows with the mean\n", o);
-  if (r->power.done)
+  if (r->power.done) {
     fprintf (o, "    power K in Var = c mu^K: %.3g (se %.3g, 95%% interval %.3g to %.3g) from "
-             "%zu groups%s\n    nearest family: %s\n", r->power.estimate, r->power.se,
-             r->power.lo, r->power.hi, r->power.groups_used,
-             r->power.groups_left_out ? " (some left out: mean fitted <= 0)" : "",
-             r->power.suggested);
-  else
+             "%zu groups%s\n", r->power.estimate, r->power.se, r->power.lo, r->power.hi,
+             r->power.groups_used,
+             r->power.groups_left_out ? " (some left out: mean fitted <= 0)" : "");
+    fprintf (o, "    residuals from: %s\n", !strcmp (r->power.mean_model, "model")
+             ? "this model's fitted means" : !strcmp (r->power.mean_model, "gamma/log")
+             ? "a gamma fit with the log link of the same terms (y > 0)"
+             : !strcmp (r->power.mean_model, "poisson/log")
+             ? "a poisson fit with the log link of the same terms (counts)"
+             : r->power.mean_model);
+    fprintf (o, "    nearest family: %s (K = %g)", r->power.suggested, r->power.suggested_power);
+    if (r->power.suggested_outside)
+      fprintf (o, ", but K = %g lies outside the interval: no listed family's variance fits "
+               "well", r->power.suggested_power);
+    fputc ('\n', o);
+  } else {
     fprintf (o, "    (%s)\n", r->power.why);
+  }
   fputs ("\n  These checks are evidence, not proof: they guide the choice of a remedy, which\n"
          "  should be validated on new data before acting on it.\n", o);
   if (fflush (o) != 0 || ferror (o))

@@ -1,5 +1,6 @@
 /* report_json.c -- the fit as one JSON document (doc/json.md lists every key). */
 #include <math.h>
+#include <stdio.h>
 #include <string.h>
 #include "report_impl.h"
 #include "report.h"
@@ -135,10 +136,55 @@ coef_json (bl_json *w, const bl_fit *fit)
     bl_json_num (w, "p", bl_fit_pvalue (fit)[j]);
     bl_json_num (w, "lo", bl_fit_lo (fit)[j]);
     bl_json_num (w, "hi", bl_fit_hi (fit)[j]);
+    if (bl_fit_stats_get (fit)->dof_wald > 0)
+      bl_json_size (w, "ref_dof", bl_fit_stats_get (fit)->dof_wald);
+    else
+      bl_json_null (w, "ref_dof");
     bl_json_bool (w, "aliased", bl_fit_aliased (fit)[j]);
     bl_json_obj_end (w);
   }
   bl_json_arr_end (w);
+}
+
+/* The document's own "null_reasons": why a coefficient's figures are null, under
+   "coef.KEY" (the fit-level figures have theirs in fit.null_reasons). */
+static void
+coef_reasons_json (bl_json *w, const bl_fit *fit)
+{
+  const bl_fit_stats *st = bl_fit_stats_get (fit);
+  const size_t p = bl_design_p (bl_fit_design (fit));
+  static const char *const keys[] = {"beta", "se", "wald", "p", "lo", "hi"};
+  const char *aliased = NULL, *noest = NULL, *nose = NULL;
+  char key[32];
+  for (size_t j = 0; j < p; j++) {
+    if (bl_fit_aliased (fit)[j])
+      aliased = "aliased column: a linear combination of earlier columns, left out";
+    else if (!isfinite (bl_fit_beta (fit)[j]))
+      noest = st->converged ? "no estimate" : bl_fit_status (fit)->msg;
+    else if (!(bl_fit_se (fit)[j] > 0.0))
+      nose = st->wald_is_t && st->dof_wald == 0
+             ? "no residual degrees of freedom: the standard error, t-ratio and interval do "
+               "not exist"
+             : "zero or undefined standard error: no ratio, p-value or interval";
+  }
+  bl_json_obj (w, "null_reasons");
+  for (size_t k = 0; k < sizeof keys / sizeof keys[0]; k++) {
+    const char *r = aliased ? aliased : noest ? noest : NULL;
+    if (!r && k > 0 && nose)
+      r = nose;
+    snprintf (key, sizeof key, "coef.%s", keys[k]);
+    if (r)
+      bl_json_str (w, key, r);
+  }
+  if (st->dof_wald == 0)
+    bl_json_str (w, "ref_dof", st->wald_is_t ? "no residual degrees of freedom"
+                 : "the reference distribution is the normal (the dispersion is fixed): "
+                   "no degrees of freedom");
+  if (st->dof_wald == 0)
+    bl_json_str (w, "coef.ref_dof", st->wald_is_t ? "no residual degrees of freedom"
+                 : "the reference distribution is the normal (the dispersion is fixed): "
+                   "no degrees of freedom");
+  bl_json_obj_end (w);
 }
 
 /* The "fit" object: the figures, the family parameter and the reasons for the missing
@@ -185,8 +231,24 @@ fit_json (bl_json *w, const bl_fit *fit)
   why (w, "aic", st->aic, st->loglik_why);
   why (w, "aicc", st->aicc, st->aicc_why);
   why (w, "bic", st->bic, st->loglik_why);
-  if (bl_family_par_kind (bl_fit_family (fit)) == BL_FAMPAR_THETA)
+  if (bl_family_par_kind (bl_fit_family (fit)) == BL_FAMPAR_THETA) {
     why (w, "theta", st->fam_par, st->fam_par_why);
+    why (w, "theta_se", st->fam_par_se, !st->fam_par_est ? "theta was fixed: no standard error"
+         : isfinite (st->fam_par) ? "the observed information for theta is not positive"
+         : st->fam_par_why);
+  } else if (bl_family_par_kind (bl_fit_family (fit)) == BL_FAMPAR_POWER) {
+    const char *open = !st->fam_par_est ? "the power was fixed: no interval"
+                       : "the profile does not fall 1.92 below its top inside the search "
+                         "range of the power";
+    why (w, "power", st->fam_par, st->fam_par_why ? st->fam_par_why : st->loglik_why);
+    why (w, "power_lo", st->fam_par_lo, open);
+    why (w, "power_hi", st->fam_par_hi, open);
+  }
+  if (!isfinite (st->deviance_null) && !(st->deviance_null_why && st->deviance_null_why[0]))
+    why (w, "deviance_null", st->deviance_null, "the null model could not be fitted");
+  if (!st->converged) {
+    why (w, "pearson", st->pearson, bl_fit_status (fit)->msg);
+  }
   bl_json_obj_end (w);
   bl_json_obj_end (w);
   bl_json_obj_end (w);
@@ -231,8 +293,27 @@ bl_report_fit_json (FILE *out, const bl_fit *fit, const bl_report_info *info, bl
     bl_json_num (&w, "p", a->p);
     bl_json_num (&w, "log10_p", a->log10_p);
     bl_json_str (&w, "form", a->form);
+    bl_json_str (&w, "statistic", a->statistic);
     bl_json_num (&w, "deviance_small", a->deviance_small);
     bl_json_num (&w, "deviance_big", a->deviance_big);
+    bl_json_num (&w, "loglik_small", a->loglik_small);
+    bl_json_num (&w, "loglik_big", a->loglik_big);
+    if (isfinite (a->fam_par_big) || isfinite (a->fam_par_small)) {
+      bl_json_num (&w, "fam_par_small", a->fam_par_small);
+      bl_json_num (&w, "fam_par_big", a->fam_par_big);
+    }
+    bl_json_obj (&w, "null_reasons");
+    why (&w, "stat", a->stat, "a log-likelihood or deviance does not exist");
+    why (&w, "p", a->p, "the statistic or its degrees of freedom do not exist");
+    why (&w, "loglik_small", a->loglik_small, "the smaller model has no likelihood");
+    why (&w, "loglik_big", a->loglik_big, st->loglik_why);
+    why (&w, "deviance_small", a->deviance_small, "the smaller model has no deviance");
+    why (&w, "deviance_big", a->deviance_big, st->loglik_why);
+    if (isfinite (a->fam_par_big) || isfinite (a->fam_par_small)) {
+      why (&w, "fam_par_small", a->fam_par_small, "the smaller model's parameter ran off");
+      why (&w, "fam_par_big", a->fam_par_big, st->fam_par_why);
+    }
+    bl_json_obj_end (&w);
     bl_json_obj_end (&w);
   }
   bl_json_num (&w, "level", st->level);
@@ -240,8 +321,13 @@ bl_report_fit_json (FILE *out, const bl_fit *fit, const bl_report_info *info, bl
   if (!strcmp (st->se_kind, "cluster"))
     bl_json_size (&w, "clusters", st->clusters);
   bl_json_str (&w, "wald_kind", st->wald_is_t ? "t" : "z");
+  if (st->dof_wald > 0)
+    bl_json_size (&w, "ref_dof", st->dof_wald);
+  else
+    bl_json_null (&w, "ref_dof");
 
   coef_json (&w, fit);
+  coef_reasons_json (&w, fit);
   fit_json (&w, fit);
   if (bl_json_finish (&w) || fflush (out) != 0)
     return bl_fail (err, BL_EIO, "output", "write failed");

@@ -110,9 +110,16 @@ estimates_text (FILE *o, const bl_fit *fit)
     lw = 40;
   fprintf (o, "\n  Estimates   (%g%% interval; %s-ratio", 100.0 * st->level,
            st->wald_is_t ? "t" : "z");
-  if (st->wald_is_t)
-    fprintf (o, " on %zu residual dof", st->dof_resid);
-  fprintf (o, "; standard errors: %s)\n\n", st->se_kind);
+  if (st->wald_is_t && !strcmp (st->se_kind, "cluster"))
+    fprintf (o, ", reference t with %zu dof = clusters - 1", st->dof_wald);
+  else if (st->wald_is_t)
+    fprintf (o, ", reference t with %zu dof", st->dof_wald);
+  else
+    fputs (", reference normal", o);
+  if (!strcmp (st->se_kind, "cluster"))
+    fprintf (o, ";\n              standard errors: cluster, %zu clusters)\n\n", st->clusters);
+  else
+    fprintf (o, "; standard errors: %s)\n\n", st->se_kind);
   fprintf (o, "    %-*s %13s %13s %13s  %12s %10s %11s\n", (int) lw, "term", "estimate", "low",
            "high", "std error", st->wald_is_t ? "t-ratio" : "z-ratio", "p, 2-sided");
   for (size_t j = 0; j < p; j++) {
@@ -136,44 +143,84 @@ estimates_text (FILE *o, const bl_fit *fit)
   }
 }
 
-/* The fit figures in two columns, with the reasons for the missing ones. */
+/* One row of the figures table: name, value, and the residual dof when it has one. */
+static void
+figure_row (FILE *o, const char *name, double v, int has_dof, size_t dof)
+{
+  fprintf (o, "    %-30s", name);
+  num (o, 14, v);
+  if (has_dof)
+    fprintf (o, " %10zu", dof);
+  fputc ('\n', o);
+}
+
+/* The fit figures as a table (figure, value, residual dof), then the reasons for the missing
+   ones.  Layout: ballast's own. */
 static void
 figures_text (FILE *o, const bl_fit *fit)
 {
   const bl_fit_stats *st = bl_fit_stats_get (fit);
-  fprintf (o, "\n  Fit         rows %zu, rank %zu, parameters counted k = %zu\n", st->n, st->rank,
-           st->k);
-  fputs ("    deviance          ", o);
-  num (o, 14, st->deviance);
-  fprintf (o, "   on %zu dof\n", st->dof_resid);
-  fputs ("    null deviance     ", o);
-  num (o, 14, st->deviance_null);
-  fprintf (o, "   on %zu dof\n", st->dof_null);
-  fputs ("    Pearson chi2      ", o);
-  num (o, 14, st->pearson);
-  fputs ("\n    dispersion        ", o);
-  num (o, 14, st->phi_pearson);
-  fputs ("   (Pearson)   ", o);
-  num (o, 12, st->phi_ml);
-  fputs ("   (maximum likelihood)\n", o);
-  fputs ("    log-likelihood    ", o);
-  num (o, 14, st->loglik);
-  if (bl_fit_transform (fit)->kind != BL_TRANSFORM_NONE) {
-    fputs ("   (on y's scale; transformed scale ", o);
-    num (o, 0, st->loglik_transformed);
-    fputc (')', o);
-  }
-  fputs ("\n    AIC               ", o);
-  num (o, 14, st->aic);
-  fputs ("   AICc ", o);
-  num (o, 12, st->aicc);
-  fputs ("   BIC ", o);
-  num (o, 12, st->bic);
-  fputc ('\n', o);
+  const int tr = bl_fit_transform (fit)->kind != BL_TRANSFORM_NONE;
+  fprintf (o, "\n  Fit         %zu rows, rank %zu, %zu parameters counted (k)\n\n", st->n,
+           st->rank, st->k);
+  fprintf (o, "    %-30s%14s %10s\n", "figure", "value", "resid. dof");
+  figure_row (o, "deviance, this model", st->deviance, 1, st->dof_resid);
+  figure_row (o, "deviance, intercept only", st->deviance_null, 1, st->dof_null);
+  figure_row (o, "Pearson X2", st->pearson, 1, st->dof_resid);
+  figure_row (o, "dispersion, Pearson", st->phi_pearson, 0, 0);
+  figure_row (o, "dispersion, max. likelihood", st->phi_ml, 0, 0);
+  figure_row (o, tr ? "log-likelihood, y's scale" : "log-likelihood", st->loglik, 0, 0);
+  if (tr)
+    figure_row (o, "log-likelihood, transformed", st->loglik_transformed, 0, 0);
+  figure_row (o, "AIC", st->aic, 0, 0);
+  figure_row (o, "AICc", st->aicc, 0, 0);
+  figure_row (o, "BIC", st->bic, 0, 0);
   if (!isfinite (st->loglik) && st->loglik_why[0])
     fprintf (o, "    (no likelihood figures: %s)\n", st->loglik_why);
+  else if (!isfinite (st->aicc) && st->aicc_why && st->aicc_why[0])
+    fprintf (o, "    (no AICc: %s)\n", st->aicc_why);
   if (!isfinite (st->deviance_null) && st->deviance_null_why[0])
-    fprintf (o, "    (no null deviance: %s)\n", st->deviance_null_why);
+    fprintf (o, "    (no intercept-only deviance: %s)\n", st->deviance_null_why);
+  if (!isfinite (st->phi_ml) && st->phi_ml_why && st->phi_ml_why[0] && isfinite (st->loglik))
+    fprintf (o, "    (no maximum-likelihood dispersion: %s)\n", st->phi_ml_why);
+}
+
+/* The nested test: both models' log-likelihoods and deviances, then the statistic, named. */
+static void
+against_text (FILE *o, const bl_nested *a)
+{
+  fprintf (o, "\n  Against the smaller model (%s)\n", a->terms[0] ? a->terms : "intercept");
+  fprintf (o, "    %-30s%14s %14s\n", "", "smaller", "this model");
+  fprintf (o, "    %-30s", "log-likelihood");
+  num (o, 14, a->loglik_small);
+  fputc (' ', o);
+  num (o, 14, a->loglik_big);
+  fprintf (o, "\n    %-30s", "deviance");
+  num (o, 14, a->deviance_small);
+  fputc (' ', o);
+  num (o, 14, a->deviance_big);
+  fputc ('\n', o);
+  if (isfinite (a->fam_par_small) || isfinite (a->fam_par_big)) {
+    fprintf (o, "    %-30s", "family parameter");
+    num (o, 14, a->fam_par_small);
+    fputc (' ', o);
+    num (o, 14, a->fam_par_big);
+    fputs ("\n    (each model has its own parameter, so the deviances do not subtract)\n", o);
+  }
+  if (!strcmp (a->statistic, "likelihood-ratio"))
+    fputs ("    test: likelihood ratio 2 (l this - l smaller), chi-square", o);
+  else if (a->dof2)
+    fputs ("    test: deviance drop per dof over the Pearson dispersion, F", o);
+  else
+    fputs ("    test: deviance drop, chi-square", o);
+  if (a->dof2)
+    fprintf (o, " (dof %zu, %zu): ", a->dof, a->dof2);
+  else
+    fprintf (o, " (dof %zu): ", a->dof);
+  if (isfinite (a->stat) && isfinite (a->p))
+    fprintf (o, "%.4g, p %.4g\n", a->stat, a->p);
+  else
+    fputs ("-- (a likelihood or deviance does not exist)\n", o);
 }
 
 int
@@ -217,15 +264,8 @@ bl_report_fit_text (FILE *o, const bl_fit *fit, const bl_report_info *info, bl_e
   estimates_text (o, fit);
   figures_text (o, fit);
 
-  if (info->against) {
-    const bl_nested *a = info->against;
-    fprintf (o, "\n  Against the smaller model (%s)\n", a->terms[0] ? a->terms : "intercept");
-    fprintf (o, "    deviance %.6g there, %.6g here: ", a->deviance_small, a->deviance_big);
-    if (a->dof2)
-      fprintf (o, "F = %.4g on %zu and %zu dof, p %.4g\n", a->stat, a->dof, a->dof2, a->p);
-    else
-      fprintf (o, "chi2 = %.4g on %zu dof, p %.4g\n", a->stat, a->dof, a->p);
-  }
+  if (info->against)
+    against_text (o, info->against);
   if (wn->n) {
     fputs ("\n  Warnings\n", o);
     for (size_t i = 0; i < wn->n; i++)
