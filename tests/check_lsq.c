@@ -308,6 +308,41 @@ START_TEST (lsq_rank_deficient)
 }
 END_TEST
 
+/* A fold of a column whose entries are near 1e-160 (their squares subnormal), as the
+   rounding residue of a wide sparse block is: R'R = A'A must still hold, with no NaN.
+   Identity: R'R = R_old'R_old + A'A (Golub & Van Loan 2013, section 6.5.3); the plain
+   reflection gave tau = 2 / (v0^2 + ss) = inf here and a NaN factor (issue 13, class 9). */
+START_TEST (lsq_fold_tiny_column)
+{
+  const size_t q = 3, nb = 4;
+  const double scale[3] = { 1e-160, 3e-155, 1e+160 };
+  for (size_t c = 0; c < 3; c++) {
+    double A[12], A0[12], R[9] = { 0 };
+    const double base[12] = { 1.25, -2.5, 0.75, 3.125, 0.5, 1.5, -1.0, 2.25,
+                              -0.3, 0.7, 1.1, -0.9 };
+    for (size_t k = 0; k < 12; k++)
+      A0[k] = A[k] = k < 4 ? base[k] * scale[c] : base[k];
+    long double dii[3] = { 0.0L, 0.0L, 0.0L };   /* (A'A)_ii: the scale of entry (i, j) */
+    bl_lsq_fold (R, q, A, nb, nb);
+    for (size_t i = 0; i < q; i++)
+      for (size_t k = 0; k < nb; k++)
+        dii[i] += (long double) A0[k + i * nb] * A0[k + i * nb];
+    for (size_t i = 0; i < q; i++)
+      for (size_t j = 0; j < q; j++) {
+        long double rr = 0.0L, aa = 0.0L;
+        for (size_t k = 0; k < q; k++)
+          rr += (long double) R[k + i * q] * R[k + j * q];
+        for (size_t k = 0; k < nb; k++)
+          aa += (long double) A0[k + i * nb] * A0[k + j * nb];
+        ck_assert_msg (isfinite (R[i + j * q]), "scale %g: R[%zu,%zu] not finite", scale[c],
+                       i, j);
+        ck_assert_msg (fabsl (rr - aa) <= 1e-13L * sqrtl (dii[i] * dii[j]),
+                       "scale %g: (R'R)[%zu,%zu] %Lg vs A'A %Lg", scale[c], i, j, rr, aa);
+      }
+  }
+}
+END_TEST
+
 static Suite *
 lsq_suite (void)
 {
@@ -317,6 +352,7 @@ lsq_suite (void)
   tcase_add_loop_test (ref, lsq_nist_streamed, 0, (int) NSETS);
   tcase_add_loop_test (id, lsq_fold_crossproduct, 0, 6);
   tcase_add_test (id, lsq_rank_deficient);
+  tcase_add_test (id, lsq_fold_tiny_column);
   suite_add_tcase (s, ref);
   suite_add_tcase (s, id);
   return s;

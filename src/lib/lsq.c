@@ -34,6 +34,8 @@ struct bl_lsq_work {
   long double *Rinv;     /* rank x rank inverse of R11, p x p storage */
   long double *c;        /* Q'z, length p */
   size_t *perm;          /* pivot order, length p */
+  size_t *hi, *lo;       /* per column: last row that can be nonzero; per row of R11 and of
+                            its inverse: first and last nonzero column (sparse designs) */
 };
 
 const char *
@@ -102,6 +104,63 @@ bl_lsq_fold (double *R, size_t q, double *A, size_t nb, size_t lda)
   fold_plain (R, q, A, nb, lda);
 }
 
+/*
+ * The reflection of one column, in the normalized form u = (1, a / v0), tau' = tau v0^2 =
+ * 2 v0^2 / (v0^2 + ||a||^2), which lies in [1, 2] since |v0| = |r| + ||(r, a)|| >= ||a||.
+ * SS is ||a||^2 as summed by the caller.  Inside [REFL_SS_MIN, REFL_SS_MAX] the sums are exact
+ * to rounding and the plain formulas are used; outside it (entries near 1e-150 or below,
+ * whose squares are subnormal or 0, or near 1e+150 and above, whose squares overflow) the
+ * column is first scaled by its largest |entry| m, as LAPACK's dlarfg does (Anderson et al.
+ * 1999, LAPACK Users' Guide, 3rd ed., section 5.4; Golub & Van Loan 2013, algorithm 5.1.1).
+ * Without this a column of rounding residue (about 1e-160, left in the later columns when a
+ * wide sparse block has already been reduced to its rank) gives tau = 2 / (v0^2 + ss) = inf
+ * and the factor turns to NaN: the one-way layout of 1500 levels over 3000 rows did so.
+ * A column is skipped only when every entry is exactly 0.  A is overwritten by u's tail
+ * a / v0.  Returns 0 when there is nothing to annihilate, else 1 with *ALPHA (the new r_jj)
+ * and *TAUP.
+ */
+#define REFL_SS_MIN 0x1p-900
+#define REFL_SS_MAX 0x1p+900
+
+HOT static int
+reflection (double r, double *restrict a, size_t nb, double ss, double *alpha, double *taup)
+{
+  double v0, m = fabs (r);
+  if (ss >= REFL_SS_MIN && ss <= REFL_SS_MAX && m <= 0x1p+450) {
+    const double nrm = sqrt (r * r + ss);
+    *alpha = (r > 0.0) ? -nrm : nrm;
+    v0 = r - *alpha;
+    *taup = 2.0 * (v0 * v0) / (v0 * v0 + ss);
+    for (size_t t = 0; t < nb; t++)
+      a[t] /= v0;
+    return 1;
+  }
+  for (size_t t = 0; t < nb; t++)
+    if (fabs (a[t]) > m)
+      m = fabs (a[t]);
+  if (m == 0.0)                         /* r and every entry 0 */
+    return 0;
+  {
+    double rs = r / m, sss = 0.0, nrm, as, vs;
+    int zero = 1;
+    for (size_t t = 0; t < nb; t++) {
+      const double x = a[t] / m;
+      sss += x * x;
+      zero &= a[t] == 0.0;
+    }
+    if (zero)
+      return 0;
+    nrm = sqrt (rs * rs + sss);
+    as = (rs > 0.0) ? -nrm : nrm;
+    vs = rs - as;
+    *alpha = as * m;
+    *taup = 2.0 * (vs * vs) / (vs * vs + sss);
+    for (size_t t = 0; t < nb; t++)
+      a[t] = (a[t] / m) / vs;
+  }
+  return 1;
+}
+
 HOT static void
 fold_plain (double *R, size_t q, double *A, size_t nb, size_t lda)
 {
@@ -109,8 +168,19 @@ fold_plain (double *R, size_t q, double *A, size_t nb, size_t lda)
     double *const a = A + j * lda;
     const double ss = dot (a, a, nb);
     double r, nrm, alpha, v0, tau;
-    if (ss == 0.0)
-      continue;                         /* nothing to annihilate */
+    if (ss == 0.0 || !(ss >= REFL_SS_MIN && ss <= REFL_SS_MAX)) {
+      /* exact zeros, or a column outside the plain formulas' range: the scaled form */
+      if (!reflection (R[j + j * q], a, nb, ss, &alpha, &tau))
+        continue;                       /* nothing to annihilate */
+      for (size_t k = j + 1; k < q; k++) {
+        double *const ak = A + k * lda;
+        const double s = (R[j + k * q] + dot (a, ak, nb)) * tau;
+        R[j + k * q] -= s;
+        axpy_minus (ak, a, s, nb);
+      }
+      R[j + j * q] = alpha;
+      continue;
+    }
     r = R[j + j * q];
     nrm = sqrt (r * r + ss);
     alpha = (r > 0.0) ? -nrm : nrm;
@@ -156,18 +226,11 @@ fold_wy (double *R, size_t q, double *A, size_t nb, size_t lda)
       double *const a = A + j * lda;
       const size_t i = j - j0;
       const double ss = dot (a, a, nb);
-      double r, nrm, alpha, v0, tau;
+      double alpha, tau;
       for (size_t t = 0; t < b; t++)
         T[t + i * WY_PANEL] = 0.0;
-      if (ss == 0.0)
+      if (!reflection (R[j + j * q], a, nb, ss, &alpha, &tau))
         continue;                       /* H_j = I: tau' = 0, V_j = 0 */
-      r = R[j + j * q];
-      nrm = sqrt (r * r + ss);
-      alpha = (r > 0.0) ? -nrm : nrm;
-      v0 = r - alpha;
-      tau = 2.0 / (v0 * v0 + ss) * (v0 * v0);   /* tau' = tau v0^2 */
-      for (size_t t = 0; t < nb; t++)
-        a[t] /= v0;
       R[j + j * q] = alpha;
       for (size_t k = j + 1; k < j1; k++) {
         double *const ak = A + k * lda;
@@ -254,7 +317,9 @@ bl_lsq_work_new (size_t p)
   ws->Rinv = bl_mallocn (q * q, sizeof *ws->Rinv);
   ws->c = bl_mallocn (q, sizeof *ws->c);
   ws->perm = bl_mallocn (q, sizeof *ws->perm);
-  if (!ws->Rl || !ws->d || !ws->Rinv || !ws->c || !ws->perm) {
+  ws->hi = bl_mallocn (q, sizeof *ws->hi);
+  ws->lo = bl_mallocn (q, sizeof *ws->lo);
+  if (!ws->Rl || !ws->d || !ws->Rinv || !ws->c || !ws->perm || !ws->hi || !ws->lo) {
     bl_lsq_work_free (ws);
     return NULL;
   }
@@ -271,6 +336,8 @@ bl_lsq_work_free (bl_lsq_work *ws)
   bl_free (ws->Rinv);
   bl_free (ws->c);
   bl_free (ws->perm);
+  bl_free (ws->hi);
+  bl_free (ws->lo);
   bl_free (ws);
 }
 
@@ -309,10 +376,25 @@ solve_ld (bl_lsq_work *ws, long double *A, size_t m, size_t lda, double tol, bl_
         A[i + j * lda] /= s;
     ws->perm[j] = j;
   }
+  /* The last row of each column (and of z) that can be nonzero: a reflection of column k
+     acts on rows k .. hi[k] only, and fills the columns right of it down to hi[k].  For a
+     dense matrix hi = m - 1 throughout; for an upper-triangular streamed factor of a wide
+     sparse design (a one-way layout of 2000 levels) the factorization costs O(q^2) instead
+     of O(q^3).  Entries past hi are exact zeros, so the results are the same either way. */
+  for (size_t j = 0; j < q; j++) {
+    size_t h = 0;
+    for (size_t i = m; i-- > 0;)
+      if (A[i + j * lda] != 0.0L) {
+        h = i;
+        break;
+      }
+    ws->hi[j] = h;
+  }
   while (rank < ncand) {
     const size_t k = rank;
     long double *const a = A + k * lda;
-    const long double ss = (k < m) ? col_ss (a, k + 1, m) : 0.0L;
+    const size_t hk = ws->hi[k] + 1 < m ? ws->hi[k] + 1 : m;   /* rows [k + 1, hk) */
+    const long double ss = (k < m && hk > k + 1) ? col_ss (a, k + 1, hk) : 0.0L;
     const long double r = (k < m) ? a[k] : 0.0L;
     if (k >= m || !(sqrtl (r * r + ss) > (long double) tol)) {
       /* numerically dependent on the columns before it: rotate it to the end */
@@ -323,10 +405,23 @@ solve_ld (bl_lsq_work *ws, long double *A, size_t m, size_t lda, double tol, bl_
           A[i + j * lda] = A[i + (j + 1) * lda];
         A[i + (ncand - 1) * lda] = x;
       }
-      for (size_t j = k; j + 1 < ncand; j++)
-        ws->perm[j] = ws->perm[j + 1];
-      ws->perm[ncand - 1] = pk;
+      {
+        const size_t hkk = ws->hi[k];
+        for (size_t j = k; j + 1 < ncand; j++) {
+          ws->perm[j] = ws->perm[j + 1];
+          ws->hi[j] = ws->hi[j + 1];
+        }
+        ws->perm[ncand - 1] = pk;
+        ws->hi[ncand - 1] = hkk;
+      }
       ncand--;
+      continue;
+    }
+    if (ss == 0.0L) {
+      /* nothing below the diagonal (an upper-triangular streamed factor): the reflection
+         would only change the sign of row k, which leaves the solution, the covariance and
+         the residual exactly as they are; skip its O(m q) update */
+      rank++;
       continue;
     }
     {
@@ -336,15 +431,17 @@ solve_ld (bl_lsq_work *ws, long double *A, size_t m, size_t lda, double tol, bl_
       for (size_t j = k + 1; j < q; j++) {
         long double *const aj = A + j * lda;
         long double s = v0 * aj[k];
-        for (size_t i = k + 1; i < m; i++)
+        for (size_t i = k + 1; i < hk; i++)
           s += a[i] * aj[i];
         s *= tau;
         aj[k] -= s * v0;
-        for (size_t i = k + 1; i < m; i++)
+        for (size_t i = k + 1; i < hk; i++)
           aj[i] -= s * a[i];
+        if (ws->hi[j] < hk - 1)
+          ws->hi[j] = hk - 1;
       }
       a[k] = alpha;
-      for (size_t i = k + 1; i < m; i++)
+      for (size_t i = k + 1; i < hk; i++)
         a[i] = 0.0L;
     }
     rank++;
@@ -353,22 +450,47 @@ solve_ld (bl_lsq_work *ws, long double *A, size_t m, size_t lda, double tol, bl_
     return bl_fail (err, BL_EDATA, "least squares",
                     "every column of the design is zero: nothing can be estimated");
 
-  /* Back substitution R11 b = c, and R11^-1 column by column (triangular solves). */
-  for (size_t i = 0; i < rank; i++)
+  /* Back substitution R11 b = c, and R11^-1 column by column (triangular solves).  The
+     sums run over the nonzero span of each row of R11 (hi: its last nonzero column), and
+     those of the covariance over the nonzero spans of the rows of R11^-1 (lo .. hi): for a
+     dense R the full ranges, for the factor of a one-way layout (a dense first row and a
+     diagonal) a few terms, so that 2000 indicator columns take seconds, not minutes.  The
+     terms left out are exact zeros. */
+  for (size_t i = 0; i < rank; i++) {
+    size_t h = i;
+    for (size_t j = rank; j-- > i + 1;)
+      if (A[i + j * lda] != 0.0L) {
+        h = j;
+        break;
+      }
+    ws->hi[i] = h;
     ws->c[i] = z[i];
+  }
   for (size_t i = rank; i-- > 0;) {
     long double s = ws->c[i];
-    for (size_t j = i + 1; j < rank; j++)
+    for (size_t j = i + 1; j <= ws->hi[i]; j++)
       s -= A[i + j * lda] * ws->c[j];
     ws->c[i] = s / A[i + i * lda];
   }
   for (size_t j = 0; j < rank; j++)
     for (size_t i = j + 1; i-- > 0;) {
       long double s = (i == j) ? 1.0L : 0.0L;
-      for (size_t k = i + 1; k <= j; k++)
+      const size_t kmax = ws->hi[i] < j ? ws->hi[i] : j;
+      for (size_t k = i + 1; k <= kmax; k++)
         s -= A[i + k * lda] * ws->Rinv[k + j * rank];
       ws->Rinv[i + j * rank] = s / A[i + i * lda];
     }
+  for (size_t i = 0; i < rank; i++) {   /* the nonzero span of row i of R11^-1 */
+    size_t l = rank, h = i;
+    for (size_t k = i; k < rank; k++)
+      if (ws->Rinv[i + k * rank] != 0.0L) {
+        if (l == rank)
+          l = k;
+        h = k;
+      }
+    ws->lo[i] = l == rank ? i : l;
+    ws->hi[i] = h;
+  }
 
   sol->rank = rank;
   memset (sol->beta, 0, p * sizeof *sol->beta);
@@ -382,8 +504,10 @@ solve_ld (bl_lsq_work *ws, long double *A, size_t m, size_t lda, double tol, bl_
     for (size_t j = 0; j < rank; j++) {
       const size_t pj = ws->perm[j];
       long double s = 0.0L;
-      /* (R^-1 R^-T)_ij = sum_k Rinv_ik Rinv_jk, k >= max(i, j) */
-      for (size_t k = (i > j ? i : j); k < rank; k++)
+      /* (R^-1 R^-T)_ij = sum_k Rinv_ik Rinv_jk over both rows' nonzero spans */
+      const size_t k0 = ws->lo[i] > ws->lo[j] ? ws->lo[i] : ws->lo[j];
+      const size_t k1 = ws->hi[i] < ws->hi[j] ? ws->hi[i] : ws->hi[j];
+      for (size_t k = k0; k <= k1; k++)
         s += ws->Rinv[i + k * rank] * ws->Rinv[j + k * rank];
       sol->cov[pi + pj * p] = (double) (s / (ws->d[pi] * ws->d[pj]));
     }
