@@ -53,6 +53,25 @@ nowhere (double x, void *arg)
   return -HUGE_VAL;
 }
 
+/* Two local maxima: l(x) = -(x^2 - 1)^2 + b x has them near x = -1 and x = +1, the global one
+   (b > 0) near +1, where 4 x^3 - 4 x - b = 0 (its derivative; closed form, common practice,
+   no source). */
+static double
+twin_l (double x, void *arg)
+{
+  quad *q = arg;
+  q->calls++;
+  return -(x * x - 1.0) * (x * x - 1.0) + q->a * x;
+}
+
+static double
+slope_l (double x, void *arg)
+{
+  quad *q = arg;
+  q->calls++;
+  return q->a * x;
+}
+
 static const bl_profile_tol tight = { 1e-10, 0.0, 200, 1 };
 static const bl_profile_tol roots = { 1e-12, 0.0, 200, 0 };
 
@@ -148,6 +167,60 @@ START_TEST (profile_nowhere_unbracketed)
 }
 END_TEST
 
+START_TEST (profile_search_global_of_two)
+{
+  /* The scan finds the higher of two peaks wherever a local search would start; the refined
+     point is the root of 4 x^3 - 4 x - b near 1 (Newton's method here, from x = 1). */
+  quad q = { 0.0, 0.1, 0.0, 0, 0, 0 };
+  double grid[64], val[64], r = 1.0;
+  bl_profile_max mx;
+  const size_t ng = bl_profile_npoints (-3.0, 3.0, 8.0);
+  ck_assert_uint_eq (ng, 49);
+  ck_assert_int_eq (bl_profile_search (twin_l, &q, -3.0, 3.0, ng, grid, val, NULL, &tight,
+                                       &mx), BL_OK);
+  for (int it = 0; it < 50; it++)
+    r -= (4.0 * r * r * r - 4.0 * r - q.a) / (12.0 * r * r - 4.0);
+  ck_assert_int_eq (mx.edge, 0);
+  ck_assert_double_eq_tol (mx.x, r, 1e-7);
+  ck_assert_double_eq_tol (mx.fx, twin_l (r, &q), 1e-12);
+  /* with the sign of b turned the global maximum is the other peak, near -1 */
+  q.a = -0.1;
+  ck_assert_int_eq (bl_profile_search (twin_l, &q, -3.0, 3.0, ng, grid, val, NULL, &tight,
+                                       &mx), BL_OK);
+  ck_assert_double_eq_tol (mx.x, -r, 1e-7);
+}
+END_TEST
+
+START_TEST (profile_search_edges)
+{
+  /* A monotone profile has its maximum on the range's end, and says which end; a flat one on
+     the first point (the first largest value); with the caller's error the scan stops. */
+  quad q = { 0.0, 2.0, 0.0, 0, 0, 0 };
+  double grid[16], val[16];
+  bl_profile_max mx;
+  ck_assert_int_eq (bl_profile_search (slope_l, &q, -1.0, 1.0, 9, grid, val, NULL, &tight, &mx),
+                    BL_OK);
+  ck_assert_int_eq (mx.edge, 1);
+  ck_assert_double_eq_tol (mx.x, 1.0, 1e-15);
+  q.a = -2.0;
+  ck_assert_int_eq (bl_profile_search (slope_l, &q, -1.0, 1.0, 9, grid, val, NULL, &tight, &mx),
+                    BL_OK);
+  ck_assert_int_eq (mx.edge, -1);
+  ck_assert_double_eq (mx.x, -1.0);
+  q.a = 0.0;
+  ck_assert_int_eq (bl_profile_search (slope_l, &q, -1.0, 1.0, 9, grid, val, NULL, &tight, &mx),
+                    BL_OK);
+  ck_assert_int_eq (mx.edge, -1);
+  ck_assert_uint_eq (bl_profile_npoints (0.0, 0.1, 8.0), 3);
+  {
+    quad s = { 0.5, 1.0, 0.0, 0, 0, 3 };
+    ck_assert_int_eq (bl_profile_search (quad_l, &s, -1.0, 1.0, 9, grid, val, &s.status,
+                                         &tight, &mx), BL_OK);
+    ck_assert_uint_eq (s.calls, 3);
+  }
+}
+END_TEST
+
 static Suite *
 profile_suite (void)
 {
@@ -157,6 +230,8 @@ profile_suite (void)
   TCase *err = tcase_create ("errors");
   tcase_add_test (ref, profile_quadratic_maximum_and_interval);
   tcase_add_test (idt, profile_grid_stops_on_status);
+  tcase_add_test (ref, profile_search_global_of_two);
+  tcase_add_test (idt, profile_search_edges);
   tcase_add_test (idt, profile_bracket_ends_and_ties);
   tcase_add_test (idt, profile_open_interval);
   tcase_add_test (idt, profile_tolerances_and_cap);

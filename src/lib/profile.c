@@ -138,3 +138,38 @@ bl_profile_threshold (double top, double level)
 {
   return top - 0.5 * gsl_cdf_chisq_Qinv (1.0 - level, 1.0);   /* from the upper tail */
 }
+
+size_t
+bl_profile_npoints (double lo, double hi, double per_unit)
+{
+  const double n = ceil ((hi - lo) * per_unit) + 1.0;
+  return n < 3.0 ? 3 : (size_t) n;
+}
+
+int
+bl_profile_search (bl_profile_fn f, void *arg, double lo, double hi, size_t ng, double *grid,
+                   double *val, const int *status, const bl_profile_tol *tol,
+                   bl_profile_max *out)
+{
+  const double step = (hi - lo) / (double) (ng - 1);
+  const size_t m = bl_profile_grid (f, arg, lo, step, ng, grid, val, status);
+  int st = BL_OK;
+  out->nscan = ng;
+  out->x = grid[m];
+  out->fx = val[m];
+  out->edge = m == 0 ? -1 : (m + 1 == ng ? 1 : 0);
+  if (status && *status != BL_OK)
+    return BL_OK;               /* the caller's error stands; OUT is not a maximum */
+  if (out->edge == 0 && isfinite (val[m])) {
+    double x;
+    st = bl_profile_refine (f, arg, grid, val, ng, m, tol, &x);
+    if (st == BL_OK && x != grid[m]) {
+      const double fx = f (x, arg);
+      if (fx >= val[m] && !(status && *status != BL_OK)) {
+        out->x = x;
+        out->fx = fx;
+      }
+    }
+  }
+  return st;
+}

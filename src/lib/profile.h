@@ -76,4 +76,30 @@ int bl_profile_interval (bl_profile_fn f, void *arg, const double *grid, const d
    TOP - chi2_1^-1(LEVEL) / 2 (Box & Cox 1964, section 4). */
 double bl_profile_threshold (double top, double level);
 
+/* The global maximum of F over the closed range [LO, HI] (LO < HI; a log scale is the
+   caller's: pass log x and let F exponentiate): F is scanned at NG >= 3 equally spaced points
+   LO .. HI (a caller scanning a log range asks for at least 8 points a decade, the coarse
+   scan of issue 13), the first largest value is taken as the global bracket, and Brent's
+   method refines it inside its two neighbours (bl_profile_refine).  The scan is coarse, so a
+   maximum narrower than two grid steps can be missed; nothing else can.  Filled by
+   bl_profile_search. */
+typedef struct bl_profile_max {
+  double x;                       /* the maximum (refined), or the best grid point */
+  double fx;                      /* F(x); -HUGE_VAL when F is -HUGE_VAL everywhere */
+  int edge;                       /* -1: the best grid point is LO; +1: it is HI; 0: inside */
+  size_t nscan;                   /* the number of grid points of the scan */
+} bl_profile_max;
+
+/* The number of grid points of a scan of [LO, HI] at PER_UNIT points per unit (per decade
+   when LO and HI are log10 values; per e-fold with natural logs, so 8 a decade is
+   8 / ln 10 = 3.5 per unit): ceil((HI - LO) PER_UNIT) + 1, and at least 3. */
+size_t bl_profile_npoints (double lo, double hi, double per_unit);
+
+/* Scan and refine as above, with GRID and VAL caller's scratch of NG doubles each (left
+   holding the scan, for bl_profile_interval).  STATUS as in bl_profile_grid.  Returns BL_OK,
+   or BL_ENOMEM from the minimizer (OUT is then the best grid point). */
+int bl_profile_search (bl_profile_fn f, void *arg, double lo, double hi, size_t ng,
+                       double *grid, double *val, const int *status,
+                       const bl_profile_tol *tol, bl_profile_max *out);
+
 #endif
