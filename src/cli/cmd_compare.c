@@ -107,6 +107,7 @@ cmd_compare (int argc, char **argv)
 {
   const char *output = NULL;
   int json = 0, quiet = 0, c, rc, li = -1;
+  const char *folds_text = NULL;
   size_t folds = BL_COMPARE_FOLDS, seed = BL_COMPARE_SEED;
   cli_model m;
   bl_compare_opts copt;
@@ -153,6 +154,7 @@ cmd_compare (int argc, char **argv)
                               "'%s'", optarg);
         goto done;
       }
+      folds_text = optarg;
       break;
     case OPT_SEED:
       if (parse_count (optarg, &seed) != 0) {
@@ -180,7 +182,10 @@ cmd_compare (int argc, char **argv)
     goto done;
   /* the comparison's settings into the job, which the runner reads */
   m.job.folds = folds;
-  if (copt.candidates
+  if (folds_text                 /* through the key table, which records it as given */
+      && bl_job_set (&m.job, "folds", folds_text, "--folds", &err) != BL_OK)
+    rc = cli_lib_error ("compare", &err);
+  else if (copt.candidates
       && bl_job_set (&m.job, "candidates", copt.candidates, "--candidates", &err) != BL_OK)
     rc = cli_lib_error ("compare", &err);
   else

@@ -58,6 +58,7 @@ bl_compare_opts_init (bl_compare_opts *opt)
 {
   opt->candidates = NULL;
   opt->folds = BL_COMPARE_FOLDS;
+  opt->folds_default = 0;
   opt->seed = BL_COMPARE_SEED;
   opt->null_reps = BL_DIAG_NULL_REPS;
   bl_fit_opts_init (&opt->fit);

@@ -38,6 +38,9 @@ extern "C" {
 typedef struct bl_compare_opts {
   const char *candidates;          /* comma-separated ids, or NULL for BL_COMPARE_DEFAULT */
   size_t folds;                    /* cross-validation folds; 0 for none */
+  int folds_default;               /* 1: folds is the default, not the user's: more folds
+                                      than rows then skips cross-validation with advice
+                                      instead of refusing */
   unsigned long seed;              /* folds, quantile residuals, null quantiles */
   size_t null_reps;
   bl_fit_opts fit;                 /* level, irls limits, se kind: shared by candidates */

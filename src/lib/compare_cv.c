@@ -128,7 +128,8 @@ done:
 /* Cross-validation of every converged candidate, with folds from one seeded permutation;
    c->folds = 0 when none are asked for (opt->folds 0).  More folds than rows is BL_EDATA
    naming both numbers (it used to run no fold at all, silently); bl_job_run refuses it
-   before the candidates are fitted, this is the library's own guard. */
+   before the candidates are fitted, this is the library's own guard.  The default number
+   of folds (opt->folds_default) on fewer rows runs none, with advice saying so. */
 int
 bl_compare_cv (bl_compare *c, const bl_design *d, const bl_compare_opts *opt, bl_err *err)
 {
@@ -136,6 +137,14 @@ bl_compare_cv (bl_compare *c, const bl_design *d, const bl_compare_opts *opt, bl
   gsl_rng *rng = NULL;
   size_t *fold = NULL, *perm = NULL;
   int st = BL_OK;
+  if (opt->folds > n && opt->folds_default) {
+    c->folds = 0;
+    if (bl_warnings_add (&c->advice, "no cross-validation: the %zu rows are fewer than the "
+                         "default %zu folds (--folds K with 2 <= K <= %zu, or 0)", n,
+                         opt->folds, n) != BL_OK)
+      st = bl_fail (err, BL_ENOMEM, "compare", "out of memory");
+    goto done;
+  }
   if (opt->folds > n)
     return bl_fail (err, BL_EDATA, "--folds", "%zu folds need at least %zu rows; the model "
                     "has %zu", opt->folds, opt->folds, n);

@@ -9,6 +9,7 @@
 #include <gsl/gsl_rng.h>
 #include "alloc.h"
 #include "job.h"
+#include "options.h"
 
 struct bl_job_result {
   bl_fit *fit;
@@ -240,12 +241,14 @@ run_model (bl_job_result *r, const bl_job *job, const bl_job_input *in,
     long w;
     /* More folds than rows cannot be made: refused once the rows are known, before any
        candidate is fitted (the folds' own guard is in compare_cv.c). */
-    if (job->folds > bl_design_n (in->design))
+    const int folds_default = !job->given[bl_option_index (bl_option_find ("folds"))];
+    if (job->folds > bl_design_n (in->design) && !folds_default)
       return bl_fail (err, BL_EDATA, "--folds", "%zu folds need at least %zu rows; the model "
                       "has %zu", job->folds, job->folds, bl_design_n (in->design));
     bl_compare_opts_init (&co);
     co.candidates = job->candidates;
     co.folds = job->folds;
+    co.folds_default = folds_default;
     co.seed = opt->seed;
     co.fit = job->fit;
     co.fit.irls.cancel = opt->cancel;

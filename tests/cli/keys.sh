@@ -57,6 +57,12 @@ for f in 1 0x -3; do
 done
 bl compare six.csv --response y --terms x1 --folds 5 --json
 expect_json "--folds 5 on 5 rows: done" folds 5
+# the default 10 folds on 5 rows (not the user's number): no cross-validation, said so
+bl compare six.csv --response y --terms x1 --json
+expect_rc "default folds on 5 rows: exit 0" 0
+expect_json "default folds on 5 rows: none run" folds 0
+expect_out "default folds on 5 rows: the advice says why" \
+  "no cross-validation: the 5 rows are fewer than the default 10 folds"
 
 bl fit "$nb" --response y --family poison
 expect_err "--family: every family listed" "(expected gaussian, poisson, gamma, \
