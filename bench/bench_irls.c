@@ -4,7 +4,8 @@
    process's peak memory belongs to one task and each BLAS thread setting is fixed at start:
 
      bench_irls gen OUTDIR                  write the data sets (fixed seed, GSL mt19937)
-     bench_irls ingest FILE                 bl_table_read on a plain CSV vs 'cat FILE'
+     bench_irls ingest FILE                 bl_table_read on a plain CSV vs a read() loop
+                                            and a hand-written parse
      bench_irls ingest-gz FILE.gz           bl_table_read on a gzip CSV vs zlib alone
      bench_irls fit FILE THREADS TAG OUTDIR gamma/log fit: seconds per iteration, peak memory,
                                             and one cblas_dsyrk (X'X) pass on the same X
@@ -34,6 +35,7 @@
 #include <gsl/gsl_randist.h>
 #include <gsl/gsl_rng.h>
 #include <zlib.h>
+#include "bench_util.h"
 #include "design.h"
 #include "fit.h"
 #include "irls.h"
@@ -48,251 +50,8 @@
 #define ROWS_P50 400000
 #define MAX_ITER_TIMES 256
 
-/* ---------------------------------------------------------------- small helpers */
-
-static double
-now (void)
-{
-  struct timespec ts;
-  clock_gettime (CLOCK_MONOTONIC, &ts);
-  return (double) ts.tv_sec + 1e-9 * (double) ts.tv_nsec;
-}
-
-static void
-die (const char *what, const char *msg)
-{
-  fprintf (stderr, "bench_irls: %s: %s\n", what, msg);
-  exit (1);
-}
-
-static size_t
-env_size (const char *name, size_t dflt)
-{
-  const char *s = getenv (name);
-  char *end;
-  unsigned long long v;
-  if (!s || !*s)
-    return dflt;
-  errno = 0;
-  v = strtoull (s, &end, 10);
-  if (errno || *end || v < 1000)
-    die (name, "needs a whole number of rows, at least 1000");
-  return (size_t) v;
-}
-
-static double
-file_bytes (const char *path)
-{
-  struct stat sb;
-  if (stat (path, &sb) != 0)
-    die (path, strerror (errno));
-  return (double) sb.st_size;
-}
-
-/* Read PATH once to /dev/null in-process: puts it in the page cache. */
-static void
-warm (const char *path)
-{
-  static char buf[1 << 20];
-  const int fd = open (path, O_RDONLY);
-  if (fd < 0)
-    die (path, strerror (errno));
-  while (read (fd, buf, sizeof buf) > 0)
-    ;
-  close (fd);
-}
-
-/* Wall time of ARGV run with stdout to /dev/null; -1 when it could not run or failed. */
-static double
-time_cmd (char *const argv[])
-{
-  const double t0 = now ();
-  int status;
-  const pid_t pid = fork ();
-  if (pid < 0)
-    return -1.0;
-  if (pid == 0) {
-    const int fd = open ("/dev/null", O_WRONLY);
-    if (fd < 0 || dup2 (fd, STDOUT_FILENO) < 0)
-      _exit (127);
-    execvp (argv[0], argv);
-    _exit (127);
-  }
-  if (waitpid (pid, &status, 0) != pid || !WIFEXITED (status) || WEXITSTATUS (status) != 0)
-    return -1.0;
-  return now () - t0;
-}
-
-static double
-best_cmd (char *const argv[], int reps)
-{
-  double best = -1.0;
-  for (int r = 0; r < reps; r++) {
-    const double t = time_cmd (argv);
-    if (t < 0.0)
-      return -1.0;
-    if (best < 0.0 || t < best)
-      best = t;
-  }
-  return best;
-}
-
-/* Peak resident set (VmHWM) in bytes, from /proc/self/status; getrusage as a fallback. */
-static double
-peak_rss (void)
-{
-  FILE *f = fopen ("/proc/self/status", "r");
-  char line[256];
-  struct rusage ru;
-  if (f) {
-    while (fgets (line, sizeof line, f))
-      if (strncmp (line, "VmHWM:", 6) == 0) {
-        fclose (f);
-        return 1024.0 * strtod (line + 6, NULL);
-      }
-    fclose (f);
-  }
-  getrusage (RUSAGE_SELF, &ru);
-  return 1024.0 * (double) ru.ru_maxrss;
-}
-
-static double
-cur_rss (void)
-{
-  FILE *f = fopen ("/proc/self/status", "r");
-  char line[256];
-  double v = 0.0;
-  if (!f)
-    return 0.0;
-  while (fgets (line, sizeof line, f))
-    if (strncmp (line, "VmRSS:", 6) == 0)
-      v = 1024.0 * strtod (line + 6, NULL);
-  fclose (f);
-  return v;
-}
-
-/* CPU time the whole machine spent busy (all cores, /proc/stat), in seconds; -1 if unknown. */
-static double
-machine_busy (void)
-{
-  FILE *f = fopen ("/proc/stat", "r");
-  unsigned long long v[8] = { 0 };
-  const double hz = (double) sysconf (_SC_CLK_TCK);
-  int k;
-  if (!f)
-    return -1.0;
-  k = fscanf (f, "cpu %llu %llu %llu %llu %llu %llu %llu %llu", &v[0], &v[1], &v[2], &v[3],
-              &v[4], &v[5], &v[6], &v[7]);
-  fclose (f);
-  if (k != 8 || hz <= 0.0)
-    return -1.0;
-  /* user nice system idle iowait irq softirq steal: all but idle and iowait are busy */
-  return (double) (v[0] + v[1] + v[2] + v[5] + v[6] + v[7]) / hz;
-}
-
-/* CPU seconds of this process and its waited-for children (cat, gzip). */
-static double
-own_cpu (void)
-{
-  struct rusage a, b;
-  getrusage (RUSAGE_SELF, &a);
-  getrusage (RUSAGE_CHILDREN, &b);
-  return (double) (a.ru_utime.tv_sec + a.ru_stime.tv_sec + b.ru_utime.tv_sec
-                   + b.ru_stime.tv_sec)
-         + 1e-6 * (double) (a.ru_utime.tv_usec + a.ru_stime.tv_usec + b.ru_utime.tv_usec
-                            + b.ru_stime.tv_usec);
-}
-
-/* Other work on the machine while a mode ran: the fraction of all cores that processes other
-   than this one kept busy.  A benchmark on a shared machine measures the neighbours too. */
-typedef struct load {
-  double wall, busy, own;
-} load;
-
-static void
-load_begin (load *l)
-{
-  l->wall = now ();
-  l->busy = machine_busy ();
-  l->own = own_cpu ();
-}
-
-/* Print TAG.others_cpu (the share of all cores that other processes used), TAG.own_cpu (this
-   process's share) and TAG.disturbed: 1 when others used more than the cores this step leaves
-   free (it wants WANT of them) plus 5% of the machine, so that some of its work waited for a
-   core.  A single-threaded step beside one busy neighbour on two cores is not disturbed. */
-static void
-load_end (const load *l, const char *tag, unsigned want)
-{
-  const double wall = now () - l->wall, busy = machine_busy (), own = own_cpu () - l->own;
-  const long ncpu = sysconf (_SC_NPROCESSORS_ONLN);
-  double other, mine, spare;
-  int disturbed;
-  if (l->busy < 0.0 || busy < 0.0 || wall <= 0.0 || ncpu < 1)
-    return;
-  other = (busy - l->busy - own) / (wall * (double) ncpu);
-  mine = own / (wall * (double) ncpu);
-  spare = (double) ncpu > (double) want ? ((double) ncpu - (double) want) / (double) ncpu : 0.0;
-  if (other < 0.0)
-    other = 0.0;
-  disturbed = other > spare + 0.05;
-  printf ("%s.others_cpu %.4f\n%s.own_cpu %.4f\n%s.disturbed %d\n", tag, other, tag, mine, tag,
-          disturbed);
-  if (disturbed)
-    fprintf (stderr, "  warning: other processes kept %.0f%% of the machine busy while this step "
-             "used %.0f%%: its figures are not reliable\n", 100.0 * other, 100.0 * mine);
-}
-
-static int
-cmp_double (const void *a, const void *b)
-{
-  const double x = *(const double *) a, y = *(const double *) b;
-  return (x > y) - (x < y);
-}
-
 /* ---------------------------------------------------------------- gen */
 
-/* Output buffer flushed to a plain file and, when gz is set, to a gzip copy. */
-typedef struct out {
-  FILE *f;
-  gzFile gz;
-  char *buf;
-  size_t len, cap;
-  const char *path;
-} out;
-
-static void
-out_flush (out *o)
-{
-  if (o->len && fwrite (o->buf, 1, o->len, o->f) != o->len)
-    die (o->path, "write failed");
-  if (o->len && o->gz && gzwrite (o->gz, o->buf, (unsigned) o->len) != (int) o->len)
-    die (o->path, "gzip write failed");
-  o->len = 0;
-}
-
-/* Append X with 4 decimals ("%.4f" rounded half away from zero; exact enough for data). */
-static void
-put_fixed4 (out *o, double x)
-{
-  char tmp[32];
-  char *p = tmp + sizeof tmp;
-  long long v = llround (fabs (x) * 1e4);
-  const int neg = x < 0.0 && v != 0;
-  for (int k = 0; k < 4; k++) {
-    *--p = (char) ('0' + v % 10);
-    v /= 10;
-  }
-  *--p = '.';
-  do {
-    *--p = (char) ('0' + v % 10);
-    v /= 10;
-  } while (v);
-  if (neg)
-    *--p = '-';
-  memcpy (o->buf + o->len, p, (size_t) (tmp + sizeof tmp - p));
-  o->len += (size_t) (tmp + sizeof tmp - p);
-}
 
 /*
  * One data set: N rows, P readings.  Reading j is m_j + s_j u with u standard normal (odd j)
@@ -450,28 +209,154 @@ time_table_read (const char *path, size_t *nrows, size_t *ncols)
   return dt;
 }
 
+/* The machine's plain read: read() of PATH in 1 MB pieces into one buffer, every byte copied
+   out of the page cache (a 'cat > /dev/null' may copy nothing: splice). */
+static double
+time_read_loop (const char *path, double *nbytes)
+{
+  static char buf[1 << 20];
+  const double t0 = now ();
+  const int fd = open (path, O_RDONLY);
+  ssize_t k;
+  double total = 0.0;
+  unsigned sum = 0;
+  if (fd < 0)
+    die (path, strerror (errno));
+  while ((k = read (fd, buf, sizeof buf)) > 0) {
+    total += (double) k;
+    sum += (unsigned char) buf[k - 1];       /* the bytes are used */
+  }
+  close (fd);
+  if (k < 0)
+    die (path, strerror (errno));
+  *nbytes = total + 0.0 * sum;
+  return now () - t0;
+}
+
+/* The hand-written parse reference: one thread reads PATH as above and turns each field of a
+   plain numeric CSV (a header line, then [-]digits[.digits][e[+-]digits] fields, ',' and
+   '\n' separated) into a double stored in its column, the least a reader must do.  The
+   decimal conversion is the short one (mantissa times a power of ten: not correctly rounded,
+   which bl_table_read is), so the reference is, if anything, fast.  Returns the wall time;
+   *NROWS and *NCOLS are what it found. */
+static double
+time_hand_parse (const char *path, size_t *nrows, size_t *ncols)
+{
+  static char buf[1 << 20];
+  static const double p10[] = { 1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11,
+                                1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21,
+                                1e22 };
+  const double t0 = now ();
+  const int fd = open (path, O_RDONLY);
+  double **col = NULL;
+  size_t nc = 1, cap = 0, r = 0, j = 0;
+  int header = 1, neg = 0, frac = -1, eneg = 0, inexp = 0, ex = 0;
+  unsigned long long mant = 0;
+  ssize_t k;
+  if (fd < 0)
+    die (path, strerror (errno));
+  while ((k = read (fd, buf, sizeof buf)) > 0) {
+    for (ssize_t i = 0; i < k; i++) {
+      const char c = buf[i];
+      if (header) {
+        if (c == ',')
+          nc++;
+        else if (c == '\n') {
+          header = 0;
+          if (!(col = calloc (nc, sizeof *col)))
+            die ("hand parse", "out of memory");
+        }
+        continue;
+      }
+      if (c >= '0' && c <= '9') {
+        if (inexp)
+          ex = 10 * ex + (c - '0');
+        else {
+          mant = 10 * mant + (unsigned long long) (c - '0');
+          if (frac >= 0)
+            frac++;
+        }
+      } else if (c == '.') {
+        frac = 0;
+      } else if (c == '-') {
+        if (inexp)
+          eneg = 1;
+        else
+          neg = 1;
+      } else if (c == 'e' || c == 'E') {
+        inexp = 1;
+      } else if (c == ',' || c == '\n') {
+        int e10 = (inexp ? (eneg ? -ex : ex) : 0) - (frac > 0 ? frac : 0);
+        double v = (double) mant;
+        if (e10 < 0)
+          v /= p10[-e10 < 22 ? -e10 : 22];
+        else if (e10 > 0)
+          v *= p10[e10 < 22 ? e10 : 22];
+        if (r == cap) {
+          cap = cap ? 2 * cap : 1u << 16;
+          for (size_t q = 0; q < nc; q++)
+            if (!(col[q] = realloc (col[q], cap * sizeof **col)))
+              die ("hand parse", "out of memory");
+        }
+        if (j < nc)
+          col[j][r] = neg ? -v : v;
+        j++;
+        if (c == '\n') {
+          r++;
+          j = 0;
+        }
+        mant = 0;
+        neg = eneg = inexp = ex = 0;
+        frac = -1;
+      }
+    }
+  }
+  close (fd);
+  if (k < 0)
+    die (path, strerror (errno));
+  *nrows = r;
+  *ncols = nc;
+  for (size_t q = 0; col && q < nc; q++)
+    free (col[q]);
+  free (col);
+  return now () - t0;
+}
+
 static int
 mode_ingest (const char *path)
 {
-  char *cat_argv[] = { "cat", (char *) path, NULL };
   const double bytes = file_bytes (path);
-  double t_cat, t_read = -1.0;
-  size_t nr = 0, nc = 0;
+  double t_loop = -1.0, t_hand = -1.0, t_read = -1.0, got = 0.0;
+  size_t nr = 0, nc = 0, hr = 0, hc = 0;
   load l;
   warm (path);
   load_begin (&l);
-  t_cat = best_cmd (cat_argv, 3);
+  for (int r = 0; r < 3; r++) {
+    const double t = time_read_loop (path, &got);
+    if (t_loop < 0.0 || t < t_loop)
+      t_loop = t;
+  }
+  for (int r = 0; r < 2; r++) {
+    const double t = time_hand_parse (path, &hr, &hc);
+    if (t_hand < 0.0 || t < t_hand)
+      t_hand = t;
+  }
   for (int r = 0; r < 2; r++) {
     const double t = time_table_read (path, &nr, &nc);
     if (t_read < 0.0 || t < t_read)
       t_read = t;
   }
+  if (hr != nr || hc != nc)
+    fprintf (stderr, "  warning: the hand parse found %zu x %zu, bl_table_read %zu x %zu\n", hr,
+             hc, nr, nc);
   fprintf (stderr, "  %s: %.1f MB, %zu rows x %zu columns\n", path, bytes / 1e6, nr, nc);
-  fprintf (stderr, "  cat > /dev/null: %.3f s (%.0f MB/s); bl_table_read: %.3f s (%.1f MB/s)"
-           " (best of 3 and 2, page cache warm)\n", t_cat, bytes / 1e6 / t_cat, t_read,
+  fprintf (stderr, "  read() loop: %.3f s (%.0f MB/s); hand-written parse, 1 thread: %.3f s "
+           "(%.0f MB/s); bl_table_read: %.3f s (%.1f MB/s) (best of 3, 2 and 2, page cache "
+           "warm)\n", t_loop, bytes / 1e6 / t_loop, t_hand, bytes / 1e6 / t_hand, t_read,
            bytes / 1e6 / t_read);
-  printf ("ingest.bytes %.0f\ningest.cat_s %.6f\ningest.read_s %.6f\n", bytes, t_cat, t_read);
-  load_end (&l, "ingest", 1);
+  printf ("ingest.bytes %.0f\ningest.loop_s %.6f\ningest.hand_s %.6f\ningest.read_s %.6f\n",
+          bytes, t_loop, t_hand, t_read);
+  load_end (&l, "ingest", 2);
   return 0;
 }
 
@@ -724,55 +609,6 @@ mode_fit (const char *path, unsigned threads, const char *tag, const char *dir)
 
 /* ---------------------------------------------------------------- report */
 
-typedef struct kv {
-  char key[64];
-  char val[64];
-} kv;
-
-typedef struct results {
-  kv *e;
-  size_t n;
-} results;
-
-static const char *
-get_s (const results *r, const char *key)
-{
-  for (size_t i = r->n; i-- > 0;)     /* the last value of a key wins */
-    if (strcmp (r->e[i].key, key) == 0)
-      return r->e[i].val;
-  return NULL;
-}
-
-static double
-get (const results *r, const char *key)
-{
-  const char *s = get_s (r, key);
-  return s ? strtod (s, NULL) : NAN;
-}
-
-static int nmiss, nfail;
-
-/* One row: FIGURE, MEASURED, REFERENCE, RATIO, TARGET; LO <= ratio <= HI passes. */
-static void
-row (const char *figure, double meas, const char *unit, double ref, const char *refname,
-     double ratio, const char *target, double lo, double hi)
-{
-  char m[32], rf[64], ra[32];
-  const char *verdict;
-  if (isnan (meas) || isnan (ref) || isnan (ratio) || meas < 0.0 || ref < 0.0) {
-    verdict = "FAIL(no data)";
-    nfail++;
-  } else if (ratio >= lo && ratio <= hi) {
-    verdict = "PASS";
-  } else {
-    verdict = "MISS";
-    nmiss++;
-  }
-  snprintf (m, sizeof m, "%.4g %s", meas, unit);
-  snprintf (rf, sizeof rf, "%.4g %s", ref, refname);
-  snprintf (ra, sizeof ra, "%.3g", ratio);
-  printf ("%-40s %-14s %-28s %-8s %-14s %s\n", figure, m, rf, ra, target, verdict);
-}
 
 static int
 same_bytes (const char *dir, const char *a, const char *b, size_t *nbytes)
@@ -799,55 +635,46 @@ same_bytes (const char *dir, const char *a, const char *b, size_t *nbytes)
 static int
 mode_report (const char *path, const char *dir)
 {
-  FILE *f = fopen (path, "r");
-  results r = { NULL, 0 };
-  size_t cap = 0, nb = 0;
-  char line[256], fig[96];
+  results r = results_read (path);
+  tally tl = { 0, 0 };
+  size_t nb = 0;
+  char fig[96];
   int same;
   double v, ref;
-  if (!f)
-    die (path, strerror (errno));
-  while (fgets (line, sizeof line, f)) {
-    if (r.n == cap) {
-      cap = cap ? 2 * cap : 64;
-      if (!(r.e = realloc (r.e, cap * sizeof *r.e)))
-        die ("report", "out of memory");
-    }
-    if (sscanf (line, "%63s %63s", r.e[r.n].key, r.e[r.n].val) == 2)
-      r.n++;
-  }
-  fclose (f);
 
   printf ("\n%-40s %-14s %-28s %-8s %-14s %s\n", "figure", "measured", "reference", "ratio",
           "target", "result");
   printf ("%-40s %-14s %-28s %-8s %-14s %s\n", "------", "--------", "---------", "-----",
           "------", "------");
-  /* ingest */
+  /* ingest: against a read() loop (the bytes copied, nothing parsed) and against the
+     hand-written one-thread parse into columns */
   {
     const double mb = get (&r, "ingest.bytes") / 1e6;
-    const double rd = mb / get (&r, "ingest.read_s"), cat = mb / get (&r, "ingest.cat_s");
-    row ("plain ingest, bl_table_read", rd, "MB/s", cat, "MB/s cat", rd / cat, ">= 0.1", 0.1,
-         INFINITY);
+    const double rd = mb / get (&r, "ingest.read_s"), lp = mb / get (&r, "ingest.loop_s");
+    const double hp = mb / get (&r, "ingest.hand_s");
+    (void) lp;                      /* printed under "also measured": not a parse target */
+    row (&tl, "plain ingest, bl_table_read", rd, "MB/s", hp, "MB/s hand parse 1 thr", rd / hp,
+         ">= 1", 1.0, INFINITY);
   }
   v = get (&r, "gz.read_s");
   ref = get (&r, "gz.zlib_s");
-  row ("gzip ingest, bl_table_read", v, "s", ref, "s zlib inflate", v / ref, "<= 1.5", 0.0,
+  row (&tl, "gzip ingest, bl_table_read", v, "s", ref, "s zlib inflate", v / ref, "<= 1.5", 0.0,
        1.5);
   /* IRLS */
   snprintf (fig, sizeof fig, "IRLS s/iter %.0fk x %.0f, threads 2", get (&r, "big_t2.n") / 1e3,
             get (&r, "big_t2.p"));
   v = get (&r, "big_t2.iter_s");
   ref = get (&r, "big_t2.syrk_s");
-  row (fig, v, "s", ref, "s dsyrk 2 thr", v / ref, "<= 2.5", 0.0, 2.5);
+  row (&tl, fig, v, "s", ref, "s dsyrk 2 thr", v / ref, "<= 2.5", 0.0, 2.5);
   snprintf (fig, sizeof fig, "IRLS s/iter %.0fk x %.0f, threads 2", get (&r, "p50_t2.n") / 1e3,
             get (&r, "p50_t2.p"));
   v = get (&r, "p50_t2.iter_s");
   ref = get (&r, "p50_t2.syrk_s");
-  row (fig, v, "s", ref, "s dsyrk 2 thr", v / ref, "<= 2.5", 0.0, 2.5);
+  row (&tl, fig, v, "s", ref, "s dsyrk 2 thr", v / ref, "<= 2.5", 0.0, 2.5);
   /* memory */
   v = get (&r, "big_t2.peak_bytes") / 1e6;
   ref = get (&r, "big_t2.parsed_bytes") / 1e6;
-  row ("peak memory, read + design + fit", v, "MB", ref, "MB parsed cols", v / ref, "<= 2",
+  row (&tl, "peak memory, read + design + fit", v, "MB", ref, "MB parsed cols", v / ref, "<= 2",
        0.0, 2.0);
   /* linearity: time ratio over row ratio, 1 +- 0.15 */
   {
@@ -855,7 +682,7 @@ mode_report (const char *path, const char *dir)
     const double tr = get (&r, "big_t2.iter_s") / get (&r, "lin_t2.iter_s");
     snprintf (fig, sizeof fig, "linearity: s/iter %.0fk / %.0fk rows", get (&r, "big_t2.n") / 1e3,
               get (&r, "lin_t2.n") / 1e3);
-    row (fig, tr, "x", rows, "x rows", tr / rows, "1 +- 0.15", 0.85, 1.15);
+    row (&tl, fig, tr, "x", rows, "x rows", tr / rows, "1 +- 0.15", 0.85, 1.15);
     if (get_s (&r, "lin_t2.solver") && get_s (&r, "big_t2.solver")
         && strcmp (get_s (&r, "lin_t2.solver"), get_s (&r, "big_t2.solver")) != 0)
       printf ("  (the two fits used different solvers, %s and %s: not comparable)\n",
@@ -867,11 +694,14 @@ mode_report (const char *path, const char *dir)
           same < 0 ? "n/a" : same ? "identical" : "differ", "memcmp", "-", "identical",
           same < 0 ? "FAIL(no data)" : same ? "PASS" : "MISS");
   if (same < 0)
-    nfail++;
+    tl.fail++;
   else if (!same)
-    nmiss++;
+    tl.miss++;
 
   printf ("\nalso measured (not judged):\n");
+  printf ("  read() loop of the plain CSV (bytes copied, nothing parsed): %.0f MB/s; "
+          "bl_table_read reaches %.3f of it\n", get (&r, "ingest.bytes") / 1e6
+          / get (&r, "ingest.loop_s"), get (&r, "ingest.loop_s") / get (&r, "ingest.read_s"));
   printf ("  gzip -dc > /dev/null %.3f s (gzip ingest / gzip -dc = %.2f)\n",
           get (&r, "gz.gzip_s"), get (&r, "gz.read_s") / get (&r, "gz.gzip_s"));
   printf ("  bl_fit_new wall: %.2f s threads 2, %.2f s threads 1 (%g iterations, %g halvings),"
@@ -916,10 +746,10 @@ mode_report (const char *path, const char *dir)
               100.0 * worst, (int) (strlen (where) - strlen (".others_cpu")), where,
               disturbed ? "  <-- NOT IDLE: some figures above are not reliable" : "");
   }
-  printf ("\n%d MISS, %d FAIL%s\n", nmiss, nfail, nmiss ? "  <-- MISS: a target was not met"
+  printf ("\n%d MISS, %d FAIL%s\n", tl.miss, tl.fail, tl.miss ? "  <-- MISS: a target was not met"
           : "");
   free (r.e);
-  return nfail ? 1 : 0;
+  return tl.fail ? 1 : 0;
 }
 
 /* ---------------------------------------------------------------- main */

@@ -23,7 +23,7 @@ failed=0
 mkdir -p "$OUT" || exit 1
 : > "$RES" || exit 1
 
-# step TITLE OPENBLAS_THREADS MODE ARGS...: one measurement in its own process; its KEY VALUE
+# step TITLE OPENBLAS_THREADS PROGRAM ARGS...: one measurement in its own process; its KEY VALUE
 # lines go to $RES, its account to stderr.  The BLAS thread count is fixed at process start.
 # A step that other processes disturbed (bench_irls prints TAG.disturbed 1) is run again, up
 # to $TRIES times in all; the first undisturbed try, or else the quietest, is kept.
@@ -35,7 +35,7 @@ step () {
   try=1
   while [ "$try" -le "$TRIES" ]; do
     "$BENCH" idle "$WAIT"
-    if ! OPENBLAS_NUM_THREADS=$blas "$BENCH" "$@" > "$OUT/step.$try"; then
+    if ! OPENBLAS_NUM_THREADS=$blas "$@" > "$OUT/step.$try"; then
       echo "bench: step '$title' failed" >&2
       failed=1
       return
@@ -58,48 +58,81 @@ step () {
 
 echo "ballast benchmark: $(uname -m), $(nproc 2>/dev/null || echo '?') cores," \
   "data in $OUT" >&2
-echo "== generate data sets (seed fixed; reused when already made)" >&2
-if ! "$BENCH" gen "$OUT" >> "$RES"; then
-  echo "bench: data generation failed" >&2
-  exit 1
+# The reader and the IRLS kernel beside the machine.  BENCH_IRLS=0 skips this part.
+if [ "${BENCH_IRLS:-1}" != 0 ]; then
+  echo "== generate data sets (seed fixed; reused when already made)" >&2
+  if ! "$BENCH" gen "$OUT" >> "$RES"; then
+    echo "bench: data generation failed" >&2
+    exit 1
+  fi
+  step "plain ingest" 1 "$BENCH" ingest "$OUT/big.csv"
+  step "gzip ingest" 1 "$BENCH" ingest-gz "$OUT/big.csv.gz"
+  step "gamma/log fit, big set, threads 2" 2 "$BENCH" fit "$OUT/big.csv" 2 big_t2 "$OUT"
+  step "gamma/log fit, big set, threads 1" 1 "$BENCH" fit "$OUT/big.csv" 1 big_t1 "$OUT"
+  step "gamma/log fit, small set (linearity), threads 2" 2 "$BENCH" fit "$OUT/lin.csv" 2 lin_t2 "$OUT"
+  step "gamma/log fit, p = 50, threads 2" 2 "$BENCH" fit "$OUT/p50.csv" 2 p50_t2 "$OUT"
+
+  "$BENCH" report "$RES" "$OUT" || failed=1
 fi
-step "plain ingest" 1 ingest "$OUT/big.csv"
-step "gzip ingest" 1 ingest-gz "$OUT/big.csv.gz"
-step "gamma/log fit, big set, threads 2" 2 fit "$OUT/big.csv" 2 big_t2 "$OUT"
-step "gamma/log fit, big set, threads 1" 1 fit "$OUT/big.csv" 1 big_t1 "$OUT"
-step "gamma/log fit, small set (linearity), threads 2" 2 fit "$OUT/lin.csv" 2 lin_t2 "$OUT"
-step "gamma/log fit, p = 50, threads 2" 2 fit "$OUT/p50.csv" 2 p50_t2 "$OUT"
 
-"$BENCH" report "$RES" "$OUT" || failed=1
-
-# compare on the big set parses the data once; with --folds 0 it should take at most 1.5x the
-# sum of its candidates' single fits in memory (each 'ballast fit' below less one read of the
-# file, timed as a fit with no terms).  BENCH_COMPARE=0 skips this part (about 4 minutes).
-if [ "${BENCH_COMPARE:-1}" != 0 ]; then
-  echo "== compare --folds 0 against its candidates' fits (big set)" >&2
+# The comparer (issue 12's targets): compare, cross-validation, Box-Cox, Tweedie and the
+# negative binomial, each beside the one fit it is made of, on BENCH_CMP_ROWS rows (default
+# 200000; a list, e.g. "200000 2000000", runs each).  BENCH_CMP=0 skips this part.
+if [ "${BENCH_CMP:-1}" != 0 ]; then
   BL="$B/ballast"
-  T="x1, x2, x3, x4, x5, x6, x7, x8, x9, x10"
-  secs () {
-    s0=$(date +%s.%N)
-    "$@" > /dev/null 2>&1
-    s1=$(date +%s.%N)
-    awk -v a="$s0" -v b="$s1" 'BEGIN { printf "%.3f", b - a }'
-  }
-  read_s=$(secs "$BL" fit "$OUT/big.csv" --response y --json -q)
-  cmp_s=$(secs "$BL" compare "$OUT/big.csv" --response y --terms "$T" --folds 0 --json -q)
-  sum=0
-  for a in "--method ols" "--transform log" "--transform sqrt" "--transform boxcox" \
-           "--variance fitted^est" "--family gaussian --link log" "--family gamma --link log" \
-           "--family gamma --link inverse" "--family gamma --link identity" \
-           "--family inverse-gaussian --link log"; do
-    # shellcheck disable=SC2086  # the options are separate words
-    t=$(secs "$BL" fit "$OUT/big.csv" --response y --terms "$T" $a --json -q)
-    sum=$(awk -v s="$sum" -v t="$t" -v r="$read_s" 'BEGIN { print s + t - r }')
+  CMP="$B/bench/bench_cmp"
+  for rows in ${BENCH_CMP_ROWS:-200000}; do
+    D="$OUT/cmp$rows"
+    RES="$D/results.txt"
+    mkdir -p "$D" && : > "$RES" || exit 1
+    echo "== comparer data, $rows rows (seed fixed; reused when already made)" >&2
+    "$CMP" gen "$D" "$rows" >> "$RES" || { failed=1; continue; }
+    m="--response y --terms x1,x2,x3,x4,x5,site --json -q"
+    # shellcheck disable=SC2086  # $m is separate words
+    {
+      step "the program alone (memory baseline)" 1 "$CMP" time base - -- "$BL" --version
+      step "read: an intercept-only fit" 2 "$CMP" time read - -- "$BL" fit "$D/cmp.csv" \
+        --response y --json -q
+      step "one gamma/log fit" 2 "$CMP" time gam - -- "$BL" fit "$D/cmp.csv" $m \
+        --family gamma --link log
+      step "one OLS fit" 2 "$CMP" time ols - -- "$BL" fit "$D/cmp.csv" $m --method ols
+      step "compare --folds 0" 2 "$CMP" time c0 "$D/c0.json" -- "$BL" compare "$D/cmp.csv" \
+        $m --folds 0
+      step "compare --folds 0 --threads 1" 1 "$CMP" time c0t1 "$D/c0t1.json" -- "$BL" compare \
+        "$D/cmp.csv" $m --folds 0 --threads 1
+      step "compare, 10 folds" 2 "$CMP" time c10 - -- "$BL" compare "$D/cmp.csv" $m
+      step "Box-Cox fit" 2 "$CMP" time bc - -- "$BL" fit "$D/cmp.csv" $m --method ols \
+        --transform boxcox
+      step "gamma/log fit from gzip" 2 "$CMP" time gz - -- "$BL" fit "$D/cmp.csv.gz" $m \
+        --family gamma --link log
+      step "zlib inflate alone" 1 "$CMP" time zlib - -- zlib "$D/cmp.csv.gz"
+      step "gaussian/log fit, Tweedie data" 2 "$CMP" time twg - -- "$BL" fit "$D/tw.csv" $m \
+        --family gaussian --link log
+      step "Tweedie, power estimated" 2 "$CMP" time tw - -- "$BL" fit "$D/tw.csv" $m \
+        --family tweedie --power est
+      step "poisson fit, count data" 2 "$CMP" time poi - -- "$BL" fit "$D/nb.csv" $m \
+        --family poisson
+      step "negative binomial, theta estimated" 2 "$CMP" time nb - -- "$BL" fit "$D/nb.csv" $m \
+        --family negative-binomial
+    }
+    if cmp -s "$D/c0.json" "$D/c0t1.json"; then echo "same.threads 1"; else echo "same.threads 0"
+    fi >> "$RES"
+    printf '[defaults]\ndata = cmp.csv\nresponse = y\nterms = x1, x2, x3, x4, x5, site\n' \
+      > "$D/bench.spec"
+    printf 'folds = 0\n[job c]\n[job g]\nfamily = gamma\nlink = log\n' >> "$D/bench.spec"
+    printf '[job n]\ndata = nb.csv\nfamily = negative-binomial\n' >> "$D/bench.spec"
+    rm -rf "$D/run1" "$D/run2"
+    echo "== run --jobs 1 and --jobs 2 (determinism)" >&2
+    if "$BL" run -q "$D/bench.spec" -o "$D/run1" --jobs 1 \
+       && "$BL" run -q "$D/bench.spec" -o "$D/run2" --jobs 2; then
+      if diff -r "$D/run1" "$D/run2" > /dev/null; then echo "same.jobs 1"; else echo "same.jobs 0"
+      fi >> "$RES"
+    else
+      echo "bench: the run determinism step failed" >&2
+      failed=1
+    fi
+    "$CMP" report "$RES" || failed=1
   done
-  awk -v c="$cmp_s" -v s="$sum" -v r="$read_s" 'BEGIN {
-    printf "%-40s %-14s %-28s %-8.3g %-14s %s\n", "compare --folds 0, big set (s)",
-           c - r, sprintf ("%.2f s sum of fits", s), (c - r) / s, "<= 1.5",
-           (c - r) / s <= 1.5 ? "PASS" : "MISS" }'
 fi
 echo "whole run: $(( $(date +%s) - start )) s" >&2
 exit $failed
