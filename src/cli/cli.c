@@ -1,5 +1,6 @@
 /* cli.c -- messages, exit codes and atomic output files for the ballast program. */
 #include <errno.h>
+#include <signal.h>
 #include <fcntl.h>
 #include <limits.h>
 #include <stdint.h>
@@ -312,6 +313,24 @@ cli_out_abort (cli_out *o)
   o->f = NULL;
   if (!o->is_direct)
     unlink (o->tmp);
+}
+
+int
+cli_out_commit_all (cli_out *const *o, size_t n)
+{
+  sigset_t block, old;
+  int rc = 0;
+  sigemptyset (&block);
+  sigaddset (&block, SIGINT);
+  sigprocmask (SIG_BLOCK, &block, &old);
+  for (size_t i = 0; i < n; i++) {
+    if (rc == 0)
+      rc = cli_out_commit (o[i]);
+    else
+      cli_out_abort (o[i]);
+  }
+  sigprocmask (SIG_SETMASK, &old, NULL);
+  return rc;
 }
 
 int

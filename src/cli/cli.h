@@ -53,6 +53,11 @@ int cli_out_commit (cli_out *o);                      /* fsync + rename; 0 or -1
    interrupted command leaves no file of its own behind.  Every write, flush and close is
    checked; a failed one is named ("ballast: PATH: write failed: REASON"). */
 void cli_out_abort (cli_out *o);                      /* remove the temporary */
+/* Commit the N outputs of one command together, written and not yet committed, in order,
+   with SIGINT held off: a signal either comes first (cli_cancel set: every one refused, none
+   written) or after the last rename, never between two of them.  After a failed one the
+   rest are aborted.  0 or -1. */
+int cli_out_commit_all (cli_out *const *o, size_t n);
 /* A writer failed on O with ERR (ERRNO_ the errno it left): O is aborted; a failed write
    (BL_EIO) is reported as O's ("PATH: write failed: REASON"), anything else through
    cli_lib_error.  Returns the exit code. */

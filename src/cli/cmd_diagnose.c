@@ -49,12 +49,12 @@ static const struct option own_opts[] = {
   CLI_OUTPUT_OPTS
 };
 
-/* Write the residual table of RES's model to PATH (atomically): the exit code. */
+/* Write the residual table of RES's model to ROUT, opened on PATH and left uncommitted (the
+   caller commits it with the report): 0, or the exit code with ROUT aborted. */
 static int
-write_residuals (const bl_job_result *res, const char *path)
+write_residuals (const bl_job_result *res, const char *path, cli_out *rout)
 {
   bl_resid_table *t;
-  cli_out rout;
   bl_err err;
   int rc = EXIT_DATA;
   bl_err_clear (&err);
@@ -63,15 +63,14 @@ write_residuals (const bl_job_result *res, const char *path)
     rc = t ? cli_interrupted ("diagnose") : cli_lib_error ("diagnose", &err);
     goto done;
   }
-  if (cli_out_open (&rout, path) != 0)
+  if (cli_out_open (rout, path) != 0)
     goto done;
-  if (bl_report_residuals_csv (rout.f, bl_job_result_model (res), t, &cli_cancel, &err)
+  if (bl_report_residuals_csv (rout->f, bl_job_result_model (res), t, &cli_cancel, &err)
       != BL_OK) {
-    rc = cli_out_fail (&rout, "diagnose", &err, errno);
+    rc = cli_out_fail (rout, "diagnose", &err, errno);
     goto done;
   }
-  if (cli_out_commit (&rout) == 0)
-    rc = EXIT_DONE;
+  rc = 0;
 done:
   bl_resid_table_free (t);
   return rc;
@@ -87,8 +86,8 @@ diagnose_report (const cli_model *m, unsigned long seed, const char *by, const c
   bl_job_result *res = NULL;
   const bl_fit *fit;
   bl_err err;
-  cli_out out;
-  int st, rc = EXIT_DATA;
+  cli_out out, rout;
+  int st, rc = EXIT_DATA, have_rout = 0;
   st = cli_model_run (m, BL_JOB_DIAGNOSE, seed, by, NULL, &res, &err);
   fit = res ? bl_job_result_fit (res) : NULL;
   if (!fit || !bl_job_result_diag (res)) {
@@ -106,15 +105,21 @@ diagnose_report (const cli_model *m, unsigned long seed, const char *by, const c
     for (size_t i = 0; i < wn->n; i++)
       cli_warn ("diagnose", "%s", wn->msg[i]);
   }
-  if (residuals && (rc = write_residuals (res, residuals)) != EXIT_DONE)
-    goto done;
-  rc = EXIT_DATA;
   if (st != BL_OK) {               /* the spread by group (--by) */
     rc = cli_lib_error ("diagnose", &err);
     goto done;
   }
-  if (cli_out_open (&out, output) != 0)
+  if (residuals) {
+    if ((rc = write_residuals (res, residuals, &rout)) != 0)
+      goto done;
+    have_rout = 1;
+    rc = EXIT_DATA;
+  }
+  if (cli_out_open (&out, output) != 0) {
+    if (have_rout)
+      cli_out_abort (&rout);
     goto done;
+  }
   {
     const bl_report_info info = { m->job.data, m->terms, m->offset, m->job.weights,
                                   bl_version (), bl_job_result_nested (res),
@@ -124,8 +129,13 @@ diagnose_report (const cli_model *m, unsigned long seed, const char *by, const c
   }
   if (st != BL_OK) {
     rc = cli_out_fail (&out, "diagnose", &err, errno);
-  } else if (cli_out_commit (&out) == 0) {
-    rc = EXIT_DONE;
+    if (have_rout)
+      cli_out_abort (&rout);
+  } else {
+    /* the residual table and the report land together, or neither does */
+    cli_out *const both[] = { &rout, &out };
+    if (have_rout ? cli_out_commit_all (both, 2) == 0 : cli_out_commit (&out) == 0)
+      rc = EXIT_DONE;
   }
 done:
   bl_job_result_free (res);

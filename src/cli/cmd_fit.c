@@ -36,19 +36,17 @@ static const struct option own_opts[] = {
   CLI_OUTPUT_OPTS
 };
 
-/* Write the fitted model to SAVE (when given), atomically: EXIT_DONE or EXIT_DATA. */
+/* Write the fitted model to SO, opened on SAVE and left uncommitted (committed with the
+   report): 0, or EXIT_DATA with SO aborted. */
 static int
-save_model (const char *save, const bl_fit *fit, const cli_model *m)
+save_model (const char *save, const bl_fit *fit, const cli_model *m, cli_out *so)
 {
-  cli_out so;
   bl_err err;
-  if (!save)
-    return EXIT_DONE;
-  if (cli_out_open (&so, save) != 0)
+  if (cli_out_open (so, save) != 0)
     return EXIT_DATA;
-  if (bl_model_write (so.f, fit, m->terms, m->offset, m->job.weights, &err) != BL_OK)
-    return cli_out_fail (&so, "fit", &err, errno);
-  return cli_out_commit (&so) == 0 ? EXIT_DONE : EXIT_DATA;
+  if (bl_model_write (so->f, fit, m->terms, m->offset, m->job.weights, &err) != BL_OK)
+    return cli_out_fail (so, "fit", &err, errno);
+  return 0;
 }
 
 /* Fit M's model (and test it against SMALL, the smaller model, when given), print its
@@ -94,11 +92,20 @@ fit_report (const cli_model *m, const bl_terms *small, int json, int quiet,
   }
   if (st != BL_OK) {
     rc = cli_out_fail (&out, "fit", &err, errno);
-  } else if (cli_out_commit (&out) == 0) {
-    if (!bl_fit_stats_get (fit)->converged)
+  } else if (!bl_fit_stats_get (fit)->converged) {
+    /* the report of a fit that did not converge, and no model saved */
+    if (cli_out_commit (&out) == 0)
       cli_error ("fit", "%s", bl_fit_status (fit)->msg);
+  } else if (!save) {
+    if (cli_out_commit (&out) == 0)
+      rc = EXIT_DONE;
+  } else {
+    /* the report and the saved model land together, or neither does */
+    cli_out so, *const both[] = { &so, &out };
+    if ((rc = save_model (save, fit, m, &so)) != 0)
+      cli_out_abort (&out);
     else
-      rc = save_model (save, fit, m);
+      rc = cli_out_commit_all (both, 2) == 0 ? EXIT_DONE : EXIT_DATA;
   }
 done:
   bl_job_result_free (res);
