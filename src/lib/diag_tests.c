@@ -29,7 +29,9 @@ int
 bl_spread_compute (const double *fitted, const double *r, size_t n, gsl_rng *rng, size_t reps,
                    bl_spread *out, bl_err *err)
 {
-  size_t G = BL_DIAG_GROUPS, *order = NULL;
+  size_t G = BL_DIAG_GROUPS;
+  uint32_t *grp = NULL;
+  long double ss[BL_DIAG_GROUPS] = { 0 }, sf[BL_DIAG_GROUPS] = { 0 };
   double lo = HUGE_VAL, hi = 0.0, *sim = NULL;
   int st = BL_OK;
   memset (out, 0, sizeof *out);
@@ -41,25 +43,25 @@ bl_spread_compute (const double *fitted, const double *r, size_t n, gsl_rng *rng
     out->why = "fewer than 40 rows: no two groups of 20 to compare";
     return BL_OK;
   }
-  order = bl_mallocn (n, sizeof *order);
+  grp = bl_mallocn (n, sizeof *grp);
   out->groups = bl_calloc (G, sizeof *out->groups);
-  if (!order || !out->groups) {
+  if (!grp || !out->groups) {
     st = bl_fail (err, BL_ENOMEM, "spread", "out of memory");
     goto done;
   }
-  if ((st = bl_order_by (fitted, n, order, err)) != BL_OK)
+  /* the groups of the fitted-value order by selection (order.h), then one pass in row order */
+  if ((st = bl_order_groups (fitted, n, G, grp, err)) != BL_OK)
     goto done;
+  for (size_t i = 0; i < n; i++) {
+    ss[grp[i]] += (long double) r[i] * r[i];
+    sf[grp[i]] += fitted[i];
+  }
   out->ngroups = G;
   for (size_t g = 0; g < G; g++) {
     const size_t a = g * n / G, b = (g + 1) * n / G;
-    long double ss = 0.0L, sf = 0.0L;
-    for (size_t k = a; k < b; k++) {
-      ss += (long double) r[order[k]] * r[order[k]];
-      sf += fitted[order[k]];
-    }
     out->groups[g].n = b - a;
-    out->groups[g].fitted_mean = (double) (sf / (long double) (b - a));
-    out->groups[g].rms = sqrt ((double) (ss / (long double) (b - a)));
+    out->groups[g].fitted_mean = (double) (sf[g] / (long double) (b - a));
+    out->groups[g].rms = sqrt ((double) (ss[g] / (long double) (b - a)));
     lo = out->groups[g].rms < lo ? out->groups[g].rms : lo;
     hi = out->groups[g].rms > hi ? out->groups[g].rms : hi;
   }
@@ -88,7 +90,7 @@ bl_spread_compute (const double *fitted, const double *r, size_t n, gsl_rng *rng
   out->flag = isfinite (out->ratio) && out->ratio >= BL_DIAG_SPREAD_FLAG
               && (!isfinite (out->null95) || out->ratio > out->null95);
 done:
-  bl_free (order);
+  bl_free (grp);
   bl_free (sim);
   if (st != BL_OK)
     bl_spread_clear (out);
