@@ -360,8 +360,8 @@ linear_row (const bl_model *m, const double *X, size_t i, double off, double *et
  * The variance of Duan's smeared mean m(xb) = (1/n) sum h^-1(xb + e_i) (Duan 1983, JASA 78,
  * 605-610), by the delta method over both sources: the coefficients and the smearing mean.
  * With e_i = eps_i - x_i'(b^ - b), m^ - m is to first order D x0'd + (S0 - S) - D xbar'd,
- * where d = b^ - b, D = m'(xb) = (1/n) sum (h^-1)'(xb + e_i), S0 the mean over the true errors and xbar the
- * mean row of X.  With an intercept, (X'X)^-1 X'1 is the unit vector of the intercept, so
+ * where d = b^ - b, D = m'(xb) = (1/n) sum (h^-1)'(xb + e_i), S0 the mean over the true
+ * errors and xbar the mean row of X.  With an intercept, (X'X)^-1 X'1 is the unit vector of the intercept, so
  * Cov(d, S0) = c e_1 / n (c = Cov(eps, h^-1(xb + eps))) and (x0 - xbar)'e_1 = 0: the cross
  * term vanishes, xbar' V xbar = s^2 / n and x0' V xbar = s^2 / n, leaving
  *   Var m^ = D^2 (se^2 - s^2 / n) + var_i h^-1(xb + e_i) / n,
