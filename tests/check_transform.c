@@ -716,6 +716,50 @@ START_TEST (transform_error_alloc_failure)
 }
 END_TEST
 
+
+/* A back-transform beyond a double is an error with its reason, not inf or an empty cell
+   (issue 13, class 2): a log fit predicted at x = 800, where exp(x'b) overflows (exp above
+   709.78, IEEE 754 double range, common practice); the smeared mean of
+   bl_fit_backtransform is then +inf, which predict refuses at the row's FILE:LINE. */
+START_TEST (transform_error_backtransform_overflow)
+{
+  static const char csv[] = "y,x\n1.2,1\n2.9,2\n7.1,3\n20.5,4\n55,5\n150,6\n";
+  static const char newcsv[] = "x\n3\n800\n";
+  test_job j = { 0 };
+  bl_fit_opts fo;
+  bl_table_opts to;
+  bl_table *nt;
+  bl_model *m;
+  bl_err err = { 0 };
+  char dir[512], path[600];
+  FILE *f;
+  j.t = test_table_mem (csv, strlen (csv), "lg.csv", NULL, 0);
+  test_job_design_spec (&j, "y", "x", NULL);
+  tr_opts (&fo, BL_TRANSFORM_LOG, 1.0, 0);
+  test_job_fit (&j, &fo, "log overflow");
+  ck_assert (isinf (bl_fit_backtransform (j.f, 800.0, 1)));
+  test_tmpdir (dir, sizeof dir);
+  snprintf (path, sizeof path, "%s/model.json", dir);
+  f = fopen (path, "w");
+  ck_assert_ptr_nonnull (f);
+  ck_assert_int_eq (bl_model_write (f, j.f, j.terms, NULL, NULL, &err), BL_OK);
+  ck_assert_int_eq (fclose (f), 0);
+  m = bl_model_read (path, &err);
+  ck_assert_ptr_nonnull (m);
+  bl_table_opts_init (&to);
+  bl_model_table_opts (m, &to);
+  nt = bl_table_read_mem (newcsv, strlen (newcsv), "new.csv", &to, &err);
+  ck_assert_ptr_nonnull (nt);
+  test_expect_fail (bl_model_predict (m, nt, 0.0, &err), &err, BL_EDATA, "new.csv:3",
+                    "out of range for double precision", "'y'", "predict overflow");
+  bl_model_free (m);
+  bl_table_free (nt);
+  unlink (path);
+  rmdir (dir);
+  test_job_free (&j);
+}
+END_TEST
+
 /* ---------------------------------------------------------------- basics */
 
 /* Back-transforms (transform.c): naive h^-1(xb) - shift for log, sqrt and Box-Cox, the means
@@ -775,6 +819,7 @@ transform_suite (void)
   tcase_add_test (idt, transform_smearing_lognormal);
   tcase_add_test (err, transform_error_nonpositive);
   tcase_add_test (err, transform_error_options);
+  tcase_add_test (err, transform_error_backtransform_overflow);
   tcase_add_loop_test (err, transform_error_alloc_failure, 0,
                        (int) (sizeof tr_nomem_case / sizeof tr_nomem_case[0]));
   tcase_add_test (bas, transform_backtransform_basics);

@@ -630,7 +630,7 @@ inverse_transform (const bl_fit_transform_info *t, double z)
     /* y = (1 + L z)^(1/L) where 1 + L z > 0; outside, the power has no real value and the
        mean is taken at the boundary of the range (0 or +inf), as in Duan 1983 */
     {
-      const double u = 1.0 + t->lambda * z;
+      const double u = fma (t->lambda, z, 1.0);   /* 1 + L z rounded once */
       if (u <= 0.0)
         return t->lambda > 0.0 ? 0.0 : HUGE_VAL;
       return exp (log (u) / t->lambda);
