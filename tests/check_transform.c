@@ -232,7 +232,7 @@ END_TEST
    1/3 + 1e-18 terms, a constant to a double; at S = 1e-3, L = 3 it is -1/3 + 1e-9 terms.
    Each fixed-L fit: the original-scale log-likelihood to 1e-10 relative, every coefficient of
    (y^L - 1) / L to 1e-8 relative (the slope is near 1e-18 at the extremes), the fit not
-   perfect. */
+   perfect; and the estimated fit's profile points at those powers to 1e-10 relative. */
 START_TEST (transform_boxcox_scales)
 {
   static const char *const cases[] = { "scale_0.001", "scale_1", "scale_1000", "scale_1e+06",
@@ -265,6 +265,27 @@ START_TEST (transform_boxcox_scales)
                        c.at[k][2 + b]);
         if (r > worst_b)
           worst_b = r;
+      }
+      test_job_free (&j);
+    }
+    /* the estimated fit's profile (the cancellation-free RSS of each power) at the same
+       powers: grid points 0, 5, ..., 60 of the scan every 0.1 */
+    {
+      test_job j = { 0 };
+      bl_fit_opts fo;
+      const bl_fit_transform_info *t;
+      bcs_design (&j, &c);
+      tr_opts (&fo, BL_TRANSFORM_BOXCOX, 1.0, 1);
+      test_job_fit (&j, &fo, cases[ci]);
+      t = bl_fit_transform (j.f);
+      ck_assert_uint_eq (t->nprofile, 61);
+      for (size_t k = 0; k < c.nat; k++) {
+        const double r = test_rel (t->profile_loglik[5 * k], c.at[k][1]);
+        ck_assert_msg (fabs (t->profile_lambda[5 * k] - c.at[k][0]) < 1e-12 && r <= 1e-10,
+                       "%s profile at %g: %.17g, ref %.17g", cases[ci],
+                       t->profile_lambda[5 * k], t->profile_loglik[5 * k], c.at[k][1]);
+        if (r > worst_ll)
+          worst_ll = r;
       }
       test_job_free (&j);
     }
@@ -313,10 +334,11 @@ START_TEST (transform_boxcox_issue)
 }
 END_TEST
 
-/* A profile rising to the end of the range: y = exp(x + small noise) fitted on x is best at
-   a power below -3?  Here y^-3 linear in x (y = (1 + 2.5 x)^(-1/3), exact up to 4-digit
-   rounding of y) puts the maximum at the lower edge or beyond; lambda_edge says which end,
-   with a note (issue 13, class 3: say so when the maximum is on the range's edge). */
+/* A profile rising to the end of the range: y = (1 + 2.5 x + e)^(-1/3.5), so y^-3.5 is
+   linear in x up to a small e (a closed form, no source needed): the true power -3.5 lies
+   beyond [-3, 3], the profile is highest at -3; lambda_edge says which end, with a note and
+   the open lower end's reason (issue 13, class 3: say so when the maximum is on the range's
+   edge). */
 START_TEST (transform_boxcox_edge)
 {
   test_buf b = { 0 };
