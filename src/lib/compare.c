@@ -185,16 +185,22 @@ bl_compare_fit_opts (const bl_compare_opts *opt, const spec *sp, double lam, bl_
   o->fam_par_est = 1;
 }
 
-/* h(y) of a transformed fit, for the discretized likelihood. */
+/* h(b) - h(y) of a transformed fit without the cancellation of two values of h that agree
+   in most digits (a Box-Cox response near its constant -1/L at large y and L < 0, where
+   h(y + 1/2) - h(y) is below the rounding of h(y)): with d = (b - y) / y,
+   log: log1p(d); sqrt: (b - y) / (sqrt b + sqrt y); Box-Cox: y^L expm1(L log1p(d)) / L
+   (common practice, no source). */
 static double
-htrans (const bl_fit_transform_info *t, double y)
+hdiff (const bl_fit_transform_info *t, double y, double b)
 {
+  const double d = (b - y) / y;
   switch (t->kind) {
-  case BL_TRANSFORM_LOG: return log (y);
-  case BL_TRANSFORM_SQRT: return sqrt (y);
+  case BL_TRANSFORM_LOG: return log1p (d);
+  case BL_TRANSFORM_SQRT: return (b - y) / (sqrt (b) + sqrt (y));
   case BL_TRANSFORM_BOXCOX:
-    return t->lambda == 0.0 ? log (y) : expm1 (t->lambda * log (y)) / t->lambda;
-  default: return y;
+    return t->lambda == 0.0 ? log1p (d)
+           : exp (t->lambda * log (y)) * expm1 (t->lambda * log1p (d)) / t->lambda;
+  default: return b - y;
   }
 }
 
@@ -212,9 +218,10 @@ log_interval_orig (const bl_fit *f, size_t i, double lo, double hi)
   const double a = pw ? pw[i] : 1.0, mu = bl_fit_mu (f)[i], phi = bl_fit_stats_get (f)->phi_ml;
   const bl_fit_transform_info *tr = bl_fit_transform (f);
   if (tr->kind != BL_TRANSFORM_NONE) {
-    const double s = sqrt (phi / a);
-    return bl_tail_norm_log_interval (lo > 0.0 ? (htrans (tr, lo) - mu) / s : -HUGE_VAL,
-                                      (htrans (tr, hi) - mu) / s);
+    /* h(b) - mu as (h(b) - h(y)) + (z_i - mu_i), y = HI - 1/2 the row's value */
+    const double s = sqrt (phi / a), y = hi - 0.5, r = bl_fit_y (f)[i] - mu;
+    return bl_tail_norm_log_interval (lo > 0.0 ? (hdiff (tr, y, lo) + r) / s : -HUGE_VAL,
+                                      (hdiff (tr, y, hi) + r) / s);
   }
   return bl_family_log_interval (bl_fit_family (f), lo, hi, mu, a, phi, bl_fit_family_par (f),
                                  BL_FAM_SCALE_MUL);

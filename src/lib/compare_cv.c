@@ -73,6 +73,15 @@ cv_fold (const bl_design *d, const bl_fit_opts *o, const size_t *fold, size_t g,
           if (!aliased[j])
             eta += blk[i + j * BL_IRLS_BLOCK] * beta[j];
         res = y[rb.row0 + i] - predict_mean (ft, eta);
+        if (!isfinite (res)) {
+          /* a back-transform beyond a double (exp of a large eta): no error to count */
+          *failed = 1;
+          if (bl_warnings_add (&k->notes, "cross-validation: fold %zu predicts a mean out of "
+                               "range for double precision (linear predictor %g)", g, eta)
+              != BL_OK)
+            st = bl_fail (err, BL_ENOMEM, "compare", "out of memory");
+          goto done;
+        }
         *se += (long double) res * res;
         *ae += fabs (res);
       }

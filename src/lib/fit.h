@@ -74,6 +74,8 @@ typedef enum bl_variance {
 #define BL_BOXCOX_MIN (-3.0)
 #define BL_BOXCOX_MAX 3.0
 #define BL_BOXCOX_GRID 0.1        /* grid step of the profile search */
+#define BL_BOXCOX_DIGITS 8        /* fewer significant digits kept by the transformed-scale
+                                     residuals than this: a note (fit_transform.c) */
 #define BL_WLS_POWER_MIN (-6.0)   /* search range of an estimated variance power */
 #define BL_WLS_POWER_MAX 6.0
 #define BL_WLS_MAX_ITER 50        /* feasible WLS reweighting steps */
@@ -85,6 +87,12 @@ typedef struct bl_fit_transform_info {
   double lambda_lo, lambda_hi;    /* 95% profile interval; NAN when open */
   double lambda_practical;        /* nearest multiple of 0.5 inside; NAN when none */
   int lambda_estimated;
+  int lambda_edge;                /* -1 / +1: the profile's maximum is at the lower / upper
+                                     end of [BL_BOXCOX_MIN, BL_BOXCOX_MAX]; 0 inside */
+  const char *lambda_lo_why, *lambda_hi_why;  /* why an interval end is NAN, else "" */
+  const char *profile_why;        /* why some profile points are -HUGE_VAL (null), else "" */
+  int digits_kept;                /* Box-Cox: significant digits of the transformed-scale
+                                     residuals y - mu as doubles hold them (17 when no loss) */
   int shift_given;
   double shift;                   /* y + shift was transformed */
   size_t nprofile;                /* profile points (lambda, loglik), for plotting */

@@ -131,6 +131,8 @@ bl_fit_result_new (const bl_design *d, const double *y, const double *a, const b
   f->tr.kind = BL_TRANSFORM_NONE;
   f->tr.name = NULL;
   f->tr.lambda = f->tr.lambda_lo = f->tr.lambda_hi = f->tr.lambda_practical = NAN;
+  f->tr.lambda_lo_why = f->tr.lambda_hi_why = f->tr.profile_why = "";
+  f->tr.digits_kept = 17;
   f->var.kind = BL_VARIANCE_NONE;
   f->var.power = f->var.power_se = NAN;
   f->st.loglik_transformed = NAN;

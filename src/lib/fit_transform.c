@@ -13,25 +13,81 @@
    Brent's method (GSL) around the best grid point; its 95% interval is where the profile
    lies within chi2_1(0.95) / 2 = 1.92 of its top (Box & Cox 1964, section 4), found by root
    bracketing between grid points. */
+#include <float.h>
 #include <math.h>
 #include <stdio.h>
 #include <string.h>
 #include "alloc.h"
 #include "fit_engine.h"
+#include "family_impl.h"
 #include "fit_glm.h"
 #include "profile.h"
 
+/*
+ * The Box-Cox response without cancellation.  With c a constant (the geometric mean of y,
+ * rounded to a double) and t_i = log(y_i / c),
+ *   z_i = (y_i^L - 1) / L = A (u_i + k),   u_i = expm1(L t_i) / L,
+ *   A = c^L,   k = (1 - c^-L) / L = -expm1(-L log c) / L      (u_i = t_i, A = 1, k = log c
+ *                                                              at L = 0),
+ * an exact identity (from memory; the normalized power of Box & Cox 1964, section 3, with
+ * the geometric mean moved inside the power).  u has geometric-mean-one ratios under its
+ * power, so it straddles 0 and keeps every digit of its spread at any L and any scale of y,
+ * while z itself is -1/L plus a small part when L < 0 and y is large (y near 2e4 at
+ * L = -2.7: z = 0.37037... + 1e-12 terms, the spread held by 4 of a double's 16 digits).
+ * Least squares is linear in the response, so the fit of z is A times the fit of u + k:
+ *   with an intercept: beta_z = A (beta_u + k e_1), residuals A r_u;
+ *   without:           beta_z = A (beta_u + k beta_1), residuals A (r_u + k r_1),
+ * beta_1 and r_1 being the fit of the constant 1 on X (made once).  Nothing is subtracted
+ * that has lost its digits.  The normal log-likelihood of z at the ML dispersion, with prior
+ * weights a_i > 0 (common practice, no source),
+ *   l_z = -n/2 (log 2 pi + log(RSS_z / n) + 1) + 1/2 sum log a_i,   RSS_z = A^2 RSS_v,
+ * v = r_u (+ k r_1); with the Jacobian (L - 1) sum log y_i = (L - 1)(n log c + sum t_i) the
+ * original-scale profile is
+ *   l(L) = -n/2 (log 2 pi + log(RSS_v / n) + 1) + 1/2 sum log a_i - n log c + (L - 1) sum t_i,
+ * free of the large terms -n L log c that cancel, and finite wherever RSS_v is, even where
+ * z itself overflows a double.
+ */
 typedef struct prof_ctx {
   const bl_design *d;
   const bl_fit_opts *opt;     /* gaussian identity, no transform */
   const double *ys;           /* y + shift, length n */
+  const double *t;            /* log(ys_i / c), length n */
+  double logc;                /* log c */
   double sumlog;              /* sum log(y + shift) */
-  double *z;                  /* work: the transformed response */
+  double sumt, sumloga;       /* sum t_i; sum log a_i (0 without weights) */
+  int intercept;
+  const double *beta1, *mu1;  /* no intercept: the fit of the constant 1 (else NULL) */
+  double *z;                  /* work: the response u */
+  const char *why;            /* why the first null profile point is null, else NULL */
   int status;                 /* first hard error (ENOMEM), else BL_OK */
   bl_err *err;
 } prof_ctx;
 
-/* Box-Cox (y^L - 1) / L = expm1(L log y) / L, and log y at L = 0. */
+/* A, k and log A of the identity above at LAMBDA. */
+static void
+bc_scale (double lambda, double logc, double *A, double *k, double *logA)
+{
+  if (lambda == 0.0) {
+    *logA = 0.0;
+    *A = 1.0;
+    *k = logc;
+    return;
+  }
+  *logA = lambda * logc;
+  *A = exp (*logA);
+  *k = -expm1 (-lambda * logc) / lambda;
+}
+
+/* u_i = expm1(L t_i) / L, t_i at L = 0. */
+static void
+bc_u (const double *t, size_t n, double lambda, double *u)
+{
+  for (size_t i = 0; i < n; i++)
+    u[i] = (lambda == 0.0) ? t[i] : expm1 (lambda * t[i]) / lambda;
+}
+
+/* Box-Cox (y^L - 1) / L = expm1(L log y) / L, and log y at L = 0: z itself, as a double
+   rounds it (the response the fit reports). */
 static void
 boxcox (const double *ys, size_t n, double lambda, double *z)
 {
@@ -39,14 +95,79 @@ boxcox (const double *ys, size_t n, double lambda, double *z)
     z[i] = (lambda == 0.0) ? log (ys[i]) : expm1 (lambda * log (ys[i])) / lambda;
 }
 
-/* The original-scale profile log-likelihood at LAMBDA (-HUGE_VAL when it does not exist). */
+/* RSS_v = sum a_i v_i^2 of fit F of u (the residual sum of squares of z / A, see above),
+   in long double, and *SSU = sum a_i u_i^2. */
+static long double
+rss_v (const prof_ctx *c, const bl_fit *f, double k, long double *ssu)
+{
+  const size_t n = f->n;
+  long double s = 0.0L, su = 0.0L;
+  for (size_t i = 0; i < n; i++) {
+    const double ai = f->a ? f->a[i] : 1.0;
+    const long double v = (long double) f->y[i] - f->mu[i]
+                          + (c->intercept ? 0.0L : (long double) k * (1.0 - c->mu1[i]));
+    s += ai * v * v;
+    su += (long double) ai * f->y[i] * f->y[i];
+  }
+  *ssu = su;
+  return s;
+}
+
+/* The residual sum of squares of z at LAMBDA, as RSS_v = RSS_z / A^2 (the one least-squares
+   pass per power: a later shared QR of X gives it for every response at once).  Returns
+   BL_OK with *RSS set, or BL_EDOM-like -1 with C->why saying why the point has no
+   likelihood (or C->status set on a hard error). */
+static int
+boxcox_rss (prof_ctx *c, double lambda, long double *rss)
+{
+  const size_t n = bl_design_n (c->d);
+  double A, k, logA;
+  long double ssu;
+  bl_fit *f;
+  bl_err e;
+  int st = BL_OK;
+  bc_scale (lambda, c->logc, &A, &k, &logA);
+  bc_u (c->t, n, lambda, c->z);
+  f = bl_fit_core (c->d, c->z, NULL, c->opt, 1, &e);
+  if (!f) {
+    if (e.code == BL_ENOMEM && c->status == BL_OK) {
+      c->status = BL_ENOMEM;
+      if (c->err)
+        *c->err = e;
+    }
+    if (!c->why)
+      c->why = "the least-squares fit at this power failed (its response is out of range "
+               "for double precision)";
+    return -1;
+  }
+  if (!f->st.converged) {
+    if (!c->why)
+      c->why = "the least-squares fit at this power did not converge";
+    st = -1;
+  } else {
+    *rss = c->intercept ? (long double) f->st.deviance : rss_v (c, f, k, &ssu);
+    if (c->intercept ? f->st.perfect : *rss <= 1e-24L * ssu) {
+      if (!c->why)
+        c->why = "a perfect fit at this power: zero residual variance, no likelihood";
+      st = -1;
+    } else if (!(*rss > 0.0L && isfinite ((double) *rss))) {
+      if (!c->why)
+        c->why = "the residual sum of squares at this power is out of range";
+      st = -1;
+    }
+  }
+  bl_fit_free (f);
+  return st;
+}
+
+/* The original-scale profile log-likelihood at LAMBDA (-HUGE_VAL when it does not exist,
+   with the reason in the context). */
 static double
 profile (double lambda, void *arg)
 {
   prof_ctx *c = arg;
-  const size_t n = bl_design_n (c->d);
-  bl_fit *f;
-  bl_err e;
+  const double n = (double) bl_design_n (c->d);
+  long double rss;
   double l;
   /* the caller's cancel flag (polled inside each fit too): no more profile fits, and the
      run fails with BL_ECANCEL rather than go on through a grid of cancelled fits */
@@ -55,19 +176,16 @@ profile (double lambda, void *arg)
       c->status = bl_fail (c->err, BL_ECANCEL, "transform", "the fit was cancelled");
     return -HUGE_VAL;
   }
-  boxcox (c->ys, n, lambda, c->z);
-  f = bl_fit_core (c->d, c->z, NULL, c->opt, 1, &e);
-  if (!f) {
-    if (e.code == BL_ENOMEM && c->status == BL_OK) {
-      c->status = BL_ENOMEM;
-      if (c->err)
-        *c->err = e;
-    }
+  if (boxcox_rss (c, lambda, &rss) != BL_OK)
+    return -HUGE_VAL;
+  l = -0.5 * n * (BL_LOG_2PI + (double) logl (rss / (long double) n) + 1.0)
+      + 0.5 * c->sumloga - n * c->logc + (lambda - 1.0) * c->sumt;
+  if (!isfinite (l)) {
+    if (!c->why)
+      c->why = "the profile log-likelihood at this power is not finite";
     return -HUGE_VAL;
   }
-  l = f->st.loglik + (lambda - 1.0) * c->sumlog;
-  bl_fit_free (f);
-  return isfinite (l) ? l : -HUGE_VAL;
+  return l;
 }
 
 /* Record that GSL could not allocate a solver (its own malloc, outside alloc.h). */
@@ -98,6 +216,109 @@ smear_sums (bl_fit *f)
   f->tr.smear_min = emin;
 }
 
+/* Fit F of u (bl_fit_core) moved to the scale of z = A (u + k) at LAMBDA: coefficients,
+   fitted values, the response, deviances, dispersions, covariance and log-likelihood, as
+   the identity at the head of this file gives them.  Also the digits the transformed-scale
+   residuals keep as differences of doubles, with a note below BL_BOXCOX_DIGITS. */
+static int
+to_z_scale (const prof_ctx *c, bl_fit *f, double lambda, bl_err *err)
+{
+  const size_t n = f->n, p = f->p;
+  double A, k, logA, zmax = 0.0;
+  long double rss, ssu, szz = 0.0L, svv = 0.0L;
+  bl_fit_stats *st = &f->st;
+  bc_scale (lambda, c->logc, &A, &k, &logA);
+  rss = rss_v (c, f, k, &ssu);
+  /* the unweighted mean square of v, for the digits below */
+  for (size_t i = 0; i < n; i++) {
+    const long double v = (long double) f->y[i] - f->mu[i]
+                          + (c->intercept ? 0.0L : (long double) k * (1.0 - c->mu1[i]));
+    svv += v * v;
+  }
+  for (size_t j = 0; j < p; j++)
+    if (!f->aliased[j])
+      f->beta[j] = A * (f->beta[j] + (c->intercept ? (j == 0 ? k : 0.0) : k * c->beta1[j]));
+  for (size_t i = 0; i < n; i++)
+    f->mu[i] = f->eta[i] = A * (f->mu[i] + (c->intercept ? k : k * c->mu1[i]));
+  boxcox (c->ys, n, lambda, f->y_own);
+  for (size_t i = 0; i < n; i++) {
+    const double ai = f->a ? f->a[i] : 1.0;
+    szz += (long double) ai * f->y_own[i] * f->y_own[i];
+    if (fabs (f->y_own[i]) > zmax)
+      zmax = fabs (f->y_own[i]);
+  }
+  {
+    const long double A2 = (long double) A * A;
+    const double dev = (double) (A2 * rss);
+    if (!isfinite (A) || !(A > 0.0) || !isnormal (dev) || !isnormal (A * A)) {
+      char where[1100];
+      snprintf (where, sizeof where, "%s", bl_design_source (c->d));
+      return bl_fail (err, BL_EDATA, where, "the Box-Cox response (y^L - 1) / L of '%s' at "
+                      "L = %g is out of range for double precision (its scale (geometric "
+                      "mean)^L = %g); rescale y, e.g. by a power of ten", bl_design_response
+                      (c->d), lambda, A);
+    }
+    if (!c->intercept && !st->perfect && rss <= 1e-24L * ssu)
+      st->perfect = 1;
+    st->deviance = st->pearson = dev;
+    st->phi_pearson = st->dof_resid > 0 ? dev / (double) st->dof_resid : NAN;
+    st->phi_ml = st->perfect ? 0.0 : dev / (double) n;
+    st->phi_used = st->dof_resid > 0 ? st->phi_pearson : NAN;
+    if (isfinite (st->deviance_null))
+      st->deviance_null = c->intercept ? (double) (A2 * (long double) st->deviance_null)
+                                       : (double) szz;
+  }
+  for (size_t j = 0; j < p; j++)
+    for (size_t l = 0; l < p; l++)
+      f->cov[j + l * p] = (f->aliased[j] || f->aliased[l]) ? NAN
+                          : f->cov_unscaled[j + l * p] * st->phi_used;
+  bl_fit_wald_table (f);
+  if (st->perfect) {
+    st->loglik = st->aic = st->aicc = st->bic = NAN;
+    st->loglik_why = "perfect fit: zero residual variance makes the likelihood unbounded";
+    st->aicc_why = st->loglik_why;
+  } else {
+    const double l = -0.5 * (double) n * (BL_LOG_2PI + 2.0 * logA
+                                           + (double) logl (rss / (long double) n) + 1.0)
+                     + 0.5 * c->sumloga;
+    bl_fit_set_loglik (f, l, st->k);
+  }
+  /* The digits the residuals y_i - mu_i keep as differences of two doubles near |z|max:
+     log10(rms residual / (eps |z|max)) (common practice, no source). */
+  {
+    const double rms = A * sqrt ((double) (svv / (long double) n));
+    const double dg = zmax > 0.0 && rms > 0.0 ? floor (log10 (rms / (DBL_EPSILON * zmax)))
+                                              : 17.0;
+    f->tr.digits_kept = dg > 17.0 ? 17 : dg < 0.0 ? 0 : (int) dg;
+    if (f->tr.digits_kept < BL_BOXCOX_DIGITS
+        && bl_warnings_add (&f->warn, "at lambda = %.6g the transformed response lies within "
+                            "%.2g (relative) of its constant -1/lambda: the coefficients, "
+                            "likelihood and profile were computed without that cancellation, "
+                            "but the transformed-scale residuals (smearing, robust standard "
+                            "errors, diagnostics) keep about %d significant digits",
+                            lambda, rms / zmax, f->tr.digits_kept) != BL_OK)
+      return bl_fail (err, BL_ENOMEM, "transform", "out of memory");
+  }
+  return BL_OK;
+}
+
+/* The fit of z at LAMBDA (Box-Cox, or the log at 0) carried out on u: NULL with ERR set. */
+static bl_fit *
+boxcox_fit (prof_ctx *c, double lambda, bl_err *err)
+{
+  bl_fit *f;
+  bc_u (c->t, bl_design_n (c->d), lambda, c->z);
+  if (!(f = bl_fit_core (c->d, c->z, NULL, c->opt, 0, err)))
+    return NULL;
+  if (f->st.converged && to_z_scale (c, f, lambda, err) != BL_OK) {
+    bl_fit_free (f);
+    return NULL;
+  }
+  if (!f->st.converged)
+    boxcox (c->ys, f->n, lambda, f->y_own);
+  return f;
+}
+
 /* The searches of the Box-Cox profile: the maximum by Brent's method to 1e-10 in lambda, at
    most 200 profile fits, stopping when an iteration makes no more progress (Brent's steps are
    at least sqrt(DBL_EPSILON) |x| (GSL), so the bracket of a lambda above about 0.01 never
@@ -106,19 +327,39 @@ smear_sums (bl_fit *f)
 static const bl_profile_tol boxcox_max_tol = { 1e-10, 0.0, 200, 1 };
 static const bl_profile_tol boxcox_root_tol = { 1e-12, 0.0, 200, 0 };
 
-/* lambda estimated: the profile on a grid over [BL_BOXCOX_MIN, BL_BOXCOX_MAX], its maximum
-   and 95% interval, the practical power, and the fit at lambda-hat carrying the profile.
-   *LAMBDA_OUT is lambda-hat.  NULL with ERR set on failure. */
+/* The practical power: the multiple of 0.5 inside [LO, HI] (the range's ends where open)
+   nearest lambda-hat LAMBDA, ties to the higher profile (common practice, no source). */
+static double
+practical_power (prof_ctx *pc, double lambda, double lo, double hi)
+{
+  const double a = isfinite (lo) ? lo : BL_BOXCOX_MIN, b = isfinite (hi) ? hi : BL_BOXCOX_MAX;
+  double practical = NAN, best_l = -HUGE_VAL;
+  for (double cand = ceil (2.0 * a) / 2.0; cand <= b + 1e-12; cand += 0.5) {
+    const double dist = fabs (cand - lambda);
+    const double pv = profile (cand, pc);
+    if (!isfinite (practical) || dist < fabs (practical - lambda) - 1e-12
+        || (fabs (dist - fabs (practical - lambda)) <= 1e-12 && pv > best_l)) {
+      practical = cand == 0.0 ? 0.0 : cand;   /* ceil of a small negative is -0 */
+      best_l = pv;
+    }
+  }
+  return practical;
+}
+
+/* lambda estimated: the global maximum of the profile over [BL_BOXCOX_MIN, BL_BOXCOX_MAX]
+   (bl_profile_search: a scan every BL_BOXCOX_GRID, Brent's method inside the best point's
+   neighbours), its 95% interval, the practical power, and the fit at lambda-hat carrying
+   the profile; a maximum at an end of the range is said (lambda_edge and a note).  This is
+   the one search of lambda: `fit --transform boxcox` and the comparer's ls-bc candidate both
+   reach it through bl_fit_new.  *LAMBDA_OUT is lambda-hat.  NULL with ERR set on failure. */
 static bl_fit *
 boxcox_estimate (prof_ctx *pc, double *lambda_out, bl_err *err)
 {
-  const bl_design *d = pc->d;
-  const size_t n = bl_design_n (d);
-  double lambda;
-  bl_fit *f;
-  const size_t ng = (size_t) lround ((BL_BOXCOX_MAX - BL_BOXCOX_MIN) / BL_BOXCOX_GRID) + 1;
+  const size_t ng = bl_profile_npoints (BL_BOXCOX_MIN, BL_BOXCOX_MAX, 1.0 / BL_BOXCOX_GRID);
   double *grid = bl_mallocn (ng, sizeof *grid), *val = bl_mallocn (ng, sizeof *val);
-  double top, lo = NAN, hi = NAN, practical = NAN, best_l = -HUGE_VAL;
+  double lo = NAN, hi = NAN, practical;
+  bl_profile_max mx;
+  bl_fit *f;
   size_t m = 0;
   if (!grid || !val) {
     bl_free (grid);
@@ -126,52 +367,28 @@ boxcox_estimate (prof_ctx *pc, double *lambda_out, bl_err *err)
     bl_fail (err, BL_ENOMEM, "transform", "out of memory");
     return NULL;
   }
-  m = bl_profile_grid (profile, pc, BL_BOXCOX_MIN, BL_BOXCOX_GRID, ng, grid, val, NULL);
-  if (pc->status != BL_OK || !(val[m] > -HUGE_VAL)) {
+  if (bl_profile_search (profile, pc, BL_BOXCOX_MIN, BL_BOXCOX_MAX, ng, grid, val, &pc->status,
+                         &boxcox_max_tol, &mx) != BL_OK)
+    nomem (pc);
+  for (size_t j = 0; j < ng; j++)
+    if (val[j] > val[m])
+      m = j;
+  if (pc->status != BL_OK || !(mx.fx > -HUGE_VAL)) {
     bl_free (grid);
     bl_free (val);
     if (pc->status == BL_OK)
       bl_fail (err, BL_ENOCONV, "--transform", "the Box-Cox profile likelihood could not be "
-               "evaluated at any power in [%g, %g]", BL_BOXCOX_MIN, BL_BOXCOX_MAX);
+               "evaluated at any power in [%g, %g]: %s", BL_BOXCOX_MIN, BL_BOXCOX_MAX,
+               pc->why ? pc->why : "no power gave a likelihood");
     return NULL;
-  }
-  /* lambda-hat: the best grid point, refined by Brent's method inside its neighbours (the
-     grid point itself when the maximum is at an end of [-3, 3]); a solver GSL could not
-     allocate is an error, not the grid point as if refined */
-  if (bl_profile_refine (profile, pc, grid, val, ng, m, &boxcox_max_tol, &lambda) != BL_OK)
-    nomem (pc);
-  top = profile (lambda, pc);
-  if (top < val[m]) {            /* keep the grid point if refining did not improve it */
-    lambda = grid[m];
-    top = val[m];
   }
   /* the interval: a solver GSL could not allocate is an error, not an open interval */
-  if (bl_profile_interval (profile, pc, grid, val, ng, m, lambda,
-                           bl_profile_threshold (top, BL_PROFILE_LEVEL), &boxcox_root_tol,
+  if (bl_profile_interval (profile, pc, grid, val, ng, m, mx.x,
+                           bl_profile_threshold (mx.fx, BL_PROFILE_LEVEL), &boxcox_root_tol,
                            &lo, &hi) != BL_OK)
     nomem (pc);
-  /* The practical power: the multiple of 0.5 inside the interval nearest lambda-hat, ties
-     to the higher profile (common practice, no source). */
-  {
-    const double a = isfinite (lo) ? lo : BL_BOXCOX_MIN, b = isfinite (hi) ? hi : BL_BOXCOX_MAX;
-    for (double cand = ceil (2.0 * a) / 2.0; cand <= b + 1e-12; cand += 0.5) {
-      const double dist = fabs (cand - lambda);
-      const double pv = profile (cand, pc);
-      if (!isfinite (practical) || dist < fabs (practical - lambda) - 1e-12
-          || (fabs (dist - fabs (practical - lambda)) <= 1e-12 && pv > best_l)) {
-        practical = cand == 0.0 ? 0.0 : cand;   /* ceil of a small negative is -0 */
-        best_l = pv;
-      }
-    }
-  }
-  if (pc->status != BL_OK) {
-    bl_free (grid);
-    bl_free (val);
-    return NULL;
-  }
-  boxcox (pc->ys, n, lambda, pc->z);
-  f = bl_fit_core (d, pc->z, NULL, pc->opt, 0, err);
-  if (!f) {
+  practical = practical_power (pc, mx.x, lo, hi);
+  if (pc->status != BL_OK || !(f = boxcox_fit (pc, mx.x, err))) {
     bl_free (grid);
     bl_free (val);
     return NULL;
@@ -185,7 +402,24 @@ boxcox_estimate (prof_ctx *pc, double *lambda_out, bl_err *err)
   f->tr.lambda_hi = hi;
   f->tr.lambda_practical = practical;
   f->tr.lambda_estimated = 1;
-  *lambda_out = lambda;
+  f->tr.lambda_edge = mx.edge;
+  f->tr.lambda_lo_why = isfinite (lo) ? "" : "the profile does not fall 1.92 below its top "
+                        "between lambda-hat and the lower end of the search range";
+  f->tr.lambda_hi_why = isfinite (hi) ? "" : "the profile does not fall 1.92 below its top "
+                        "between lambda-hat and the upper end of the search range";
+  for (size_t j = 0; j < ng; j++)
+    if (!(val[j] > -HUGE_VAL))
+      f->tr.profile_why = pc->why ? pc->why : "no likelihood at this power";
+  if (mx.edge != 0
+      && bl_warnings_add (&f->warn, "the Box-Cox profile is highest at the %s end of its "
+                          "search range, lambda = %g: the maximum may lie beyond it, and "
+                          "lambda-hat is that end", mx.edge < 0 ? "lower" : "upper",
+                          mx.x) != BL_OK) {
+    bl_fit_free (f);
+    bl_fail (err, BL_ENOMEM, "transform", "out of memory");
+    return NULL;
+  }
+  *lambda_out = mx.x;
   return f;
 }
 
@@ -262,6 +496,58 @@ transform_mark (bl_fit *f, const bl_fit_opts *opt, double lambda, double c0, con
   }
 }
 
+/* The context of the profile and of the final fit: t_i = log(ys_i / c) with c the geometric
+   mean of YS (N rows) rounded to a double, the sums, and without an intercept the fit of the
+   constant 1 (*ONES, freed by the caller).  T is caller's scratch of N.  BL_OK or an error. */
+static int
+prof_setup (prof_ctx *pc, const double *ys, double *t, bl_fit **ones, bl_err *err)
+{
+  const bl_design *d = pc->d;
+  const size_t n = bl_design_n (d);
+  const double *a = bl_design_prior_w (d);
+  long double sl = 0.0L, st = 0.0L, sa = 0.0L;
+  double c;
+  for (size_t i = 0; i < n; i++) {
+    sl += log (ys[i]);
+    if (a)
+      sa += log (a[i]);
+  }
+  c = exp ((double) (sl / (long double) n));
+  if (!(c > 0.0 && isfinite (c)))
+    c = 1.0;                    /* a geometric mean beyond a double: no centering */
+  pc->logc = log (c);
+  for (size_t i = 0; i < n; i++) {
+    t[i] = log (ys[i] / c);
+    st += t[i];
+  }
+  pc->ys = ys;
+  pc->t = t;
+  pc->sumlog = (double) sl;
+  pc->sumt = (double) st;
+  pc->sumloga = (double) sa;
+  pc->intercept = bl_design_has_intercept (d);
+  pc->beta1 = pc->mu1 = NULL;
+  pc->why = NULL;
+  pc->status = BL_OK;
+  pc->err = err;
+  *ones = NULL;
+  if (!pc->intercept) {
+    for (size_t i = 0; i < n; i++)
+      pc->z[i] = 1.0;
+    if (!(*ones = bl_fit_core (d, pc->z, NULL, pc->opt, 1, err)))
+      return err ? err->code : BL_ENOMEM;
+    if (!(*ones)->st.converged)
+      return bl_fail (err, BL_ENOCONV, "transform", "the least-squares fit of a constant on "
+                      "the terms did not converge: %s", (*ones)->status.msg);
+    for (size_t j = 0; j < (*ones)->p; j++)
+      if ((*ones)->aliased[j])
+        (*ones)->beta[j] = 0.0;
+    pc->beta1 = (*ones)->beta;
+    pc->mu1 = (*ones)->mu;
+  }
+  return BL_OK;
+}
+
 bl_fit *
 bl_fit_transform_run (const bl_design *d, const bl_fit_opts *opt, bl_err *err)
 {
@@ -270,9 +556,8 @@ bl_fit_transform_run (const bl_design *d, const bl_fit_opts *opt, bl_err *err)
   const double c0 = opt->shift_given ? opt->shift : 0.0;
   bl_fit_opts o = *opt;
   prof_ctx pc;
-  double *ys = NULL, *z = NULL, lambda = opt->lambda;
-  long double sl = 0.0L;
-  bl_fit *f = NULL;
+  double *ys = NULL, *z = NULL, *t = NULL, lambda = opt->lambda;
+  bl_fit *f = NULL, *ones = NULL;
   const char *name = opt->transform == BL_TRANSFORM_LOG ? "log"
                      : opt->transform == BL_TRANSFORM_SQRT ? "sqrt" : "boxcox";
 
@@ -280,12 +565,11 @@ bl_fit_transform_run (const bl_design *d, const bl_fit_opts *opt, bl_err *err)
     return NULL;
   ys = bl_mallocn (n, sizeof *ys);
   z = bl_mallocn (n, sizeof *z);
-  if (!ys || !z)
+  t = bl_mallocn (n, sizeof *t);
+  if (!ys || !z || !t)
     goto nomem;
-  for (size_t i = 0; i < n; i++) {
+  for (size_t i = 0; i < n; i++)
     ys[i] = y[i] + c0;
-    sl += log (ys[i]);
-  }
   o.transform = BL_TRANSFORM_NONE;
   o.method = BL_METHOD_OLS;
   o.fam = &bl_family_gaussian;
@@ -293,27 +577,26 @@ bl_fit_transform_run (const bl_design *d, const bl_fit_opts *opt, bl_err *err)
   o.se = BL_SE_MODEL;
   pc.d = d;
   pc.opt = &o;
-  pc.ys = ys;
-  pc.sumlog = (double) sl;
   pc.z = z;
-  pc.status = BL_OK;
-  pc.err = err;
+  if (prof_setup (&pc, ys, t, &ones, err) != BL_OK)
+    goto done;
 
   if (opt->transform == BL_TRANSFORM_BOXCOX && opt->lambda_est) {
     if (!(f = boxcox_estimate (&pc, &lambda, err)))
       goto done;
-  } else {
-    if (opt->transform == BL_TRANSFORM_LOG)
-      for (size_t i = 0; i < n; i++)
-        z[i] = log (ys[i]);
-    else if (opt->transform == BL_TRANSFORM_SQRT)
-      for (size_t i = 0; i < n; i++)
-        z[i] = sqrt (ys[i]);
-    else
-      boxcox (ys, n, lambda, z);
-    f = bl_fit_core (d, z, NULL, &o, 0, err);
-    if (!f)
+  } else if (opt->transform == BL_TRANSFORM_SQRT) {
+    /* sqrt(y) = sqrt(c) sqrt(y / c): a scale, no constant to cancel */
+    for (size_t i = 0; i < n; i++)
+      z[i] = sqrt (ys[i]);
+    if (!(f = bl_fit_core (d, z, NULL, &o, 0, err)))
       goto done;
+  } else {
+    /* log y = log c + t: the Box-Cox fit at lambda 0, carried on t */
+    if (!(f = boxcox_fit (&pc, opt->transform == BL_TRANSFORM_LOG ? 0.0 : lambda, err)))
+      goto done;
+    if (opt->transform == BL_TRANSFORM_BOXCOX) {
+      f->tr.lambda_lo_why = f->tr.lambda_hi_why = "lambda was fixed: no interval";
+    }
   }
   transform_mark (f, opt, lambda, c0, name, pc.sumlog, n);
   if (opt->shift_given
@@ -327,8 +610,10 @@ bl_fit_transform_run (const bl_design *d, const bl_fit_opts *opt, bl_err *err)
 nomem:
   bl_fail (err, BL_ENOMEM, "transform", "out of memory");
 done:
+  bl_fit_free (ones);
   bl_free (ys);
   bl_free (z);
+  bl_free (t);
   return f;
 }
 
@@ -345,7 +630,7 @@ inverse_transform (const bl_fit_transform_info *t, double z)
     /* y = (1 + L z)^(1/L) where 1 + L z > 0; outside, the power has no real value and the
        mean is taken at the boundary of the range (0 or +inf), as in Duan 1983 */
     {
-      const double u = 1.0 + t->lambda * z;
+      const double u = fma (t->lambda, z, 1.0);   /* 1 + L z rounded once */
       if (u <= 0.0)
         return t->lambda > 0.0 ? 0.0 : HUGE_VAL;
       return exp (log (u) / t->lambda);

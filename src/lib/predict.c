@@ -164,7 +164,7 @@ inverse_transform (const bl_model *m, double z)
     if (m->lambda == 0.0)
       return exp (z);
     {
-      const double u = 1.0 + m->lambda * z;
+      const double u = fma (m->lambda, z, 1.0);   /* 1 + L z rounded once */
       if (u <= 0.0)
         return m->lambda > 0.0 ? 0.0 : HUGE_VAL;
       return exp (log (u) / m->lambda);
@@ -184,7 +184,7 @@ inverse_transform_deriv (const bl_model *m, double z)
     if (m->lambda == 0.0)
       return exp (z);
     {
-      const double u = 1.0 + m->lambda * z;       /* (1 + L z)^(1/L - 1) */
+      const double u = fma (m->lambda, z, 1.0);   /* (1 + L z)^(1/L - 1) */
       return u > 0.0 ? exp ((1.0 / m->lambda - 1.0) * log (u)) : 0.0;
     }
   default: return 1.0;
@@ -398,8 +398,9 @@ smear_variance (const bl_model *m, double xb, double deriv, double se)
    transformed-scale interval mapped back; the median is the naive back-transform.  For the
    log the mean interval is formed on the log scale, m exp(-/+ q sd(log m^)), which keeps it
    positive and follows the skew of m^; for the others m -/+ q sd(m^). */
-static void
-transformed_row (const pass *ps, size_t row, double eta, double se, double a)
+static int
+transformed_row (const pass *ps, size_t row, double eta, double se, double a, const char *w,
+                 bl_err *err)
 {
   const bl_model *m = ps->m;
   bl_prediction *pr = ps->pr;
@@ -419,6 +420,18 @@ transformed_row (const pass *ps, size_t row, double eta, double se, double a)
   pr->pred_lo[row] = inverse_transform (m, eta - q * sp) - m->shift;
   pr->pred_hi[row] = inverse_transform (m, eta + q * sp) - m->shift;
   pr->median[row] = inverse_transform (m, eta) - m->shift;
+  /* A back-transform beyond a double (exp of a linear predictor above 709, or a Box-Cox
+     power past its bound 1 + L z > 0 under the smearing residuals) has no mean to report:
+     a reason, not inf or an empty cell.  An interval end may be unbounded (inf). */
+  if (!isfinite (mu) || isnan (pr->mean_lo[row]) || isnan (pr->mean_hi[row])
+      || isnan (pr->pred_lo[row]) || isnan (pr->pred_hi[row])) {
+    char s[32];
+    bl_format_shortest (eta, s);
+    return bl_fail (err, BL_EDATA, w, "the predicted mean of '%s' at the transformed-scale "
+                    "linear predictor %s is out of range for double precision (its "
+                    "back-transform is %g)", m->response, s, mu);
+  }
+  return BL_OK;
 }
 
 /* The variance function's value *V at row ROW with mean MU: x^K of the variance column VC,
@@ -514,10 +527,12 @@ predict_row (pass *ps, const double *X, size_t i, size_t row, bl_err *err)
   int status;
   linear_row (m, X, i, ps->off ? ps->off[row] : 0.0, &eta, &se);
   row_where (ps->t, bl_design_table_row (ps->d, row), w, sizeof w);
-  if (m->tr != BL_TRANSFORM_NONE)
-    transformed_row (ps, row, eta, se, a);
-  else if ((status = link_row (ps, row, eta, se, a, w, err)) != BL_OK)
+  if (m->tr != BL_TRANSFORM_NONE) {
+    if ((status = transformed_row (ps, row, eta, se, a, w, err)) != BL_OK)
+      return status;
+  } else if ((status = link_row (ps, row, eta, se, a, w, err)) != BL_OK) {
     return status;
+  }
   if (ps->y && !isnan (ps->y[row])) {
     const double e = ps->y[row] - ps->pr->mean[row];
     if (m->tr != BL_TRANSFORM_NONE)

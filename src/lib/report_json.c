@@ -99,6 +99,11 @@ model_json (bl_json *w, const bl_fit *fit, const bl_report_info *info)
       bl_json_num (w, "lambda_hi", t->lambda_hi);
       bl_json_num (w, "lambda_practical", t->lambda_practical);
       bl_json_bool (w, "lambda_estimated", t->lambda_estimated);
+      if (t->lambda_estimated)
+        bl_json_str (w, "lambda_edge", t->lambda_edge < 0 ? "lower" : t->lambda_edge > 0
+                     ? "upper" : NULL);
+      else
+        bl_json_null (w, "lambda_edge");
       if (t->shift_given)
         bl_json_num (w, "shift", t->shift);
       else
@@ -111,6 +116,25 @@ model_json (bl_json *w, const bl_fit *fit, const bl_report_info *info)
         bl_json_obj_end (w);
       }
       bl_json_arr_end (w);
+      {
+        int null_point = 0;
+        for (size_t i = 0; i < t->nprofile; i++)
+          null_point |= !isfinite (t->profile_loglik[i]);
+        bl_json_obj (w, "null_reasons");
+        why (w, "lambda", t->lambda, "no Box-Cox power: the log or square-root transform");
+        why (w, "lambda_lo", t->lambda_lo, t->kind != BL_TRANSFORM_BOXCOX ? "no Box-Cox power"
+             : t->lambda_lo_why);
+        why (w, "lambda_hi", t->lambda_hi, t->kind != BL_TRANSFORM_BOXCOX ? "no Box-Cox power"
+             : t->lambda_hi_why);
+        why (w, "lambda_practical", t->lambda_practical, t->kind != BL_TRANSFORM_BOXCOX
+             ? "no Box-Cox power" : !t->lambda_estimated ? "lambda was fixed"
+             : "no multiple of 0.5 inside the interval");
+        why (w, "lambda_edge", NAN, !t->lambda_estimated ? "lambda was not searched for"
+             : t->lambda_edge == 0 ? "the maximum is inside the search range" : "");
+        if (null_point)
+          why (w, "profile.loglik", NAN, t->profile_why);
+        bl_json_obj_end (w);
+      }
       bl_json_obj_end (w);
     } else if (bl_fit_method (fit) == BL_METHOD_OLS) {
       bl_json_null (w, "transform");
