@@ -243,9 +243,9 @@ END_TEST
 START_TEST (table_line_after_multiline)
 {
   /* The cell on line 5 is named 5 although only 4 records precede it. */
-  expect_fail ("line after multiline", "a,b\n1,\"x\ny\nz\"\n2,3\nkg,4\n", NULL, BL_EDATA,
+  expect_fail ("line after multiline", "a,b\n1,\"x\ny\nz\"\n2,w\nkg,4\n", NULL, BL_EDATA,
                "mem.csv:6:1", "not a number: 'kg'");
-  expect_fail ("column after multiline", "a,b\nq,1\n\"x\ny\",12.5kg\n", NULL, BL_EDATA,
+  expect_fail ("column after multiline", "a,b\nq,1\n\"x\ny\",12.5kg\nr,3\n", NULL, BL_EDATA,
                "mem.csv:4:2", "'12.5kg'");
 }
 END_TEST
@@ -754,11 +754,11 @@ START_TEST (table_semicolon_decimal_comma)
   ck_assert_str_eq (bl_table_level (t, 1, 0), "a;b");
   bl_table_free (t);
   /* With a decimal comma, a point is not a decimal mark. */
-  expect_fail ("decimal comma, point", "hours;x\n3,14;1\n3.14;2\n", &opt, BL_EDATA,
+  expect_fail ("decimal comma, point", "hours;x\n3,14;1\n3.14;2\n2,5;3\n", &opt, BL_EDATA,
                "mem.csv:3:1", "not a number: '3.14'");
   /* The overflow message shows the cell as written. */
-  expect_fail ("decimal comma, overflow", "load\n1,5e999\n", &opt, BL_EDATA, "mem.csv:2:1",
-               "value '1,5e999' overflows a double in column 'load'");
+  expect_fail ("decimal comma, overflow", "load\n1,5e999\n1\n2,5\n", &opt, BL_EDATA,
+               "mem.csv:2:1", "value '1,5e999' overflows a double in column 'load'");
 }
 END_TEST
 
@@ -929,18 +929,20 @@ END_TEST
 
 START_TEST (table_not_a_number)
 {
-  expect_fail ("not a number", "weight,site\n2.5,a\n12.5kg,b\n", NULL, BL_EDATA, "mem.csv:3:1",
-               "not a number: '12.5kg' in column 'weight' (declare the column categorical");
-  expect_fail ("not a number after missing", "a,weight\n1,NA\n2,3.5\n3,x\n", NULL, BL_EDATA,
-               "mem.csv:4:2", "not a number: 'x' in column 'weight'");
+  expect_fail ("not a number", "weight,site\n2.5,a\n12.5kg,b\n3.5,c\n", NULL, BL_EDATA,
+               "mem.csv:3:1", "not a number: '12.5kg' in column 'weight' (2 of its 3 "
+               "non-missing cells are numbers; --categorical weight for a column meant as "
+               "labels)");
+  expect_fail ("not a number after missing", "a,weight\n1,NA\n2,3.5\n3,x\n4,5\n", NULL,
+               BL_EDATA, "mem.csv:4:2", "not a number: 'x' in column 'weight'");
   expect_fail ("point with decimal comma off", "a\n1\n3,5\n", NULL, BL_EDATA, "mem.csv:3",
                "record has 2 fields, header has 1");
-  expect_fail ("lone sign", "a\n1\n-\n", NULL, BL_EDATA, "mem.csv:3:1", "not a number: '-'");
-  expect_fail ("exponent without digits", "a\n1\n1e\n", NULL, BL_EDATA, "mem.csv:3:1",
+  expect_fail ("lone sign", "a\n1\n-\n2\n", NULL, BL_EDATA, "mem.csv:3:1", "not a number: '-'");
+  expect_fail ("exponent without digits", "a\n1\n1e\n2\n", NULL, BL_EDATA, "mem.csv:3:1",
                "not a number: '1e'");
-  expect_fail ("two points", "a\n1\n1.2.3\n", NULL, BL_EDATA, "mem.csv:3:1",
+  expect_fail ("two points", "a\n1\n1.2.3\n2\n", NULL, BL_EDATA, "mem.csv:3:1",
                "not a number: '1.2.3'");
-  expect_fail ("inner blank", "a\n1\n1 2\n", NULL, BL_EDATA, "mem.csv:3:1",
+  expect_fail ("inner blank", "a\n1\n1 2\n2\n", NULL, BL_EDATA, "mem.csv:3:1",
                "not a number: '1 2'");
 }
 END_TEST
@@ -949,20 +951,20 @@ START_TEST (table_refused_numbers)
 {
   /* Forms strtod takes but ballast refuses, whether the column is numeric already or the
      cell would decide its type. */
-  expect_fail ("hex", "a\n1\n0x1A\n", NULL, BL_EDATA, "mem.csv:3:1",
+  expect_fail ("hex", "a\n1\n0x1A\n2\n", NULL, BL_EDATA, "mem.csv:3:1",
                "not a decimal number: '0x1A' in column 'a'");
-  expect_fail ("hex first", "a\n0x1p3\n", NULL, BL_EDATA, "mem.csv:2:1",
+  expect_fail ("hex first", "a\n0x1p3\n1\n2\n", NULL, BL_EDATA, "mem.csv:2:1",
                "not a decimal number: '0x1p3'");
-  expect_fail ("inf", "a\n1\ninf\n", NULL, BL_EDATA, "mem.csv:3:1", "'inf'");
-  expect_fail ("infinity first", "b,a\nx,-Infinity\n", NULL, BL_EDATA, "mem.csv:2:2",
+  expect_fail ("inf", "a\n1\ninf\n2\n", NULL, BL_EDATA, "mem.csv:3:1", "'inf'");
+  expect_fail ("infinity first", "b,a\nx,-Infinity\ny,1\nz,2\n", NULL, BL_EDATA, "mem.csv:2:2",
                "not a decimal number: '-Infinity' in column 'a'");
-  expect_fail ("nan", "a\n1\nnan\n", NULL, BL_EDATA, "mem.csv:3:1", "'nan'");
-  expect_fail ("nan(chars)", "a\nNAN(123)\n", NULL, BL_EDATA, "mem.csv:2:1", "'NAN(123)'");
-  expect_fail ("overflow", "hours,load\n1,2\n3,1e999\n", NULL, BL_EDATA, "mem.csv:3:2",
+  expect_fail ("nan", "a\n1\nnan\n2\n", NULL, BL_EDATA, "mem.csv:3:1", "'nan'");
+  expect_fail ("nan(chars)", "a\nNAN(123)\n1\n2\n", NULL, BL_EDATA, "mem.csv:2:1", "'NAN(123)'");
+  expect_fail ("overflow", "hours,load\n1,2\n3,1e999\n4,5\n", NULL, BL_EDATA, "mem.csv:3:2",
                "value '1e999' overflows a double in column 'load'");
-  expect_fail ("overflow first", "load\n-1.7976931348623159e308\n", NULL, BL_EDATA,
+  expect_fail ("overflow first", "load\n-1.7976931348623159e308\n1\n2\n", NULL, BL_EDATA,
                "mem.csv:2:1", "value '-1.7976931348623159e308' overflows a double");
-  expect_fail ("overflow long exponent", "load\n1\n1e99999999999999999999\n", NULL, BL_EDATA,
+  expect_fail ("overflow long exponent", "load\n1\n1e99999999999999999999\n2\n", NULL, BL_EDATA,
                "mem.csv:3:1", "overflows a double");
 }
 END_TEST
