@@ -49,6 +49,7 @@ typedef struct column {
                                  a MIX column that began numeric: its first numbers were
                                  stored as doubles only) */
   size_t nbad;                /* non-missing cells that are not numbers (not for FORCED) */
+  size_t nnum;                /* MIX at the end: the cells that are numbers */
   bad_cell bad;               /* the first of them */
   size_t over_line, over_col; /* the first cell past max_levels (its level not kept), or 0 */
   double *num;                /* NUM, MIX: cap entries (NAN: missing, or a label in MIX) */

@@ -271,6 +271,7 @@ decide_types (reader *rd, bl_table *t, int *reread, bl_err *err)
     if (c->type == COL_MIX)
       for (size_t i = 0; i < t->nrows; i++)
         nnum += !isnan (c->num[i]);
+    c->nnum = nnum;
     if (c->type == COL_MIX && nnum > c->nbad) {
       kind = 1;
       line = c->bad.line;
@@ -702,3 +703,18 @@ bl_table_line (const bl_table *t, size_t row)
   return row < t->nrows ? t->line[row] : 0;
 }
 
+int
+bl_table_typed_by_cells (const bl_table *t, size_t j, size_t *nlabels, size_t *nnum,
+                         size_t *line, size_t *col, const char **text)
+{
+  const column *c;
+  if (j >= t->ncols || t->cols[j].type != COL_CAT || t->cols[j].forced || !t->cols[j].nbad)
+    return 0;
+  c = &t->cols[j];
+  *nlabels = c->nbad;
+  *nnum = c->nnum;
+  *line = c->bad.line;
+  *col = c->bad.col;
+  *text = c->bad.text;
+  return 1;
+}
