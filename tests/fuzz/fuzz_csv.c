@@ -218,7 +218,9 @@ check_rotated (const uint8_t *data, size_t size, const bl_table *a, int par)
     if (end > r1 && data[end - 1] == '\r')
       end--;
   }
-  if (end == r1 || r1 <= r0 || !(rot = malloc (size + 2)))
+  if (end == r1 || r1 <= r0 || data[r0] == '\n' || data[r0] == '\r')
+    return;                     /* an empty first record would become a trailing empty line */
+  if (!(rot = malloc (size + 2)))
     return;
   memcpy (rot, data, r0);
   len = r0;
