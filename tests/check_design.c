@@ -446,33 +446,57 @@ START_TEST (design_errors_spec)
   bl_design_opts o;
   design_fails (t, "stop", "age", NULL, BL_ESPEC, "--response", "no column 'stop' in pumps.csv");
   design_fails (t, NULL, "age", NULL, BL_ESPEC, "--response", "no response column given");
-  design_fails (t, "site", "age", NULL, BL_ESPEC, "--response",
-                "'site' is categorical; the response must be numeric");
+  /* A column categorical by its cells is a data error naming its first label (exit 1); one
+     declared categorical is the caller's contradiction (exit 2): common practice, no source. */
+  design_fails (t, "site", "age", NULL, BL_EDATA, "pumps.csv:2:2",
+                "'site' is categorical: 9 of its 9 non-missing cells are not numbers, the first "
+                "'B' here (--response); the response must be numeric");
   design_fails (t, "stops", "age, agee", NULL, BL_ESPEC, "--terms", "no column 'agee'");
   design_fails (t, "stops", "cross(age, [Site])", NULL, BL_ESPEC, "--terms", "no column 'Site'");
-  design_fails (t, "stops", "log(site)", NULL, BL_ESPEC, "--terms",
-                "log(site): 'site' is categorical; log needs a numeric argument");
-  design_fails (t, "stops", "age, sqrt(kind)", NULL, BL_ESPEC, "--terms",
-                "sqrt(kind): 'kind' is categorical; sqrt needs");
-  design_fails (t, "stops", "exp(site)", NULL, BL_ESPEC, "--terms", "exp(site): 'site'");
-  design_fails (t, "stops", "pow(cross(site, age), 2)", NULL, BL_ESPEC, "--terms",
-                "pow(cross(site,age),2): 'site' is categorical; pow needs");
+  design_fails (t, "stops", "log(site)", NULL, BL_EDATA, "pumps.csv:2:2",
+                "(--terms); log(site): log needs a numeric argument");
+  design_fails (t, "stops", "age, sqrt(kind)", NULL, BL_EDATA, "pumps.csv:2:3",
+                "'kind' is categorical: 9 of its 9 non-missing cells are not numbers, the "
+                "first 'screw' here (--terms); sqrt(kind): sqrt needs");
+  design_fails (t, "stops", "exp(site)", NULL, BL_EDATA, "pumps.csv:2:2", "exp(site): exp");
+  design_fails (t, "stops", "pow(cross(site, age), 2)", NULL, BL_EDATA, "pumps.csv:2:2",
+                "pow(cross(site,age),2): pow needs");
   bl_design_opts_init (&o);
   o.weights = "wt";
   design_fails (t, "stops", "age", &o, BL_ESPEC, "--weights", "no column 'wt'");
   o.weights = "kind";
-  design_fails (t, "stops", "age", &o, BL_ESPEC, "--weights", "'kind' is categorical");
+  design_fails (t, "stops", "age", &o, BL_EDATA, "pumps.csv:2:3",
+                "'kind' is categorical: 9 of its 9 non-missing cells are not numbers");
   bl_design_opts_init (&o);
   o.offset = off2;
   design_fails (t, "stops", "age", &o, BL_ESPEC, "--offset", "exactly one term, not 2");
   o.offset = offc;
-  design_fails (t, "stops", "age", &o, BL_ESPEC, "--offset",
-                "'site' is categorical; the offset must be numeric");
+  design_fails (t, "stops", "age", &o, BL_EDATA, "pumps.csv:2:2",
+                "(--offset); the offset must be numeric");
   o.offset = offx;
   design_fails (t, "stops", "age", &o, BL_ESPEC, "--offset", "no column 'hourz'");
   bl_design_opts_init (&o);
   o.intercept = 0;
   design_fails (t, "stops", NULL, &o, BL_ESPEC, "--terms", "the design has no columns");
+  {
+    /* declared categorical: the contradiction is the caller's (BL_ESPEC at the option) */
+    static const char *const cat[] = { "age" };
+    bl_table_opts to;
+    bl_err e = { 0 };
+    bl_table *tc;
+    bl_table_opts_init (&to);
+    to.categorical = cat;
+    to.n_categorical = 1;
+    tc = bl_table_read_mem (pumps_csv, strlen (pumps_csv), "pumps.csv", &to, &e);
+    ck_assert_msg (tc != NULL, "%s", e.msg);
+    design_fails (tc, "age", "load", NULL, BL_ESPEC, "--response",
+                  "'age' is categorical (declared); the response must be numeric");
+    bl_design_opts_init (&o);
+    o.weights = "age";
+    design_fails (tc, "stops", "load", &o, BL_ESPEC, "--weights",
+                  "'age' is categorical (declared); weights must be numeric");
+    bl_table_free (tc);
+  }
   bl_terms_free (off2);
   bl_terms_free (offc);
   bl_terms_free (offx);

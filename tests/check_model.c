@@ -662,8 +662,26 @@ END_TEST
 START_TEST (model_error_not_numeric)
 {
   predict_fails ("site,age,load\nmill-lane,old,0.5\nmill-lane,3.2,0.6\n", BL_EDATA,
-                 "new.csv:2", "'age' is numeric in the model, but this cell is not a number: "
-                 "'old'", "not numeric");
+                 "new.csv:2:2", "'age' is numeric in the model, but this cell is not a number: "
+                 "'old' (1 of the column's 2 non-missing cells are not)", "not numeric");
+  /* a number first: the cell named is the first that is not one, not the first cell */
+  predict_fails ("site,age,load\nmill-lane,3.2,0.5\nmill-lane,old,0.6\nmill-lane,new,0.7\n",
+                 BL_EDATA, "new.csv:3:2", "this cell is not a number: 'old' (2 of the column's 3",
+                 "not numeric, number first");
+  {
+    /* a minority typo: the reader's error names the cell (read with the model's options) */
+    static const char csv[] = "site,age,load\nmill-lane,3.2,0.5\nmill-lane,1.2.3,0.6\n"
+                              "mill-lane,4,0.7\n";
+    bl_err err = { 0 };
+    bl_table_opts to;
+    bl_table_opts_init (&to);
+    bl_model_table_opts (ej.m, &to);
+    ck_assert_ptr_null (bl_table_read_mem (csv, strlen (csv), "new.csv", &to, &err));
+    ck_assert_int_eq (err.code, BL_EDATA);
+    ck_assert_str_eq (err.where, "new.csv:3:2");
+    ck_assert_msg (strstr (err.msg, "not a number: '1.2.3' in column 'age'") != NULL, "%s",
+                   err.msg);
+  }
 }
 END_TEST
 

@@ -243,9 +243,9 @@ END_TEST
 START_TEST (table_line_after_multiline)
 {
   /* The cell on line 5 is named 5 although only 4 records precede it. */
-  expect_fail ("line after multiline", "a,b\n1,\"x\ny\nz\"\n2,3\nkg,4\n", NULL, BL_EDATA,
+  expect_fail ("line after multiline", "a,b\n1,\"x\ny\nz\"\n2,w\nkg,4\n", NULL, BL_EDATA,
                "mem.csv:6:1", "not a number: 'kg'");
-  expect_fail ("column after multiline", "a,b\nq,1\n\"x\ny\",12.5kg\n", NULL, BL_EDATA,
+  expect_fail ("column after multiline", "a,b\nq,1\n\"x\ny\",12.5kg\nr,3\n", NULL, BL_EDATA,
                "mem.csv:4:2", "'12.5kg'");
 }
 END_TEST
@@ -754,11 +754,11 @@ START_TEST (table_semicolon_decimal_comma)
   ck_assert_str_eq (bl_table_level (t, 1, 0), "a;b");
   bl_table_free (t);
   /* With a decimal comma, a point is not a decimal mark. */
-  expect_fail ("decimal comma, point", "hours;x\n3,14;1\n3.14;2\n", &opt, BL_EDATA,
+  expect_fail ("decimal comma, point", "hours;x\n3,14;1\n3.14;2\n2,5;3\n", &opt, BL_EDATA,
                "mem.csv:3:1", "not a number: '3.14'");
   /* The overflow message shows the cell as written. */
-  expect_fail ("decimal comma, overflow", "load\n1,5e999\n", &opt, BL_EDATA, "mem.csv:2:1",
-               "value '1,5e999' overflows a double in column 'load'");
+  expect_fail ("decimal comma, overflow", "load\n1,5e999\n1\n2,5\n", &opt, BL_EDATA,
+               "mem.csv:2:1", "value '1,5e999' overflows a double in column 'load'");
 }
 END_TEST
 
@@ -925,22 +925,206 @@ START_TEST (table_stdin)
 }
 END_TEST
 
+
+/* ------------------------------------------------------------------ column types by rule */
+
+/* The project's typing rule (table.h; issue 14): numeric when more than half of the
+   non-missing cells are numbers, every other cell then an error; else categorical.  The
+   oracle below counts what the generator wrote, independently of the reader. */
+
+/* ROWS rows of "y,x": x is a number, except row AT (0-based) which is BAD. */
+static char *
+one_typo_csv (size_t rows, size_t at, const char *bad, size_t *len)
+{
+  char *text = malloc (rows * 48 + 64), *p = text;
+  ck_assert_ptr_nonnull (text);
+  p += sprintf (p, "y,x\n");
+  for (size_t i = 0; i < rows; i++) {
+    if (i == at)
+      p += sprintf (p, "%zu.5,%s\n", i, bad);
+    else
+      p += sprintf (p, "%zu.5,%.3f\n", i, 1.0 + (double) (i * 7919 % 1000) / 37.0);
+  }
+  *len = (size_t) (p - text);
+  return text;
+}
+
+START_TEST (table_type_not_by_position)
+{
+  static const char *const typo[] = { "1.2.3", "\"1,234\"", "1e5x", "N/A", "heavy" };
+  static const char *const shown[] = { "1.2.3", "1,234", "1e5x", "N/A", "heavy" };
+  const size_t rows = 6000, at[] = { 0, 2999, 5999 };
+  static const size_t chunk[] = { 64, 4096, 65536 };
+  for (size_t k = 0; k < 5; k++)
+    for (size_t a = 0; a < 3; a++) {
+      size_t len;
+      char *text = one_typo_csv (rows, at[a], typo[k], &len), where[64], frag[160];
+      bl_table_opts o;
+      bl_err err = { 0 };
+      snprintf (where, sizeof where, "r.csv:%zu:2", at[a] + 2);
+      snprintf (frag, sizeof frag, "not a number: '%s' in column 'x' (5999 of its 6000 "
+                "non-missing cells are numbers; --categorical x for a column meant as labels)",
+                shown[k]);
+      for (size_t c = 0; c < 3; c++)
+        same_both_ways ("one typo", text, len, chunk[c], NULL);
+      bl_table_opts_init (&o);
+      o.threads = 1;
+      ck_assert_ptr_null (bl_table_read_mem (text, len, "r.csv", &o, &err));
+      ck_assert_msg (err.code == BL_EDATA && strcmp (err.where, where) == 0
+                     && strstr (err.msg, frag), "typo %zu at %zu: %s: %s", k, at[a],
+                     err.where, err.msg);
+      free (text);
+    }
+}
+END_TEST
+
+START_TEST (table_type_majority)
+{
+  bl_err err = { 0 };
+  bl_table *t;
+  /* exactly half numbers: categorical, the numbers levels as written ("3.50", not 3.5) */
+  t = read_str ("g\n3.50\nA\n12\nB\nNA\n", NULL, &err);
+  ck_assert_msg (t != NULL, "half: %s", err.msg);
+  ck_assert_int_eq (bl_table_is_numeric (t, 0), 0);
+  ck_assert_uint_eq (bl_table_nlevels (t, 0), 4);
+  ck_assert_str_eq (bl_table_level (t, 0, 0), "12");
+  ck_assert_str_eq (bl_table_level (t, 0, 1), "3.50");
+  ck_assert_int_eq (bl_table_codes (t, 0)[0], 1);
+  ck_assert_int_eq (bl_table_codes (t, 0)[4], -1);
+  bl_table_free (t);
+  /* one more number: numeric, the label an error (the first of two) */
+  expect_fail ("more than half", "g\n3.50\nA\n12\nB\n7\n8\n", NULL, BL_EDATA, "mem.csv:3:1",
+               "not a number: 'A' in column 'g' (4 of its 6 non-missing cells are numbers");
+  /* a label first, numbers after it (their texts kept as read) */
+  t = read_str ("g,h\nx, 4 \ny,5\nz,6\n1,7\n", NULL, &err);
+  ck_assert_msg (t != NULL, "label first: %s", err.msg);
+  ck_assert_int_eq (bl_table_is_numeric (t, 0), 0);
+  ck_assert_uint_eq (bl_table_nlevels (t, 0), 4);
+  ck_assert_str_eq (bl_table_level (t, 0, 0), "1");
+  ck_assert_int_eq (bl_table_is_numeric (t, 1), 1);
+  bl_table_free (t);
+  expect_fail ("label first, numeric", "h\nq\n 4 \n5\n", NULL, BL_EDATA, "mem.csv:2:1",
+               "not a number: 'q' in column 'h' (2 of its 3");
+  /* max_levels: numeric by the rule, the error is the bad cell; categorical, the limit */
+  {
+    bl_table_opts o;
+    bl_table_opts_init (&o);
+    o.max_levels = 3;
+    expect_fail ("levels past the limit, numeric", "g\na\nb\nc\nd\n1\n2\n3\n4\n5\n", &o,
+                 BL_EDATA, "mem.csv:2:1", "not a number: 'a' in column 'g' (5 of its 9");
+    expect_fail ("levels past the limit, categorical", "g\na\nb\nc\nd\n1\n2\n3\n", &o, BL_EDATA,
+                 "mem.csv:5:1", "column 'g' has more than 3 distinct levels");
+  }
+  /* declared categorical: every cell a label, none an error */
+  {
+    static const char *const cat[] = { "g" };
+    bl_table_opts o;
+    bl_table_opts_init (&o);
+    o.categorical = cat;
+    o.n_categorical = 1;
+    t = read_str ("g\n1\n2\n1.2.3\n", &o, &err);
+    ck_assert_msg (t != NULL, "declared: %s", err.msg);
+    ck_assert_uint_eq (bl_table_nlevels (t, 0), 3);
+    bl_table_free (t);
+  }
+}
+END_TEST
+
+/* Random columns of numbers and labels near half and half, numbers often first (the column
+   is then read a second time for its texts): the type follows the oracle's count, each
+   level is the cell as written, and 1 and 2 threads in steps of every size agree. */
+START_TEST (table_type_random_mix)
+{
+  uint64_t s = 0x9e3779b97f4a7c15u;
+  for (int rep = 0; rep < 12; rep++) {
+    const size_t rows = 1500 + (size_t) (next_rand (&s) % 4000);
+    const unsigned pct = 35 + (unsigned) (next_rand (&s) % 31);   /* numbers: 35-65% */
+    char *text = malloc (rows * 40 + 32), *p = text, **cell = malloc (rows * sizeof *cell);
+    size_t nnum = 0, nlab = 0, len;
+    bl_table *t;
+    bl_err err = { 0 };
+    ck_assert_ptr_nonnull (text);
+    ck_assert_ptr_nonnull (cell);
+    p += sprintf (p, "id,g\n");
+    for (size_t i = 0; i < rows; i++) {
+      const uint64_t r = next_rand (&s);
+      p += sprintf (p, "%zu,", i);
+      cell[i] = p;
+      if (i < 50 || (r % 100) < pct) {          /* the first 50 rows always numbers */
+        p += sprintf (p, "%u.%02u", (unsigned) (r >> 20) % 40, (unsigned) (r >> 40) % 100);
+        nnum++;
+      } else {
+        p += sprintf (p, "L%u", (unsigned) (r >> 20) % 30);
+        nlab++;
+      }
+      *p++ = '\n';
+    }
+    *p = '\0';
+    len = (size_t) (p - text);
+    for (size_t c = 64; c <= 65536; c *= 32)
+      same_both_ways ("random mix", text, len, c, NULL);
+    t = bl_table_read_mem (text, len, "r.csv", NULL, &err);
+    if (nnum > nlab) {
+      ck_assert_msg (t == NULL && err.code == BL_EDATA, "rep %d: numeric expected", rep);
+    } else {
+      const int32_t *codes;
+      ck_assert_msg (t != NULL, "rep %d: %s: %s", rep, err.where, err.msg);
+      ck_assert_int_eq (bl_table_is_numeric (t, 1), 0);
+      codes = bl_table_codes (t, 1);
+      for (size_t i = 0; i < rows; i++) {
+        const char *lev = bl_table_level (t, 1, (size_t) codes[i]);
+        ck_assert_msg (strncmp (lev, cell[i], strlen (lev)) == 0 && cell[i][strlen (lev)]
+                       == '\n', "rep %d row %zu: level '%s'", rep, i, lev);
+      }
+    }
+    bl_table_free (t);
+    free (cell);
+    free (text);
+  }
+}
+END_TEST
+
+START_TEST (table_type_reread_file)
+{
+  /* A file whose column turns categorical after its first numbers is read again, by name:
+     the levels are the cells as written. */
+  char path[] = "/tmp/check_table_XXXXXX";
+  const int fd = mkstemp (path);
+  static const char text[] = "y,g\n1,07\n2,7.0\n3,A\n4,B\n5,C\n";
+  bl_err err = { 0 };
+  bl_table *t;
+  ck_assert_int_ge (fd, 0);
+  ck_assert_int_eq ((int) write (fd, text, sizeof text - 1), (int) (sizeof text - 1));
+  close (fd);
+  t = bl_table_read (path, NULL, &err);
+  unlink (path);
+  ck_assert_msg (t != NULL, "%s: %s", err.where, err.msg);
+  ck_assert_uint_eq (bl_table_nlevels (t, 1), 5);
+  ck_assert_str_eq (bl_table_level (t, 1, (size_t) bl_table_codes (t, 1)[0]), "07");
+  ck_assert_str_eq (bl_table_level (t, 1, (size_t) bl_table_codes (t, 1)[1]), "7.0");
+  ck_assert_int_eq (bl_table_is_numeric (t, 0), 1);
+  bl_table_free (t);
+}
+END_TEST
+
 /* ------------------------------------------------------------------ errors */
 
 START_TEST (table_not_a_number)
 {
-  expect_fail ("not a number", "weight,site\n2.5,a\n12.5kg,b\n", NULL, BL_EDATA, "mem.csv:3:1",
-               "not a number: '12.5kg' in column 'weight' (declare the column categorical");
-  expect_fail ("not a number after missing", "a,weight\n1,NA\n2,3.5\n3,x\n", NULL, BL_EDATA,
-               "mem.csv:4:2", "not a number: 'x' in column 'weight'");
+  expect_fail ("not a number", "weight,site\n2.5,a\n12.5kg,b\n3.5,c\n", NULL, BL_EDATA,
+               "mem.csv:3:1", "not a number: '12.5kg' in column 'weight' (2 of its 3 "
+               "non-missing cells are numbers; --categorical weight for a column meant as "
+               "labels)");
+  expect_fail ("not a number after missing", "a,weight\n1,NA\n2,3.5\n3,x\n4,5\n", NULL,
+               BL_EDATA, "mem.csv:4:2", "not a number: 'x' in column 'weight'");
   expect_fail ("point with decimal comma off", "a\n1\n3,5\n", NULL, BL_EDATA, "mem.csv:3",
                "record has 2 fields, header has 1");
-  expect_fail ("lone sign", "a\n1\n-\n", NULL, BL_EDATA, "mem.csv:3:1", "not a number: '-'");
-  expect_fail ("exponent without digits", "a\n1\n1e\n", NULL, BL_EDATA, "mem.csv:3:1",
+  expect_fail ("lone sign", "a\n1\n-\n2\n", NULL, BL_EDATA, "mem.csv:3:1", "not a number: '-'");
+  expect_fail ("exponent without digits", "a\n1\n1e\n2\n", NULL, BL_EDATA, "mem.csv:3:1",
                "not a number: '1e'");
-  expect_fail ("two points", "a\n1\n1.2.3\n", NULL, BL_EDATA, "mem.csv:3:1",
+  expect_fail ("two points", "a\n1\n1.2.3\n2\n", NULL, BL_EDATA, "mem.csv:3:1",
                "not a number: '1.2.3'");
-  expect_fail ("inner blank", "a\n1\n1 2\n", NULL, BL_EDATA, "mem.csv:3:1",
+  expect_fail ("inner blank", "a\n1\n1 2\n2\n", NULL, BL_EDATA, "mem.csv:3:1",
                "not a number: '1 2'");
 }
 END_TEST
@@ -949,20 +1133,20 @@ START_TEST (table_refused_numbers)
 {
   /* Forms strtod takes but ballast refuses, whether the column is numeric already or the
      cell would decide its type. */
-  expect_fail ("hex", "a\n1\n0x1A\n", NULL, BL_EDATA, "mem.csv:3:1",
+  expect_fail ("hex", "a\n1\n0x1A\n2\n", NULL, BL_EDATA, "mem.csv:3:1",
                "not a decimal number: '0x1A' in column 'a'");
-  expect_fail ("hex first", "a\n0x1p3\n", NULL, BL_EDATA, "mem.csv:2:1",
+  expect_fail ("hex first", "a\n0x1p3\n1\n2\n", NULL, BL_EDATA, "mem.csv:2:1",
                "not a decimal number: '0x1p3'");
-  expect_fail ("inf", "a\n1\ninf\n", NULL, BL_EDATA, "mem.csv:3:1", "'inf'");
-  expect_fail ("infinity first", "b,a\nx,-Infinity\n", NULL, BL_EDATA, "mem.csv:2:2",
+  expect_fail ("inf", "a\n1\ninf\n2\n", NULL, BL_EDATA, "mem.csv:3:1", "'inf'");
+  expect_fail ("infinity first", "b,a\nx,-Infinity\ny,1\nz,2\n", NULL, BL_EDATA, "mem.csv:2:2",
                "not a decimal number: '-Infinity' in column 'a'");
-  expect_fail ("nan", "a\n1\nnan\n", NULL, BL_EDATA, "mem.csv:3:1", "'nan'");
-  expect_fail ("nan(chars)", "a\nNAN(123)\n", NULL, BL_EDATA, "mem.csv:2:1", "'NAN(123)'");
-  expect_fail ("overflow", "hours,load\n1,2\n3,1e999\n", NULL, BL_EDATA, "mem.csv:3:2",
+  expect_fail ("nan", "a\n1\nnan\n2\n", NULL, BL_EDATA, "mem.csv:3:1", "'nan'");
+  expect_fail ("nan(chars)", "a\nNAN(123)\n1\n2\n", NULL, BL_EDATA, "mem.csv:2:1", "'NAN(123)'");
+  expect_fail ("overflow", "hours,load\n1,2\n3,1e999\n4,5\n", NULL, BL_EDATA, "mem.csv:3:2",
                "value '1e999' overflows a double in column 'load'");
-  expect_fail ("overflow first", "load\n-1.7976931348623159e308\n", NULL, BL_EDATA,
+  expect_fail ("overflow first", "load\n-1.7976931348623159e308\n1\n2\n", NULL, BL_EDATA,
                "mem.csv:2:1", "value '-1.7976931348623159e308' overflows a double");
-  expect_fail ("overflow long exponent", "load\n1\n1e99999999999999999999\n", NULL, BL_EDATA,
+  expect_fail ("overflow long exponent", "load\n1\n1e99999999999999999999\n2\n", NULL, BL_EDATA,
                "mem.csv:3:1", "overflows a double");
 }
 END_TEST
@@ -1543,6 +1727,10 @@ table_suite (void)
   tcase_add_test (basics, table_rounding_short_forms);
   tcase_add_test (basics, table_threads_gzip);
   tcase_add_test (errors, table_not_a_number);
+  tcase_add_test (basics, table_type_not_by_position);
+  tcase_add_test (basics, table_type_majority);
+  tcase_add_test (basics, table_type_random_mix);
+  tcase_add_test (basics, table_type_reread_file);
   tcase_add_test (errors, table_refused_numbers);
   tcase_add_test (errors, table_refused_numbers_as_labels);
   tcase_add_test (errors, table_field_count);

@@ -61,8 +61,8 @@ check_spec (build *b, const char *response, const bl_terms *terms, const bl_desi
                     bl_table_source (t));
   }
   if (in->resp >= 0 && !bl_table_is_numeric (t, (size_t) in->resp))
-    return bl_fail (b->err, BL_ESPEC, "--response", "'%s' is categorical; the response must "
-                    "be numeric", response);
+    return bl_dterm_fail_categorical (b, (size_t) in->resp, "--response",
+                                      "the response must be numeric");
   for (size_t i = 0; i < nterms; i++) {
     const bl_term *term = bl_terms_get (terms, i);
     status = bl_dterm_check (b, term, NULL, 0, "--terms");
@@ -76,8 +76,8 @@ check_spec (build *b, const char *response, const bl_terms *terms, const bl_desi
       return bl_fail (b->err, BL_ESPEC, "--weights", "no column '%s' in %s", opt->weights,
                       bl_table_source (t));
     if (!bl_table_is_numeric (t, (size_t) in->wcol))
-      return bl_fail (b->err, BL_ESPEC, "--weights", "'%s' is categorical; weights must be "
-                      "numeric", opt->weights);
+      return bl_dterm_fail_categorical (b, (size_t) in->wcol, "--weights",
+                                        "weights must be numeric");
   }
   if (opt->variance) {
     in->vcol = bl_table_find (t, opt->variance);
@@ -85,8 +85,8 @@ check_spec (build *b, const char *response, const bl_terms *terms, const bl_desi
       return bl_fail (b->err, BL_ESPEC, "--variance", "no column '%s' in %s", opt->variance,
                       bl_table_source (t));
     if (!bl_table_is_numeric (t, (size_t) in->vcol))
-      return bl_fail (b->err, BL_ESPEC, "--variance", "'%s' is categorical; a variance "
-                      "column must be numeric", opt->variance);
+      return bl_dterm_fail_categorical (b, (size_t) in->vcol, "--variance",
+                                        "a variance column must be numeric");
   }
   if (opt->offset) {
     if (bl_terms_count (opt->offset) != 1)

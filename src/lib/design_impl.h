@@ -108,6 +108,11 @@ row_where (const bl_table *t, size_t r, char *buf, size_t cap)
 /* Check that every column under TERM exists and that no categorical column sits under a
    function (FN, the innermost enclosing function node, or, for the offset, OFFSET set);
    WHERE names the option for messages.  BL_OK or an error code with b->err filled. */
+/* Column J (categorical) is used where a number is needed (WHERE, the option; ROLE, what
+   needs it, e.g. "the response must be numeric").  A column categorical by its cells is a
+   data error (BL_EDATA) naming its first non-number cell; one declared categorical is the
+   caller's contradiction (BL_ESPEC at WHERE).  Returns the code. */
+int bl_dterm_fail_categorical (build *b, size_t j, const char *where, const char *role);
 int bl_dterm_check (build *b, const bl_term *term, const bl_term *fn, int offset,
                     const char *where);
 /* The column leaves under T (a bound on what bl_dterm_collect_leaves adds for it). */

@@ -101,6 +101,20 @@ bl_dterm_collect_leaves (const bl_table *t, const bl_term *term, long *cols,
     bl_dterm_collect_leaves (t, term->b, cols, nc);
 }
 
+int
+bl_dterm_fail_categorical (build *b, size_t j, const char *where, const char *role)
+{
+  const char *const name = bl_table_colname (b->t, j), *text;
+  size_t nlab, nnum, line, col;
+  char cell[1024];
+  if (!bl_table_typed_by_cells (b->t, j, &nlab, &nnum, &line, &col, &text))
+    return bl_fail (b->err, BL_ESPEC, where, "'%s' is categorical (declared); %s", name, role);
+  snprintf (cell, sizeof cell, "%s:%zu:%zu", bl_table_source (b->t), line, col);
+  return bl_fail (b->err, BL_EDATA, cell, "'%s' is categorical: %zu of its %zu non-missing "
+                  "cells are not numbers, the first '%s' here (%s); %s", name, nlab,
+                  nlab + nnum, text, where, role);
+}
+
 /* Check that every column under TERM exists and that no categorical column sits under a
    function (FN, the innermost enclosing function node, or, for the offset, OFFSET set). */
 int
@@ -114,12 +128,13 @@ bl_dterm_check (build *b, const bl_term *term, const bl_term *fn, int offset,
                       bl_table_source (b->t));
     if (!bl_table_is_numeric (b->t, (size_t) j)) {
       if (offset)
-        return bl_fail (b->err, BL_ESPEC, where, "'%s' is categorical; the offset must be "
-                        "numeric", term->name);
+        return bl_dterm_fail_categorical (b, (size_t) j, where, "the offset must be numeric");
       if (fn) {
         static const char *const word[] = { "", "log", "sqrt", "exp", "pow", "cross" };
-        return bl_fail (b->err, BL_ESPEC, where, "%s: '%s' is categorical; %s needs a numeric "
-                        "argument", fn->label, term->name, word[fn->kind]);
+        char role[256];
+        snprintf (role, sizeof role, "%s: %s needs a numeric argument", fn->label,
+                  word[fn->kind]);
+        return bl_dterm_fail_categorical (b, (size_t) j, where, role);
       }
     }
     return BL_OK;

@@ -24,14 +24,37 @@
 /* Longest excerpt of a bad cell quoted in a message. */
 #define CELL_QUOTE_MAX 60
 
-enum { COL_UNDECIDED, COL_NUM, COL_CAT, COL_SKIP };   /* SKIP: not kept (bl_table_opts.keep) */
+/* Column states while reading.  UNDECIDED: no non-missing cell yet.  NUM: numbers only so
+   far.  CAT: labels only so far, or declared categorical (FORCED).  MIX: both numbers and
+   labels; decided at the end (table.c, decide_types) by the majority rule.  SKIP: not kept
+   (bl_table_opts.keep). */
+enum { COL_UNDECIDED, COL_NUM, COL_CAT, COL_SKIP, COL_MIX };
 enum { REC_DONE, REC_MORE, REC_ERR };
+/* Why a cell of a column is not a number (bad_cell.kind). */
+enum { BAD_NOT = 1, BAD_SPECIAL, BAD_OVERFLOW };
+
+/* The first cell of a column that is not a number, kept for the message given when the
+   column turns out numeric: its place, why, and its text (at most CELL_QUOTE_MAX bytes). */
+typedef struct bad_cell {
+  size_t line, col;           /* 0: none */
+  int kind;                   /* BAD_* */
+  size_t len;                 /* the cell's length (the text may be cut) */
+  char text[CELL_QUOTE_MAX + 1];
+} bad_cell;
 
 typedef struct column {
   int type;
-  double *num;                /* COL_NUM: cap entries */
-  int32_t *codes;             /* COL_CAT: cap entries */
-  dict lev;                   /* COL_CAT: levels (sorted at the end) */
+  int forced;                 /* declared categorical: every cell is a label */
+  int texts;                  /* CAT, MIX: every non-missing cell's text is in LEV (false for
+                                 a MIX column that began numeric: its first numbers were
+                                 stored as doubles only) */
+  size_t nbad;                /* non-missing cells that are not numbers (not for FORCED) */
+  size_t nnum;                /* MIX at the end: the cells that are numbers */
+  bad_cell bad;               /* the first of them */
+  size_t over_line, over_col; /* the first cell past max_levels (its level not kept), or 0 */
+  double *num;                /* NUM, MIX: cap entries (NAN: missing, or a label in MIX) */
+  int32_t *codes;             /* CAT, MIX: cap entries (-1: missing, or no text kept) */
+  dict lev;                   /* CAT, MIX: levels (sorted at the end) */
 } column;
 
 struct bl_table {
@@ -41,7 +64,7 @@ struct bl_table {
   column *cols;
   size_t *line;               /* cap entries: physical start line of each record */
   int frozen;                 /* a worker writes into the arrays: they must not move */
-  size_t ndecided;            /* columns whose type is known (the fast record path needs all) */
+  size_t ndecided;            /* columns not UNDECIDED (the fast record path needs all) */
   size_t est_rows;            /* rows the whole input probably holds (0: unknown): the next
                                  growth goes straight there instead of doubling */
 };
@@ -134,7 +157,17 @@ size_t bl_io_unescape (char *s, size_t n);
    past the record and *LINE is the line after it.  REC_MORE: the buffer ends inside the
    record and more input exists (nothing changed).  REC_ERR: ERR is filled. */
 int bl_io_parse_record (reader *rd, char **pp, size_t *line, size_t *nf_out, bl_err *err);
-/* Convert field F (its "" pairs still doubled) into column J at row t->nrows. */
+/* ERR for column J past max_levels at LINE:COL: BL_EDATA.  Returns it. */
+int bl_io_fail_levels (const reader *rd, const bl_table *t, size_t j, size_t line, size_t col,
+                       bl_err *err);
+/* ERR for the first non-number cell of column J, which the majority rule made numeric (NNUM
+   of its non-missing cells are numbers): BL_EDATA naming the cell, with the hint
+   --categorical.  Returns it. */
+int bl_io_fail_bad (const reader *rd, const bl_table *t, size_t j, size_t nnum, bl_err *err);
+/* ERR for strtod stopping early in cell F of column J (not the C locale): BL_EINTERNAL. */
+int bl_io_fail_locale (const reader *rd, const field *f, size_t j, bl_err *err);
+/* Convert field F (its "" pairs still doubled) into column J at row t->nrows (classified and
+   counted; the type is decided at the end). */
 int bl_io_put_cell (reader *rd, bl_table *t, size_t j, const field *f, bl_err *err);
 /* Parse every complete record in [ps->pos, rd->len) into T.  Returns BL_CONTINUE when the
    buffer ends, BL_OK right after the header was taken when HEADER_ONLY is set, or another

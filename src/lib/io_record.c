@@ -16,17 +16,6 @@
 #include "io_reader.h"
 #include "io_scan.h"
 
-static int
-fail_cell (const reader *rd, bl_err *err, const field *f, size_t col, const char *fmt,
-           const char *cell, size_t n, const char *colname)
-{
-  char where[1024];
-  const int cut = n > CELL_QUOTE_MAX;
-  snprintf (where, sizeof where, "%s:%zu:%zu", rd->name, f->line, col);
-  return bl_fail (err, BL_EDATA, where, fmt, (int) (cut ? CELL_QUOTE_MAX : n), cell,
-                  cut ? "..." : "", colname);
-}
-
 int
 bl_io_fail_at (const reader *rd, bl_err *err, size_t line, size_t col, const char *msg)
 {
@@ -222,59 +211,156 @@ bl_io_parse_record (reader *rd, char **pp, size_t *line, size_t *nf_out, bl_err 
   return REC_DONE;
 }
 
+/* strtod stopped before the end of a cell the scanner took: the C library does not read
+   numbers in the C locale.  BL_EINTERNAL, at once. */
+int
+bl_io_fail_locale (const reader *rd, const field *f, size_t j, bl_err *err)
+{
+  char where[1024];
+  snprintf (where, sizeof where, "%s:%zu:%zu", rd->name, f->line, j + 1);
+  return bl_fail (err, BL_EINTERNAL, where, "strtod stopped early (LC_NUMERIC is not the "
+                  "C locale?)");
+}
+
+/* Intern the text S (N bytes) of column J's cell F as a level of column C and store its
+   code at row t->nrows.  A declared column past max_levels is an error at once (its type is
+   known); an undeclared one records the first cell past the limit and goes on, since the
+   column may still turn out numeric (the error then depends on its type: decide_types). */
 static int
 cat_cell (reader *rd, bl_table *t, column *c, size_t j, const field *f, const char *s,
           size_t n, bl_err *err)
 {
   size_t idx;
-  const int r = bl_io_dict_intern (&c->lev, s, n, rd->max_levels, &idx);
+  int r;
+  if (c->over_line) {           /* past the limit: no more texts are kept */
+    c->codes[t->nrows] = -1;
+    return BL_OK;
+  }
+  r = bl_io_dict_intern (&c->lev, s, n, rd->max_levels, &idx);
   if (r < 0)
     return bl_io_fail_nomem (rd, err);
   if (r == 2) {
-    char where[1024];
-    snprintf (where, sizeof where, "%s:%zu:%zu", rd->name, f->line, j + 1);
-    return bl_fail (err, BL_EDATA, where,
-                    "column '%s' has more than %zu distinct levels (the max_levels limit)",
-                    t->names.str[j], rd->max_levels);
+    if (c->forced)
+      return bl_io_fail_levels (rd, t, j, f->line, j + 1, err);
+    c->over_line = f->line;
+    c->over_col = j + 1;
+    c->codes[t->nrows] = -1;
+    return BL_OK;
   }
   c->codes[t->nrows] = (int32_t) idx;
   return BL_OK;
 }
 
-static int
-num_error (const reader *rd, const bl_table *t, size_t j, const field *f, char *s, size_t n,
-           int r, bl_err *err)
+int
+bl_io_fail_levels (const reader *rd, const bl_table *t, size_t j, size_t line, size_t col,
+                   bl_err *err)
 {
-  if (r == NUM_LOCALE) {
-    char where[1024];
-    snprintf (where, sizeof where, "%s:%zu:%zu", rd->name, f->line, j + 1);
-    return bl_fail (err, BL_EINTERNAL, where, "strtod stopped early (LC_NUMERIC is not the "
-                    "C locale?)");
+  char where[1024];
+  snprintf (where, sizeof where, "%s:%zu:%zu", rd->name, line, col);
+  return bl_fail (err, BL_EDATA, where,
+                  "column '%s' has more than %zu distinct levels (the max_levels limit)",
+                  t->names.str[j], rd->max_levels);
+}
+
+/* The error for the first non-number cell of column J, which the majority rule made
+   numeric (NNUM of its NNUM + nbad non-missing cells are numbers). */
+int
+bl_io_fail_bad (const reader *rd, const bl_table *t, size_t j, size_t nnum, bl_err *err)
+{
+  const column *c = &t->cols[j];
+  const bad_cell *b = &c->bad;
+  const char *const name = t->names.str[j];
+  const char *const cut = b->len > CELL_QUOTE_MAX ? "..." : "";
+  char where[1024], why[160];
+  snprintf (where, sizeof where, "%s:%zu:%zu", rd->name, b->line, b->col);
+  snprintf (why, sizeof why, "%zu of its %zu non-missing cells are numbers", nnum,
+            nnum + c->nbad);
+  if (b->kind == BAD_OVERFLOW)
+    return bl_fail (err, BL_EDATA, where, "value '%s%s' overflows a double in column '%s' "
+                    "(%s)", b->text, cut, name, why);
+  if (b->kind == BAD_SPECIAL)
+    return bl_fail (err, BL_EDATA, where, "not a decimal number: '%s%s' in column '%s' (%s; "
+                    "hex, infinity and nan forms are refused; --categorical %s for a column "
+                    "meant as labels)", b->text, cut, name, why, name);
+  return bl_fail (err, BL_EDATA, where, "not a number: '%s%s' in column '%s' (%s; "
+                  "--categorical %s for a column meant as labels)", b->text, cut, name, why,
+                  name);
+}
+
+/* Whether the trimmed cell V (M bytes) is a number, as parse_number says, with the cell left
+   as written (parse_number may end it with a NUL for strtod and write '.' for the decimal
+   mark; both are undone, so that the text can still become a level or a message). */
+static int
+cell_number (const reader *rd, char *v, size_t m, double *x)
+{
+  const char save = v[m];
+  const int st = parse_number (v, m, rd->mark, x, NULL, 0);
+  v[m] = save;
+  if (rd->mark != '.' && st != NUM_NOT)
+    for (size_t k = 0; k < m; k++)
+      if (v[k] == '.')
+        v[k] = rd->mark;
+  return st;
+}
+
+/* Count the non-number cell V (M bytes, trimmed; parse status ST) of column J, keeping the
+   first one's place, reason and text. */
+static void
+note_bad (const reader *rd, column *c, size_t j, const field *f, char *v, size_t m, int st)
+{
+  if (c->nbad++ == 0) {
+    bad_cell *b = &c->bad;
+    const size_t k = m < CELL_QUOTE_MAX ? m : CELL_QUOTE_MAX;
+    b->line = f->line;
+    b->col = j + 1;
+    b->len = m;
+    memcpy (b->text, v, k);
+    b->text[k] = '\0';
+    if (st == NUM_OVERFLOW)
+      b->kind = BAD_OVERFLOW;
+    else {
+      const char save = v[m];
+      b->kind = bl_io_strtod_would_take (v, m) ? BAD_SPECIAL : BAD_NOT;
+      v[m] = save;
+    }
   }
-  if (r == NUM_OVERFLOW) {
-    /* parse_number wrote '.' for the decimal mark; show the cell as written */
-    if (rd->mark != '.')
-      for (size_t k = 0; k < n; k++)
-        if (s[k] == '.')
-          s[k] = rd->mark;
-    return fail_cell (rd, err, f, j + 1, "value '%.*s%s' overflows a double in column '%s'",
-                      s, n, t->names.str[j]);
+  (void) rd;
+}
+
+/* Column C (now NUM or CAT) has met its first cell of the other kind: it becomes MIX, with
+   both arrays (the new one covering every reserved row, so that rows a worker of a parallel
+   step fills in the old array alone read as numbers or as texts not kept). */
+static int
+make_mix (bl_table *t, column *c)
+{
+  const size_t cap = t->cap ? t->cap : 1;
+  if (c->type == COL_NUM) {
+    c->codes = bl_mallocn (cap, sizeof *c->codes);
+    if (!c->codes)
+      return BL_ENOMEM;
+    for (size_t i = 0; i < cap; i++)
+      c->codes[i] = -1;
+    c->texts = 0;               /* the numbers so far were kept as doubles only */
+  } else {
+    c->num = bl_mallocn (cap, sizeof *c->num);
+    if (!c->num)
+      return BL_ENOMEM;
+    for (size_t i = 0; i < cap; i++)
+      c->num[i] = NAN;
+    c->texts = 1;
   }
-  {
-    /* the message shows the cell as written: undo the strtod preparation */
-    char save = s[n];
-    const int special = bl_io_strtod_would_take (s, n);
-    s[n] = save;
-    if (special)
-      return fail_cell (rd, err, f, j + 1, "not a decimal number: '%.*s%s' in column '%s' "
-                        "(hex, infinity and nan forms are refused)", s, n, t->names.str[j]);
-  }
-  return fail_cell (rd, err, f, j + 1, "not a number: '%.*s%s' in column '%s' (declare the "
-                    "column categorical if it holds labels)", s, n, t->names.str[j]);
+  c->type = COL_MIX;
+  return BL_OK;
 }
 
 /* Convert field F (its "" pairs still doubled) into column J at row t->nrows.  The
-   parallel merge calls this too, for the cells a worker could not convert on its own. */
+   parallel merge calls this too, for the cells a worker could not convert on its own.
+
+   Every cell is classified as missing, a number or not a number (a label or a typo), and
+   counted; the column's type is decided only after the last row by the majority rule
+   (table.c, decide_types), so that where a bad cell stands changes nothing.  Until then a
+   column that has held only numbers keeps doubles, one that has held only labels keeps
+   level codes, and one that has held both (MIX) keeps both arrays. */
 int
 bl_io_put_cell (reader *rd, bl_table *t, size_t j, const field *f, bl_err *err)
 {
@@ -283,7 +369,7 @@ bl_io_put_cell (reader *rd, bl_table *t, size_t j, const field *f, bl_err *err)
   char *s = f->s, *v;
   const size_t n = f->dquote ? bl_io_unescape (s, f->n) : f->n;
   size_t m;
-  double x;
+  double x = NAN;
   int st;
   if (c->type == COL_SKIP)
     return BL_OK;               /* not kept: neither stored nor checked */
@@ -295,63 +381,77 @@ bl_io_put_cell (reader *rd, bl_table *t, size_t j, const field *f, bl_err *err)
     v++, m--;
   while (m && is_blank (v[m - 1]))
     m--;
-  if (c->type == COL_NUM) {
-    if (is_missing (v, m)) {
-      c->num[r] = NAN;
-      return BL_OK;
-    }
-    st = parse_number (v, m, rd->mark, &x, NULL, 0);
-    if (st != NUM_OK)
-      return num_error (rd, t, j, f, v, m, st, err);
-    c->num[r] = x;
-    return BL_OK;
-  }
   if (is_missing (v, m)) {
-    if (c->type == COL_CAT)
+    if (c->num)
+      c->num[r] = NAN;
+    if (c->codes)
       c->codes[r] = -1;
     return BL_OK;
   }
-  if (c->type == COL_UNDECIDED) {
-    /* The first non-missing cell decides the column's type. */
-    st = parse_number (v, m, rd->mark, &x, NULL, 0);
+  if (c->forced)
+    return cat_cell (rd, t, c, j, f, s, n, err);
+  if (c->type == COL_NUM) {
+    st = parse_number (v, m, rd->mark, &x, NULL, 0);   /* a number's text is not kept */
     if (st == NUM_OK) {
-      if (bl_io_decide (t, c, COL_NUM) != BL_OK)
-        return bl_io_fail_nomem (rd, err);
       c->num[r] = x;
       return BL_OK;
     }
-    if (st == NUM_OVERFLOW || st == NUM_LOCALE)
-      return num_error (rd, t, j, f, v, m, st, err);
-    {
-      const char save = v[m];
-      const int special = bl_io_strtod_would_take (v, m);
-      v[m] = save;
-      if (special)
-        return num_error (rd, t, j, f, v, m, st, err);
-    }
-    if (bl_io_decide (t, c, COL_CAT) != BL_OK)
+    if (st == NUM_LOCALE)
+      return bl_io_fail_locale (rd, f, j, err);
+    if (st == NUM_OVERFLOW && rd->mark != '.')   /* show the cell as written */
+      for (size_t k = 0; k < m; k++)
+        if (v[k] == '.')
+          v[k] = rd->mark;
+    note_bad (rd, c, j, f, v, m, st);
+    if (make_mix (t, c) != BL_OK)
       return bl_io_fail_nomem (rd, err);
+    c->num[r] = NAN;
+    c->codes[r] = -1;
+    return BL_OK;
+  }
+  st = cell_number (rd, v, m, &x);
+  if (st == NUM_LOCALE)
+    return bl_io_fail_locale (rd, f, j, err);
+  if (c->type == COL_UNDECIDED) {
+    if (bl_io_decide (t, c, st == NUM_OK ? COL_NUM : COL_CAT) != BL_OK)
+      return bl_io_fail_nomem (rd, err);
+    c->texts = 1;
+    if (st == NUM_OK) {
+      c->num[r] = x;
+      return BL_OK;
+    }
+  } else if (c->type == COL_CAT && st == NUM_OK && make_mix (t, c) != BL_OK)
+    return bl_io_fail_nomem (rd, err);
+  if (st != NUM_OK)
+    note_bad (rd, c, j, f, v, m, st);
+  if (c->num)
+    c->num[r] = st == NUM_OK ? x : NAN;
+  if (!c->texts) {
+    c->codes[r] = -1;
+    return BL_OK;
   }
   return cat_cell (rd, t, c, j, f, s, n, err);
 }
 
 /* The common record in one pass (the general path reads every byte twice: once to find the
    cells, once to convert them).  Taken when every column's type is known, no cell is quoted,
-   every numeric cell is empty or a number that parse_number converts by its fast path, and
-   the record has NC cells and ends in a line end inside the buffer: then row t->nrows is
-   written as add_record would write it, *TAKEN is 1 and *PP moves past the line end.
-   Otherwise *TAKEN is 0 and nothing is counted (cells of the row may have been written; the
-   general path then reads the record from its start and writes them again).  Categorical
-   cells go through bl_io_put_cell, so levels, limits and errors are those of the general path;
-   returns its status. */
+   every cell of a NUM column is empty or a number that parse_number converts by its fast
+   path, and the record has NC cells and ends in a line end inside the buffer: then row
+   t->nrows is written as add_record would write it, *TAKEN is 1 and *PP moves past the line
+   end.  Otherwise *TAKEN is 0 and nothing is counted (numbers of the row may have been
+   written; the general path then reads the record from its start and writes them again).
+   The other cells are located first and go through bl_io_put_cell only once the record is
+   known to be taken, so that levels, counts, limits and errors are those of the general
+   path; returns its status. */
 static int
 fast_record (reader *rd, bl_table *t, char **pp, const char *end, size_t line, int *taken,
              bl_err *err)
 {
   const size_t r = t->nrows, nc = t->ncols;
   const char *p = *pp;
+  int any_other = 0;
   *taken = 0;
-  if (r == t->cap || t->ndecided != nc)
+  if (r == t->cap || t->ndecided != nc || rd->fcap < nc)
     return BL_OK;
   for (size_t j = 0; j < nc; j++) {
     column *const c = &t->cols[j];
@@ -361,24 +461,27 @@ fast_record (reader *rd, bl_table *t, char **pp, const char *end, size_t line, i
         return BL_OK;
       c->num[r] = x;
     } else {
-      field f;
-      int st;
+      field *const f = &rd->f[j];
       if (p < end && *p == '"')
         return BL_OK;
-      f.s = (char *) p;
+      f->s = (char *) p;
       while (p < end && !rd->stop[(unsigned char) *p])
         p++;
-      f.n = (size_t) (p - f.s);
-      f.line = line;
-      f.dquote = 0;
+      f->n = (size_t) (p - f->s);
+      f->line = line;
+      f->dquote = 0;
       if (!cell_end (&p, end, rd->delim, j, nc))
         return BL_OK;
-      if ((st = bl_io_put_cell (rd, t, j, &f, err)) != BL_OK)
-        return st;
+      any_other |= c->type != COL_SKIP;
     }
   }
   if ((size_t) (p - *pp) > rd->max_record)
     return BL_OK;               /* the general path refuses it */
+  for (size_t j = 0; any_other && j < nc; j++) {
+    int st;
+    if (t->cols[j].type != COL_NUM && (st = bl_io_put_cell (rd, t, j, &rd->f[j], err)) != BL_OK)
+      return st;
+  }
   t->line[r] = line;
   t->nrows++;
   *pp = (char *) p;

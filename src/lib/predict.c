@@ -103,12 +103,24 @@ check_column (const bl_model *m, const bl_table *t, const char *name, const char
                     "numbers (read the table with bl_model_table_opts)", name);
   }
   if (!is_model_cat (m, name) && !bl_table_is_numeric (t, (size_t) j)) {
-    size_t r;
-    const size_t line = first_text_line (t, (size_t) j, &r);
-    snprintf (w, sizeof w, "%s:%zu", bl_table_source (t), line);
-    return bl_fail (err, BL_EDATA, w, "'%s' is numeric in the model, but this cell is not a "
-                    "number: '%s'", name,
-                    bl_table_level (t, (size_t) j, (size_t) bl_table_codes (t, (size_t) j)[r]));
+    /* The saved model fixes the column's type: the reader's majority rule made it
+       categorical, so its first cell that is not a number is named (numbers among its
+       cells are levels now, and not what went wrong). */
+    size_t nlab, nnum, line, col;
+    const char *text;
+    if (bl_table_typed_by_cells (t, (size_t) j, &nlab, &nnum, &line, &col, &text)) {
+      snprintf (w, sizeof w, "%s:%zu:%zu", bl_table_source (t), line, col);
+      return bl_fail (err, BL_EDATA, w, "'%s' is numeric in the model, but this cell is not a "
+                      "number: '%s' (%zu of the column's %zu non-missing cells are not)", name,
+                      text, nlab, nlab + nnum);
+    } else {
+      size_t r;
+      const size_t ln = first_text_line (t, (size_t) j, &r);
+      snprintf (w, sizeof w, "%s:%zu", bl_table_source (t), ln);
+      return bl_fail (err, BL_EDATA, w, "'%s' is numeric in the model, but was declared "
+                      "categorical: '%s'", name,
+                      bl_table_level (t, (size_t) j, (size_t) bl_table_codes (t, (size_t) j)[r]));
+    }
   }
   return BL_OK;
 }

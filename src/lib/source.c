@@ -13,6 +13,8 @@
 #include <fcntl.h>
 #include <limits.h>
 #include <stdint.h>
+#include <stdio.h>
+#include <stdlib.h>
 #include <string.h>
 #include <sys/stat.h>
 #include <unistd.h>
@@ -60,6 +62,12 @@ struct bl_source {
   int status;                 /* BL_OK, or the sticky failure */
   bl_err saved;               /* the failure, replayed on later calls */
   ring *ring;                 /* producer thread, after bl_source_prefetch */
+  int is_stdin;
+  dev_t dev0;                 /* st_dev and st_ino at open: the same file when read again */
+  ino_t ino0;
+  off_t off0;                 /* standard input that is a regular file: where it started */
+  int spool_fd;               /* a pipe, FIFO or device: the copy of its raw bytes, or -1 */
+  int spool_errno;            /* why there is no copy (0: there is one, or none is needed) */
 };
 
 /* zlib's allocations go through bl_malloc too, so fault injection reaches them. */
@@ -100,6 +108,7 @@ src_new (const char *name, bl_err *err)
     return NULL;
   }
   src->fd = -1;
+  src->spool_fd = -1;
   src->name = bl_strdup (name);
   if (!src->name) {
     bl_free (src);
@@ -124,6 +133,50 @@ check_unchanged (bl_source *src, bl_err *err)
       || st.st_mtim.tv_nsec != src->mtime0.tv_nsec)
     return src_fail (src, BL_EIO, err, "file changed while being read", NULL);
   return BL_OK;
+}
+
+/* A source that cannot be read twice (standard input from a pipe, a FIFO, a device) copies
+   its raw bytes, as read, to an unlinked temporary file in $TMPDIR (else /tmp), so that
+   bl_source_reopen can hand them out again: the table reader reads a second time the rare
+   column that the majority rule makes categorical after its first numbers were kept as
+   doubles (table.c, reread_texts).  A file on disk, not memory, because the input may be
+   larger than memory.  When the copy cannot be made or written, reading goes on and only
+   bl_source_reopen fails, naming the reason. */
+static void
+spool_open (bl_source *src)
+{
+  const char *dir = getenv ("TMPDIR");
+  char path[4096];
+  if (!dir || !*dir)
+    dir = "/tmp";
+  if ((size_t) snprintf (path, sizeof path, "%s/ballast-input-XXXXXX", dir) >= sizeof path) {
+    src->spool_errno = ENAMETOOLONG;
+    return;
+  }
+  src->spool_fd = mkstemp (path);
+  if (src->spool_fd < 0) {
+    src->spool_errno = errno;
+    return;
+  }
+  unlink (path);
+}
+
+static void
+spool_write (bl_source *src, const unsigned char *p, size_t n)
+{
+  while (src->spool_fd >= 0 && n > 0) {
+    const ssize_t w = write (src->spool_fd, p, n);
+    if (w < 0 && errno == EINTR)
+      continue;
+    if (w <= 0) {
+      src->spool_errno = w < 0 ? errno : EIO;
+      close (src->spool_fd);
+      src->spool_fd = -1;
+      return;
+    }
+    p += w;
+    n -= (size_t) w;
+  }
 }
 
 /* Read up to CAP raw (possibly compressed) bytes.  At the end of the underlying bytes the
@@ -162,6 +215,7 @@ raw_read (bl_source *src, unsigned char *buf, size_t cap, int *status, bl_err *e
         return 0;
       break;
     }
+    spool_write (src, buf + got, (size_t) r);
     got += (size_t) r;
   }
   return got;
@@ -260,7 +314,73 @@ bl_source_open (const char *path, bl_err *err)
   src->regular = S_ISREG (st.st_mode);
   src->size0 = st.st_size;
   src->mtime0 = st.st_mtim;
+  src->dev0 = st.st_dev;
+  src->ino0 = st.st_ino;
+  src->is_stdin = is_stdin;
+  if (!src->regular)
+    spool_open (src);
+  else if (is_stdin && (src->off0 = lseek (src->fd, 0, SEEK_CUR)) < 0)
+    src->off0 = -1;             /* cannot be read again */
   return src_start (src, err);
+}
+
+/* A source over the spool's copy, from its start. */
+static bl_source *
+reopen_spool (const bl_source *old, bl_err *err)
+{
+  struct stat st;
+  bl_source *src;
+  if (old->spool_fd < 0) {
+    bl_fail (err, BL_EIO, old->name, "cannot read the input a second time (a pipe; its "
+             "temporary copy failed: %s)", strerror (old->spool_errno ? old->spool_errno
+                                                       : EIO));
+    return NULL;
+  }
+  if (!(src = src_new (old->name, err)))
+    return NULL;
+  src->fd = dup (old->spool_fd);
+  if (src->fd < 0 || lseek (src->fd, 0, SEEK_SET) != 0 || fstat (src->fd, &st) != 0) {
+    bl_fail (err, BL_EIO, old->name, "cannot read the input's temporary copy: %s",
+             strerror (errno));
+    bl_source_free (src);
+    return NULL;
+  }
+  src->own_fd = 1;
+  src->regular = 1;
+  src->size0 = st.st_size;
+  src->mtime0 = st.st_mtim;
+  return src_start (src, err);
+}
+
+bl_source *
+bl_source_reopen (const bl_source *old, bl_err *err)
+{
+  struct stat st;
+  bl_source *src;
+  if (old->fd < 0)
+    return bl_source_open_mem (old->mem, old->mem_len, old->name, err);
+  if (!old->regular)
+    return reopen_spool (old, err);
+  if (!old->is_stdin)
+    src = bl_source_open (old->name, err);
+  else {
+    if (old->off0 < 0 || lseek (old->fd, old->off0, SEEK_SET) != old->off0) {
+      bl_fail (err, BL_EIO, old->name, "cannot read the input a second time (it cannot "
+               "seek)");
+      return NULL;
+    }
+    src = bl_source_open ("-", err);
+  }
+  if (!src)
+    return NULL;
+  if (fstat (src->fd, &st) != 0 || st.st_dev != old->dev0 || st.st_ino != old->ino0
+      || st.st_size != old->size0 || st.st_mtim.tv_sec != old->mtime0.tv_sec
+      || st.st_mtim.tv_nsec != old->mtime0.tv_nsec) {
+    bl_fail (err, BL_EIO, old->name, "file changed while being read");
+    bl_source_free (src);
+    return NULL;
+  }
+  return src;
 }
 
 bl_source *
@@ -538,6 +658,8 @@ bl_source_free (bl_source *src)
     inflateEnd (&src->zs);
   if (src->own_fd && src->fd >= 0)
     close (src->fd);
+  if (src->spool_fd >= 0)
+    close (src->spool_fd);
   bl_free (src->in);
   bl_free (src->name);
   bl_free (src);

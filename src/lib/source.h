@@ -18,6 +18,14 @@ bl_source *bl_source_open (const char *path, bl_err *err);
    messages.  Gzip data in BUF is inflated as for files. */
 bl_source *bl_source_open_mem (const void *buf, size_t len, const char *name, bl_err *err);
 
+/* A new source over the same bytes as SRC, from their start, once SRC has been read to its
+   end: a file is opened again by name and must be the same file, unchanged (else BL_EIO,
+   "file changed while being read"); memory is read again; standard input that is a regular
+   file is read again from where it started; a pipe, FIFO or device (which cannot be read
+   twice) is read from the copy SRC made of it in a temporary file while it was read (BL_EIO
+   naming the reason when no copy could be made).  Free with bl_source_free. */
+bl_source *bl_source_reopen (const bl_source *src, bl_err *err);
+
 /* Read up to CAP bytes into BUF.  Returns the number of bytes read (0 at the end) and sets
    *STATUS to BL_OK, or returns 0 with *STATUS = BL_EIO / BL_EDATA (corrupt or truncated gzip
    stream) / BL_ENOMEM and ERR filled.  A truncated gzip stream is an error, never a short

@@ -64,12 +64,13 @@ grow_to (bl_table *t, size_t cap)
   t->line = line;
   for (size_t j = 0; j < t->ncols; j++) {
     column *c = &t->cols[j];
-    if (c->type == COL_NUM) {
+    if (c->type == COL_NUM || c->type == COL_MIX) {
       double *v = bl_realloc (c->num, cap * sizeof *v);
       if (!v)
         return BL_ENOMEM;
       c->num = v;
-    } else if (c->type == COL_CAT) {
+    }
+    if (c->type == COL_CAT || c->type == COL_MIX) {
       int32_t *v = bl_realloc (c->codes, cap * sizeof *v);
       if (!v)
         return BL_ENOMEM;
@@ -162,6 +163,7 @@ bl_io_take_header (reader *rd, bl_table *t, size_t nf, const bl_table_opts *opt,
                       "no column named '%s' (declared categorical)", opt->categorical[k]);
     if (t->cols[j].type != COL_CAT) {   /* declared: decided (counted once) */
       t->cols[j].type = COL_CAT;
+      t->cols[j].forced = t->cols[j].texts = 1;
       t->ndecided++;
     }
   }
@@ -174,6 +176,7 @@ bl_io_take_header (reader *rd, bl_table *t, size_t nf, const bl_table_opts *opt,
         if (t->cols[j].type == COL_UNDECIDED)
           t->ndecided++;
         t->cols[j].type = COL_SKIP;
+        t->cols[j].forced = 0;
       }
     }
   rd->fmax = nf;
@@ -247,9 +250,63 @@ sort_levels (bl_table *t, column *c)
   return BL_OK;
 }
 
+/* The type of every column by the majority rule, once the last row is in: a column is
+   numeric when more than half of its non-missing cells are numbers, and then every other
+   cell of it is an error; otherwise it is categorical (common practice, no source: a typo is
+   a minority, a label column a majority of non-numbers).  Deciding after the last row, from
+   counts, makes the type independent of where a bad cell stands and of how the input was
+   split between threads.  Of several errors, the one earliest in the file (line, then column)
+   is reported.  A categorical MIX column whose first numbers were kept as doubles only stays
+   MIX, with *REREAD set: its texts are read again by reread_texts. */
 static int
-finish (reader *rd, bl_table *t, bl_err *err)
+decide_types (reader *rd, bl_table *t, int *reread, bl_err *err)
 {
+  size_t eline = 0, ecol = 0, ej = 0, enum_ = 0;
+  int ekind = 0;                /* 1: a non-number in a numeric column, 2: max_levels */
+  *reread = 0;
+  for (size_t j = 0; j < t->ncols; j++) {
+    column *c = &t->cols[j];
+    size_t nnum = 0, line = 0, col = 0;
+    int kind = 0;
+    if (c->type == COL_MIX)
+      for (size_t i = 0; i < t->nrows; i++)
+        nnum += !isnan (c->num[i]);
+    c->nnum = nnum;
+    if (c->type == COL_MIX && nnum > c->nbad) {
+      kind = 1;
+      line = c->bad.line;
+      col = c->bad.col;
+    } else if ((c->type == COL_MIX || c->type == COL_CAT) && c->over_line) {
+      kind = 2;
+      line = c->over_line;
+      col = c->over_col;
+    } else if (c->type == COL_MIX && c->texts) {
+      bl_free (c->num);         /* categorical: every text is a level already */
+      c->num = NULL;
+      c->type = COL_CAT;
+    } else if (c->type == COL_MIX)
+      *reread = 1;
+    if (kind && (!ekind || line < eline || (line == eline && col < ecol))) {
+      ekind = kind;
+      eline = line;
+      ecol = col;
+      ej = j;
+      enum_ = nnum;
+    }
+  }
+  if (ekind == 1)
+    return bl_io_fail_bad (rd, t, ej, enum_, err);
+  if (ekind == 2)
+    return bl_io_fail_levels (rd, t, ej, eline, ecol, err);
+  return BL_OK;
+}
+
+static int
+finish (reader *rd, bl_table *t, int *reread, bl_err *err)
+{
+  int st = decide_types (rd, t, reread, err);
+  if (st != BL_OK)
+    return st;
   for (size_t j = 0; j < t->ncols; j++) {
     column *c = &t->cols[j];
     if (c->type == COL_UNDECIDED) {   /* no non-missing cell: numeric, all missing */
@@ -373,7 +430,7 @@ reader_setup (reader *rd, bl_source *src, const bl_table_opts *opt, bl_err *err)
    filled. */
 static int
 read_records (reader *rd, bl_table *t, const bl_table_opts *opt, int par, size_t min_part,
-              bl_io_spec *w, bl_err *err)
+              bl_io_spec *w, int *reread, bl_err *err)
 {
   pstate ps;
   int st;
@@ -400,7 +457,72 @@ read_records (reader *rd, bl_table *t, const bl_table_opts *opt, int par, size_t
   }
   if (!ps.have_header)
     return bl_fail (err, BL_EDATA, rd->name, "no header row");
-  return finish (rd, t, err);
+  return finish (rd, t, reread, err);
+}
+
+static bl_table *read_source (bl_source *src, const bl_table_opts *opt_in, bl_err *err);
+
+/* The texts of the columns that decide_types left MIX: categorical by the majority rule,
+   but their first numbers were kept as doubles only, so the source is read a second time
+   for those columns alone, declared categorical, and their codes and levels replace the
+   first read's.
+
+   Why read again rather than keep every number's text until the type is known: the type is
+   known only after the last row, so keeping texts would mean a string set of every distinct
+   number of every numeric column (as large as the file's numeric text, and past max_levels
+   for any column of real measurements), paid on every read for the rare column that turns
+   out to hold labels.  Reading again costs time only for such a column, and the memory it
+   takes is that of the categorical columns it makes.  A file or memory is read again as it
+   is (a file must be the same file, unchanged); standard input and pipes, which cannot be
+   read twice, are copied by the source to a temporary file while read (source.c). */
+static int
+reread_texts (bl_source *src, bl_table *t, const bl_table_opts *opt, bl_err *err)
+{
+  bl_table_opts o2 = *opt;
+  bl_source *s2 = NULL;
+  bl_table *t2 = NULL;
+  const char **names;
+  size_t k = 0;
+  int st = BL_OK;
+  names = bl_mallocn (t->ncols, sizeof *names);
+  if (!names)
+    return bl_fail (err, BL_ENOMEM, t->source, "out of memory reading the table");
+  for (size_t j = 0; j < t->ncols; j++)
+    if (t->cols[j].type == COL_MIX)
+      names[k++] = t->names.str[j];
+  o2.categorical = names;
+  o2.n_categorical = k;
+  o2.keep = names;
+  o2.n_keep = k;
+  if (!(s2 = bl_source_reopen (src, err)) || !(t2 = read_source (s2, &o2, err))) {
+    st = err ? err->code : BL_EIO;
+    goto done;
+  }
+  if (t2->nrows != t->nrows) {
+    st = bl_fail (err, BL_EIO, t->source, "file changed while being read (%zu rows, then "
+                  "%zu)", t->nrows, t2->nrows);
+    goto done;
+  }
+  for (size_t j = 0; j < t->ncols; j++) {
+    column *c = &t->cols[j], *c2;
+    if (c->type != COL_MIX)
+      continue;
+    c2 = &t2->cols[bl_table_find (t2, t->names.str[j])];
+    bl_free (c->num);
+    bl_free (c->codes);
+    bl_io_dict_free (&c->lev);
+    c->num = NULL;
+    c->codes = c2->codes;
+    c->lev = c2->lev;
+    c2->codes = NULL;
+    memset (&c2->lev, 0, sizeof c2->lev);
+    c->type = COL_CAT;
+  }
+done:
+  bl_table_free (t2);
+  bl_source_free (s2);
+  bl_free (names);
+  return st;
 }
 
 static bl_table *
@@ -412,7 +534,7 @@ read_source (bl_source *src, const bl_table_opts *opt_in, bl_err *err)
   bl_table *t;
   bl_io_spec w;
   size_t chunk, min_part, hint;
-  int par, ok = 0;
+  int par, ok = 0, reread = 0;
 
   if (!opt) {
     bl_table_opts_init (&defaults);
@@ -455,12 +577,14 @@ read_source (bl_source *src, const bl_table_opts *opt_in, bl_err *err)
       && bl_source_prefetch (src, SOURCE_RING, hint > 0 && hint < READ_CHUNK ? hint : READ_CHUNK,
                              err) != BL_OK)
     goto done;
-  ok = read_records (&rd, t, opt, par, min_part, &w, err) == BL_OK;
+  ok = read_records (&rd, t, opt, par, min_part, &w, &reread, err) == BL_OK;
 
 done:
   bl_free (rd.buf);
   bl_free (rd.f);
   bl_io_spec_free (&w);
+  if (ok && reread)
+    ok = reread_texts (src, t, opt, err) == BL_OK;
   if (!ok) {
     table_free_parts (t);
     t = NULL;
@@ -579,3 +703,18 @@ bl_table_line (const bl_table *t, size_t row)
   return row < t->nrows ? t->line[row] : 0;
 }
 
+int
+bl_table_typed_by_cells (const bl_table *t, size_t j, size_t *nlabels, size_t *nnum,
+                         size_t *line, size_t *col, const char **text)
+{
+  const column *c;
+  if (j >= t->ncols || t->cols[j].type != COL_CAT || t->cols[j].forced || !t->cols[j].nbad)
+    return 0;
+  c = &t->cols[j];
+  *nlabels = c->nbad;
+  *nnum = c->nnum;
+  *line = c->bad.line;
+  *col = c->bad.col;
+  *text = c->bad.text;
+  return 1;
+}

@@ -61,14 +61,19 @@ BL_API void bl_table_opts_init (bl_table_opts *opt);
    non-empty, valid UTF-8 and unique, else BL_EDATA.  Missing cells are empty, "NA", "NaN"
    or "." (after removing surrounding quotes).
 
-   Column types: a column is numeric when its first non-missing cell is a number (strtod-exact
-   decimal, optional sign and exponent; with decimal_comma, ',' is the decimal mark); a later
-   cell that is not a number is BL_EDATA with ERR->where = "FILE:LINE:COL" (1-based physical
-   line of the cell and 1-based field number) and a hint to declare the column categorical.
-   A column whose first non-missing cell is not a number, or that OPT forces, is categorical.
-   A column with no non-missing cell is numeric and all missing.  "inf", "nan"-like words
-   other than the missing markers, hex floats, and values that overflow are BL_EDATA naming
-   the cell (an underflow to a subnormal or zero is accepted, as strtod gives).  A record with
+   Column types, by a rule over all of a column's cells, never by their order: a column is
+   numeric when more than half of its non-missing cells are numbers (strtod-exact decimal,
+   optional sign and exponent; with decimal_comma, ',' is the decimal mark), and then every
+   other cell of it is BL_EDATA with ERR->where = "FILE:LINE:COL" (1-based physical line of
+   the cell and 1-based field number; the earliest such cell of the file is named) and the
+   hint "--categorical COL" for a column meant as labels.  Otherwise, or when OPT declares it,
+   the column is categorical, every non-missing cell a level (numbers too, as written).  A
+   column with no non-missing cell is numeric and all missing.  "inf", "nan"-like words other
+   than the missing markers, hex floats, and values that overflow a double are not numbers
+   (an underflow to a subnormal or zero is accepted, as strtod gives).  The types are known
+   only after the last row; a column that turns out categorical after its first numbers were
+   stored as doubles is read a second time for its texts (a pipe from a copy the source keeps
+   in a temporary file).  A record with
    more or fewer fields than the header is BL_EDATA naming its line.  A quote never closed is
    BL_EDATA naming the line where the field began.  A file with no header is BL_EDATA.
 
@@ -98,6 +103,15 @@ BL_API const double *bl_table_num (const bl_table *t, size_t j);
 BL_API const int32_t *bl_table_codes (const bl_table *t, size_t j);
 BL_API size_t bl_table_nlevels (const bl_table *t, size_t j);
 BL_API const char *bl_table_level (const bl_table *t, size_t j, size_t k);
+/* Nonzero when column J is categorical by its cells (the majority rule), not declared so:
+   then *NLABELS of its non-missing cells are not numbers and *NNUM are, and the first that is
+   not stands at *LINE (1-based physical line) and field *COL (1-based), its text in *TEXT
+   (at most 60 bytes; valid until bl_table_free).  0, with nothing set, for a numeric column
+   or one declared categorical.  For messages that name the cell that made a column
+   categorical where a number is needed. */
+BL_API int bl_table_typed_by_cells (const bl_table *t, size_t j, size_t *nlabels,
+                                    size_t *nnum, size_t *line, size_t *col,
+                                    const char **text);
 /* The 1-based physical line on which data record ROW (0-based) starts, for messages. */
 BL_API size_t bl_table_line (const bl_table *t, size_t row);
 
