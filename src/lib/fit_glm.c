@@ -590,9 +590,59 @@ warn_non_integer (bl_fit *f)
   return BL_OK;
 }
 
-/* A fit that did not converge keeps its status and has no figures to stand behind. */
+/* What runs to the edge at a row where the fit is pressed against it: the mean toward 0 or
+   toward infinity, named by the link (identity, sqrt: mu = 0 is the end of the mean space;
+   inverse: eta = 1/mu reaches 0, so mu runs to infinity; log: eta at the end of exp's
+   range, mu to 0 below and to infinity above). */
+static const char *
+edge_kind (const bl_link *lnk, double eta, double mu)
+{
+  if (lnk == &bl_link_inverse)
+    return "runs to infinity (the linear predictor 1/mu runs to 0)";
+  if (lnk == &bl_link_log)
+    return eta > 0.0 ? "runs to infinity (the linear predictor log mu runs off)"
+                     : "runs to 0 (the linear predictor log mu runs off)";
+  if (lnk == &bl_link_sqrt)
+    return "runs to 0 (the linear predictor sqrt mu runs to 0)";
+  return fabs (mu) > 1.0 ? "runs off" : "runs to 0";
+}
+
+/* Estimates running to the edge of the parameter space (bl_irls_boundary): no interior
+   maximum exists, so the fit reports the row, what ran to the edge and its value there,
+   instead of "converged" with standard errors that do not apply.  The supremum lies on the
+   boundary where the unit deviance stays finite as the mean reaches the edge: y = 0 rows of
+   the count families (and Tweedie) and y <= 0 rows of the gaussian as mu -> 0, the inverse
+   gaussian as mu -> infinity, d(y, mu) -> 1/y (McCullagh & Nelder 1989, table 2.1: the
+   limits of the unit deviances; the gamma's grow without bound at both ends, so its maxima
+   are interior). */
+static int
+boundary_status (bl_fit *f, const bl_irls_work *ws)
+{
+  const bl_design *d = f->d;
+  size_t row = 0;
+  int eta_bad = 0;
+  char where[1100];
+  double eta, mu;
+  if (!bl_irls_boundary (ws, &row, &eta_bad))
+    return 0;
+  eta = bl_irls_eta (ws)[row];
+  mu = bl_irls_mu (ws)[row];
+  snprintf (where, sizeof where, "%s:%zu", bl_design_source (d), bl_design_line (d, row));
+  /* the place in the message itself: callers show the message of a failed fit's status */
+  bl_fail (&f->status, BL_EDATA, bl_design_source (d), "no interior maximum: at %s the "
+           "fitted mean %s under the %s link (mu = %.6g there, '%s' = %.6g): step halving "
+           "kept it inside the %s family's mean space only by creeping toward the edge, and "
+           "the likelihood keeps rising toward that boundary, so no estimate with standard "
+           "errors exists; try another link (e.g. log) or leave such rows out", where,
+           edge_kind (f->link, eta, mu), f->link->name, mu, bl_design_response (d),
+           f->y[row], bl_family_name (f->fam));
+  return 1;
+}
+
+/* A fit that did not converge keeps its status and has no figures to stand behind; WHY is
+   the reason given for each null figure. */
 static void
-mark_unconverged (bl_fit *f, int st)
+mark_unconverged (bl_fit *f, int st, const char *why)
 {
   const bl_design *d = f->d;
   if (st == BL_ENOCONV && bl_family_has (f->fam, BL_FAM_NORMAL) && f->link == &bl_link_identity)
@@ -609,8 +659,7 @@ mark_unconverged (bl_fit *f, int st)
   f->st.deviance = f->st.deviance_null = f->st.pearson = NAN;
   f->st.phi_pearson = f->st.phi_ml = f->st.phi_used = NAN;
   f->st.loglik = f->st.aic = f->st.aicc = f->st.bic = NAN;
-  f->st.loglik_why = f->st.aicc_why = f->st.deviance_null_why = f->st.phi_ml_why =
-    "the fit did not converge";
+  f->st.loglik_why = f->st.aicc_why = f->st.deviance_null_why = f->st.phi_ml_why = why;
 }
 
 /* The IRLS model of fit F: its family, link, response, weights and the design's columns. */
@@ -669,8 +718,12 @@ bl_fit_core (const bl_design *d, const double *y, const double *a, const bl_fit_
       *err = f->status;
     goto fail;
   }
+  if ((st == BL_OK || st == BL_ENOCONV) && boundary_status (f, ws)) {
+    mark_unconverged (f, BL_EDATA, "the maximum is on the boundary of the parameter space");
+    goto done;
+  }
   if (st != BL_OK) {
-    mark_unconverged (f, st);
+    mark_unconverged (f, st, "the fit did not converge");
     goto done;
   }
   f->st.converged = 1;
