@@ -478,6 +478,17 @@ bl_irls_iterate (bl_irls_work *ws, bl_err *err)
     if (st == 0 && (first || !(ws->dev > dev_ref + 1e-12 * (fabs (dev_ref) + 0.1))))
       break;
     if (!ws->have_prev || h >= ws->opt.max_halvings) {
+      if (st != 0 && !first && ws->have_prev) {
+        /* Every halving toward the accepted point left the mean space: that point is
+           within 2^-max_halvings of a step of the edge, pressed against the boundary.  The
+           means are put back at it for the report. */
+        size_t r2 = 0;
+        ws->boundary = 1;
+        ws->edge_row = bad_row;
+        ws->edge_code = st;
+        if (pass (ws, ws->beta, 0, &r2) == 3)
+          return pass_error (ws, 3, r2, err);
+      }
       if (st != 0)
         return pass_error (ws, st, bad_row, err);
       break;      /* the deviance could not be lowered further: accept (at the optimum) */
