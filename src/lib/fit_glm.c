@@ -673,6 +673,7 @@ mark_unconverged (bl_fit *f, int st, const char *why)
              "%g): the scales of '%s' and of the terms are too far apart; rescale them, "
              "e.g. by powers of ten", DBL_MAX, bl_design_response (d));
   f->st.converged = 0;
+  f->st.wald_is_t = bl_family_has (f->fam, BL_FAM_PHI_FREE);   /* what a fit would use */
   for (size_t j = 0; j < f->p; j++)
     f->beta[j] = f->se[j] = f->wald[j] = f->pval[j] = f->lo[j] = f->hi[j] = NAN;
   f->st.deviance = f->st.deviance_null = f->st.pearson = NAN;
