@@ -798,8 +798,10 @@ START_TEST (irls_error_no_start)
   test_job_design (&j, "y", "x", NULL, NULL);
   bl_fit_opts_init (&fo);
   fo.link = &bl_link_log;
-  expect_fail (bl_fit_new (j.d, &fo, &err), &err, BL_EDATA, "irls",
-               "no valid starting mean at row 1", "log link", "gaussian log, y < 0");
+  /* every y < 0: refused before the fit, since each row's (y - mu)^2 falls as mu -> 0 */
+  expect_fail (bl_fit_new (j.d, &fo, &err), &err, BL_EDATA, "neg.csv",
+               "every value of 'y' is <= 0", "no maximum-likelihood estimate exists",
+               "gaussian log, y < 0");
   test_job_free (&j);
 }
 END_TEST

@@ -29,13 +29,14 @@ BL_API const char *bl_solver_name (bl_solver s);
 #define BL_IRLS_EPSREL 1e-10      /* convergence: |D_old - D| <= eps (|D| + 0.1) */
 #define BL_IRLS_MAX_ITER 50
 #define BL_IRLS_MAX_HALVINGS 40
-/* After the deviance test passes, up to BL_IRLS_MAX_POLISH more scoring steps are taken while
-   some coefficient still moves by more than BL_IRLS_EPSBETA (|beta_j| + se_j): the deviance
-   is second order in beta, so its test alone stops non-canonical fits about 1e-6 standard
-   errors short of the maximum.  The steps stop early at the rounding floor (a change that no
-   longer shrinks).  Convergence itself is decided by the deviance test. */
-#define BL_IRLS_EPSBETA 1e-11
-#define BL_IRLS_MAX_POLISH 30
+/* Convergence also needs the coefficients to have settled: every step at most
+   BL_IRLS_EPSBETA_RATIO epsrel (|beta_j| + se_j) (1e-11 at the default epsrel), or no longer
+   shrinking (the rounding floor).  The deviance is second order in beta, so its test alone
+   stops non-canonical fits about 1e-6 standard errors short of the maximum. */
+#define BL_IRLS_EPSBETA_RATIO 0.1
+/* This many consecutive steps halved back inside the mean space when max_iter is reached:
+   the fit is creeping toward the edge of the parameter space (reported as such). */
+#define BL_IRLS_EDGE_STREAK 3
 #define BL_IRLS_BLOCK 2048        /* rows per block */
 #define BL_IRLS_PARTS 16          /* fixed row partitions (thread-count independent) */
 

@@ -79,6 +79,23 @@ zero_mean_excluded (const bl_family *fam, const bl_link *lnk)
          && (!bl_family_mu_ok (fam, 0.0) || !lnk->valid_eta (lnk->g (0.0)));
 }
 
+/* Nonzero when every mean of the model is positive (the family's mean space, or the log or
+   sqrt link): then a row with y <= 0 (y = 0 for the count families, any y <= 0 for the
+   gaussian) has a unit deviance that falls as its mean falls to 0, and only rows with y > 0
+   hold a mean away from 0. */
+static int
+positive_means (const bl_family *fam, const bl_link *lnk)
+{
+  return !bl_family_mu_ok (fam, -1.0) || lnk == &bl_link_log || lnk == &bl_link_sqrt;
+}
+
+/* Whether row value Y holds its mean away from 0 (see positive_means). */
+static int
+holds_mean (double y, int positive)
+{
+  return positive ? y > 0.0 : y != 0.0;
+}
+
 /* An offset that the link cannot carry: under the log link mu = exp(eta), and an offset
    beyond log(DBL_MAX) (about 709.8) in absolute value makes exp overflow or underflow to 0
    whatever the coefficients; IRLS would only report that some row's mean became invalid.
@@ -113,8 +130,8 @@ typedef struct cand {
    y > 0.  GRP[j] is the category of column j or -1; BUF holds one block, SUM one entry per
    category. */
 static void
-scan_candidates (const bl_design *d, const double *y, const long *grp, cand *c, double *buf,
-                 double *sum)
+scan_candidates (const bl_design *d, const double *y, const long *grp, int positive, cand *c,
+                 double *buf, double *sum)
 {
   const size_t n = bl_design_n (d), p = bl_design_p (d), ncat = bl_design_ncat (d);
   const size_t nc = p + ncat;
@@ -123,7 +140,7 @@ scan_candidates (const bl_design *d, const double *y, const long *grp, cand *c, 
     const size_t r0 = rb.row0, nb = rb.n;
     bl_design_fill (d, r0, nb, buf, ld);
     for (size_t i = 0; i < nb; i++) {
-      const int yp = y[r0 + i] != 0.0;
+      const int yp = holds_mean (y[r0 + i], positive);
       for (size_t g = 0; g < ncat; g++)
         sum[g] = 0.0;
       for (size_t k = 0; k < nc; k++) {
@@ -176,10 +193,11 @@ check_mean_boundary (const bl_design *d, const double *y, const bl_family *fam,
   long *grp;                          /* category of column j, or -1 */
   size_t nzero = 0, bad = nc;
   int st = BL_OK;
+  const int positive = positive_means (fam, lnk);
   if (!zero_mean_excluded (fam, lnk))
     return BL_OK;
   for (size_t i = 0; i < n; i++)
-    nzero += y[i] == 0.0;
+    nzero += !holds_mean (y[i], positive);
   if (nzero == 0)
     return BL_OK;
   c = bl_calloc (nc, sizeof *c);
@@ -200,7 +218,7 @@ check_mean_boundary (const bl_design *d, const double *y, const bl_family *fam,
         grp[j] = (long) g;
     }
   }
-  scan_candidates (d, y, grp, c, buf, sum);
+  scan_candidates (d, y, grp, positive, c, buf, sum);
   for (size_t k = 0; k < nc && bad == nc; k++) {
     int members = k < p;
     for (size_t j = 0; j < p && !members; j++)
@@ -211,29 +229,30 @@ check_mean_boundary (const bl_design *d, const double *y, const bl_family *fam,
   if (bad < nc) {
     const cand *b = &c[bad];
     const char *resp = bl_design_response (d);
+    const char *zero = bl_family_y_ok (fam, -1.0) ? "<= 0" : "0";
     char where[1100];
     snprintf (where, sizeof where, "%s", bl_design_source (d));
     if (b->nz == n)
-      st = bl_fail (err, BL_EDATA, where, "every value of '%s' is 0: the %s family's mean "
-                    "runs to 0 and no maximum-likelihood estimate exists", resp,
+      st = bl_fail (err, BL_EDATA, where, "every value of '%s' is %s: the %s family's mean "
+                    "runs to 0 and no maximum-likelihood estimate exists", resp, zero,
                     bl_family_name (fam));
     else if (bad < p)
-      st = bl_fail (err, BL_EDATA, where, "'%s' cannot be estimated: '%s' is 0 on all %zu "
-                    "rows where it is nonzero (first: line %zu), so the likelihood keeps "
+      st = bl_fail (err, BL_EDATA, where, "'%s' cannot be estimated: '%s' is %s on all "
+                    "%zu rows where it is nonzero (first: line %zu), so the likelihood keeps "
                     "rising as their fitted mean goes to 0 and no maximum-likelihood estimate "
                     "exists%s; merge or drop that group, or leave those rows out",
-                    bl_design_label (d, bad), resp, b->nz, bl_design_line (d, b->first),
+                    bl_design_label (d, bad), resp, zero, b->nz, bl_design_line (d, b->first),
                     lnk != &bl_link_log ? ""
                     : b->pos ? " (under the log link its coefficient runs off to minus "
                     "infinity)" : " (under the log link its coefficient runs off to "
                     "infinity)");
     else
       st = bl_fail (err, BL_EDATA, where, "level '%s' of '%s' (the reference level) cannot "
-                    "be estimated: '%s' is 0 on all %zu rows of that level (first: line %zu), "
-                    "so the likelihood keeps rising as their fitted mean goes to 0 and no "
-                    "maximum-likelihood estimate exists; merge or drop that level, or leave "
+                    "be estimated: '%s' is %s on all %zu rows of that level (first: line "
+                    "%zu), so the likelihood keeps rising as their fitted mean goes to 0 and "
+                    "no maximum-likelihood estimate exists; merge or drop that level, or leave "
                     "those rows out", bl_design_cat_reference (d, bad - p),
-                    bl_design_cat_column (d, bad - p), resp, b->nz,
+                    bl_design_cat_column (d, bad - p), resp, zero, b->nz,
                     bl_design_line (d, b->first));
   }
 done:
@@ -590,9 +609,59 @@ warn_non_integer (bl_fit *f)
   return BL_OK;
 }
 
-/* A fit that did not converge keeps its status and has no figures to stand behind. */
+/* What runs to the edge at a row where the fit is pressed against it: the mean toward 0 or
+   toward infinity, named by the link (identity, sqrt: mu = 0 is the end of the mean space;
+   inverse: eta = 1/mu reaches 0, so mu runs to infinity; log: eta at the end of exp's
+   range, mu to 0 below and to infinity above). */
+static const char *
+edge_kind (const bl_link *lnk, double eta, double mu)
+{
+  if (lnk == &bl_link_inverse)
+    return "runs to infinity (the linear predictor 1/mu runs to 0)";
+  if (lnk == &bl_link_log)
+    return eta > 0.0 ? "runs to infinity (the linear predictor log mu runs off)"
+                     : "runs to 0 (the linear predictor log mu runs off)";
+  if (lnk == &bl_link_sqrt)
+    return "runs to 0 (the linear predictor sqrt mu runs to 0)";
+  return fabs (mu) > 1.0 ? "runs off" : "runs to 0";
+}
+
+/* Estimates running to the edge of the parameter space (bl_irls_boundary): no interior
+   maximum exists, so the fit reports the row, what ran to the edge and its value there,
+   instead of "converged" with standard errors that do not apply.  The supremum lies on the
+   boundary where the unit deviance stays finite as the mean reaches the edge: y = 0 rows of
+   the count families (and Tweedie) and y <= 0 rows of the gaussian as mu -> 0, the inverse
+   gaussian as mu -> infinity, d(y, mu) -> 1/y (McCullagh & Nelder 1989, table 2.1: the
+   limits of the unit deviances; the gamma's grow without bound at both ends, so its maxima
+   are interior). */
+static int
+boundary_status (bl_fit *f, const bl_irls_work *ws)
+{
+  const bl_design *d = f->d;
+  size_t row = 0;
+  int eta_bad = 0;
+  char where[1100];
+  double eta, mu;
+  if (!bl_irls_boundary (ws, &row, &eta_bad))
+    return 0;
+  eta = bl_irls_eta (ws)[row];
+  mu = bl_irls_mu (ws)[row];
+  snprintf (where, sizeof where, "%s:%zu", bl_design_source (d), bl_design_line (d, row));
+  /* the place in the message itself: callers show the message of a failed fit's status */
+  bl_fail (&f->status, BL_EDATA, bl_design_source (d), "no interior maximum: at %s the "
+           "fitted mean %s under the %s family with the %s link (mu = %.6g there, '%s' = "
+           "%.6g): step halving kept the means valid only by creeping toward that edge, and "
+           "the likelihood keeps rising toward it, so no estimate with standard errors "
+           "exists; try another link (e.g. log) or leave such rows out", where,
+           edge_kind (f->link, eta, mu), bl_family_name (f->fam), f->link->name, mu,
+           bl_design_response (d), f->y[row]);
+  return 1;
+}
+
+/* A fit that did not converge keeps its status and has no figures to stand behind; WHY is
+   the reason given for each null figure. */
 static void
-mark_unconverged (bl_fit *f, int st)
+mark_unconverged (bl_fit *f, int st, const char *why)
 {
   const bl_design *d = f->d;
   if (st == BL_ENOCONV && bl_family_has (f->fam, BL_FAM_NORMAL) && f->link == &bl_link_identity)
@@ -604,13 +673,13 @@ mark_unconverged (bl_fit *f, int st)
              "%g): the scales of '%s' and of the terms are too far apart; rescale them, "
              "e.g. by powers of ten", DBL_MAX, bl_design_response (d));
   f->st.converged = 0;
+  f->st.wald_is_t = bl_family_has (f->fam, BL_FAM_PHI_FREE);   /* what a fit would use */
   for (size_t j = 0; j < f->p; j++)
     f->beta[j] = f->se[j] = f->wald[j] = f->pval[j] = f->lo[j] = f->hi[j] = NAN;
   f->st.deviance = f->st.deviance_null = f->st.pearson = NAN;
   f->st.phi_pearson = f->st.phi_ml = f->st.phi_used = NAN;
   f->st.loglik = f->st.aic = f->st.aicc = f->st.bic = NAN;
-  f->st.loglik_why = f->st.aicc_why = f->st.deviance_null_why = f->st.phi_ml_why =
-    "the fit did not converge";
+  f->st.loglik_why = f->st.aicc_why = f->st.deviance_null_why = f->st.phi_ml_why = why;
 }
 
 /* The IRLS model of fit F: its family, link, response, weights and the design's columns. */
@@ -669,8 +738,12 @@ bl_fit_core (const bl_design *d, const double *y, const double *a, const bl_fit_
       *err = f->status;
     goto fail;
   }
+  if ((st == BL_OK || st == BL_ENOCONV) && boundary_status (f, ws)) {
+    mark_unconverged (f, BL_EDATA, "the maximum is on the boundary of the parameter space");
+    goto done;
+  }
   if (st != BL_OK) {
-    mark_unconverged (f, st);
+    mark_unconverged (f, st, "the fit did not converge");
     goto done;
   }
   f->st.converged = 1;

@@ -54,6 +54,11 @@ struct bl_irls_work {
   bl_lsq_sol *sol;
   double dev, dev_prev;
   size_t iter, halvings;
+  /* The edge of the mean space: the number of consecutive accepted steps that were halved
+     back inside it (the row and failure code of the last), and whether the fit ended
+     pressed against it (bl_irls_boundary). */
+  size_t edge_streak, edge_row;
+  int edge_code, boundary;
   int have_prev;             /* beta_prev is a valid point to halve towards */
   int exact;                 /* gaussian identity: one solve is the answer */
   /* The second worker: started once per workspace, so that passes create no threads; each
@@ -432,6 +437,8 @@ bl_irls_init (bl_irls_work *ws, bl_err *err)
   ws->dev_prev = ws->dev;
   ws->iter = 0;
   ws->halvings = 0;
+  ws->edge_streak = 0;
+  ws->boundary = 0;
   if ((st = solve (ws, err)) != BL_OK)
     return st;
   /* A point to halve towards on the first step: the intercept-only fit at the weighted mean,
@@ -454,15 +461,34 @@ bl_irls_iterate (bl_irls_work *ws, bl_err *err)
   int st;
   const double dev_ref = ws->dev;     /* deviance at the last accepted point */
   const int first = (ws->iter == 0);
+  int edge = 0;                       /* this step was halved back inside the mean space */
+  size_t edge_row = 0;
+  int edge_code = 0;
   for (;;) {
     st = pass (ws, ws->beta_next, 1, &bad_row);
     if (st == 3)
       return pass_error (ws, st, bad_row, err);
+    if (st != 0) {
+      edge = 1;
+      edge_row = bad_row;
+      edge_code = st;
+    }
     /* Step halving (common practice, no source; as in McCullagh & Nelder 1989, section
        2.5): while mu leaves the mean space, or the deviance rises, go half way back. */
     if (st == 0 && (first || !(ws->dev > dev_ref + 1e-12 * (fabs (dev_ref) + 0.1))))
       break;
     if (!ws->have_prev || h >= ws->opt.max_halvings) {
+      if (st != 0 && !first && ws->have_prev) {
+        /* Every halving toward the accepted point left the mean space: that point is
+           within 2^-max_halvings of a step of the edge, pressed against the boundary.  The
+           means are put back at it for the report. */
+        size_t r2 = 0;
+        ws->boundary = 1;
+        ws->edge_row = bad_row;
+        ws->edge_code = st;
+        if (pass (ws, ws->beta, 0, &r2) == 3)
+          return pass_error (ws, 3, r2, err);
+      }
       if (st != 0)
         return pass_error (ws, st, bad_row, err);
       break;      /* the deviance could not be lowered further: accept (at the optimum) */
@@ -473,6 +499,13 @@ bl_irls_iterate (bl_irls_work *ws, bl_err *err)
     ws->halvings++;
   }
   ws->dev_prev = first ? ws->dev_prev : dev_ref;
+  if (edge && !first) {
+    ws->edge_streak++;
+    ws->edge_row = edge_row;
+    ws->edge_code = edge_code;
+  } else {
+    ws->edge_streak = 0;
+  }
   memcpy (ws->beta, ws->beta_next, p * sizeof (double));
   memcpy (ws->beta_prev, ws->beta_next, p * sizeof (double));
   ws->have_prev = 1;
@@ -493,7 +526,13 @@ int
 bl_irls_finish (bl_irls_work *ws, bl_err *err)
 {
   /* The last solve's coefficients are one scoring step beyond the accepted point; move there
-     when the deviance does not rise, so that coefficients, means and covariance agree. */
+     when the deviance does not rise and the step is within the iteration limit (the move is
+     an iteration), so that coefficients, means and covariance agree.  At an interior maximum
+     that step is tiny and stays in the mean space; when it leaves the mean space the maximum
+     is pressed against the edge of the parameter space (a mean running to 0 or to infinity, a linear predictor at
+     the end of its link's range): bl_irls_boundary reports it (common practice, no source:
+     the constrained maximum of a smooth likelihood is on the boundary exactly when the
+     unconstrained Newton step from it points outside). */
   const double dev_acc = ws->dev;
   size_t bad_row = 0;
   int st;
@@ -505,11 +544,18 @@ bl_irls_finish (bl_irls_work *ws, bl_err *err)
   st = pass (ws, ws->beta_next, 1, &bad_row);
   if (st == 3)
     return pass_error (ws, st, bad_row, err);
-  if (st == 0 && ws->dev <= dev_acc + 1e-12 * (fabs (dev_acc) + 0.1)) {
+  if (st != 0) {
+    ws->boundary = 1;
+    ws->edge_row = bad_row;
+    ws->edge_code = st;
+  }
+  if (st == 0 && ws->iter < ws->opt.max_iter
+      && ws->dev <= dev_acc + 1e-12 * (fabs (dev_acc) + 0.1)) {
     memcpy (ws->beta, ws->beta_next, ws->p * sizeof (double));
+    ws->iter++;
     return solve (ws, err);      /* the factor at the final point; beta stays */
   }
-  /* fall back to the accepted point: recompute its means and factor */
+  /* stay at the accepted point: recompute its means and factor */
   st = pass (ws, ws->beta, 1, &bad_row);
   if (st)
     return pass_error (ws, st, bad_row, err);
@@ -536,30 +582,67 @@ beta_change (const bl_irls_work *ws)
   return worst;
 }
 
+/* The convergence test of bl_irls_run, after the step just taken (the deviance test with
+   the coefficient test): 1 converged, 0 not yet.  *PREV carries the last coefficient change
+   seen while the deviance test held (HUGE_VAL when it did not). */
+static int
+converged (const bl_irls_work *ws, double *prev)
+{
+  double ch;
+  /* A step that had to be halved back inside the mean space is not the end: at an interior
+     maximum the last steps are full scoring steps. */
+  if (bl_irls_test (ws) != BL_OK || ws->edge_streak > 0) {
+    *prev = HUGE_VAL;
+    return 0;
+  }
+  if (ws->exact)
+    return 1;
+  /* The deviance is second order in beta, so its test alone stops non-canonical fits about
+     sqrt(eps n) standard errors short of the maximum: the coefficients must also have
+     settled, every step below BL_IRLS_EPSBETA_RATIO eps (|beta_j| + se_j), or stopped
+     shrinking (by a factor 0.9: the rounding floor). */
+  ch = beta_change (ws);
+  if (!(ch > BL_IRLS_EPSBETA_RATIO * ws->opt.epsrel) || ch >= 0.9 * *prev)
+    return 1;
+  *prev = ch;
+  return 0;
+}
+
 int
 bl_irls_run (bl_irls_work *ws, bl_err *err)
 {
+  double prev = HUGE_VAL;
   int st = bl_irls_init (ws, err);
-  for (size_t it = 0; st == BL_OK && it < ws->opt.max_iter; it++) {
+  /* Every step counts against max_iter: the scoring steps and the finishing move. */
+  while (st == BL_OK && ws->iter < ws->opt.max_iter) {
     st = bl_irls_iterate (ws, err);
-    if (st == BL_OK && bl_irls_test (ws) == BL_OK) {
-      double prev = HUGE_VAL;
-      for (size_t k = 0; !ws->exact && k < BL_IRLS_MAX_POLISH; k++) {
-        const double ch = beta_change (ws);
-        if (!(ch > BL_IRLS_EPSBETA) || ch >= 0.9 * prev)
-          break;
-        prev = ch;
-        if ((st = bl_irls_iterate (ws, err)) != BL_OK)
-          return st;
-      }
+    if (st == BL_OK && converged (ws, &prev))
       return bl_irls_finish (ws, err);
-    }
   }
   if (st != BL_OK)
     return st;
+  /* Steps still being halved back inside the mean space at the limit: the iteration is
+     creeping toward the edge of the parameter space rather than failing to settle. */
+  if (!ws->exact && ws->edge_streak >= BL_IRLS_EDGE_STREAK)
+    ws->boundary = 1;
+  if (bl_irls_test (ws) == BL_OK)
+    return bl_fail (err, BL_ENOCONV, "irls",
+                    "no convergence in %zu iteration%s (the deviance settled at %.6g but the "
+                    "coefficients were still moving by %.3g of |b| + se)", ws->opt.max_iter,
+                    ws->opt.max_iter == 1 ? "" : "s", ws->dev, beta_change (ws));
   return bl_fail (err, BL_ENOCONV, "irls",
                   "no convergence in %zu iteration%s (deviance still changing: %.6g to %.6g)",
                   ws->opt.max_iter, ws->opt.max_iter == 1 ? "" : "s", ws->dev_prev, ws->dev);
+}
+
+int
+bl_irls_boundary (const bl_irls_work *ws, size_t *row, int *eta_invalid)
+{
+  if (row)
+    *row = ws->edge_row;
+  if (eta_invalid)
+    *eta_invalid = ws->edge_code == 1;
+  return ws->boundary;
 }
 
 const double *bl_irls_beta (const bl_irls_work *ws) { return ws->beta; }

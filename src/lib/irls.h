@@ -65,9 +65,19 @@ int bl_irls_test (const bl_irls_work *ws);
    reported coefficients, means, deviance and covariance factor all belong to one point. */
 int bl_irls_finish (bl_irls_work *ws, bl_err *err);
 
-/* Run INITIALIZE, ITERATE/TEST up to max_iter, and FINISH.  BL_ENOCONV when the limit is
-   reached ("no convergence in N iterations"). */
+/* Run INITIALIZE, ITERATE/TEST up to max_iter, and FINISH.  Converged when the deviance
+   test holds and every coefficient's last step is at most BL_IRLS_EPSBETA_RATIO epsrel
+   (|beta_j| + se_j), or has stopped shrinking.  Every step, the finishing move included,
+   counts against max_iter: BL_ENOCONV when the limit is reached ("no convergence in N
+   iterations"). */
 int bl_irls_run (bl_irls_work *ws, bl_err *err);
+
+/* Nonzero when the fit ended pressed against the edge of the parameter space: the final
+   scoring step left the mean space or the link's range, or the last steps had to be halved
+   back inside it (after BL_OK or BL_ENOCONV of bl_irls_run).  *ROW (may be NULL) is the row
+   (0-based) where it left last; *ETA_INVALID is 1 when the linear predictor left the link's
+   range there, 0 when the mean left the family's mean space. */
+int bl_irls_boundary (const bl_irls_work *ws, size_t *row, int *eta_invalid);
 
 /* Results, valid until the next call on WS or bl_irls_work_free. */
 const double *bl_irls_beta (const bl_irls_work *ws);      /* length p; aliased entries 0 */

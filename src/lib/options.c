@@ -601,9 +601,10 @@ static const bl_option table[] = {
   { "decimal-comma", FLAG, CLI, set_flag, F (table.decimal_comma), "input", NULL,
     "numbers are written 3,14" },
   { "max-iter", VALUE, CLI, set_max_iter, 0, "numerics", "N",
-    "IRLS iteration limit (default 50)" },
+    "IRLS iteration limit, every step counted (default 50)" },
   { "epsilon", VALUE, CLI, set_epsilon, 0, "numerics", "X",
-    "convergence: |D_old - D| <= X (|D| + 0.1) (default 1e-10)" },
+    "convergence: |D_old - D| <= X (|D| + 0.1) and coefficient\n"
+    "steps <= X/10 (|b| + se) (default 1e-10)" },
   { "solver", VALUE, CLI, set_solver, 0, "numerics", "KIND",
     "auto (default), extended, streamed" },
   { "threads", VALUE, CLI, set_threads, 0, "numerics", "N",
