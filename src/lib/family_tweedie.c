@@ -34,8 +34,8 @@ lgam (double x)
  * integers and the m-spaced sum both equal the integral of the bell up to aliasing terms of
  * relative size about 2 exp(-2 pi^2 (sigma / m)^2) < 1e-130 (sigma / m >= 4), and the terms
  * below j = 1 that the sum leaves out lie 16 sigma or more from the peak: below 1e-55 of it
- * (common practice, no source; checked against the term-by-term sum in check_famfit,
- * famfit_tw_logpdf_stride).
+ * (common practice, no source; measured against the term-by-term sum, stride 0, over
+ * 3040 points: 1.4e-15 relative at worst; no Check test of it yet).
  * The cost per row then stays near 40 terms however small phi is, which the dispersion's
  * scan over 10^-4 .. 10^4 times its Pearson value needs (fit_tweedie.c).
  */
