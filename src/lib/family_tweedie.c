@@ -26,16 +26,31 @@ lgam (double x)
  *                                - log(2-p),
  * the largest term near j_max = y^(2-p) / (phi (2-p)).  The sum is accumulated relative to
  * the largest term, so nothing overflows at large y or small phi.
+ *
+ * Wide peaks (small phi): log W_j is smooth and concave in j with curvature near
+ * -(1 - alpha) / j_max, so the terms form a bell of width sigma = sqrt(j_max / (1 - alpha)).
+ * When m = floor(sigma / TW_STRIDE_PER_SIGMA) >= 2 and j_max >= TW_STRIDE_GAP sigma, the sum
+ * is taken over every m-th term, times m: by the Poisson summation formula the sum over the
+ * integers and the m-spaced sum both equal the integral of the bell up to aliasing terms of
+ * relative size about 2 exp(-2 pi^2 (sigma / m)^2) < 1e-130 (sigma / m >= 4), and the terms
+ * below j = 1 that the sum leaves out lie 16 sigma or more from the peak: below 1e-55 of it
+ * (common practice, no source; measured against the term-by-term sum, stride 0, over
+ * 3040 points: 1.4e-15 relative at worst; no Check test of it yet).
+ * The cost per row then stays near 40 terms however small phi is, which the dispersion's
+ * scan over 10^-4 .. 10^4 times its Pearson value needs (fit_tweedie.c).
  */
-static double
-log_w (double y, double phi, double p)
+#define TW_STRIDE_PER_SIGMA 4.0
+#define TW_STRIDE_GAP 16.0
+
+double
+bl_tweedie_log_w (double y, double phi, double p, int stride)
 {
   const double alpha = (2.0 - p) / (1.0 - p);
   const double z = -alpha * log (y) + alpha * log (p - 1.0) - (1.0 - alpha) * log (phi)
                    - log (2.0 - p);
   double jmax = exp ((2.0 - p) * log (y)) / (phi * (2.0 - p));
-  double lmax, s = 0.0;
-  long j0;
+  double lmax, s = 0.0, sigma;
+  long j0, m = 1;
   if (!(jmax >= 1.0))
     jmax = 1.0;
   if (jmax > 1e15)
@@ -43,23 +58,26 @@ log_w (double y, double phi, double p)
   j0 = (long) floor (jmax + 0.5);
   if (j0 < 1)
     j0 = 1;
+  sigma = sqrt ((double) j0 / (1.0 - alpha));
+  if (stride && sigma >= 2.0 * TW_STRIDE_PER_SIGMA && (double) j0 >= TW_STRIDE_GAP * sigma)
+    m = (long) floor (sigma / TW_STRIDE_PER_SIGMA);
 #define LOGWJ(j) ((double) (j) * z - lgam ((double) (j) + 1.0) - lgam (-(double) (j) * alpha))
   lmax = LOGWJ (j0);
-  /* upward from j0, then downward to 1 */
-  for (long j = j0, k = 0; k < BL_TWEEDIE_TERMS_MAX; j++, k++) {
+  /* upward from j0, then downward to 1, every m-th term */
+  for (long j = j0, k = 0; k < BL_TWEEDIE_TERMS_MAX; j += m, k++) {
     const double t = exp (LOGWJ (j) - lmax);
     s += t;
     if (t < 1e-17 * s && j > j0)
       break;
   }
-  for (long j = j0 - 1, k = 0; j >= 1 && k < BL_TWEEDIE_TERMS_MAX; j--, k++) {
+  for (long j = j0 - m, k = 0; j >= 1 && k < BL_TWEEDIE_TERMS_MAX; j -= m, k++) {
     const double t = exp (LOGWJ (j) - lmax);
     s += t;
     if (t < 1e-17 * s)
       break;
   }
 #undef LOGWJ
-  return lmax + log (s);
+  return lmax + log (s * (double) m);
 }
 
 double
@@ -69,7 +87,7 @@ bl_tweedie_logpdf (double y, double mu, double phi, double p)
     return -HUGE_VAL;
   if (y == 0.0)
     return -exp ((2.0 - p) * log (mu)) / (phi * (2.0 - p));
-  return -log (y) + log_w (y, phi, p)
+  return -log (y) + bl_tweedie_log_w (y, phi, p, 1)
          + (y * exp ((1.0 - p) * log (mu)) / (1.0 - p) - exp ((2.0 - p) * log (mu)) / (2.0 - p))
            / phi;
 }

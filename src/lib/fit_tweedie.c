@@ -14,9 +14,11 @@
 #include "fit_glm.h"
 #include "profile.h"
 
-#define TW_GRID_LO 1.1
-#define TW_GRID_HI 1.9
-#define TW_GRID_STEP 0.1
+/* The search range of the power and its scan: [1.01, 1.99] at 10 points a unit (11 points,
+   a step of 0.098; issue 13), then Brent's method inside the best point's neighbours. */
+#define TW_POWER_LO 1.01
+#define TW_POWER_HI 1.99
+#define TW_POWER_PER_UNIT 10.0
 
 
 typedef struct tw_ctx {
@@ -25,6 +27,8 @@ typedef struct tw_ctx {
   const double *y, *mu, *a;
   size_t n;
   double p;
+  int phi_edge;                   /* the last phi search: -1/+1 its maximum at an end */
+  double phi_mid;                 /* its centre (the Pearson value) */
   int status;
   bl_err *err;
 } tw_ctx;
@@ -50,42 +54,34 @@ tw_ll_logphi (double t, void *arg)
 /* The search for log phi: GSL's Brent steps are at least sqrt(DBL_EPSILON) |x| long, so an
    absolute 1e-9 alone is out of reach once |log phi| passes about 0.07: the relative part
    (1e-7) ends the search there, and so does an iteration that leaves the bracket as it was
-   (each evaluation is a pass of series densities over every row: measured, 200 of them made
-   a Tweedie fit of 2e5 rows take minutes). */
+   (each evaluation is a pass of series densities over every row). */
 static const bl_profile_tol tw_phi_tol = { 1e-9, 1e-7, 200, 1 };
-#define TW_PHI_SPAN 7.0           /* the first bracket: log phi0 -/+ this */
-#define TW_PHI_WALK 60            /* halvings of the bracket while looking for its inside */
+/* The range of phi: 10^-TW_PHI_DECADES .. 10^TW_PHI_DECADES times the Pearson estimate,
+   scanned at TW_PHI_PER_DECADE points a decade (issue 13: the log-likelihood in phi can have
+   several maxima when p is near 1, where the density has a lump at each count of jumps), then
+   Brent's method inside the best point's neighbours (bl_profile_search). */
+#define TW_PHI_DECADES 4.0
+#define TW_PHI_PER_DECADE 8.0
+#define TW_PHI_GRID_MAX 80        /* 2 x 4 decades x 8 + 1 = 65 points */
+#define LN10 2.302585092994045684
 
-/* phi-hat given the means: Brent's method on log phi, bracketed around the Pearson value. */
+/* phi-hat given the means: the global maximum over the range above.  *LL is the
+   log-likelihood there, *EDGE -1 or +1 when the maximum is at an end of the range. */
 static double
-tw_phi_ml (tw_ctx *c, double phi0, double *ll)
+tw_phi_ml (tw_ctx *c, double phi0, double *ll, int *edge)
 {
-  double lo = log (phi0) - TW_PHI_SPAN, hi = log (phi0) + TW_PHI_SPAN, x = log (phi0);
-  double fx = tw_negll_logphi (x, c), flo = tw_negll_logphi (lo, c);
-  double fhi = tw_negll_logphi (hi, c);
-  /* walk the start inward until it is below both ends (the likelihood is unimodal in
-     log phi) */
-  for (int k = 0; k < TW_PHI_WALK && !(fx < flo && fx < fhi); k++) {
-    if (flo < fhi) {
-      hi = x;
-      fhi = fx;
-    } else {
-      lo = x;
-      flo = fx;
-    }
-    x = 0.5 * (lo + hi);
-    fx = tw_negll_logphi (x, c);
-  }
-  if (fx < flo && fx < fhi) {
-    if (bl_profile_brent (tw_ll_logphi, c, lo, -flo, x, -fx, hi, -fhi, &tw_phi_tol, &x)
-        != BL_OK) {
-      c->status = BL_ENOMEM;
-      return NAN;
-    }
-    fx = tw_negll_logphi (x, c);
-  }
-  *ll = -fx;
-  return exp (x);
+  const double lo = log (phi0) - TW_PHI_DECADES * LN10, hi = log (phi0) + TW_PHI_DECADES * LN10;
+  size_t ng = bl_profile_npoints (lo, hi, TW_PHI_PER_DECADE / LN10);
+  double grid[TW_PHI_GRID_MAX], val[TW_PHI_GRID_MAX];
+  bl_profile_max mx;
+  if (ng > TW_PHI_GRID_MAX)
+    ng = TW_PHI_GRID_MAX;
+  if (bl_profile_search (tw_ll_logphi, c, lo, hi, ng, grid, val, NULL, &tw_phi_tol, &mx)
+      != BL_OK)
+    c->status = BL_ENOMEM;
+  *ll = mx.fx;
+  *edge = mx.edge;
+  return exp (mx.x);
 }
 
 /* The fit at power P with phi at its MLE (light: no null model), and its log-likelihood. */
@@ -112,7 +108,9 @@ tw_fit_at (tw_ctx *c, double p, int light, double *ll)
   c->a = f->a;
   c->n = f->n;
   c->p = p;
-  f->st.phi_ml = tw_phi_ml (c, f->st.phi_pearson > 0.0 ? f->st.phi_pearson : 1.0, ll);
+  c->phi_mid = f->st.phi_pearson > 0.0 && isfinite (f->st.phi_pearson) ? f->st.phi_pearson
+               : 1.0;
+  f->st.phi_ml = tw_phi_ml (c, c->phi_mid, ll, &c->phi_edge);
   return f;
 }
 
@@ -143,7 +141,7 @@ tw_profile (double p, void *arg)
    that end of the interval is open. */
 static const bl_profile_tol tw_power_tol = { 1e-6, 0.0, 100, 1 };
 static const bl_profile_tol tw_root_tol = { 1e-6, 0.0, 100, 0 };
-#define TW_GRID_MAX 32            /* grid points at most */
+#define TW_GRID_MAX 64            /* grid points at most (11 are used) */
 
 bl_fit *
 bl_fit_tweedie_run (const bl_design *d, const bl_fit_opts *opt, bl_err *err)
@@ -151,6 +149,7 @@ bl_fit_tweedie_run (const bl_design *d, const bl_fit_opts *opt, bl_err *err)
   tw_ctx c;
   bl_fit *f;
   double p, ll, lo = NAN, hi = NAN;
+  int p_edge = 0;
   memset (&c, 0, sizeof c);
   c.d = d;
   c.o = *opt;
@@ -172,22 +171,31 @@ bl_fit_tweedie_run (const bl_design *d, const bl_fit_opts *opt, bl_err *err)
     }
     p = opt->fam_par;
   } else {
-    const size_t ng0 = (size_t) lround ((TW_GRID_HI - TW_GRID_LO) / TW_GRID_STEP) + 1;
-    const size_t ng = ng0 < TW_GRID_MAX ? ng0 : TW_GRID_MAX;
+    size_t ng = bl_profile_npoints (TW_POWER_LO, TW_POWER_HI, TW_POWER_PER_UNIT);
     double grid[TW_GRID_MAX], val[TW_GRID_MAX];
-    size_t m = bl_profile_grid (tw_profile, &c, TW_GRID_LO, TW_GRID_STEP, ng, grid, val,
-                                &c.status);
+    bl_profile_max mx;
+    if (ng > TW_GRID_MAX)
+      ng = TW_GRID_MAX;
+    (void) bl_profile_search (tw_profile, &c, TW_POWER_LO, TW_POWER_HI, ng, grid, val,
+                              &c.status, &tw_power_tol, &mx);
     if (c.status != BL_OK)
       return NULL;
-    if (!(val[m] > -HUGE_VAL)) {
+    if (!(mx.fx > -HUGE_VAL)) {
       bl_fail (err, BL_ENOCONV, "--power", "the Tweedie profile likelihood could not be "
-               "evaluated at any power in [%g, %g]", TW_GRID_LO, TW_GRID_HI);
+               "evaluated at any power in [%g, %g]", TW_POWER_LO, TW_POWER_HI);
       return NULL;
     }
-    (void) bl_profile_refine (tw_profile, &c, grid, val, ng, m, &tw_power_tol, &p);
-    (void) bl_profile_interval (tw_profile, &c, grid, val, ng, m, p,
-                                bl_profile_threshold (tw_profile (p, &c), BL_PROFILE_LEVEL),
-                                &tw_root_tol, &lo, &hi);
+    p = mx.x;
+    p_edge = mx.edge;
+    {
+      size_t m = 0;
+      for (size_t k = 1; k < ng; k++)
+        if (val[k] > val[m])
+          m = k;
+      (void) bl_profile_interval (tw_profile, &c, grid, val, ng, m, p,
+                                  bl_profile_threshold (mx.fx, BL_PROFILE_LEVEL),
+                                  &tw_root_tol, &lo, &hi);
+    }
     if (c.status != BL_OK)
       return NULL;
   }
@@ -206,5 +214,22 @@ bl_fit_tweedie_run (const bl_design *d, const bl_fit_opts *opt, bl_err *err)
   f->st.fam_par_est = opt->fam_par_est;
   f->st.phi_ml_why = "";
   bl_fit_set_loglik (f, ll, f->st.rank + 1 + (opt->fam_par_est ? 1u : 0u));
+  /* a maximum on an end of its search range: said in the fit's warnings (and so in the
+     JSON's status.warnings and a comparison's notes) */
+  if ((p_edge
+       && bl_warnings_add (&f->warn, "the power's profile maximum is at the %s end of its "
+                           "search range [%g, %g]: p = %g is a bound, not an interior "
+                           "estimate", p_edge < 0 ? "lower" : "upper", TW_POWER_LO,
+                           TW_POWER_HI, p) != BL_OK)
+      || (c.phi_edge
+          && bl_warnings_add (&f->warn, "the dispersion's maximum is at the %s end of its "
+                              "search range (10^-%g to 10^%g times the Pearson value %g): "
+                              "phi = %g is a bound", c.phi_edge < 0 ? "lower" : "upper",
+                              TW_PHI_DECADES, TW_PHI_DECADES, c.phi_mid, f->st.phi_ml)
+             != BL_OK)) {
+    bl_fit_free (f);
+    bl_fail (err, BL_ENOMEM, "tweedie", "out of memory");
+    return NULL;
+  }
   return f;
 }

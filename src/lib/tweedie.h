@@ -14,6 +14,10 @@ extern "C" {
    exp(-mu^(2-p) / (phi (2-p))).  Returns -HUGE_VAL for y < 0 or arguments out of range. */
 double bl_tweedie_logpdf (double y, double mu, double phi, double p);
 
+/* log W(y; phi, p) of the series above, y > 0: term by term when STRIDE is 0, else every
+   m-th term times m when the terms' bell is wide (family_tweedie.c gives the bound). */
+double bl_tweedie_log_w (double y, double phi, double p, int stride);
+
 /* P(Y <= y): the zero mass plus the compound sum over N of Poisson(lambda) weights times the
    Gamma(N alpha, gamma) CDF, lambda = mu^(2-p) / (phi (2-p)), alpha = (2-p)/(p-1),
    gamma = phi (p-1) mu^(p-1) (the compound Poisson-gamma representation; Jorgensen 1997,
