@@ -285,6 +285,31 @@ row_start (bl_batch_row *row, const bl_spec_job *sj)
   row->ok = 1;
 }
 
+/* A summary row's "null_reasons" (doc/json.md, "Null values"): a failed job's figures have
+   its message; a single model has no runner-up; the spread ratio needs 40 rows and no group
+   with zero spread (the job's result.json gives the details). */
+static void
+row_reasons (bl_json *w, const bl_batch_row *r)
+{
+  bl_json_obj (w, "null_reasons");
+  if (!r->ok) {
+    bl_json_str (w, "winner", r->message);
+    bl_json_str (w, "aic", r->message);
+    bl_json_str (w, "delta", r->message);
+    bl_json_str (w, "spread_ratio", r->message);
+  } else {
+    if (!isfinite (r->aic))
+      bl_json_str (w, "aic", "no log-likelihood for the model (see its result.json)");
+    if (!isfinite (r->delta))
+      bl_json_str (w, "delta", strcmp (r->method, "compare") == 0
+                   ? "no runner-up was ranked" : "a single model: no runner-up");
+    if (!isfinite (r->spread_ratio))
+      bl_json_str (w, "spread_ratio", r->n < 40 ? "fewer than 40 rows: no spread ratio"
+                   : "a group of rows by fitted value has zero spread: no ratio");
+  }
+  bl_json_obj_end (w);
+}
+
 /* The summary line's figures from RES: the single model's (or why it has none) or the
    winner's with its delta to the runner-up.  BL_ENOMEM (E filled) when the fit failed for
    want of memory: the run stops (run_nomem); else BL_OK. */
@@ -636,6 +661,7 @@ write_summaries (run_ctx *rc, bl_err *err)
     bl_json_num (&w, "spread_ratio", r->spread_ratio);
     bl_json_size (&w, "n", r->n);
     bl_json_str (&w, "message", r->message);
+    row_reasons (&w, r);
     bl_json_obj_end (&w);
   }
   bl_json_arr_end (&w);

@@ -202,6 +202,9 @@ BL_API const double *bl_fit_beta (const bl_fit *fit);
 BL_API const double *bl_fit_se (const bl_fit *fit);
 BL_API const double *bl_fit_wald (const bl_fit *fit);
 BL_API const double *bl_fit_pvalue (const bl_fit *fit);
+/* log10 of each p-value, from the log-space tail: finite where p underflows to 0 (NAN where
+   p is NAN; read it only where bl_fit_pvalue is finite). */
+BL_API const double *bl_fit_log10p (const bl_fit *fit);
 BL_API const double *bl_fit_lo (const bl_fit *fit);
 BL_API const double *bl_fit_hi (const bl_fit *fit);
 BL_API const int *bl_fit_aliased (const bl_fit *fit);

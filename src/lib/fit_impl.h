@@ -24,6 +24,7 @@ struct bl_fit {
   const double *y, *a;       /* the response and prior weights fitted (design's or own) */
   double *y_own, *a_own;
   double *beta, *se, *wald, *pval, *lo, *hi, *cov, *mu, *eta;
+  double *log10p;                 /* log10 of each pval, from the log-space tail */
   double *cov_unscaled;      /* (X'WX)^-1 at the fit, p x p; aliased rows/columns 0 */
   double *w;                 /* working weights at the fit, length n */
   int *aliased;

@@ -62,6 +62,7 @@ bl_fit_free (bl_fit *f)
   bl_free (f->se);
   bl_free (f->wald);
   bl_free (f->pval);
+  bl_free (f->log10p);
   bl_free (f->lo);
   bl_free (f->hi);
   bl_free (f->cov);
@@ -87,6 +88,7 @@ alloc_tables (bl_fit *f)
   f->se = bl_mallocn (p, sizeof (double));
   f->wald = bl_mallocn (p, sizeof (double));
   f->pval = bl_mallocn (p, sizeof (double));
+  f->log10p = bl_mallocn (p, sizeof (double));
   f->lo = bl_mallocn (p, sizeof (double));
   f->hi = bl_mallocn (p, sizeof (double));
   f->cov = bl_mallocn (p * p, sizeof (double));
@@ -95,7 +97,7 @@ alloc_tables (bl_fit *f)
   f->eta = bl_mallocn (n, sizeof (double));
   f->cov_unscaled = bl_mallocn (p * p, sizeof (double));
   f->w = bl_mallocn (n, sizeof (double));
-  return f->cov_unscaled && f->w && f->beta && f->se && f->wald && f->pval && f->lo && f->hi
+  return f->cov_unscaled && f->w && f->beta && f->se && f->wald && f->pval && f->log10p && f->lo && f->hi
          && f->cov && f->aliased
          && f->mu && f->eta;
 }
@@ -193,6 +195,7 @@ bl_fit_wald_table (bl_fit *f)
     q = gsl_cdf_ugaussian_Qinv ((1.0 - st->level) / 2.0);
   }
   for (size_t j = 0; j < p; j++) {
+    f->log10p[j] = NAN;
     if (f->aliased[j]) {
       f->beta[j] = f->se[j] = f->wald[j] = f->pval[j] = f->lo[j] = f->hi[j] = NAN;
       continue;
@@ -201,10 +204,12 @@ bl_fit_wald_table (bl_fit *f)
     f->wald[j] = (f->se[j] > 0.0) ? f->beta[j] / f->se[j] : NAN;
     /* the two-sided p from the upper tail in log space (family_tails.c): its double is
        right through the subnormals instead of 0 from |z| = 37.5 on */
-    if (isfinite (f->wald[j]))
-      f->pval[j] = exp (bl_tail_t_logp2 (f->wald[j], st->wald_is_t ? (double) st->dof_wald
-                                                                    : HUGE_VAL));
-    else
+    if (isfinite (f->wald[j])) {
+      const double lp = bl_tail_t_logp2 (f->wald[j], st->wald_is_t ? (double) st->dof_wald
+                                                                   : HUGE_VAL);
+      f->pval[j] = exp (lp);
+      f->log10p[j] = lp / log (10.0);
+    } else
       f->pval[j] = NAN;
     f->lo[j] = f->beta[j] - q * f->se[j];
     f->hi[j] = f->beta[j] + q * f->se[j];
@@ -244,6 +249,7 @@ const double *bl_fit_beta (const bl_fit *f) { return f->beta; }
 const double *bl_fit_se (const bl_fit *f) { return f->se; }
 const double *bl_fit_wald (const bl_fit *f) { return f->wald; }
 const double *bl_fit_pvalue (const bl_fit *f) { return f->pval; }
+const double *bl_fit_log10p (const bl_fit *f) { return f->log10p; }
 const double *bl_fit_lo (const bl_fit *f) { return f->lo; }
 const double *bl_fit_hi (const bl_fit *f) { return f->hi; }
 const int *bl_fit_aliased (const bl_fit *f) { return f->aliased; }

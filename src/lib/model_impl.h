@@ -47,7 +47,7 @@ struct bl_model {
   double smear_mean_exp, smear_mean, smear_mean_sq, smear_min;
   double phi_used, phi_pearson, phi_ml, level;
   double fam_par;                 /* negative binomial theta, Tweedie power */
-  size_t n, rank, dof_resid;
+  size_t n, rank, dof_resid, dof_wald;   /* dof_wald: the t reference of the intervals */
   int wald_is_t;
 };
 

@@ -490,6 +490,12 @@ read_fields (reader *r, bl_model *m, const json_t *root)
       || get_bool (r, root, "wald_is_t", &m->wald_is_t) != BL_OK
       || get_num (r, root, "level", 0, &m->level) != BL_OK)
     return r->status;
+  /* the coefficients' reference dof (G - 1 with cluster standard errors); files written
+     before it was saved use dof_resid */
+  m->dof_wald = m->dof_resid;
+  if (json_object_get (root, "dof_wald")
+      && get_size (r, root, "dof_wald", &m->dof_wald) != BL_OK)
+    return r->status;
   if (bl_family_par_name (m->fam) && !(m->fam_par > 0.0))
     return bad (r, "family_par", "the family's parameter must be a positive number"), r->status;
   if (!(m->level > 0.0 && m->level < 1.0))

@@ -179,8 +179,53 @@ write_estimates (bl_json *w, const bl_fit *fit)
   bl_json_size (w, "n", st->n);
   bl_json_size (w, "rank", st->rank);
   bl_json_size (w, "dof_resid", st->dof_resid);
+  bl_json_size (w, "dof_wald", st->dof_wald);
   bl_json_bool (w, "wald_is_t", st->wald_is_t);
   bl_json_num (w, "level", st->level);
+}
+
+/* The file's "null_reasons": why each null value is null (doc/model-format.md). */
+static void
+write_reasons (bl_json *w, const bl_fit *fit, const bl_terms *offset, const char *weights)
+{
+  const bl_fit_stats *st = bl_fit_stats_get (fit);
+  const bl_fit_transform_info *tr = bl_fit_transform (fit);
+  const bl_fit_variance_info *vi = bl_fit_variance (fit);
+  const int *aliased = bl_fit_aliased (fit);
+  const size_t p = bl_design_p (bl_fit_design (fit));
+  const char *nophi = st->dof_resid == 0 ? "no residual degrees of freedom"
+                      : "the dispersion is fixed by the family";
+  int any_aliased = 0;
+  for (size_t j = 0; j < p; j++)
+    any_aliased |= aliased[j];
+  bl_json_obj (w, "null_reasons");
+  if (!offset)
+    bl_json_str (w, "offset", "no offset");
+  if (!weights)
+    bl_json_str (w, "weights", "no prior weights");
+  if (!bl_family_par_name (bl_fit_family (fit)))
+    bl_json_str (w, "family_par", "the family has no shape parameter");
+  if (vi->kind != BL_VARIANCE_COLUMN)
+    bl_json_str (w, "variance.column", "the variance function is not a column's power");
+  if (vi->kind == BL_VARIANCE_NONE)
+    bl_json_str (w, "variance.power", "no variance function");
+  if (tr->kind != BL_TRANSFORM_BOXCOX)
+    bl_json_str (w, "transform.lambda", "not a Box-Cox transform");
+  if (tr->kind == BL_TRANSFORM_NONE)
+    bl_json_str (w, "smearing", "no transform: nothing to smear");
+  if (any_aliased) {
+    bl_json_str (w, "coef", "aliased column: a linear combination of earlier columns");
+    bl_json_str (w, "cov", "aliased column: a linear combination of earlier columns");
+  } else if (st->dof_resid == 0) {
+    bl_json_str (w, "cov", "no residual degrees of freedom");
+  }
+  if (!isfinite (st->phi_used))
+    bl_json_str (w, "dispersion", nophi);
+  if (!isfinite (st->phi_pearson))
+    bl_json_str (w, "phi_pearson", "no residual degrees of freedom");
+  if (!isfinite (st->phi_ml))
+    bl_json_str (w, "phi_ml", nophi);
+  bl_json_obj_end (w);
 }
 
 int
@@ -205,6 +250,7 @@ bl_model_write (FILE *out, const bl_fit *fit, const bl_terms *terms, const bl_te
   write_design (&w, bl_fit_design (fit), terms, offset, weights);
   write_kinds (&w, fit, varcol);
   write_estimates (&w, fit);
+  write_reasons (&w, fit, offset, weights);
   bl_json_obj_end (&w);
   if (bl_json_finish (&w) || fflush (out) != 0)
     return bl_fail (err, BL_EIO, "model", "write failed: %s", strerror (errno));

@@ -8,7 +8,7 @@
      eta_i = x_i'b + offset_i,  se_i = sqrt(x_i' V x_i)   (V the saved covariance; aliased
                                                            coefficients count as 0)
 
-   Intervals (q = t quantile on dof_resid when the fit's Wald statistics were t, else the
+   Intervals (q = t quantile on dof_wald when the fit's Wald statistics were t, else the
    normal quantile, at (1 + level) / 2):
    - mean, GLM and least squares: g^-1(eta -/+ q se), the Wald interval on the link scale
      mapped back (McCullagh & Nelder 1989, Generalized Linear Models, 2nd ed., section 4.4;
@@ -584,10 +584,11 @@ bl_model_predict (const bl_model *m, const bl_table *t, double level, bl_err *er
   ps.t = t;
   ps.d = d;
   ps.alpha = 1.0 - level;
-  /* q: t on dof_resid when the fit's Wald statistics are t (phi estimated), else normal. */
+  /* q: t on the fit's reference dof (dof_resid, or G - 1 with cluster standard errors)
+     when its Wald statistics are t (phi estimated or cluster), else normal. */
   /* q from the upper tail alpha/2 (1 - alpha/2 rounds to 1 at a level of 1 - 1e-17) */
-  ps.q = m->wald_is_t && m->dof_resid > 0 ? gsl_cdf_tdist_Qinv (ps.alpha / 2.0,
-                                                                (double) m->dof_resid)
+  ps.q = m->wald_is_t && m->dof_wald > 0 ? gsl_cdf_tdist_Qinv (ps.alpha / 2.0,
+                                                               (double) m->dof_wald)
                                           : gsl_cdf_ugaussian_Qinv (ps.alpha / 2.0);
   ps.off = bl_design_offset (d);
   ps.y = bl_design_y (d);

@@ -4,6 +4,108 @@
 #include "report_impl.h"
 #include "report.h"
 
+/* The first of K's notes that starts with PREFIX (any note when PREFIX is empty), or NULL. */
+static const char *
+note_with (const bl_candidate *k, const char *prefix)
+{
+  for (size_t j = 0; j < k->notes.n; j++)
+    if (strncmp (k->notes.msg[j], prefix, strlen (prefix)) == 0)
+      return k->notes.msg[j];
+  return NULL;
+}
+
+/* One reason under KEY when VAL is null (not finite); FALLBACK when NOTE is NULL. */
+static void
+reason (bl_json *w, const char *key, double val, const char *note, const char *fallback)
+{
+  if (!isfinite (val))
+    bl_json_str (w, key, note ? note : fallback);
+}
+
+/* The candidate's own "null_reasons": a reason for each of its null figures (doc/json.md,
+   "Null values").  A candidate left out or not fitted has that reason for every figure; a
+   fitted one has a reason per figure: the parameter it does not have, y not integer-valued
+   (no discretized likelihood) or a row without mass, no folds or a fold that failed, too
+   few rows for the spread ratio, not ranked. */
+static void
+candidate_reasons (bl_json *w, const bl_compare *c, const bl_candidate *k)
+{
+  static const char *const all[] = {"loglik", "aic", "aicc", "bic", "loglik_discrete",
+                                    "aic_discrete", "delta_aic", "akaike_weight", "cv_rmse",
+                                    "cv_mae", "spread_ratio", "spread_null95",
+                                    "normality_stat", "normality_p"};
+  const int bc = k->transform && strcmp (k->transform, "boxcox") == 0;
+  const int ranked_discrete = strcmp (bl_compare_rank_by (c), "aic_discrete") == 0;
+  const char *fail = NULL;
+  bl_json_obj (w, "null_reasons");
+  if (!k->transform)
+    bl_json_str (w, "transform", "no transform: the candidate models y itself");
+  reason (w, "lambda", k->lambda, NULL, bc ? "not fitted" : "not a Box-Cox candidate");
+  reason (w, "variance_power", k->variance_power, NULL,
+          strcmp (k->method, "wls") == 0 ? "not fitted"
+          : "not a weighted least-squares candidate (no variance power K)");
+  reason (w, "theta", k->theta, NULL, strcmp (k->family, "negative-binomial") == 0
+          ? "not fitted" : "not a negative binomial candidate (no theta)");
+  reason (w, "power", k->power, NULL, strcmp (k->family, "tweedie") == 0
+          ? "not fitted" : "not a Tweedie candidate (no power p)");
+  if (!k->applicable)
+    fail = note_with (k, "");
+  else if (!k->converged)
+    fail = note_with (k, "");
+  if (!k->applicable || !k->converged) {
+    const char *r = fail ? fail : k->applicable ? "the fit did not converge" : "not applicable";
+    if (!k->converged) {
+      bl_json_str (w, "k", r);
+      bl_json_str (w, "rank", r);
+    }
+    for (size_t j = 0; j < sizeof all / sizeof all[0]; j++)
+      bl_json_str (w, all[j], r);
+    bl_json_str (w, "position", r);
+    bl_json_obj_end (w);
+    return;
+  }
+  reason (w, "loglik", k->loglik, NULL, "no log-likelihood at the fit");
+  reason (w, "aic", k->aic, NULL, "no log-likelihood at the fit");
+  reason (w, "aicc", k->aicc, NULL, k->n > k->k + 1 ? "no log-likelihood at the fit"
+          : "AICc needs more rows than parameters + 1");
+  reason (w, "bic", k->bic, NULL, "no log-likelihood at the fit");
+  if (!bl_compare_integer_y (c)) {
+    reason (w, "loglik_discrete", k->loglik_discrete, NULL,
+            "y is not integer-valued: no discretized likelihood");
+    reason (w, "aic_discrete", k->aic_discrete, NULL,
+            "y is not integer-valued: no discretized likelihood");
+  } else {
+    const char *m = note_with (k, "not ranked: the discretized likelihood");
+    reason (w, "loglik_discrete", k->loglik_discrete, m, "no discretized likelihood");
+    reason (w, "aic_discrete", k->aic_discrete, m, "no discretized likelihood");
+  }
+  {
+    const double rk = ranked_discrete ? k->aic_discrete : k->aic;
+    const char *r = !isfinite (rk) ? "not ranked: no figure on the ranking scale"
+                    : "not ranked";
+    reason (w, "delta_aic", k->delta_aic, NULL, r);
+    reason (w, "akaike_weight", k->akaike_weight, NULL, r);
+    if (!k->rank_position)
+      bl_json_str (w, "position", r);
+  }
+  {
+    const char *m = note_with (k, "cross-validation");
+    const char *r = bl_compare_folds (c) == 0 ? "no cross-validation: 0 folds"
+                    : "cross-validation gave no figure";
+    reason (w, "cv_rmse", k->cv_rmse, m, r);
+    reason (w, "cv_mae", k->cv_mae, m, r);
+  }
+  {
+    const char *r = k->n < 40 ? "fewer than 40 rows: no spread ratio"
+                    : "a group of rows by fitted value has zero spread: no ratio";
+    reason (w, "spread_ratio", k->spread_ratio, NULL, r);
+    reason (w, "spread_null95", k->spread_null95, NULL, r);
+  }
+  reason (w, "normality_stat", k->normality_stat, NULL, "no quantile residuals");
+  reason (w, "normality_p", k->normality_p, NULL, "no quantile residuals");
+  bl_json_obj_end (w);
+}
+
 int
 bl_report_compare_json (FILE *out, const bl_compare *c, const bl_design *d,
                         const bl_report_info *info, bl_err *err)
@@ -66,6 +168,7 @@ bl_report_compare_json (FILE *out, const bl_compare *c, const bl_design *d,
     for (size_t j = 0; j < k->notes.n; j++)
       bl_json_str (&w, NULL, k->notes.msg[j]);
     bl_json_arr_end (&w);
+    candidate_reasons (&w, c, k);
     bl_json_obj_end (&w);
   }
   bl_json_arr_end (&w);
@@ -74,6 +177,10 @@ bl_report_compare_json (FILE *out, const bl_compare *c, const bl_design *d,
   for (size_t j = 0; j < adv->n; j++)
     bl_json_str (&w, NULL, adv->msg[j]);
   bl_json_arr_end (&w);
+  bl_json_obj (&w, "null_reasons");
+  if (win < 0)
+    bl_json_str (&w, "recommended", "no candidate could be fitted");
+  bl_json_obj_end (&w);
   bl_json_obj_end (&w);
   if (bl_json_finish (&w) || fflush (out) != 0)
     return bl_fail (err, BL_EIO, "output", "write failed");

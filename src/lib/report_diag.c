@@ -4,7 +4,15 @@
 #include "report_impl.h"
 #include "report.h"
 
-/* The "data" object shared by every JSON document. */
+/* REASON under KEY when VAL is not finite (a null in the document) and REASON is given. */
+static void
+why_num (bl_json *w, const char *key, double val, const char *reason)
+{
+  if (!isfinite (val))
+    bl_json_str (w, key, reason && reason[0] ? reason : "not computed");
+}
+
+/* A variance test: its figures, or nulls with the reason it was skipped. */
 static void
 test_json (bl_json *w, const char *key, const bl_diag_test *t)
 {
@@ -20,6 +28,12 @@ test_json (bl_json *w, const char *key, const bl_diag_test *t)
     bl_json_null (w, "p");
     bl_json_null (w, "log10_p");
     bl_json_str (w, "skipped", t->why);
+    bl_json_obj (w, "null_reasons");
+    bl_json_str (w, "stat", t->why);
+    bl_json_str (w, "dof", t->why);
+    bl_json_str (w, "p", t->why);
+    bl_json_str (w, "log10_p", t->why);
+    bl_json_obj_end (w);
   }
   bl_json_obj_end (w);
 }
@@ -38,6 +52,10 @@ bl_report_diag_json (FILE *out, const bl_fit *fit, const bl_diag *dg,
   bl_json_str (&w, "link", bl_fit_link (fit)->name);
   bl_json_str (&w, "transform", bl_fit_transform (fit)->name);
   bl_json_str (&w, "response", bl_design_response (d));
+  bl_json_obj (&w, "null_reasons");
+  if (!bl_fit_transform (fit)->name)
+    bl_json_str (&w, "transform", "no transform: y itself");
+  bl_json_obj_end (&w);
   bl_json_obj_end (&w);
   bl_json_str (&w, "residual", "pearson");
   test_json (&w, "breusch_pagan", &r->breusch_pagan);
@@ -59,6 +77,12 @@ bl_report_diag_json (FILE *out, const bl_fit *fit, const bl_diag *dg,
     bl_json_obj_end (&w);
   }
   bl_json_arr_end (&w);
+  bl_json_obj (&w, "null_reasons");
+  if (r->spread.why[0]) {
+    why_num (&w, "ratio", r->spread.ratio, r->spread.why);
+    why_num (&w, "null95", r->spread.null95, r->spread.why);
+  }
+  bl_json_obj_end (&w);
   bl_json_obj_end (&w);
   bl_json_obj (&w, "variance_power");
   bl_json_num (&w, "estimate", r->power.estimate);
@@ -73,22 +97,20 @@ bl_report_diag_json (FILE *out, const bl_fit *fit, const bl_diag *dg,
   } else {
     bl_json_str (&w, "why_null", r->power.why);
   }
+  bl_json_obj (&w, "null_reasons");
+  {
+    const char *pw = r->power.done ? "no standard error: the fit of log spread on log mean "
+                                     "has no residual degrees of freedom" : r->power.why;
+    why_num (&w, "estimate", r->power.estimate, r->power.why);
+    why_num (&w, "se", r->power.se, pw);
+    why_num (&w, "lo", r->power.lo, pw);
+    why_num (&w, "hi", r->power.hi, pw);
+  }
+  bl_json_obj_end (&w);
   bl_json_obj_end (&w);
   bl_json_str (&w, "suggested_family", r->power.suggested);
-  if (info->against) {            /* the nested test (--against), as fit reports it */
-    const bl_nested *a = info->against;
-    bl_json_obj (&w, "against");
-    bl_json_str (&w, "terms", a->terms);
-    bl_json_num (&w, "stat", a->stat);
-    bl_json_size (&w, "dof", a->dof);
-    if (a->dof2)
-      bl_json_size (&w, "dof2", a->dof2);
-    bl_json_num (&w, "p", a->p);
-    bl_json_str (&w, "form", a->form);
-    bl_json_num (&w, "deviance_small", a->deviance_small);
-    bl_json_num (&w, "deviance_big", a->deviance_big);
-    bl_json_obj_end (&w);
-  }
+  if (info->against)              /* the nested test (--against), as fit reports it */
+    bl_report_against_json (&w, info->against, bl_fit_stats_get (fit));
   if (info->by) {
     const bl_bf *b = info->by;
     bl_json_obj (&w, "by");
@@ -127,6 +149,12 @@ bl_report_diag_json (FILE *out, const bl_fit *fit, const bl_diag *dg,
     bl_json_obj_end (&w);
   }
   bl_json_arr_end (&w);
+  bl_json_obj_end (&w);
+  bl_json_obj (&w, "null_reasons");
+  if (!r->power.suggested)
+    bl_json_str (&w, "suggested_family", r->power.done
+                 ? "no family's variance power lies inside the interval of K"
+                 : r->power.why);
   bl_json_obj_end (&w);
   bl_json_obj_end (&w);
   if (bl_json_finish (&w) || fflush (out) != 0)

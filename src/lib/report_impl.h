@@ -15,6 +15,9 @@ void bl_report_data_json (bl_json *w, const struct bl_design *d, const char *sou
    then "data" when D is not NULL (report_json.c). */
 void bl_report_head_json (bl_json *w, FILE *out, const char *version,
                           const struct bl_design *d, const char *source);
+/* The nested test A (--against) as the "against" object with its null_reasons; ST holds the
+   bigger model's figures (report_json.c; used by fit's and diagnose's documents). */
+void bl_report_against_json (bl_json *w, const bl_nested *a, const bl_fit_stats *st);
 
 /* The HTML report (report_html.c).  A job's section: its ranked table (or the single model),
    the recommendation and caution, and SVG plots drawn from PLOTS (job_run.h: the series the

@@ -158,6 +158,7 @@ coef_json (bl_json *w, const bl_fit *fit)
     bl_json_num (w, "se", bl_fit_se (fit)[j]);
     bl_json_num (w, "wald", bl_fit_wald (fit)[j]);
     bl_json_num (w, "p", bl_fit_pvalue (fit)[j]);
+    bl_json_num (w, "log10_p", isfinite (bl_fit_pvalue (fit)[j]) ? bl_fit_log10p (fit)[j] : NAN);
     bl_json_num (w, "lo", bl_fit_lo (fit)[j]);
     bl_json_num (w, "hi", bl_fit_hi (fit)[j]);
     if (bl_fit_stats_get (fit)->dof_wald > 0)
@@ -170,14 +171,53 @@ coef_json (bl_json *w, const bl_fit *fit)
   bl_json_arr_end (w);
 }
 
-/* The document's own "null_reasons": why a coefficient's figures are null, under
-   "coef.KEY" (the fit-level figures have theirs in fit.null_reasons). */
+/* Reasons for the nulls of the "model" and "status" objects, under their paths from the
+   document (doc/json.md, "Null values"): an option not given, a parameter fixed, an open
+   interval. */
 static void
-coef_reasons_json (bl_json *w, const bl_fit *fit)
+model_reasons_json (bl_json *w, const bl_fit *fit, const bl_report_info *info)
+{
+  const bl_fit_transform_info *t = bl_fit_transform (fit);
+  const bl_fit_variance_info *v = bl_fit_variance (fit);
+  const int wls = bl_fit_method (fit) == BL_METHOD_WLS;
+  if (!info->offset)
+    bl_json_str (w, "model.offset", "no --offset");
+  if (!info->weights)
+    bl_json_str (w, "model.weights", "no --weights");
+  if (wls && v->kind == BL_VARIANCE_NONE)
+    bl_json_str (w, "model.variance", "prior weights only: no variance function");
+  if (wls && v->kind != BL_VARIANCE_NONE)
+    why (w, "model.variance.power_se", v->power_se, v->power_estimated
+         ? "the observed information for K is not positive" : "K was fixed: no standard error");
+  if (t->kind == BL_TRANSFORM_NONE && bl_fit_method (fit) == BL_METHOD_OLS)
+    bl_json_str (w, "model.transform", "no --transform: y itself");
+  if (t->kind != BL_TRANSFORM_NONE) {
+    const int bc = t->kind == BL_TRANSFORM_BOXCOX;
+    const char *fixed = !bc ? "not a Box-Cox transform"
+                        : !t->lambda_estimated ? "lambda was fixed: no interval" : NULL;
+    why (w, "model.transform.lambda", t->lambda, bc ? "no estimate" : "not a Box-Cox transform");
+    why (w, "model.transform.lambda_lo", t->lambda_lo, fixed ? fixed
+         : "open: the profile does not fall 1.92 below its top inside [-3, 3]");
+    why (w, "model.transform.lambda_hi", t->lambda_hi, fixed ? fixed
+         : "open: the profile does not fall 1.92 below its top inside [-3, 3]");
+    why (w, "model.transform.lambda_practical", t->lambda_practical, fixed ? fixed
+         : "no multiple of 0.5 lies inside the interval");
+    if (!t->shift_given)
+      bl_json_str (w, "model.transform.shift", "no --shift");
+  }
+  if (bl_fit_status (fit)->code == BL_OK)
+    bl_json_str (w, "status.error", "the fit did not fail");
+}
+
+/* The document's own "null_reasons": why a coefficient's figures are null, under
+   "coef.KEY", and the model's and status's nulls (the fit-level figures have theirs in
+   fit.null_reasons, the nested test's in against.null_reasons). */
+static void
+coef_reasons_json (bl_json *w, const bl_fit *fit, const bl_report_info *info)
 {
   const bl_fit_stats *st = bl_fit_stats_get (fit);
   const size_t p = bl_design_p (bl_fit_design (fit));
-  static const char *const keys[] = {"beta", "se", "wald", "p", "lo", "hi"};
+  static const char *const keys[] = {"beta", "se", "wald", "p", "log10_p", "lo", "hi"};
   const char *aliased = NULL, *noest = NULL, *nose = NULL;
   char key[32];
   for (size_t j = 0; j < p; j++) {
@@ -208,6 +248,7 @@ coef_reasons_json (bl_json *w, const bl_fit *fit)
     bl_json_str (w, "coef.ref_dof", st->wald_is_t ? "no residual degrees of freedom"
                  : "the reference distribution is the normal (the dispersion is fixed): "
                    "no degrees of freedom");
+  model_reasons_json (w, fit, info);
   bl_json_obj_end (w);
 }
 
@@ -278,6 +319,45 @@ fit_json (bl_json *w, const bl_fit *fit)
   bl_json_obj_end (w);
 }
 
+/* The nested test (--against) as an "against" object, in fit's and diagnose's documents;
+   ST is the bigger model's figures (the reasons of its nulls). */
+void
+bl_report_against_json (bl_json *w, const bl_nested *a, const bl_fit_stats *st)
+{
+  bl_json_obj (w, "against");
+  bl_json_str (w, "terms", a->terms);
+  bl_json_num (w, "stat", a->stat);
+  bl_json_size (w, "dof", a->dof);
+  if (a->dof2)
+    bl_json_size (w, "dof2", a->dof2);
+  bl_json_num (w, "p", a->p);
+  bl_json_num (w, "log10_p", a->log10_p);
+  bl_json_str (w, "form", a->form);
+  bl_json_str (w, "statistic", a->statistic);
+  bl_json_num (w, "deviance_small", a->deviance_small);
+  bl_json_num (w, "deviance_big", a->deviance_big);
+  bl_json_num (w, "loglik_small", a->loglik_small);
+  bl_json_num (w, "loglik_big", a->loglik_big);
+  if (isfinite (a->fam_par_big) || isfinite (a->fam_par_small)) {
+    bl_json_num (w, "fam_par_small", a->fam_par_small);
+    bl_json_num (w, "fam_par_big", a->fam_par_big);
+  }
+  bl_json_obj (w, "null_reasons");
+  why (w, "stat", a->stat, "a log-likelihood or deviance does not exist");
+  why (w, "p", a->p, "the statistic or its degrees of freedom do not exist");
+  why (w, "log10_p", a->log10_p, "the statistic or its degrees of freedom do not exist");
+  why (w, "loglik_small", a->loglik_small, "the smaller model has no likelihood");
+  why (w, "loglik_big", a->loglik_big, st->loglik_why);
+  why (w, "deviance_small", a->deviance_small, "the smaller model has no deviance");
+  why (w, "deviance_big", a->deviance_big, st->loglik_why);
+  if (isfinite (a->fam_par_big) || isfinite (a->fam_par_small)) {
+    why (w, "fam_par_small", a->fam_par_small, "the smaller model's parameter ran off");
+    why (w, "fam_par_big", a->fam_par_big, st->fam_par_why);
+  }
+  bl_json_obj_end (w);
+  bl_json_obj_end (w);
+}
+
 int
 bl_report_fit_json (FILE *out, const bl_fit *fit, const bl_report_info *info, bl_err *err)
 {
@@ -306,40 +386,8 @@ bl_report_fit_json (FILE *out, const bl_fit *fit, const bl_report_info *info, bl
   bl_json_str (&w, "solver", st->solver);
   bl_json_obj_end (&w);
 
-  if (info->against) {
-    const bl_nested *a = info->against;
-    bl_json_obj (&w, "against");
-    bl_json_str (&w, "terms", a->terms);
-    bl_json_num (&w, "stat", a->stat);
-    bl_json_size (&w, "dof", a->dof);
-    if (a->dof2)
-      bl_json_size (&w, "dof2", a->dof2);
-    bl_json_num (&w, "p", a->p);
-    bl_json_num (&w, "log10_p", a->log10_p);
-    bl_json_str (&w, "form", a->form);
-    bl_json_str (&w, "statistic", a->statistic);
-    bl_json_num (&w, "deviance_small", a->deviance_small);
-    bl_json_num (&w, "deviance_big", a->deviance_big);
-    bl_json_num (&w, "loglik_small", a->loglik_small);
-    bl_json_num (&w, "loglik_big", a->loglik_big);
-    if (isfinite (a->fam_par_big) || isfinite (a->fam_par_small)) {
-      bl_json_num (&w, "fam_par_small", a->fam_par_small);
-      bl_json_num (&w, "fam_par_big", a->fam_par_big);
-    }
-    bl_json_obj (&w, "null_reasons");
-    why (&w, "stat", a->stat, "a log-likelihood or deviance does not exist");
-    why (&w, "p", a->p, "the statistic or its degrees of freedom do not exist");
-    why (&w, "loglik_small", a->loglik_small, "the smaller model has no likelihood");
-    why (&w, "loglik_big", a->loglik_big, st->loglik_why);
-    why (&w, "deviance_small", a->deviance_small, "the smaller model has no deviance");
-    why (&w, "deviance_big", a->deviance_big, st->loglik_why);
-    if (isfinite (a->fam_par_big) || isfinite (a->fam_par_small)) {
-      why (&w, "fam_par_small", a->fam_par_small, "the smaller model's parameter ran off");
-      why (&w, "fam_par_big", a->fam_par_big, st->fam_par_why);
-    }
-    bl_json_obj_end (&w);
-    bl_json_obj_end (&w);
-  }
+  if (info->against)
+    bl_report_against_json (&w, info->against, st);
   bl_json_num (&w, "level", st->level);
   bl_json_str (&w, "se_kind", st->se_kind);
   if (!strcmp (st->se_kind, "cluster"))
@@ -351,7 +399,7 @@ bl_report_fit_json (FILE *out, const bl_fit *fit, const bl_report_info *info, bl
     bl_json_null (&w, "ref_dof");
 
   coef_json (&w, fit);
-  coef_reasons_json (&w, fit);
+  coef_reasons_json (&w, fit, info);
   fit_json (&w, fit);
   if (bl_json_finish (&w) || fflush (out) != 0)
     return bl_fail (err, BL_EIO, "output", "write failed");

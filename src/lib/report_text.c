@@ -18,12 +18,18 @@ num (FILE *o, int width, double v)
     fprintf (o, "%*.6g", width, v);
 }
 
+/* A p-value; below 1e-300, where the double loses its digits or is 0, its log10 from the
+   log-space tail (LOG10P) as 10^x. */
 static void
-pval (FILE *o, int width, double v)
+pval (FILE *o, int width, double v, double log10p)
 {
   if (!isfinite (v))
     fprintf (o, "%*s", width, "--");
-  else if (v < 1e-300)
+  else if (v < 1e-300 && isfinite (log10p)) {
+    char b[32];
+    snprintf (b, sizeof b, "10^%.1f", log10p);
+    fprintf (o, "%*s", width, b);
+  } else if (v < 1e-300)
     fprintf (o, "%*s", width, "<1e-300");
   else if (v < 1e-4)
     fprintf (o, "%*.1e", width, v);
@@ -43,9 +49,12 @@ variance_text (FILE *o, const bl_fit *fit, const bl_report_info *info)
     fprintf (o, "  variance    weighted least squares, Var y = sigma^2 %s%s\n",
              v->kind == BL_VARIANCE_NONE ? "/ weight" : v->expr,
              v->kind != BL_VARIANCE_NONE && info->weights ? " / weight" : "");
-    if (v->power_estimated)
+    if (v->power_estimated && isfinite (v->power_se))
       fprintf (o, "              power K = %.6g (standard error %.3g), by maximum "
                "likelihood\n", v->power, v->power_se);
+    else if (v->power_estimated)
+      fprintf (o, "              power K = %.6g (no standard error: the observed "
+               "information is not positive), by maximum likelihood\n", v->power);
   } else if (t->kind != BL_TRANSFORM_NONE) {
     fprintf (o, "  variance    ordinary least squares of %s(%s%s)", t->name,
              bl_design_response (d), t->shift_given ? " + shift" : "");
@@ -78,17 +87,32 @@ variance_text (FILE *o, const bl_fit *fit, const bl_report_info *info)
              bl_fit_link (fit)->name, bl_fit_method (fit) == BL_METHOD_OLS
              ? "ordinary least squares" : "maximum likelihood by IRLS");
     if (bl_family_par_kind (bl_fit_family (fit)) == BL_FAMPAR_THETA) {
-      if (isfinite (st->fam_par))
-        fprintf (o, "              theta = %.6g (standard error %.3g)%s: Var = mu + mu^2 / "
-                 "theta\n", st->fam_par, st->fam_par_se, st->fam_par_est ? ", estimated"
-                 : ", fixed");
+      if (isfinite (st->fam_par) && !st->fam_par_est)
+        fprintf (o, "              theta = %.6g, fixed: Var = mu + mu^2 / theta\n",
+                 st->fam_par);
+      else if (isfinite (st->fam_par) && isfinite (st->fam_par_se))
+        fprintf (o, "              theta = %.6g (standard error %.3g), estimated: Var = mu + "
+                 "mu^2 / theta\n", st->fam_par, st->fam_par_se);
+      else if (isfinite (st->fam_par))
+        fprintf (o, "              theta = %.6g (no standard error: the observed information "
+                 "is not positive), estimated: Var = mu + mu^2 / theta\n", st->fam_par);
       else
         fprintf (o, "              theta: %s\n", st->fam_par_why);
     } else if (bl_family_par_kind (bl_fit_family (fit)) == BL_FAMPAR_POWER) {
       fprintf (o, "              power p = %.5g%s: Var = phi mu^p", st->fam_par,
                st->fam_par_est ? " (estimated)" : " (fixed)");
-      if (st->fam_par_est)
-        fprintf (o, "; 95%% profile interval %.4g to %.4g", st->fam_par_lo, st->fam_par_hi);
+      if (st->fam_par_est) {
+        fputs ("; 95% profile interval ", o);
+        if (isfinite (st->fam_par_lo))
+          fprintf (o, "%.4g", st->fam_par_lo);
+        else
+          fputs ("open below the search range", o);
+        fputs (" to ", o);
+        if (isfinite (st->fam_par_hi))
+          fprintf (o, "%.4g", st->fam_par_hi);
+        else
+          fputs ("open above the search range", o);
+      }
       fputc ('\n', o);
     }
   }
@@ -138,7 +162,7 @@ estimates_text (FILE *o, const bl_fit *fit)
     fputc (' ', o);
     num (o, 10, bl_fit_wald (fit)[j]);
     fputc (' ', o);
-    pval (o, 11, bl_fit_pvalue (fit)[j]);
+    pval (o, 11, bl_fit_pvalue (fit)[j], bl_fit_log10p (fit)[j]);
     fputc ('\n', o);
   }
 }
@@ -217,8 +241,10 @@ against_text (FILE *o, const bl_nested *a)
     fprintf (o, " (dof %zu, %zu): ", a->dof, a->dof2);
   else
     fprintf (o, " (dof %zu): ", a->dof);
-  if (isfinite (a->stat) && isfinite (a->p))
+  if (isfinite (a->stat) && isfinite (a->p) && !(a->p < 1e-300))
     fprintf (o, "%.4g, p %.4g\n", a->stat, a->p);
+  else if (isfinite (a->stat) && isfinite (a->p))  /* beyond the doubles: its log10 */
+    fprintf (o, "%.4g, p < 1e-300 (log10 p = %.1f)\n", a->stat, a->log10_p);
   else
     fputs ("-- (a likelihood or deviance does not exist)\n", o);
 }
