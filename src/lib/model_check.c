@@ -307,7 +307,7 @@ check_smearing (const bl_model *m, bl_err *err)
   if (n != m->n)
     return bad (m, err, "smearing.n", "%zu residuals, but the fit has %zu rows ('n')", n, m->n);
   if (m->smear_stride != stride)
-    return bad (m, err, "smearing.stride", "%zu, but %zu rows keep every %zu-th residual",
+    return bad (m, err, "smearing.stride", "%zu, but n = %zu gives the stride %zu",
                 m->smear_stride, n, stride);
   if (!(m->smear_mean_exp > 0.0))
     return bad (m, err, "smearing.mean_exp", "a mean of exp(e) must be > 0, got %.17g",
