@@ -14,6 +14,7 @@
 #include <stdarg.h>
 #include <stdio.h>
 #include <string.h>
+#include <gsl/gsl_cblas.h>
 #include "alloc.h"
 #include "model_impl.h"
 
@@ -168,17 +169,17 @@ check_counts (const bl_model *m, bl_err *err)
   return BL_OK;
 }
 
-/* Cholesky factor, in place, of the Q x Q symmetric A (row-major, lower triangle used):
-   A = L L' (Golub & Van Loan 2013, Matrix Computations, 4th ed., algorithm 4.2.1, the
-   row-oriented form).  Returns Q when it exists, else the first column J whose pivot is not
-   positive (the leading (J+1) x (J+1) block is not positive definite). */
+/* Cholesky factor, in place, of the N x N symmetric block at A (row-major, leading dimension
+   LD, lower triangle used): A = L L' (Golub & Van Loan 2013, Matrix Computations, 4th ed.,
+   algorithm 4.2.1, the row-oriented form).  Returns N when it exists, else the first column J
+   whose pivot is not positive (the leading (J+1) x (J+1) block is not positive definite). */
 static size_t
-cholesky (double *A, size_t q)
+cholesky_block (double *A, size_t n, size_t ld)
 {
-  for (size_t j = 0; j < q; j++) {
-    double *const rj = A + j * q;
+  for (size_t j = 0; j < n; j++) {
+    double *const rj = A + j * ld;
     for (size_t i = 0; i <= j; i++) {
-      const double *const ri = A + i * q;
+      const double *const ri = A + i * ld;
       double s = rj[i];
       for (size_t k = 0; k < i; k++)
         s -= rj[k] * ri[k];
@@ -190,6 +191,31 @@ cholesky (double *A, size_t q)
         rj[j] = sqrt (s);
       }
     }
+  }
+  return n;
+}
+
+#define CHOL_BLOCK 96             /* columns per block of the blocked factorization */
+
+/* The same for the Q x Q matrix A (leading dimension Q), blocked (Golub & Van Loan 2013,
+   section 4.2.9): each diagonal block factored by cholesky_block, the block column below it
+   solved against it (dtrsm) and the trailing matrix updated (dsyrk), so that most of the
+   q^3 / 3 operations are BLAS level 3.  Returns Q, or the first column whose pivot is not
+   positive. */
+static size_t
+cholesky (double *A, size_t q)
+{
+  for (size_t k = 0; k < q; k += CHOL_BLOCK) {
+    const size_t b = q - k < CHOL_BLOCK ? q - k : CHOL_BLOCK, rest = q - k - b;
+    const size_t j = cholesky_block (A + k * q + k, b, q);
+    if (j < b)
+      return k + j;
+    if (rest == 0)
+      break;
+    cblas_dtrsm (CblasRowMajor, CblasRight, CblasLower, CblasTrans, CblasNonUnit, (int) rest,
+                 (int) b, 1.0, A + k * q + k, (int) q, A + (k + b) * q + k, (int) q);
+    cblas_dsyrk (CblasRowMajor, CblasLower, CblasNoTrans, (int) rest, (int) b, -1.0,
+                 A + (k + b) * q + k, (int) q, 1.0, A + (k + b) * q + k + b, (int) q);
   }
   return q;
 }
