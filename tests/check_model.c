@@ -26,9 +26,11 @@
 #include <gsl/gsl_linalg.h>
 #include <gsl/gsl_randist.h>
 #include <gsl/gsl_rng.h>
+#include <jansson.h>
 #include "alloc.h"
 #include "design.h"
 #include "fit.h"
+#include "link.h"
 #include "model.h"
 #include "table.h"
 #include "terms.h"
@@ -912,6 +914,214 @@ START_TEST (model_error_inconsistent)
 }
 END_TEST
 
+/* ---------------------------------------------------------------- contradictions */
+
+/* The saved model of EJ as a Jansson document (the caller decrefs). */
+static json_t *
+model_doc (void)
+{
+  json_error_t je;
+  json_t *d = json_load_file (ej.path, 0, &je);
+  ck_assert_msg (d != NULL, "model_doc: %s", je.text);
+  return d;
+}
+
+/* Element [J][K] of the covariance of D (K < 0: row J of it). */
+static json_t *
+cov_at (json_t *d, size_t j, long k)
+{
+  json_t *row = json_array_get (json_object_get (d, "cov"), j);
+  return k < 0 ? row : json_array_get (row, (size_t) k);
+}
+
+static double
+cov_num (json_t *d, size_t j, size_t k)
+{
+  return json_number_value (cov_at (d, j, (long) k));
+}
+
+static void
+cov_set (json_t *d, size_t j, size_t k, double v)
+{
+  ck_assert_int_eq (json_array_set_new (cov_at (d, j, -1), k, json_real (v)), 0);
+}
+
+/* D (decref'd here) written to EJ's folder as edit.json, whose path is returned in BUF. */
+static const char *
+doc_file (json_t *d, char *buf, size_t cap)
+{
+  snprintf (buf, cap, "%s/edit.json", ej.dir);
+  ck_assert_int_eq (json_dump_file (d, buf, JSON_INDENT (1) | JSON_REAL_PRECISION (17)), 0);
+  json_decref (d);
+  return buf;
+}
+
+/* D must read (when FRAG is NULL), or be refused with BL_EDATA at the file and a message
+   holding FRAG. */
+static void
+doc_reads (json_t *d, const char *frag, const char *name)
+{
+  char p[600];
+  doc_file (d, p, sizeof p);
+  if (frag) {
+    read_fails (p, BL_EDATA, p, frag, name);
+  } else {
+    bl_err err = { 0 };
+    bl_model *m = bl_model_read (p, &err);
+    ck_assert_msg (m != NULL, "%s: refused (%s)", name, err.msg);
+    bl_model_free (m);
+  }
+}
+
+/* The covariance replaced by D0 R D0, D0 the saved standard errors and R = (1 - a) I + a J
+   (J all ones): R's eigenvalues are 1 - a (q - 1 times) and 1 + (q - 1) a (closed form,
+   common practice, no source), so a = (lmin - 1) / (q - 1) makes the least one LMIN. */
+static json_t *
+equicorrelated (double lmin)
+{
+  json_t *d = model_doc ();
+  const size_t q = json_array_size (json_object_get (d, "cov"));
+  const double a = (lmin - 1.0) / (double) (q - 1);
+  double sd[32];
+  ck_assert_uint_le (q, 32);
+  for (size_t j = 0; j < q; j++)
+    sd[j] = sqrt (cov_num (d, j, j));
+  for (size_t j = 0; j < q; j++)
+    for (size_t k = 0; k < q; k++)
+      cov_set (d, j, k, (j == k ? 1.0 : a) * sd[j] * sd[k]);
+  return d;
+}
+
+/* The covariance checks of model_check.c on the saved 6-column gamma model: each edit of one
+   entry refused with its JSON path; the tolerances (symmetry 1e-12 max|V|, least eigenvalue of
+   the correlation form above -1e-10 q) on both sides. */
+START_TEST (model_error_covariance)
+{
+  json_t *d;
+  double vmax = 0.0;
+  char frag[200];
+
+  d = model_doc ();
+  cov_set (d, 1, 1, -cov_num (d, 1, 1));
+  doc_reads (d, "'cov[1][1]': a variance must be >= 0", "negative variance");
+
+  d = model_doc ();
+  cov_set (d, 2, 1, 1.5 * cov_num (d, 2, 1));
+  doc_reads (d, "'cov[2][1]': not symmetric", "asymmetric");
+
+  d = model_doc ();
+  for (size_t j = 0; j < 6; j++)
+    for (size_t k = 0; k < 6; k++)
+      vmax = fmax (vmax, fabs (cov_num (d, j, k)));
+  cov_set (d, 4, 0, cov_num (d, 4, 0) + 1e-14 * vmax);
+  doc_reads (d, NULL, "asymmetric by 1e-14 max|V|: within the tolerance");
+  d = model_doc ();
+  cov_set (d, 4, 0, cov_num (d, 4, 0) + 1e-10 * vmax);
+  doc_reads (d, "'cov[4][0]': not symmetric", "asymmetric by 1e-10 max|V|");
+
+  d = model_doc ();
+  cov_set (d, 3, 1, 1.01 * sqrt (cov_num (d, 1, 1) * cov_num (d, 3, 3)));
+  cov_set (d, 1, 3, cov_num (d, 3, 1));
+  doc_reads (d, "'cov[3][1]': not positive semi-definite: the correlation of columns 3 and 1",
+             "correlation 1.01");
+
+  /* rank 1 (every correlation 1): singular and positive semi-definite, accepted; least
+     eigenvalues -1e-12 and -1e-10 are rounding-sized next to the tolerance -6e-10; -1e-8 and
+     -0.1 are refused */
+  doc_reads (equicorrelated (0.0), NULL, "equicorrelated, least eigenvalue 0");
+  doc_reads (equicorrelated (-1e-12), NULL, "least eigenvalue -1e-12");
+  doc_reads (equicorrelated (-1e-10), NULL, "least eigenvalue -1e-10");
+  snprintf (frag, sizeof frag, "'cov': not positive semi-definite: its correlation form has "
+            "an eigenvalue below -%g", 6e-10);
+  doc_reads (equicorrelated (-1e-8), frag, "least eigenvalue -1e-8");
+  doc_reads (equicorrelated (-0.1), frag, "least eigenvalue -0.1");
+  doc_reads (equicorrelated (0.5), NULL, "least eigenvalue 0.5");
+
+  d = model_doc ();
+  cov_set (d, 5, 5, 0.0);
+  doc_reads (d, "'cov[5][0]': ", "zero variance, nonzero covariance");
+}
+END_TEST
+
+/* The other checks across keys, one edit each. */
+START_TEST (model_error_contradictions)
+{
+  json_t *d, *cat;
+
+  d = model_doc ();
+  json_object_set_new (d, "dispersion", json_real (-0.5));
+  doc_reads (d, "'dispersion': expected a number >= 0, got -0.5", "negative dispersion");
+
+  d = model_doc ();
+  json_object_set_new (d, "family_par", json_real (2.0));
+  doc_reads (d, "'family_par': expected null: the gamma family has no parameter", "family_par");
+
+  d = model_doc ();
+  cat = json_array_get (json_object_get (d, "categorical"), 0);
+  json_array_set (json_object_get (cat, "levels"), 2,
+                  json_array_get (json_object_get (cat, "levels"), 0));
+  doc_reads (d, "'categorical[0].levels[2]': level 'kiln-road' of 'site' repeats levels[0]",
+             "repeated level");
+
+  d = model_doc ();
+  cat = json_array_get (json_object_get (d, "categorical"), 0);
+  json_object_set (cat, "reference", json_array_get (json_object_get (cat, "levels"), 1));
+  doc_reads (d, "'categorical[0].reference': the reference 'mill-lane' of 'site' is also "
+             "listed in levels[1]", "reference among the levels");
+
+  d = model_doc ();
+  json_object_set_new (d, "smearing", json_object ());
+  doc_reads (d, "'smearing': expected null: a model without a transform has no smearing",
+             "smearing without a transform");
+
+  d = model_doc ();
+  json_object_set_new (d, "rank", json_integer (7));
+  doc_reads (d, "'rank': 7, but 'coef' has 6 estimated", "rank");
+
+  d = model_doc ();
+  json_object_set_new (d, "level", json_real (1.0));
+  doc_reads (d, "'level': expected a number in (0, 1), got 1", "level 1");
+}
+END_TEST
+
+/* Class 3 of issue 14: a message that lists the valid values lists every value of the table
+   that defines them (methods: bl_method_name; families: bl_family_at; links: bl_link_at; se
+   kinds: bl_se_kind_name). */
+START_TEST (model_error_lists_complete)
+{
+  static const struct { const char *key, *bad; } cases[] = {
+    { "method", "guess" }, { "family", "weibull" }, { "link", "logit" }, { "se_kind", "x" }
+  };
+  for (size_t c = 0; c < sizeof cases / sizeof cases[0]; c++) {
+    json_t *d = model_doc ();
+    char p[600];
+    bl_err err = { 0 };
+    json_object_set_new (d, cases[c].key, json_string (cases[c].bad));
+    doc_file (d, p, sizeof p);
+    ck_assert_ptr_null (bl_model_read (p, &err));
+    ck_assert_msg (strstr (err.msg, cases[c].key), "%s: '%s'", cases[c].key, err.msg);
+    if (c == 0)
+      for (int k = 0; k <= (int) BL_METHOD_WLS; k++)
+        ck_assert_msg (strstr (err.msg, bl_method_name ((bl_method) k)), "method %d: %s", k,
+                       err.msg);
+    if (c == 1)
+      for (size_t k = 0; k < bl_family_count (); k++)
+        ck_assert_msg (strstr (err.msg, bl_family_name (bl_family_at (k))), "%s: %s",
+                       bl_family_name (bl_family_at (k)), err.msg);
+    if (c == 2) {
+      ck_assert_uint_ge (bl_link_count (), 4);
+      for (size_t k = 0; k < bl_link_count (); k++)
+        ck_assert_msg (strstr (err.msg, bl_link_at (k)->name), "%s: %s", bl_link_at (k)->name,
+                       err.msg);
+    }
+    if (c == 3)
+      for (int k = 0; k <= (int) BL_SE_CLUSTER; k++)
+        ck_assert_msg (strstr (err.msg, bl_se_kind_name ((bl_se_kind) k)), "se %d: %s", k,
+                       err.msg);
+  }
+}
+END_TEST
+
 /* ---------------------------------------------------------------- basics */
 
 /* The fixed levels: a level absent from the new rows keeps its (all-zero) column, and a
@@ -992,6 +1202,9 @@ model_suite (void)
   tcase_add_test (tc, model_csv_options);
   tcase_add_test (tc, model_error_files);
   tcase_add_test (tc, model_error_inconsistent);
+  tcase_add_test (tc, model_error_covariance);
+  tcase_add_test (tc, model_error_contradictions);
+  tcase_add_test (tc, model_error_lists_complete);
   suite_add_tcase (s, tc);
   tc = tcase_create ("basics");
   tcase_add_checked_fixture (tc, errors_setup, errors_teardown);

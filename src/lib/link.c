@@ -40,13 +40,42 @@ const bl_link bl_link_log = { "log", log_g, log_ginv, log_dmu, log_valid };
 const bl_link bl_link_inverse = { "inverse", inv_g, inv_ginv, inv_dmu, inv_valid };
 const bl_link bl_link_sqrt = { "sqrt", sqrt_g, sqrt_ginv, sqrt_dmu, sqrt_valid };
 
+/* Every link, in the order of --help and of error messages. */
+static const bl_link *const all_links[] = { &bl_link_identity, &bl_link_log, &bl_link_inverse,
+                                            &bl_link_sqrt };
+#define NLINKS (sizeof all_links / sizeof all_links[0])
+
+size_t bl_link_count (void) { return NLINKS; }
+const bl_link *bl_link_at (size_t i) { return i < NLINKS ? all_links[i] : NULL; }
+
 const bl_link *
 bl_link_find (const char *name)
 {
-  static const bl_link *const all[] = { &bl_link_identity, &bl_link_log, &bl_link_inverse,
-                                        &bl_link_sqrt };
-  for (size_t i = 0; i < sizeof all / sizeof all[0]; i++)
-    if (strcmp (all[i]->name, name) == 0)
-      return all[i];
+  for (size_t i = 0; name && i < NLINKS; i++)
+    if (strcmp (all_links[i]->name, name) == 0)
+      return all_links[i];
   return NULL;
+}
+
+size_t
+bl_link_names (char *buf, size_t len, const char *sep)
+{
+  size_t need = 0;
+  if (len > 0)
+    buf[0] = '\0';
+  for (size_t i = 0; i < NLINKS; i++) {
+    const char *parts[2] = { i ? sep : "", all_links[i]->name };
+    for (int k = 0; k < 2; k++) {
+      const size_t l = strlen (parts[k]);
+      if (need + l < len) {
+        memcpy (buf + need, parts[k], l);
+        buf[need + l] = '\0';
+      } else if (len > 0 && need < len) {
+        memcpy (buf + need, parts[k], len - 1 - need);
+        buf[len - 1] = '\0';
+      }
+      need += l;
+    }
+  }
+  return need;
 }

@@ -43,12 +43,33 @@ struct bl_model {
   bl_transform tr;
   double lambda, shift;
   size_t smear_n, nres;           /* residuals in the fit, and kept */
+  size_t smear_stride;            /* every smear_stride-th residual was kept */
   double *res;
   double smear_mean_exp, smear_mean, smear_mean_sq, smear_min;
   double phi_used, phi_pearson, phi_ml, level;
   double fam_par;                 /* negative binomial theta, Tweedie power */
   size_t n, rank, dof_resid, dof_wald;   /* dof_wald: the t reference of the intervals */
   int wald_is_t;
+  char *se_kind;                  /* "model", "pearson", "hc0" ... "cluster" */
 };
+
+/* Tolerances of the checks of a model file's covariance V (model_check.c,
+   doc/model-format.md): symmetry |Vjk - Vkj| <= BL_MODEL_SYM_TOL max|V|; positive
+   semi-definite: R + BL_MODEL_PSD_TOL q I has a Cholesky factor, R the correlation form of
+   the q x q block of estimated coefficients with a nonzero variance, so that R's least
+   eigenvalue is above -BL_MODEL_PSD_TOL q (q bounds R's largest eigenvalue). */
+#define BL_MODEL_SYM_TOL 1e-12
+#define BL_MODEL_PSD_TOL 1e-10
+/* Relative slack of the smearing summaries' inequalities (mean_sq >= mean^2, mean_exp >=
+   exp(mean), min <= mean): they are sums in long double rounded to double once. */
+#define BL_MODEL_SMEAR_TOL 1e-12
+
+/* The checks across keys of a model M whose every key has been read and type-checked
+   (model_read.c): the column labels, the categorical levels, the parameters' ranges, the
+   covariance (symmetric and positive semi-definite within the tolerances above), the counts
+   and the smearing summaries, each documented in doc/model-format.md.  BL_OK, or BL_EDATA
+   with where = the file and the message naming the key by its JSON path ('cov[2][1]',
+   'categorical[0].levels[3]'), or BL_ENOMEM. */
+int bl_model_check (const bl_model *m, bl_err *err);
 
 #endif

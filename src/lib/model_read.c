@@ -40,23 +40,53 @@ bl_model_free (bl_model *m)
   bl_free (m->beta);
   bl_free (m->cov);
   bl_free (m->res);
+  bl_free (m->se_kind);
   bl_free (m);
 }
 
-/* State of one read: the file name for messages and the error record. */
+/* State of one read: the file name for messages, the error record, and the JSON path of
+   the object being read ("" at the top, "variance.", "categorical[2].") so that every
+   message names the whole path of its key ('categorical[2].levels[1]', 'cov[3][0]'). */
 typedef struct reader {
   const char *path;
   bl_err *err;
   int status;                     /* first error, else BL_OK */
+  char pre[48];                   /* the path of the current object, with its '.' */
 } reader;
 
-/* Record that KEY is wrong (BL_EDATA, where = the file); returns NULL for convenience. */
+/* Record that KEY (below the current object) is wrong (BL_EDATA, where = the file); returns
+   NULL for convenience. */
 static void *
 bad (reader *r, const char *key, const char *what)
 {
   if (r->status == BL_OK)
-    r->status = bl_fail (r->err, BL_EDATA, r->path, "'%s': %s", key, what);
+    r->status = bl_fail (r->err, BL_EDATA, r->path, "'%s%s': %s", r->pre, key, what);
   return NULL;
+}
+
+/* KEY[I] into BUF (an element's path, for bad). */
+static const char *
+elem (char *buf, size_t len, const char *key, size_t i)
+{
+  snprintf (buf, len, "%s[%zu]", key, i);
+  return buf;
+}
+
+/* Enter the object at KEY (its element I when I is not (size_t) -1): messages then name
+   its keys as "KEY.x" or "KEY[I].x". */
+static void
+enter (reader *r, const char *key, size_t i)
+{
+  if (i == (size_t) -1)
+    snprintf (r->pre, sizeof r->pre, "%s.", key);
+  else
+    snprintf (r->pre, sizeof r->pre, "%s[%zu].", key, i);
+}
+
+static void
+leave (reader *r)
+{
+  r->pre[0] = '\0';
 }
 
 static void *
@@ -169,8 +199,9 @@ join_strings (reader *r, const json_t *a, const char *key, const char *sep)
   json_t *v;
   char *s;
   json_array_foreach (a, i, v) {
+    char at[64];
     if (!json_is_string (v))
-      return bad (r, key, "expected an array of strings");
+      return bad (r, elem (at, sizeof at, key, i), "expected a string");
     len += strlen (json_string_value (v)) + strlen (sep);
   }
   if (!(s = bl_malloc (len)))
@@ -242,8 +273,10 @@ read_categorical (reader *r, bl_model *m, const json_t *root)
     const json_t *lv;
     size_t k;
     json_t *v;
+    char at[64];
     if (!json_is_object (c))
-      return bad (r, "categorical", "expected an array of objects"), r->status;
+      return bad (r, elem (at, sizeof at, "categorical", i), "expected an object"), r->status;
+    enter (r, "categorical", i);
     if (get_str (r, c, "column", 0, &mc->column) != BL_OK
         || get_str (r, c, "reference", 0, &mc->reference) != BL_OK
         || !(lv = get_arr (r, c, "levels", 0)))
@@ -253,10 +286,11 @@ read_categorical (reader *r, bl_model *m, const json_t *root)
       return nomem (r), r->status;
     json_array_foreach (lv, k, v) {
       if (!json_is_string (v))
-        return bad (r, "levels", "expected an array of strings"), r->status;
+        return bad (r, elem (at, sizeof at, "levels", k), "expected a string"), r->status;
       if (!(mc->levels[mc->nlevels++] = bl_strdup (json_string_value (v))))
         return nomem (r), r->status;
     }
+    leave (r);
     m->dl[i].column = mc->column;
     m->dl[i].levels = (const char *const *) mc->levels;
     m->dl[i].nlevels = mc->nlevels;
@@ -266,65 +300,142 @@ read_categorical (reader *r, bl_model *m, const json_t *root)
   return BL_OK;
 }
 
-static int
-read_kinds (reader *r, bl_model *m, const json_t *root)
+/* The names of a model file's variance kinds and transforms, in bl_variance and
+   bl_transform order: the one table each is read with and listed from in messages. */
+static const char *const variance_kinds[] = { "none", "column", "fitted" };
+static const char *const transform_kinds[] = { "none", "log", "sqrt", "boxcox" };
+#define NWORDS(w) (sizeof (w) / sizeof (w)[0])
+
+/* "A, B or C" from the N WORDS into BUF (LEN bytes). */
+static const char *
+word_list (char *buf, size_t len, const char *const *words, size_t n)
 {
-  char *s = NULL;
-  const json_t *v;
-  int status = BL_OK;
+  size_t used = 0;
+  buf[0] = '\0';
+  for (size_t i = 0; i < n && used < len; i++)
+    used += (size_t) snprintf (buf + used, len - used, "%s%s",
+                               i == 0 ? "" : i + 1 == n ? " or " : ", ", words[i]);
+  return buf;
+}
+
+/* The index of the string S among the N WORDS, or -1 with KEY refused ("expected A, B or
+   C, got 'S'"). */
+static int
+read_word (reader *r, const char *key, const char *s, const char *const *words, size_t n)
+{
+  char list[160], msg[400];
+  for (size_t i = 0; i < n; i++)
+    if (!strcmp (s, words[i]))
+      return (int) i;
+  snprintf (msg, sizeof msg, "expected %s, got '%.100s'", word_list (list, sizeof list, words,
+                                                                     n), s);
+  bad (r, key, msg);
+  return -1;
+}
+
+/* method (from bl_method_name), family and link (from their tables). */
+static int
+read_method (reader *r, bl_model *m, const json_t *root)
+{
+  const char *methods[BL_METHOD_WLS + 1];
+  char *s = NULL, list[400], msg[600];
+  int k;
+  for (k = 0; k <= (int) BL_METHOD_WLS; k++)
+    methods[k] = bl_method_name ((bl_method) k);
   if (get_str (r, root, "method", 0, &s) != BL_OK)
     return r->status;
-  if (!strcmp (s, "glm"))
-    m->method = BL_METHOD_GLM;
-  else if (!strcmp (s, "ols"))
-    m->method = BL_METHOD_OLS;
-  else if (!strcmp (s, "wls"))
-    m->method = BL_METHOD_WLS;
-  else
-    status = (bad (r, "method", "expected glm, ols or wls"), r->status);
+  k = read_word (r, "method", s, methods, NWORDS (methods));
+  m->method = (bl_method) (k < 0 ? 0 : k);
   bl_free (s);
-  if (status != BL_OK || get_str (r, root, "family", 0, &s) != BL_OK)
+  if (r->status != BL_OK || get_str (r, root, "family", 0, &s) != BL_OK)
     return r->status;
-  if (!(m->fam = bl_family_find (s)))
-    bad (r, "family", "unknown family");
+  if (!(m->fam = bl_family_find (s))) {
+    bl_family_names (list, sizeof list, ", ");
+    snprintf (msg, sizeof msg, "unknown family '%.100s' (expected %s)", s, list);
+    bad (r, "family", msg);
+  }
   bl_free (s);
   if (r->status != BL_OK || get_str (r, root, "link", 0, &s) != BL_OK)
     return r->status;
-  if (!(m->link = bl_link_find (s)))
-    bad (r, "link", "unknown link");
+  if (!(m->link = bl_link_find (s))) {
+    bl_link_names (list, sizeof list, ", ");
+    snprintf (msg, sizeof msg, "unknown link '%.100s' (expected %s)", s, list);
+    bad (r, "link", msg);
+  }
   bl_free (s);
-  if (r->status != BL_OK)
-    return r->status;
+  return r->status;
+}
 
-  if (!(v = member (r, root, "variance")) || !json_is_object (v))
-    return v ? (bad (r, "variance", "expected an object"), r->status) : r->status;
+/* variance: kind, column (a string for kind column, else null), power (a number unless
+   kind none, then null). */
+static int
+read_variance (reader *r, bl_model *m, const json_t *v)
+{
+  char *s = NULL;
+  int k;
   if (get_str (r, v, "kind", 0, &s) != BL_OK)
     return r->status;
-  m->var_kind = !strcmp (s, "column") ? BL_VARIANCE_COLUMN
-                : !strcmp (s, "fitted") ? BL_VARIANCE_FITTED : BL_VARIANCE_NONE;
-  if (m->var_kind == BL_VARIANCE_NONE && strcmp (s, "none") != 0)
-    bad (r, "kind", "expected none, column or fitted");
+  k = read_word (r, "kind", s, variance_kinds, NWORDS (variance_kinds));
+  m->var_kind = (bl_variance) (k < 0 ? 0 : k);
   bl_free (s);
-  if (r->status != BL_OK
-      || get_str (r, v, "column", m->var_kind != BL_VARIANCE_COLUMN, &m->var_col) != BL_OK
-      || get_num (r, v, "power", m->var_kind == BL_VARIANCE_NONE, &m->power) != BL_OK)
+  if (r->status != BL_OK || get_str (r, v, "column", 1, &m->var_col) != BL_OK
+      || get_num (r, v, "power", 1, &m->power) != BL_OK)
     return r->status;
-  if (m->var_kind != BL_VARIANCE_NONE && m->method != BL_METHOD_WLS)
-    return bad (r, "variance", "a variance function needs method wls"), r->status;
+  if (m->var_kind == BL_VARIANCE_COLUMN && (!m->var_col || !m->var_col[0]))
+    return bad (r, "column", "a column variance function needs its column's name"), r->status;
+  if (m->var_kind != BL_VARIANCE_COLUMN && m->var_col)
+    return bad (r, "column", "expected null: only kind column has a column"), r->status;
+  if (m->var_kind == BL_VARIANCE_NONE && !isnan (m->power))
+    return bad (r, "power", "expected null: kind none has no power"), r->status;
+  if (m->var_kind != BL_VARIANCE_NONE && isnan (m->power))
+    return bad (r, "power", "expected a number: the variance function's power K"), r->status;
+  return BL_OK;
+}
 
-  if (!(v = member (r, root, "transform")) || !json_is_object (v))
-    return v ? (bad (r, "transform", "expected an object"), r->status) : r->status;
+/* transform: kind, lambda (a number for boxcox, else null), shift (a number; 0 for
+   none). */
+static int
+read_transform (reader *r, bl_model *m, const json_t *v)
+{
+  char *s = NULL;
+  int k;
   if (get_str (r, v, "kind", 0, &s) != BL_OK)
     return r->status;
-  m->tr = !strcmp (s, "log") ? BL_TRANSFORM_LOG : !strcmp (s, "sqrt") ? BL_TRANSFORM_SQRT
-          : !strcmp (s, "boxcox") ? BL_TRANSFORM_BOXCOX : BL_TRANSFORM_NONE;
-  if (m->tr == BL_TRANSFORM_NONE && strcmp (s, "none") != 0)
-    bad (r, "kind", "expected none, log, sqrt or boxcox");
+  k = read_word (r, "kind", s, transform_kinds, NWORDS (transform_kinds));
+  m->tr = (bl_transform) (k < 0 ? 0 : k);
   bl_free (s);
   if (r->status != BL_OK
       || get_num (r, v, "lambda", m->tr != BL_TRANSFORM_BOXCOX, &m->lambda) != BL_OK
       || get_num (r, v, "shift", 0, &m->shift) != BL_OK)
     return r->status;
+  if (m->tr != BL_TRANSFORM_BOXCOX && !isnan (m->lambda))
+    return bad (r, "lambda", "expected null: only kind boxcox has a lambda"), r->status;
+  if (m->tr == BL_TRANSFORM_NONE && m->shift != 0.0)
+    return bad (r, "shift", "expected 0: kind none shifts nothing"), r->status;
+  return BL_OK;
+}
+
+static int
+read_kinds (reader *r, bl_model *m, const json_t *root)
+{
+  const json_t *v;
+  if (read_method (r, m, root) != BL_OK)
+    return r->status;
+  if (!(v = member (r, root, "variance")) || !json_is_object (v))
+    return v ? (bad (r, "variance", "expected an object"), r->status) : r->status;
+  enter (r, "variance", (size_t) -1);
+  if (read_variance (r, m, v) != BL_OK)
+    return r->status;
+  leave (r);
+  if (m->var_kind != BL_VARIANCE_NONE && m->method != BL_METHOD_WLS)
+    return bad (r, "variance", "a variance function needs method wls"), r->status;
+
+  if (!(v = member (r, root, "transform")) || !json_is_object (v))
+    return v ? (bad (r, "transform", "expected an object"), r->status) : r->status;
+  enter (r, "transform", (size_t) -1);
+  if (read_transform (r, m, v) != BL_OK)
+    return r->status;
+  leave (r);
   if (m->tr != BL_TRANSFORM_NONE
       && (m->method != BL_METHOD_OLS || !bl_family_has (m->fam, BL_FAM_NORMAL)
           || m->link != &bl_link_identity))
@@ -336,18 +447,24 @@ read_kinds (reader *r, bl_model *m, const json_t *root)
   return BL_OK;
 }
 
+/* smearing: null without a transform; with one, an object of n, stride, the four means and
+   the kept residuals (their count ceil(n / stride)). */
 static int
 read_smearing (reader *r, bl_model *m, const json_t *root)
 {
   const json_t *s = member (r, root, "smearing"), *a;
   size_t stride, i;
   json_t *v;
+  char at[64];
   if (!s)
     return r->status;
   if (m->tr == BL_TRANSFORM_NONE)
-    return BL_OK;                         /* ignored without a transform */
+    return json_is_null (s) ? BL_OK
+           : (bad (r, "smearing", "expected null: a model without a transform has no "
+                   "smearing data"), r->status);
   if (!json_is_object (s))
     return bad (r, "smearing", "expected an object"), r->status;
+  enter (r, "smearing", (size_t) -1);
   if (get_size (r, s, "n", &m->smear_n) != BL_OK || get_size (r, s, "stride", &stride) != BL_OK
       || get_num (r, s, "mean_exp", 0, &m->smear_mean_exp) != BL_OK
       || get_num (r, s, "mean", 0, &m->smear_mean) != BL_OK
@@ -356,13 +473,15 @@ read_smearing (reader *r, bl_model *m, const json_t *root)
       || !(a = get_arr (r, s, "residuals", 0)))
     return r->status;
   m->nres = json_array_size (a);
+  m->smear_stride = stride;
   if (m->nres == 0 || stride == 0 || m->nres != (m->smear_n + stride - 1) / stride)
     return bad (r, "residuals", "the count does not match n and stride"), r->status;
   if (!(m->res = bl_mallocn (m->nres, sizeof *m->res)))
     return nomem (r), r->status;
   json_array_foreach (a, i, v)
-    if (num_of (r, v, "residuals", 0, &m->res[i]) != BL_OK)
+    if (num_of (r, v, elem (at, sizeof at, "residuals", i), 0, &m->res[i]) != BL_OK)
       return r->status;
+  leave (r);
   return BL_OK;
 }
 
@@ -372,6 +491,7 @@ read_coef (reader *r, bl_model *m, const json_t *root)
   const json_t *cols = get_arr (r, root, "columns", 0), *coef, *cov;
   size_t j, k;
   json_t *v, *row;
+  char at[96];
   if (!cols)
     return r->status;
   m->p = json_array_size (cols);
@@ -390,25 +510,30 @@ read_coef (reader *r, bl_model *m, const json_t *root)
     return nomem (r), r->status;
   json_array_foreach (cols, j, v) {
     if (!json_is_string (v))
-      return bad (r, "columns", "expected an array of strings"), r->status;
+      return bad (r, elem (at, sizeof at, "columns", j), "expected a string"), r->status;
     if (!(m->labels[j] = bl_strdup (json_string_value (v))))
       return nomem (r), r->status;
   }
   if (!(coef = get_arr (r, root, "coef", m->p)) || !(cov = get_arr (r, root, "cov", m->p)))
     return r->status;
   json_array_foreach (coef, j, v)
-    if (num_of (r, v, "coef", 1, &m->beta[j]) != BL_OK)
+    if (num_of (r, v, elem (at, sizeof at, "coef", j), 1, &m->beta[j]) != BL_OK)
       return r->status;
   json_array_foreach (cov, j, row) {
-    if (!json_is_array (row) || json_array_size (row) != m->p)
-      return bad (r, "cov", "expected a square array as wide as 'columns'"), r->status;
+    if (!json_is_array (row) || json_array_size (row) != m->p) {
+      snprintf (at, sizeof at, "cov[%zu]", j);
+      return bad (r, at, "expected an array as long as 'columns'"), r->status;
+    }
     json_array_foreach (row, k, v) {
-      if (num_of (r, v, "cov", 1, &m->cov[j + k * m->p]) != BL_OK)
+      double *const c = &m->cov[j + k * m->p];
+      snprintf (at, sizeof at, "cov[%zu][%zu]", j, k);
+      if (num_of (r, v, at, 1, c) != BL_OK)
         return r->status;
-      if (isnan (m->beta[j]) != isnan (m->beta[k]) && !isnan (m->cov[j + k * m->p]))
-        return bad (r, "cov", "aliased coefficients must have null covariances"), r->status;
-      if (!isnan (m->beta[j]) && !isnan (m->beta[k]) && isnan (m->cov[j + k * m->p]))
-        return bad (r, "cov", "null covariance of an estimated coefficient"), r->status;
+      if ((isnan (m->beta[j]) || isnan (m->beta[k])) && !isnan (*c))
+        return bad (r, at, "expected null: the covariance of an aliased (null) coefficient"),
+               r->status;
+      if (!isnan (m->beta[j]) && !isnan (m->beta[k]) && isnan (*c))
+        return bad (r, at, "null covariance of an estimated coefficient"), r->status;
     }
   }
   return BL_OK;
@@ -480,6 +605,7 @@ read_fields (reader *r, bl_model *m, const json_t *root)
       || read_kinds (r, m, root) != BL_OK
       || read_smearing (r, m, root) != BL_OK
       || read_coef (r, m, root) != BL_OK
+      || get_str (r, root, "se_kind", 0, &m->se_kind) != BL_OK
       || get_num (r, root, "dispersion", 1, &m->phi_used) != BL_OK
       || get_num (r, root, "phi_pearson", 1, &m->phi_pearson) != BL_OK
       || get_num (r, root, "phi_ml", 1, &m->phi_ml) != BL_OK
@@ -496,17 +622,13 @@ read_fields (reader *r, bl_model *m, const json_t *root)
   if (json_object_get (root, "dof_wald")
       && get_size (r, root, "dof_wald", &m->dof_wald) != BL_OK)
     return r->status;
-  if (bl_family_par_name (m->fam) && !(m->fam_par > 0.0))
-    return bad (r, "family_par", "the family's parameter must be a positive number"), r->status;
-  if (!(m->level > 0.0 && m->level < 1.0))
-    return bad (r, "level", "expected a number in (0, 1)"), r->status;
-  return BL_OK;
+  return bl_model_check (m, r->err);
 }
 
 bl_model *
 bl_model_read (const char *path, bl_err *err)
 {
-  reader r = { path, err, BL_OK };
+  reader r = { path, err, BL_OK, "" };
   json_t *root = load_root (path, err);
   bl_model *m = NULL;
   int version = 0, status;

@@ -4,7 +4,9 @@
    (created at start-up and unlinked at once; it is reached as /proc/self/fd/N, or by its name
    where /proc is missing) and read from there.  On success the harness walks the accessors
    (every label, the coefficients and the p x p covariance, which AddressSanitizer checks are
-   as long as bl_model_p says) and bl_model_table_opts; the level must be in (0, 1).  On
+   as long as bl_model_p says) and bl_model_table_opts; the level must be in (0, 1), and the
+   covariance must be what model_check.c promises (null exactly where a coefficient is
+   aliased, variances >= 0, symmetric, correlations in [-1, 1]).  On
    failure the code must be BL_EDATA (or BL_ENOMEM) with a message.  Any violation abort()s.
    Everything allocated is freed: the harness runs under LeakSanitizer. */
 #include <math.h>
@@ -102,6 +104,31 @@ LLVMFuzzerTestOneInput (const uint8_t *data, size_t size)
   }
   if (bl_model_label (m, p) != NULL)
     fail ("read", "a label past the last column");
+  /* what model_check.c guarantees of an accepted covariance (doc/model-format.md): null
+     exactly in aliased rows and columns, variances >= 0, symmetric within 1e-12 max|V|,
+     correlations within [-1, 1] up to 1e-10 */
+  {
+    const double *b = bl_model_beta (m), *V = bl_model_cov (m);
+    double vmax = 0.0;
+    for (j = 0; j < p * p; j++)
+      if (!isnan (V[j]))
+        vmax = fmax (vmax, fabs (V[j]));
+    for (j = 0; j < p; j++)
+      for (size_t k = 0; k < p; k++) {
+        const double v = V[j + k * p];
+        if (isnan (v) != (isnan (b[j]) || isnan (b[k])))
+          fail ("read", "a null covariance not matching the aliased coefficients");
+        if (isnan (v))
+          continue;
+        if (j == k && v < 0.0)
+          fail ("read", "a negative variance accepted");
+        if (fabs (v - V[k + j * p]) > 1e-12 * vmax)
+          fail ("read", "an asymmetric covariance accepted");
+        if (j != k && V[j + j * p] > 0.0 && V[k + k * p] > 0.0
+            && fabs (v) / (sqrt (V[j + j * p]) * sqrt (V[k + k * p])) > 1.0 + 1e-10)
+          fail ("read", "a correlation outside [-1, 1] accepted");
+      }
+  }
   if (!bl_model_response (m))
     fail ("read", "no response");
   if (!(bl_model_level (m) > 0.0 && bl_model_level (m) < 1.0))
