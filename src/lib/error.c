@@ -81,3 +81,26 @@ bl_warnings_clear (bl_warnings *w)
   w->msg = NULL;
   w->n = w->cap = 0;
 }
+
+size_t
+bl_join_names (char *buf, size_t len, const char *sep, const char *const *names, size_t n)
+{
+  size_t need = 0;
+  if (len > 0)
+    buf[0] = '\0';
+  for (size_t i = 0; i < n; i++) {
+    const char *parts[2] = { i ? sep : "", names[i] };
+    for (int k = 0; k < 2; k++) {
+      const size_t l = strlen (parts[k]);
+      if (need + l < len) {
+        memcpy (buf + need, parts[k], l);
+        buf[need + l] = '\0';
+      } else if (len > 0 && need < len) {
+        memcpy (buf + need, parts[k], len - 1 - need);
+        buf[len - 1] = '\0';
+      }
+      need += l;
+    }
+  }
+  return need;
+}

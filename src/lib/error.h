@@ -58,6 +58,12 @@ BL_API int bl_warnings_add (bl_warnings *w, const char *fmt, ...)
 /* Free every message; leaves an empty list.  Accepts NULL. */
 BL_API void bl_warnings_clear (bl_warnings *w);
 
+/* The N names joined by SEP into BUF (LEN bytes, always terminated when LEN > 0, cut short
+   when too small), for the lists of accepted values in messages.  Returns the length the
+   whole list needs, without the terminator, as snprintf does. */
+BL_API size_t bl_join_names (char *buf, size_t len, const char *sep, const char *const *names,
+                             size_t n);
+
 #ifdef __cplusplus
 }
 #endif

@@ -7,6 +7,7 @@
 #include <limits.h>
 #include <math.h>
 #include <string.h>
+#include "error.h"
 #include "family.h"
 #include "family_impl.h"
 #include "family_tails.h"
@@ -33,24 +34,10 @@ const bl_family *bl_family_at (size_t i) { return i < NFAMILIES ? all_families[i
 size_t
 bl_family_names (char *buf, size_t len, const char *sep)
 {
-  size_t need = 0;
-  if (len > 0)
-    buf[0] = '\0';
-  for (size_t i = 0; i < NFAMILIES; i++) {
-    const char *parts[2] = { i ? sep : "", all_families[i]->name };
-    for (int k = 0; k < 2; k++) {
-      const size_t l = strlen (parts[k]);
-      if (need + l < len) {
-        memcpy (buf + need, parts[k], l);
-        buf[need + l] = '\0';
-      } else if (len > 0 && need < len) {
-        memcpy (buf + need, parts[k], len - 1 - need);
-        buf[len - 1] = '\0';
-      }
-      need += l;
-    }
-  }
-  return need;
+  const char *names[NFAMILIES];
+  for (size_t i = 0; i < NFAMILIES; i++)
+    names[i] = all_families[i]->name;
+  return bl_join_names (buf, len, sep, names, NFAMILIES);
 }
 
 /* ---- the accessors */

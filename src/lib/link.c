@@ -3,6 +3,7 @@
 #include <float.h>
 #include <math.h>
 #include <string.h>
+#include "error.h"
 #include "link.h"
 
 /* identity: eta = mu */
@@ -60,22 +61,8 @@ bl_link_find (const char *name)
 size_t
 bl_link_names (char *buf, size_t len, const char *sep)
 {
-  size_t need = 0;
-  if (len > 0)
-    buf[0] = '\0';
-  for (size_t i = 0; i < NLINKS; i++) {
-    const char *parts[2] = { i ? sep : "", all_links[i]->name };
-    for (int k = 0; k < 2; k++) {
-      const size_t l = strlen (parts[k]);
-      if (need + l < len) {
-        memcpy (buf + need, parts[k], l);
-        buf[need + l] = '\0';
-      } else if (len > 0 && need < len) {
-        memcpy (buf + need, parts[k], len - 1 - need);
-        buf[len - 1] = '\0';
-      }
-      need += l;
-    }
-  }
-  return need;
+  const char *names[NLINKS];
+  for (size_t i = 0; i < NLINKS; i++)
+    names[i] = all_links[i]->name;
+  return bl_join_names (buf, len, sep, names, NLINKS);
 }
